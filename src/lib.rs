@@ -1,0 +1,12 @@
+//! ripplebank: choose and verify output capacitor banks for DC-DC converters.
+//!
+//! Data flows one way: scenario + catalog → eligible parts → operating
+//! corners → current spectra → evaluator → optimizer → reports.
+
+pub mod bank;
+pub mod catalog;
+pub mod converter;
+pub mod problem;
+pub mod scenario;
+pub mod spectrum;
+pub mod units;

@@ -1,0 +1,157 @@
+//! From a scenario and a catalog to the question the evaluator answers:
+//! which parts may be used (and why the others may not), the operating
+//! corners and the current spectra.
+
+use crate::bank::{Evaluator, PartModel};
+use crate::catalog::{Catalog, Part, Status, Technology};
+use crate::converter::{self, OperatingPoint};
+use crate::scenario::{CapBasis, Objective, Scenario, Topology};
+use anyhow::{bail, Result};
+use serde::Serialize;
+
+/// A part that may not be used, and why.
+#[derive(Debug, Clone, Serialize)]
+pub struct Excluded {
+    pub part: String,
+    pub reason: String,
+}
+
+/// Everything the evaluator and the optimizer need, prepared once.
+pub struct Problem {
+    pub scenario: Scenario,
+    pub catalog: Catalog,
+    /// Catalog indices of the parts that may be used.
+    pub eligible: Vec<usize>,
+    pub excluded: Vec<Excluded>,
+    pub ops: Vec<OperatingPoint>,
+    pub warnings: Vec<String>,
+}
+
+/// Why a part may not be used in this scenario, or `None` if it may.
+pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<String> {
+    let vout = s.converter.vout.0;
+    let der = s.derating(p.technology);
+    if p.rated_voltage * der < vout {
+        return Some(format!(
+            "rated {} V × derating {} = {:.2} V is below vout {} V",
+            p.rated_voltage, der, p.rated_voltage * der, vout
+        ));
+    }
+    let (tmin, tmax) = p.temperature_range();
+    let env = &s.environment;
+    if let Some(t) = tmin {
+        if t > env.temperature_min {
+            return Some(format!("rated down to {t} °C only; the environment reaches {} °C", env.temperature_min));
+        }
+    }
+    if let Some(t) = tmax {
+        if t < env.temperature_max {
+            return Some(format!("rated up to {t} °C only; the environment reaches {} °C", env.temperature_max));
+        }
+    }
+    match p.status {
+        Status::Obsolete => return Some("status obsolete".into()),
+        Status::Nrnd if !s.selection.allow_nrnd => {
+            return Some("status nrnd (not recommended for new designs; set selection.allow_nrnd)".into())
+        }
+        _ => {}
+    }
+    if let Some(h) = s.board.max_height {
+        match p.height {
+            Some(ph) if ph > h.0 => return Some(format!("height {ph} mm is above board.max_height {} mm", h.0)),
+            None => return Some(format!("no height given, and board.max_height is {} mm", h.0)),
+            _ => {}
+        }
+    }
+    if p.area.is_none() && (s.board.max_area.is_some() || objective == Objective::Area) {
+        return Some("no area and no imperial EIA case code to derive it from".into());
+    }
+    if s.selection.exclude.iter().any(|e| e == &p.id) {
+        return Some("excluded by the scenario or the command line".into());
+    }
+    if let Some(m) = s.converter.max_capacitance {
+        let c = cap_limit_value(s, p);
+        if c > m.0 {
+            return Some(format!("one part alone ({:.3e} F) exceeds converter.max_capacitance", c));
+        }
+    }
+    None
+}
+
+/// A part's contribution to the added-capacitance limit on the scenario's basis.
+pub fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
+    match s.selection.max_capacitance_basis {
+        CapBasis::Nominal => p.c_nominal_max(),
+        CapBasis::Effective => p.c_nominal_max() * p.bias_factor(s.converter.vout.0),
+    }
+}
+
+impl Problem {
+    pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
+        scenario.check_against(&catalog)?;
+        let objective = scenario.selection.objective;
+        let mut eligible = Vec::new();
+        let mut excluded = Vec::new();
+        for (i, p) in catalog.parts.iter().enumerate() {
+            match ineligibility(&scenario, p, objective) {
+                None => eligible.push(i),
+                Some(reason) => excluded.push(Excluded { part: p.id.clone(), reason }),
+            }
+        }
+        for (id, n) in &scenario.selection.require {
+            if *n > 0 {
+                if let Some(e) = excluded.iter().find(|e| &e.part == id) {
+                    bail!(
+                        "{}: key `selection.require.{id}`: the part is required but may not be used: {}",
+                        scenario.source,
+                        e.reason
+                    );
+                }
+            }
+        }
+        let mut warnings = catalog.warnings.clone();
+        let ops = converter::operating_points(&scenario);
+        for op in &ops {
+            if op.mode == "DCM" {
+                warnings.push(format!(
+                    "at vin = {} V the {} runs in discontinuous conduction",
+                    op.vin.unwrap_or(0.0),
+                    scenario.converter.topology.name()
+                ));
+            }
+        }
+        if scenario.converter.topology == Topology::Module && scenario.converter.standalone_bandwidth.is_none() && scenario.target.bandwidth.is_some() {
+            warnings.push("converter.standalone_bandwidth not given: the standalone ripple is taken at the target's bandwidth".into());
+        }
+        Ok(Problem { scenario, catalog, eligible, excluded, ops, warnings })
+    }
+
+    /// Electrical and physical model of catalog part `i` in this scenario.
+    pub fn part_model(&self, i: usize) -> PartModel {
+        let s = &self.scenario;
+        let p = &self.catalog.parts[i];
+        let vout = s.converter.vout.0;
+        PartModel {
+            index: i,
+            c_worst: p.c_worst(vout),
+            c_typical: p.c_typical(vout),
+            c_nominal: p.capacitance,
+            c_limit: cap_limit_value(s, p),
+            esr: p.esr,
+            esl: p.esl + s.board.mounting_inductance.0,
+            cost: p.cost,
+            area: p.area.unwrap_or(0.0),
+            rating: p.ripple_current,
+        }
+    }
+
+    /// An evaluator over the given catalog indices (its local part order).
+    pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
+        let models: Vec<PartModel> = parts.iter().map(|&i| self.part_model(i)).collect();
+        Evaluator::new(&self.scenario, &self.ops, models)
+    }
+
+    pub fn technology(&self, i: usize) -> Technology {
+        self.catalog.parts[i].technology
+    }
+}

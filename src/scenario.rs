@@ -1,0 +1,572 @@
+//! Scenario (SPEC §3): the converter, the target, the environment, the
+//! board and the selection rules, in TOML. Unknown keys are errors.
+
+use crate::catalog::Technology;
+use crate::units::{self, Unit};
+use anyhow::{bail, Result};
+use serde::de::{self, Deserializer, Visitor};
+use serde::Deserialize;
+use std::collections::BTreeMap;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+macro_rules! quantity {
+    ($name:ident, $unit:expr) => {
+        /// A value read with SI prefixes (SPEC §1), stored in SI base units.
+        #[derive(Debug, Clone, Copy, PartialEq, Default)]
+        pub struct $name(pub f64);
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+                d.deserialize_any(QuantityVisitor($unit)).map($name)
+            }
+        }
+    };
+}
+
+struct QuantityVisitor(Unit);
+
+impl<'de> Visitor<'de> for QuantityVisitor {
+    type Value = f64;
+    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        write!(f, "a {} as a number or a string such as \"4.7u\"", self.0.name())
+    }
+    fn visit_f64<E: de::Error>(self, v: f64) -> std::result::Result<f64, E> {
+        if v.is_finite() {
+            Ok(v)
+        } else {
+            Err(E::custom(format!("{v} is not a finite number")))
+        }
+    }
+    fn visit_i64<E: de::Error>(self, v: i64) -> std::result::Result<f64, E> {
+        Ok(v as f64)
+    }
+    fn visit_u64<E: de::Error>(self, v: u64) -> std::result::Result<f64, E> {
+        Ok(v as f64)
+    }
+    fn visit_str<E: de::Error>(self, v: &str) -> std::result::Result<f64, E> {
+        units::parse(v, self.0).map_err(|e| E::custom(e.0))
+    }
+}
+
+quantity!(Farads, Unit::Farad);
+quantity!(Ohms, Unit::Ohm);
+quantity!(Henries, Unit::Henry);
+quantity!(Volts, Unit::Volt);
+quantity!(Amperes, Unit::Ampere);
+quantity!(Hertz, Unit::Hertz);
+quantity!(Seconds, Unit::Second);
+quantity!(Fraction, Unit::Fraction);
+quantity!(Plain, Unit::Plain);
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Topology {
+    Buck,
+    Forward,
+    Bridge,
+    Flyback,
+    Boost,
+    Module,
+}
+
+impl Topology {
+    pub fn name(self) -> &'static str {
+        match self {
+            Topology::Buck => "buck",
+            Topology::Forward => "forward",
+            Topology::Bridge => "bridge",
+            Topology::Flyback => "flyback",
+            Topology::Boost => "boost",
+            Topology::Module => "module",
+        }
+    }
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Converter {
+    pub topology: Topology,
+    pub vin: Option<Volts>,
+    pub vin_min: Option<Volts>,
+    pub vin_max: Option<Volts>,
+    pub vout: Volts,
+    #[serde(default)]
+    pub iout: Amperes,
+    pub fsw: Hertz,
+    pub inductance: Option<Henries>,
+    pub turns_ratio: Option<Plain>,
+    #[serde(default = "one")]
+    pub phases: u32,
+    #[serde(default)]
+    pub edge_time: Seconds,
+    pub max_capacitance: Option<Farads>,
+    #[serde(default)]
+    pub min_capacitance: Farads,
+    pub standalone_ripple_pp: Option<Volts>,
+    pub standalone_bandwidth: Option<Hertz>,
+    pub internal_capacitance: Option<Farads>,
+    #[serde(default)]
+    pub internal_esr: Ohms,
+    #[serde(default)]
+    pub internal_esl: Henries,
+}
+
+fn one() -> u32 {
+    1
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Target {
+    pub ripple_pp: Volts,
+    pub bandwidth: Option<Hertz>,
+    #[serde(default = "one")]
+    pub bandwidth_order: u32,
+    #[serde(default)]
+    pub harmonics: usize,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Environment {
+    #[serde(default = "room")]
+    pub temperature_min: f64,
+    #[serde(default = "room")]
+    pub temperature_max: f64,
+}
+
+fn room() -> f64 {
+    25.0
+}
+
+impl Default for Environment {
+    fn default() -> Self {
+        Environment { temperature_min: 25.0, temperature_max: 25.0 }
+    }
+}
+
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Board {
+    #[serde(default)]
+    pub mounting_inductance: Henries,
+    #[serde(default)]
+    pub connection_inductance: Henries,
+    pub max_area: Option<Plain>,
+    pub max_height: Option<Plain>,
+    pub max_count: Option<u32>,
+    pub max_lines: Option<u32>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "lowercase")]
+pub enum Objective {
+    #[default]
+    Cost,
+    Area,
+    Count,
+}
+
+impl Objective {
+    pub fn name(self) -> &'static str {
+        match self {
+            Objective::Cost => "cost",
+            Objective::Area => "area",
+            Objective::Count => "count",
+        }
+    }
+    pub fn parse(s: &str) -> Option<Objective> {
+        match s {
+            "cost" => Some(Objective::Cost),
+            "area" => Some(Objective::Area),
+            "count" => Some(Objective::Count),
+            _ => None,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "lowercase")]
+pub enum CapBasis {
+    #[default]
+    Nominal,
+    Effective,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Selection {
+    #[serde(default)]
+    pub objective: Objective,
+    #[serde(default)]
+    pub line_cost: Plain,
+    #[serde(default = "twenty")]
+    pub max_per_part: u32,
+    #[serde(default)]
+    pub exclude: Vec<String>,
+    #[serde(default)]
+    pub allow_nrnd: bool,
+    #[serde(default)]
+    pub require: BTreeMap<String, u32>,
+    #[serde(default)]
+    pub max_capacitance_basis: CapBasis,
+    #[serde(default)]
+    pub voltage_derating: BTreeMap<String, Fraction>,
+}
+
+fn twenty() -> u32 {
+    20
+}
+
+impl Default for Selection {
+    fn default() -> Self {
+        Selection {
+            objective: Objective::Cost,
+            line_cost: Plain(0.0),
+            max_per_part: 20,
+            exclude: vec![],
+            allow_nrnd: false,
+            require: BTreeMap::new(),
+            max_capacitance_basis: CapBasis::Nominal,
+            voltage_derating: BTreeMap::new(),
+        }
+    }
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    #[serde(default)]
+    pub name: String,
+    /// Free text about the product (an extension of SPEC §3).
+    #[serde(default)]
+    pub description: String,
+    pub catalog: Option<String>,
+    pub converter: Converter,
+    pub target: Target,
+    #[serde(default)]
+    pub environment: Environment,
+    #[serde(default)]
+    pub board: Board,
+    #[serde(default)]
+    pub selection: Selection,
+    /// Where the scenario came from (for messages and relative paths).
+    #[serde(skip)]
+    pub source: String,
+    #[serde(skip)]
+    pub dir: Option<PathBuf>,
+}
+
+/// Default line-item limit when the board gives none (common practice, no source).
+pub const DEFAULT_MAX_LINES: u32 = 3;
+
+impl Scenario {
+    pub fn from_path(path: &Path) -> Result<Scenario> {
+        let text = std::fs::read(path)
+            .map_err(|e| anyhow::anyhow!("{}: cannot read the scenario: {e}", path.display()))?;
+        let text = String::from_utf8(text)
+            .map_err(|_| anyhow::anyhow!("{}: the scenario is not UTF-8 text", path.display()))?;
+        let mut s = Scenario::from_str(&text, &path.display().to_string())?;
+        s.dir = path.parent().map(|p| p.to_path_buf());
+        Ok(s)
+    }
+
+    pub fn from_str(text: &str, source: &str) -> Result<Scenario> {
+        let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+        let mut s: Scenario = toml::from_str(text).map_err(|e| {
+            let msg = e.to_string();
+            anyhow::anyhow!("{source}: {}", msg.trim_end())
+        })?;
+        s.source = source.to_string();
+        s.check()?;
+        Ok(s)
+    }
+
+    /// Path of the catalog named by the scenario, relative to its file.
+    pub fn catalog_path(&self) -> Option<PathBuf> {
+        let c = self.catalog.as_ref()?;
+        let p = Path::new(c);
+        Some(match (&self.dir, p.is_absolute()) {
+            (Some(d), false) => d.join(p),
+            _ => p.to_path_buf(),
+        })
+    }
+
+    /// Every given input-voltage value is a corner (SPEC §3).
+    pub fn vin_corners(&self) -> Vec<f64> {
+        let c = &self.converter;
+        let mut v: Vec<f64> = [c.vin_min, c.vin, c.vin_max].iter().flatten().map(|x| x.0).collect();
+        v.sort_by(|a, b| a.partial_cmp(b).unwrap());
+        v.dedup();
+        v
+    }
+
+    pub fn max_lines(&self) -> u32 {
+        self.board.max_lines.unwrap_or(DEFAULT_MAX_LINES)
+    }
+
+    /// Voltage derating for a technology: scenario value or the default.
+    pub fn derating(&self, t: Technology) -> f64 {
+        self.selection
+            .voltage_derating
+            .get(t.name())
+            .map_or(t.default_derating(), |f| f.0)
+    }
+
+    fn err(&self, key: &str, msg: impl fmt::Display) -> anyhow::Error {
+        anyhow::anyhow!("{}: key `{key}`: {msg}", self.source)
+    }
+
+    /// Physical sanity of the converter and the limits, each error naming its key.
+    fn check(&self) -> Result<()> {
+        let c = &self.converter;
+        let pos = |key: &str, v: f64| -> Result<()> {
+            if !(v > 0.0) || !v.is_finite() {
+                return Err(self.err(key, format!("{v} must be above zero")));
+            }
+            Ok(())
+        };
+        let nonneg = |key: &str, v: f64| -> Result<()> {
+            if !(v >= 0.0) || !v.is_finite() {
+                return Err(self.err(key, format!("{v} must be zero or more")));
+            }
+            Ok(())
+        };
+        pos("converter.vout", c.vout.0)?;
+        nonneg("converter.iout", c.iout.0)?;
+        pos("converter.fsw", c.fsw.0)?;
+        if c.fsw.0 < 100.0 || c.fsw.0 > 100e6 {
+            return Err(self.err("converter.fsw", format!("{} Hz is outside 100 Hz … 100 MHz", c.fsw.0)));
+        }
+        for (k, v) in [("converter.vin", c.vin), ("converter.vin_min", c.vin_min), ("converter.vin_max", c.vin_max)] {
+            if let Some(v) = v {
+                pos(k, v.0)?;
+            }
+        }
+        if let (Some(a), Some(b)) = (c.vin_min, c.vin_max) {
+            if a.0 > b.0 {
+                return Err(self.err("converter.vin_min", format!("{} V is above vin_max {} V", a.0, b.0)));
+            }
+        }
+        let vins = self.vin_corners();
+        if c.topology != Topology::Module && vins.is_empty() {
+            return Err(self.err("converter.vin", format!("a {} needs vin (or vin_min / vin_max)", c.topology.name())));
+        }
+        if c.topology != Topology::Module {
+            match c.inductance {
+                None => return Err(self.err("converter.inductance", format!("a {} needs its inductance", c.topology.name()))),
+                Some(l) => pos("converter.inductance", l.0)?,
+            }
+        }
+        if c.phases == 0 || c.phases > 16 {
+            return Err(self.err("converter.phases", format!("{} must be from 1 to 16", c.phases)));
+        }
+        if c.phases > 1 && c.topology != Topology::Buck {
+            return Err(self.err("converter.phases", "interleaved phases are modelled for the buck only"));
+        }
+        let isolated = matches!(c.topology, Topology::Forward | Topology::Bridge | Topology::Flyback);
+        match c.turns_ratio {
+            None if isolated => {
+                return Err(self.err("converter.turns_ratio", format!("a {} needs turns_ratio (Ns/Np)", c.topology.name())))
+            }
+            Some(n) => pos("converter.turns_ratio", n.0)?,
+            None => {}
+        }
+        let n = c.turns_ratio.map_or(1.0, |n| n.0);
+        for &vin in &vins {
+            match c.topology {
+                Topology::Buck | Topology::Forward | Topology::Bridge => {
+                    let d = c.vout.0 / (vin * n);
+                    if !(d > 0.0 && d < 1.0) {
+                        return Err(self.err(
+                            "converter.vout",
+                            format!(
+                                "duty cycle vout/(vin·n) = {:.3} at vin = {vin} V is outside (0, 1): a {} cannot make {} V from {vin} V",
+                                d,
+                                c.topology.name(),
+                                c.vout.0
+                            ),
+                        ));
+                    }
+                }
+                Topology::Boost => {
+                    if c.vout.0 <= vin {
+                        return Err(self.err(
+                            "converter.vout",
+                            format!("a boost needs vout above vin ({} V ≤ {vin} V)", c.vout.0),
+                        ));
+                    }
+                }
+                Topology::Flyback => {
+                    if c.iout.0 <= 0.0 {
+                        return Err(self.err("converter.iout", "a flyback needs a load current above zero"));
+                    }
+                }
+                Topology::Module => {
+                    if c.vout.0 >= vin {
+                        return Err(self.err("converter.vout", format!("{} V is not below vin {vin} V", c.vout.0)));
+                    }
+                }
+            }
+        }
+        if c.topology == Topology::Boost && c.iout.0 <= 0.0 {
+            return Err(self.err("converter.iout", "a boost needs a load current above zero"));
+        }
+        nonneg("converter.edge_time", c.edge_time.0)?;
+        if c.edge_time.0 * c.fsw.0 > 0.2 {
+            return Err(self.err("converter.edge_time", format!("{} s is over a fifth of the switching period", c.edge_time.0)));
+        }
+        if let Some(m) = c.max_capacitance {
+            pos("converter.max_capacitance", m.0)?;
+            if c.min_capacitance.0 > m.0 {
+                return Err(self.err("converter.min_capacitance", "is above max_capacitance"));
+            }
+        }
+        nonneg("converter.min_capacitance", c.min_capacitance.0)?;
+        if let Some(ci) = c.internal_capacitance {
+            pos("converter.internal_capacitance", ci.0)?;
+        }
+        nonneg("converter.internal_esr", c.internal_esr.0)?;
+        nonneg("converter.internal_esl", c.internal_esl.0)?;
+        if c.topology == Topology::Module {
+            match c.standalone_ripple_pp {
+                None => return Err(self.err("converter.standalone_ripple_pp", "a module needs its measured ripple without added capacitors")),
+                Some(v) => pos("converter.standalone_ripple_pp", v.0)?,
+            }
+            if c.internal_capacitance.is_none() {
+                return Err(self.err(
+                    "converter.internal_capacitance",
+                    "a module needs the capacitance already on its output (the bank that gave standalone_ripple_pp)",
+                ));
+            }
+            if c.standalone_bandwidth.is_none() && self.target.bandwidth.is_none() {
+                // Full bandwidth standalone figure: allowed.
+            }
+            if let Some(b) = c.standalone_bandwidth {
+                pos("converter.standalone_bandwidth", b.0)?;
+            }
+        }
+        let t = &self.target;
+        pos("target.ripple_pp", t.ripple_pp.0)?;
+        if let Some(b) = t.bandwidth {
+            pos("target.bandwidth", b.0)?;
+        }
+        if t.bandwidth_order == 0 || t.bandwidth_order > 8 {
+            return Err(self.err("target.bandwidth_order", format!("{} must be from 1 to 8", t.bandwidth_order)));
+        }
+        if t.harmonics > 20000 {
+            return Err(self.err("target.harmonics", format!("{} is more than 20000", t.harmonics)));
+        }
+        let e = &self.environment;
+        if !e.temperature_min.is_finite() || !e.temperature_max.is_finite() || e.temperature_min > e.temperature_max {
+            return Err(self.err("environment.temperature_min", "must be finite and not above temperature_max"));
+        }
+        let b = &self.board;
+        nonneg("board.mounting_inductance", b.mounting_inductance.0)?;
+        nonneg("board.connection_inductance", b.connection_inductance.0)?;
+        if b.connection_inductance.0 > 0.0 && c.internal_capacitance.is_none() {
+            // Fine: the bank is then fed through the inductance directly.
+        }
+        if let Some(a) = b.max_area {
+            pos("board.max_area", a.0)?;
+        }
+        if let Some(h) = b.max_height {
+            pos("board.max_height", h.0)?;
+        }
+        if b.max_lines == Some(0) {
+            return Err(self.err("board.max_lines", "must be at least 1"));
+        }
+        let s = &self.selection;
+        nonneg("selection.line_cost", s.line_cost.0)?;
+        if s.max_per_part == 0 || s.max_per_part > 10000 {
+            return Err(self.err("selection.max_per_part", "must be from 1 to 10000"));
+        }
+        for (k, v) in &s.voltage_derating {
+            if Technology::parse(k).is_none() {
+                return Err(self.err(
+                    &format!("selection.voltage_derating.{k}"),
+                    format!("unknown technology (one of: {})", Technology::ALL.map(|t| t.name()).join(", ")),
+                ));
+            }
+            if !(v.0 > 0.0 && v.0 <= 1.0) {
+                return Err(self.err(&format!("selection.voltage_derating.{k}"), format!("{} must be above 0 and at most 1", v.0)));
+            }
+        }
+        for (k, &v) in &s.require {
+            if v > s.max_per_part {
+                return Err(self.err(&format!("selection.require.{k}"), format!("{v} is above max_per_part {}", s.max_per_part)));
+            }
+        }
+        Ok(())
+    }
+
+    /// Check that the parts named in `exclude` and `require` exist.
+    pub fn check_against(&self, catalog: &crate::catalog::Catalog) -> Result<()> {
+        for p in &self.selection.exclude {
+            if catalog.get(p).is_none() {
+                bail!("{}: key `selection.exclude`: part `{p}` is not in the catalog {}", self.source, catalog.source);
+            }
+        }
+        for p in self.selection.require.keys() {
+            if catalog.get(p).is_none() {
+                bail!("{}: key `selection.require.{p}`: part `{p}` is not in the catalog {}", self.source, catalog.source);
+            }
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const MIN: &str = r#"
+        [converter]
+        topology = "buck"
+        vin = 12
+        vout = 3.3
+        iout = 6
+        fsw = "600k"
+        inductance = "2.2u"
+        [target]
+        ripple_pp = "8m"
+        bandwidth = "20M"
+    "#;
+
+    #[test]
+    fn reads_units_and_defaults() {
+        let s = Scenario::from_str(MIN, "t.toml").unwrap();
+        assert_eq!(s.converter.fsw.0, 600e3);
+        assert!((s.converter.inductance.unwrap().0 - 2.2e-6).abs() < 1e-18);
+        assert_eq!(s.target.bandwidth_order, 1);
+        assert_eq!(s.environment.temperature_min, 25.0);
+        assert_eq!(s.selection.max_per_part, 20);
+        assert_eq!(s.vin_corners(), vec![12.0]);
+    }
+
+    #[test]
+    fn unknown_key_is_named() {
+        let e = Scenario::from_str(&MIN.replace("iout = 6", "iout = 6\nfws = 3"), "t.toml").unwrap_err().to_string();
+        assert!(e.contains("fws"), "{e}");
+        assert!(e.contains("line"), "{e}");
+    }
+
+    #[test]
+    fn buck_cannot_step_up() {
+        let e = Scenario::from_str(&MIN.replace("vout = 3.3", "vout = 15"), "t.toml").unwrap_err().to_string();
+        assert!(e.contains("converter.vout"), "{e}");
+    }
+
+    #[test]
+    fn flyback_needs_turns_ratio() {
+        let e = Scenario::from_str(&MIN.replace("\"buck\"", "\"flyback\""), "t.toml").unwrap_err().to_string();
+        assert!(e.contains("converter.turns_ratio"), "{e}");
+    }
+
+    #[test]
+    fn wrong_unit_names_key() {
+        let e = Scenario::from_str(&MIN.replace("\"2.2u\"", "\"2.2uF\""), "t.toml").unwrap_err().to_string();
+        assert!(e.contains("inductance"), "{e}");
+    }
+}

@@ -1,0 +1,280 @@
+//! Physical values with SI prefixes and unit symbols (SPEC §1).
+//!
+//! A value is either a plain number in SI base units or a string such as
+//! `"4.7uF"`, `"600kHz"`, `"2.5mOhm"` or `"1meg"`. Prefixes are
+//! case-sensitive (`m` milli, `M` mega, `meg` mega, `u`/`µ` micro). A unit
+//! symbol that does not belong to the field is an error.
+
+use std::fmt;
+
+/// The physical kind of a field; decides which unit symbol is accepted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Unit {
+    Farad,
+    Ohm,
+    Henry,
+    Volt,
+    Ampere,
+    Hertz,
+    Second,
+    /// Plain number or percentage (`"10%"` = 0.10).
+    Fraction,
+    /// A plain number with no unit symbol (counts, mm², mm, °C, cost).
+    Plain,
+}
+
+impl Unit {
+    /// Accepted unit symbols, longest first so that `Hz` wins over `H`.
+    fn symbols(self) -> &'static [&'static str] {
+        match self {
+            Unit::Farad => &["F"],
+            Unit::Ohm => &["Ohm", "ohm", "OHM", "Ω", "R"],
+            Unit::Henry => &["H"],
+            Unit::Volt => &["V"],
+            Unit::Ampere => &["A"],
+            Unit::Hertz => &["Hz", "hz", "HZ"],
+            Unit::Second => &["s"],
+            Unit::Fraction | Unit::Plain => &[],
+        }
+    }
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Unit::Farad => "capacitance (F)",
+            Unit::Ohm => "resistance (Ohm)",
+            Unit::Henry => "inductance (H)",
+            Unit::Volt => "voltage (V)",
+            Unit::Ampere => "current (A)",
+            Unit::Hertz => "frequency (Hz)",
+            Unit::Second => "time (s)",
+            Unit::Fraction => "fraction or percentage",
+            Unit::Plain => "plain number",
+        }
+    }
+}
+
+/// Why a value could not be read.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ValueError(pub String);
+
+impl fmt::Display for ValueError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for ValueError {}
+
+const PREFIXES: &[(&str, f64)] = &[
+    ("meg", 1e6),
+    ("f", 1e-15),
+    ("p", 1e-12),
+    ("n", 1e-9),
+    ("u", 1e-6),
+    ("µ", 1e-6),
+    ("μ", 1e-6),
+    ("m", 1e-3),
+    ("k", 1e3),
+    ("K", 1e3),
+    ("M", 1e6),
+    ("G", 1e9),
+];
+
+/// Every unit symbol we know, to give a precise message when one is used in
+/// the wrong field ("10uH" in a capacitance).
+const ALL_UNITS: &[(&str, Unit)] = &[
+    ("Ohm", Unit::Ohm),
+    ("ohm", Unit::Ohm),
+    ("Ω", Unit::Ohm),
+    ("Hz", Unit::Hertz),
+    ("F", Unit::Farad),
+    ("H", Unit::Henry),
+    ("V", Unit::Volt),
+    ("A", Unit::Ampere),
+    ("s", Unit::Second),
+];
+
+/// Parse a textual value such as `"4.7uF"` into SI base units.
+pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
+    let s = text.trim();
+    if s.is_empty() {
+        return Err(ValueError("empty value".into()));
+    }
+    // Split the numeric head from the suffix.
+    let bytes = s.as_bytes();
+    let mut end = 0;
+    let mut seen_e = false;
+    while end < bytes.len() {
+        let c = bytes[end] as char;
+        let ok = c.is_ascii_digit()
+            || c == '.'
+            || ((c == '+' || c == '-') && (end == 0 || matches!(bytes[end - 1], b'e' | b'E')))
+            || ((c == 'e' || c == 'E')
+                && !seen_e
+                && end > 0
+                && end + 1 < bytes.len()
+                && (bytes[end + 1].is_ascii_digit() || matches!(bytes[end + 1], b'+' | b'-')));
+        if !ok {
+            break;
+        }
+        if c == 'e' || c == 'E' {
+            seen_e = true;
+        }
+        end += 1;
+    }
+    let (head, tail) = s.split_at(end);
+    let tail = tail.trim();
+    if head.is_empty() {
+        return Err(ValueError(format!("`{s}` does not start with a number")));
+    }
+    let number: f64 = head
+        .parse()
+        .map_err(|_| ValueError(format!("`{s}` is not a number")))?;
+    if !number.is_finite() {
+        return Err(ValueError(format!("`{s}` is not a finite number")));
+    }
+    if unit == Unit::Fraction {
+        return match tail {
+            "" => Ok(number),
+            "%" => Ok(number / 100.0),
+            _ => Err(ValueError(format!(
+                "`{s}`: expected a fraction (0.1) or a percentage (10%)"
+            ))),
+        };
+    }
+    if tail.is_empty() {
+        return Ok(number);
+    }
+    if unit == Unit::Plain {
+        return Err(ValueError(format!("`{s}`: expected a plain number")));
+    }
+    // Try: [prefix][symbol], then [symbol], then [prefix].
+    for &(p, scale) in PREFIXES {
+        if let Some(rest) = tail.strip_prefix(p) {
+            if rest.is_empty() || unit.symbols().contains(&rest) {
+                return Ok(number * scale);
+            }
+        }
+    }
+    if unit.symbols().contains(&tail) {
+        return Ok(number);
+    }
+    // Name the wrong unit if we recognise it.
+    for &(p, _) in PREFIXES.iter().chain(std::iter::once(&("", 1.0))) {
+        if let Some(rest) = tail.strip_prefix(p) {
+            if let Some(&(_, other)) = ALL_UNITS.iter().find(|(sym, _)| *sym == rest) {
+                if other != unit {
+                    return Err(ValueError(format!(
+                        "`{s}` is a {}, but this field is a {}",
+                        other.name(),
+                        unit.name()
+                    )));
+                }
+            }
+        }
+    }
+    Err(ValueError(format!(
+        "`{s}`: unknown prefix or unit `{tail}` for a {} (use e.g. p n u m k M meg)",
+        unit.name()
+    )))
+}
+
+/// Format a value with an engineering prefix: `format_si(4.7e-6, "F")` = `4.7 µF`.
+pub fn format_si(value: f64, symbol: &str) -> String {
+    if value == 0.0 {
+        return format!("0 {symbol}");
+    }
+    if !value.is_finite() {
+        return format!("— {symbol}");
+    }
+    const STEPS: &[(f64, &str)] = &[
+        (1e9, "G"),
+        (1e6, "M"),
+        (1e3, "k"),
+        (1.0, ""),
+        (1e-3, "m"),
+        (1e-6, "µ"),
+        (1e-9, "n"),
+        (1e-12, "p"),
+        (1e-15, "f"),
+    ];
+    let a = value.abs();
+    let (scale, p) = STEPS
+        .iter()
+        .copied()
+        .find(|(s, _)| a >= *s * 0.9995)
+        .unwrap_or((1e-15, "f"));
+    let v = value / scale;
+    let digits = if v.abs() >= 100.0 {
+        0
+    } else if v.abs() >= 10.0 {
+        1
+    } else {
+        2
+    };
+    let mut t = format!("{v:.digits$}");
+    if t.contains('.') {
+        while t.ends_with('0') {
+            t.pop();
+        }
+        if t.ends_with('.') {
+            t.pop();
+        }
+    }
+    format!("{t} {p}{symbol}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-12 * b.abs().max(1e-30)
+    }
+
+    #[test]
+    fn spec_examples() {
+        // The examples listed in SPEC §1.
+        assert!(close(parse("4.7u", Unit::Farad).unwrap(), 4.7e-6));
+        assert!(close(parse("4.7uF", Unit::Farad).unwrap(), 4.7e-6));
+        assert!(close(parse("4.7µF", Unit::Farad).unwrap(), 4.7e-6));
+        assert!(close(parse("600k", Unit::Hertz).unwrap(), 600e3));
+        assert!(close(parse("600kHz", Unit::Hertz).unwrap(), 600e3));
+        assert!(close(parse("8mV", Unit::Volt).unwrap(), 8e-3));
+        assert!(close(parse("0.3nH", Unit::Henry).unwrap(), 0.3e-9));
+        assert!(close(parse("3m", Unit::Ohm).unwrap(), 3e-3));
+        assert!(close(parse("2.5mOhm", Unit::Ohm).unwrap(), 2.5e-3));
+        assert!(close(parse("1meg", Unit::Hertz).unwrap(), 1e6));
+        assert!(close(parse("20M", Unit::Hertz).unwrap(), 20e6));
+        assert!(close(parse("10%", Unit::Fraction).unwrap(), 0.10));
+        assert!(close(parse("0.1", Unit::Fraction).unwrap(), 0.10));
+        assert!(close(parse("1e-6", Unit::Farad).unwrap(), 1e-6));
+        assert!(close(parse("12", Unit::Volt).unwrap(), 12.0));
+        assert!(close(parse("12V", Unit::Volt).unwrap(), 12.0));
+    }
+
+    #[test]
+    fn case_sensitive_prefixes() {
+        assert!(close(parse("1m", Unit::Hertz).unwrap(), 1e-3));
+        assert!(close(parse("1M", Unit::Hertz).unwrap(), 1e6));
+    }
+
+    #[test]
+    fn wrong_unit_is_an_error() {
+        let e = parse("10uH", Unit::Farad).unwrap_err();
+        assert!(e.0.contains("inductance"), "{e}");
+        assert!(parse("3x", Unit::Ohm).is_err());
+        assert!(parse("abc", Unit::Ohm).is_err());
+        assert!(parse("", Unit::Ohm).is_err());
+        assert!(parse("nan", Unit::Ohm).is_err());
+        assert!(parse("inf", Unit::Ohm).is_err());
+        assert!(parse("5mm", Unit::Plain).is_err());
+    }
+
+    #[test]
+    fn formatting() {
+        assert_eq!(format_si(4.7e-6, "F"), "4.7 µF");
+        assert_eq!(format_si(600e3, "Hz"), "600 kHz");
+        assert_eq!(format_si(0.0081, "V"), "8.1 mV");
+    }
+}
