@@ -10,3 +10,8 @@ pub mod problem;
 pub mod scenario;
 pub mod spectrum;
 pub mod units;
+pub mod assessment;
+pub mod commands;
+pub mod load;
+pub mod optimize;
+pub mod report;

@@ -1,3 +1,136 @@
-fn main() {
-    println!("Hello, world!");
+//! Command line of ripplebank: parses arguments, runs a command, prints.
+
+use clap::{Parser, Subcommand};
+use ripplebank::commands::{self, Common, Outcome};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+#[derive(Parser)]
+#[command(name = "ripplebank", version, about = "Choose and verify output capacitor banks for DC-DC converters against a ripple limit", long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Cmd,
+}
+
+#[derive(clap::Args, Clone)]
+struct Input {
+    /// Scenario TOML (default: the bundled demo)
+    #[arg(long, value_name = "F")]
+    scenario: Option<PathBuf>,
+    /// Parts catalog CSV (default: the scenario's `catalog`)
+    #[arg(long, value_name = "F")]
+    catalog: Option<PathBuf>,
+}
+
+#[derive(clap::Args, Clone)]
+struct Output {
+    /// Write bom.csv, report.json, report.html, plots and bank.cir into DIR
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    /// Write one JSON document to stdout
+    #[arg(long)]
+    json: bool,
+}
+
+#[derive(Subcommand)]
+enum Cmd {
+    /// Find the cheapest (or smallest, or fewest) bank that meets the target
+    Design {
+        #[command(flatten)]
+        input: Input,
+        /// cost, area or count
+        #[arg(long)]
+        objective: Option<String>,
+        /// Never use this part (repeatable)
+        #[arg(long, value_name = "PART")]
+        exclude: Vec<String>,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// Evaluate a given bank against the target and every limit
+    Assess {
+        /// The bank as PART=N,PART=N
+        #[arg(long, conflicts_with = "bom", required_unless_present = "bom")]
+        bank: Option<String>,
+        /// The bank as a bill of materials CSV (columns part, count)
+        #[arg(long, value_name = "F")]
+        bom: Option<PathBuf>,
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// Cost, area and count against the ripple target
+    Tradeoff {
+        #[command(flatten)]
+        input: Input,
+        /// Tightest ripple target, V (default: the lowest reachable)
+        #[arg(long, value_name = "V")]
+        from: Option<String>,
+        /// Loosest ripple target, V (default: the smallest allowed bank's ripple)
+        #[arg(long, value_name = "V")]
+        to: Option<String>,
+        /// Number of targets
+        #[arg(long, default_value_t = 8)]
+        points: usize,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// Replace obsolete or dropped parts in a bill of materials with the fewest changes
+    Rework {
+        /// The current bill of materials (columns part, count)
+        #[arg(long, value_name = "F")]
+        bom: PathBuf,
+        /// A part to replace (repeatable)
+        #[arg(long, value_name = "PART")]
+        drop: Vec<String>,
+        #[command(flatten)]
+        input: Input,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// Check a scenario and a catalog; list the parts that may not be used and why
+    Validate {
+        #[command(flatten)]
+        input: Input,
+        /// Write one JSON document to stdout
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+fn common(input: Input, output: Output) -> Common {
+    Common { scenario: input.scenario, catalog: input.catalog, out: output.out, json: output.json }
+}
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    let result = match cli.command {
+        Cmd::Design { input, objective, exclude, output } => commands::design(&common(input, output), objective.as_deref(), &exclude),
+        Cmd::Assess { bank, bom, input, output } => commands::assess(&common(input, output), bank.as_deref(), bom.as_deref()),
+        Cmd::Tradeoff { input, from, to, points, output } => {
+            commands::tradeoff(&common(input, output), from.as_deref(), to.as_deref(), points)
+        }
+        Cmd::Rework { bom, drop, input, output } => commands::rework(&common(input, output), &bom, &drop),
+        Cmd::Validate { input, json } => {
+            commands::validate(&Common { scenario: input.scenario, catalog: input.catalog, out: None, json })
+        }
+    };
+    match result {
+        Ok(Outcome { stdout, code }) => {
+            print!("{stdout}");
+            ExitCode::from(code)
+        }
+        Err(e) => {
+            eprintln!("ripplebank: error: {e:#}");
+            ExitCode::from(2)
+        }
+    }
 }

@@ -1,0 +1,327 @@
+//! Everything the reports say about one bank: the ripple at every corner,
+//! the currents, the totals and every limit, computed by the evaluator.
+
+use crate::bank::{Band, Corner, Evaluator};
+use crate::catalog::Status;
+use crate::problem::{cap_limit_value, Problem};
+use anyhow::{bail, Result};
+use serde::Serialize;
+use std::path::Path;
+
+/// One line of a bank with its details.
+#[derive(Debug, Clone, Serialize)]
+pub struct BankLine {
+    pub part: String,
+    pub count: u32,
+    pub technology: String,
+    pub case: Option<String>,
+    pub capacitance_nominal: f64,
+    pub capacitance_typical: f64,
+    pub capacitance_worst: f64,
+    pub esr: f64,
+    pub esl: f64,
+    pub rated_voltage: f64,
+    pub unit_cost: f64,
+    pub line_total_cost: f64,
+    pub unit_area: Option<f64>,
+    pub height: Option<f64>,
+    pub ripple_current_rms: f64,
+    pub ripple_current_rating: Option<f64>,
+    pub status: String,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct PartCurrent {
+    pub part: String,
+    pub rms: f64,
+    pub rating: Option<f64>,
+}
+
+/// A limit and whether the bank keeps it.
+#[derive(Debug, Clone, Serialize)]
+pub struct Check {
+    pub name: String,
+    pub value: f64,
+    pub limit: f64,
+    pub unit: String,
+    pub ok: bool,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct CornerInfo {
+    pub vin: Option<f64>,
+    pub duty: f64,
+    pub mode: String,
+    pub ripple_frequency: f64,
+    pub current_pp: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Assessment {
+    pub bank: Vec<BankLine>,
+    pub ripple_pp: f64,
+    pub ripple_pp_typical: f64,
+    pub ripple_pp_full_bandwidth: f64,
+    pub target_ripple_pp: f64,
+    pub bandwidth: Option<f64>,
+    pub harmonics: usize,
+    pub cost: f64,
+    pub parts_cost: f64,
+    pub area: f64,
+    pub count: u32,
+    pub lines: u32,
+    pub capacitance_nominal_total: f64,
+    pub capacitance_max_total: f64,
+    pub capacitance_effective_total: f64,
+    pub capacitance_typical_total: f64,
+    pub ripple_current: Vec<PartCurrent>,
+    pub checks: Vec<Check>,
+    pub corners: Vec<CornerInfo>,
+    pub meets_target: bool,
+    pub all_ok: bool,
+    pub warnings: Vec<String>,
+}
+
+/// Parse `PART=N,PART=N` into catalog indices and counts.
+pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>> {
+    let mut out: Vec<(usize, u32)> = Vec::new();
+    for item in text.split(',').map(str::trim).filter(|s| !s.is_empty()) {
+        let Some((id, n)) = item.split_once('=') else {
+            bail!("--bank: `{item}` is not of the form PART=N");
+        };
+        let (id, n) = (id.trim(), n.trim());
+        let n: u32 = n.parse().map_err(|_| anyhow::anyhow!("--bank: count `{n}` of `{id}` is not a whole number"))?;
+        let Some(i) = problem.catalog.position(id) else {
+            bail!("--bank: part `{id}` is not in the catalog {}", problem.catalog.source);
+        };
+        add(&mut out, i, n);
+    }
+    if out.is_empty() {
+        bail!("--bank: no parts given (write PART=N,PART=N)");
+    }
+    Ok(out)
+}
+
+fn add(out: &mut Vec<(usize, u32)>, i: usize, n: u32) {
+    match out.iter_mut().find(|(j, _)| *j == i) {
+        Some(e) => e.1 += n,
+        None => out.push((i, n)),
+    }
+}
+
+/// A bill of materials as read from CSV: (part id, count, line number).
+pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
+    let src = path.display().to_string();
+    let bytes = std::fs::read(path).map_err(|e| anyhow::anyhow!("{src}: cannot read the bill of materials: {e}"))?;
+    let text = String::from_utf8(bytes).map_err(|_| anyhow::anyhow!("{src}: not UTF-8 text"))?;
+    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    if text.trim().is_empty() {
+        bail!("{src}: the bill of materials is empty (it needs columns `part` and `count`)");
+    }
+    let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).flexible(true).from_reader(text.as_bytes());
+    let headers: Vec<String> = rdr
+        .headers()
+        .map_err(|e| anyhow::anyhow!("{src}: line 1: {e}"))?
+        .iter()
+        .map(|h| h.trim().to_ascii_lowercase())
+        .collect();
+    let pc = headers.iter().position(|h| h == "part").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `part` is missing"))?;
+    let cc = headers.iter().position(|h| h == "count").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `count` is missing"))?;
+    let mut out: Vec<(String, u32, u64)> = Vec::new();
+    for rec in rdr.records() {
+        let rec = rec.map_err(|e| anyhow::anyhow!("{src}: {e}"))?;
+        let line = rec.position().map_or(0, |p| p.line());
+        if rec.iter().all(|f| f.is_empty()) {
+            continue;
+        }
+        let part = rec.get(pc).unwrap_or("").to_string();
+        if part.is_empty() {
+            bail!("{src}: line {line}, column {} (part): empty part id", pc + 1);
+        }
+        let cs = rec.get(cc).unwrap_or("");
+        let count: u32 = cs
+            .parse()
+            .map_err(|_| anyhow::anyhow!("{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts", cc + 1))?;
+        if let Some(e) = out.iter_mut().find(|e| e.0 == part) {
+            e.1 += count;
+        } else {
+            out.push((part, count, line));
+        }
+    }
+    if out.is_empty() {
+        bail!("{src}: the bill of materials lists no parts");
+    }
+    Ok(out)
+}
+
+/// Resolve a bill of materials against the catalog; unknown parts are errors.
+pub fn bom_to_bank(problem: &Problem, bom: &[(String, u32, u64)], src: &str) -> Result<Vec<(usize, u32)>> {
+    let mut out = Vec::new();
+    for (id, n, line) in bom {
+        let Some(i) = problem.catalog.position(id) else {
+            bail!("{src}: line {line}: part `{id}` is not in the catalog {}", problem.catalog.source);
+        };
+        add(&mut out, i, *n);
+    }
+    Ok(out)
+}
+
+/// Evaluate a bank (catalog indices and counts) completely.
+pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
+    let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|&(_, n)| n > 0).collect();
+    let parts: Vec<usize> = bank.iter().map(|&(i, _)| i).collect();
+    let mut ev = problem.evaluator(&parts);
+    let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, &(_, n))| (j, n)).collect();
+    if ev.is_empty(&local) {
+        bail!("the bank is empty and the converter has no internal capacitance: the ripple is unbounded");
+    }
+    Ok(assess_with(problem, &mut ev, &bank, &local))
+}
+
+/// As [`assess`], with an evaluator already built over (at least) the bank's parts.
+pub fn assess_with(problem: &Problem, ev: &mut Evaluator, bank: &[(usize, u32)], local: &[(usize, u32)]) -> Assessment {
+    let s = &problem.scenario;
+    let cat = &problem.catalog;
+    let ripple_pp = ev.ripple_pp(local, Corner::Worst, Band::Limited);
+    let ripple_pp_typical = ev.ripple_pp(local, Corner::Typical, Band::Limited);
+    let ripple_pp_full = ev.ripple_pp(local, Corner::Worst, Band::Full);
+    let currents = ev.part_currents(local);
+    let vout = s.converter.vout.0;
+    let mut lines = Vec::new();
+    let mut warnings = problem.warnings.clone();
+    let mut checks = Vec::new();
+    let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
+    let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    let mut area_known = true;
+    for (j, &(i, n)) in bank.iter().enumerate() {
+        let p = &cat.parts[i];
+        let nf = n as f64;
+        cost += nf * p.cost;
+        match p.area {
+            Some(a) => area += nf * a,
+            None => area_known = false,
+        }
+        count += n;
+        cn += nf * p.capacitance;
+        cmax += nf * p.c_nominal_max();
+        ceff += nf * p.c_worst(vout);
+        ctyp += nf * p.c_typical(vout);
+        climit += nf * cap_limit_value(s, p);
+        lines.push(BankLine {
+            part: p.id.clone(),
+            count: n,
+            technology: p.technology.name().into(),
+            case: p.case.clone(),
+            capacitance_nominal: p.capacitance,
+            capacitance_typical: p.c_typical(vout),
+            capacitance_worst: p.c_worst(vout),
+            esr: p.esr,
+            esl: p.esl,
+            rated_voltage: p.rated_voltage,
+            unit_cost: p.cost,
+            line_total_cost: nf * p.cost,
+            unit_area: p.area,
+            height: p.height,
+            ripple_current_rms: currents[j],
+            ripple_current_rating: p.ripple_current,
+            status: p.status.name().into(),
+        });
+        // Per-part rules (the same as eligibility, as checks and warnings).
+        let der = s.derating(p.technology);
+        checks.push(Check {
+            name: format!("voltage {}", p.id),
+            value: vout,
+            limit: p.rated_voltage * der,
+            unit: "V".into(),
+            ok: p.rated_voltage * der >= vout,
+        });
+        let (tmin, tmax) = p.temperature_range();
+        if let Some(t) = tmin {
+            checks.push(Check { name: format!("temperature_min {}", p.id), value: t, limit: s.environment.temperature_min, unit: "°C".into(), ok: t <= s.environment.temperature_min });
+        }
+        if let Some(t) = tmax {
+            checks.push(Check { name: format!("temperature_max {}", p.id), value: t, limit: s.environment.temperature_max, unit: "°C".into(), ok: t >= s.environment.temperature_max });
+        }
+        if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
+            checks.push(Check { name: format!("height {}", p.id), value: ph, limit: h.0, unit: "mm".into(), ok: ph <= h.0 });
+        }
+        if let Some(r) = p.ripple_current {
+            checks.push(Check { name: format!("ripple_current {}", p.id), value: currents[j], limit: r, unit: "A".into(), ok: currents[j] <= r });
+        }
+        match p.status {
+            Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
+            Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!("{} is not recommended for new designs (nrnd)", p.id)),
+            _ => {}
+        }
+        if s.selection.exclude.contains(&p.id) {
+            warnings.push(format!("{} is on the scenario's exclude list", p.id));
+        }
+        if !p.tolerance_given {
+            warnings.push(format!("{}: no tolerance in the catalog; 20 % assumed", p.id));
+        }
+        if n > s.selection.max_per_part {
+            checks.push(Check { name: format!("max_per_part {}", p.id), value: nf, limit: s.selection.max_per_part as f64, unit: "".into(), ok: false });
+        }
+    }
+    let nlines = bank.len() as u32;
+    let parts_cost = cost;
+    cost += nlines as f64 * s.selection.line_cost.0;
+    checks.insert(0, Check { name: "ripple_pp".into(), value: ripple_pp, limit: s.target.ripple_pp.0, unit: "V".into(), ok: ripple_pp <= s.target.ripple_pp.0 });
+    if let Some(m) = s.converter.max_capacitance {
+        checks.push(Check { name: "max_capacitance".into(), value: climit, limit: m.0, unit: "F".into(), ok: climit <= m.0 * (1.0 + 1e-12) });
+    }
+    if s.converter.min_capacitance.0 > 0.0 {
+        let m = s.converter.min_capacitance.0;
+        checks.push(Check { name: "min_capacitance".into(), value: ceff, limit: m, unit: "F".into(), ok: ceff >= m });
+    }
+    if let Some(m) = s.board.max_count {
+        checks.push(Check { name: "max_count".into(), value: count as f64, limit: m as f64, unit: "".into(), ok: count <= m });
+    }
+    checks.push(Check { name: "max_lines".into(), value: nlines as f64, limit: s.max_lines() as f64, unit: "".into(), ok: nlines <= s.max_lines() });
+    if let Some(m) = s.board.max_area {
+        if area_known {
+            checks.push(Check { name: "max_area".into(), value: area, limit: m.0, unit: "mm²".into(), ok: area <= m.0 * (1.0 + 1e-12) });
+        } else {
+            warnings.push("some parts have no area: board.max_area cannot be checked".into());
+        }
+    }
+    for (id, &req) in &s.selection.require {
+        let have = bank.iter().find(|(i, _)| &cat.parts[*i].id == id).map_or(0, |b| b.1);
+        checks.push(Check { name: format!("require {id}"), value: have as f64, limit: req as f64, unit: "".into(), ok: have >= req });
+    }
+    let corners = problem
+        .ops
+        .iter()
+        .map(|op| CornerInfo { vin: op.vin, duty: op.duty, mode: op.mode.into(), ripple_frequency: op.f_ripple, current_pp: op.current_pp })
+        .collect();
+    let meets_target = ripple_pp <= s.target.ripple_pp.0;
+    let all_ok = checks.iter().all(|c| c.ok);
+    Assessment {
+        bank: lines,
+        ripple_pp,
+        ripple_pp_typical,
+        ripple_pp_full_bandwidth: ripple_pp_full,
+        target_ripple_pp: s.target.ripple_pp.0,
+        bandwidth: s.target.bandwidth.map(|b| b.0),
+        harmonics: ev.n_limited,
+        cost,
+        parts_cost,
+        area,
+        count,
+        lines: nlines,
+        capacitance_nominal_total: cn,
+        capacitance_max_total: cmax,
+        capacitance_effective_total: ceff,
+        capacitance_typical_total: ctyp,
+        ripple_current: bank
+            .iter()
+            .enumerate()
+            .map(|(j, &(i, _))| PartCurrent { part: cat.parts[i].id.clone(), rms: currents[j], rating: cat.parts[i].ripple_current })
+            .collect(),
+        checks,
+        corners,
+        meets_target,
+        all_ok,
+        warnings,
+    }
+}

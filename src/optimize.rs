@@ -1,0 +1,1 @@
+//! The optimizer (being written).

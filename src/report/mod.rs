@@ -1,0 +1,148 @@
+//! Reports: readable text, JSON, bill of materials, SPICE netlist, plots.
+//! Files go to a temporary folder first and are renamed into place, so a
+//! failed run never leaves an existing output folder half-written.
+
+pub mod html;
+pub mod plots;
+pub mod spice;
+pub mod text;
+
+use crate::assessment::Assessment;
+use crate::problem::Problem;
+use anyhow::{Context, Result};
+use serde_json::{json, Value};
+use std::path::{Path, PathBuf};
+
+/// Cautions printed with every report (common practice, no source).
+pub const CAUTIONS: &[&str] = &[
+    "Check every capacitor's voltage rating against the highest output voltage, including transients and start-up overshoot; large banks store energy that can hurt people and damage parts when shorted.",
+    "Tantalum and aluminum electrolytic capacitors are polarised: reverse voltage destroys them. Derate MnO2 tantalum for surge (50 % is common practice) and respect the maker's surge-current rules.",
+    "Added output capacitance changes the converter's control loop and can make it unstable: stay within the converter maker's limits (max_capacitance) and check stability (phase margin, load-step response).",
+    "Keep the remote-sense connection on the converter side of any added filter or bank inductance, unless the converter maker says otherwise.",
+    "This is a model: verify the ripple on hardware with the stated measurement bandwidth and a short ground connection on the probe.",
+    "Follow local codes, safety standards and licensed engineering practice; this tool does not replace them.",
+];
+
+/// The JSON document shared by `design`, `assess` and `rework`.
+pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value {
+    let mut v = serde_json::to_value(a).expect("serialisable");
+    let o = v.as_object_mut().expect("object");
+    o.insert("status".into(), json!(status));
+    o.insert("excluded".into(), serde_json::to_value(&problem.excluded).expect("serialisable"));
+    o.insert("scenario".into(), json!(problem.scenario.name));
+    o.insert("objective".into(), json!(problem.scenario.selection.objective.name()));
+    v
+}
+
+/// Replace NaN and infinities (never valid JSON) by null, recursively.
+pub fn sanitize(v: &mut Value) {
+    match v {
+        Value::Number(n) => {
+            if n.as_f64().is_some_and(|x| !x.is_finite()) {
+                *v = Value::Null;
+            }
+        }
+        Value::Array(a) => a.iter_mut().for_each(sanitize),
+        Value::Object(o) => o.values_mut().for_each(sanitize),
+        _ => {}
+    }
+}
+
+/// Files of one run, written together into an output folder.
+#[derive(Default)]
+pub struct OutFiles {
+    pub files: Vec<(String, Vec<u8>)>,
+}
+
+impl OutFiles {
+    pub fn add(&mut self, name: &str, data: impl Into<Vec<u8>>) {
+        self.files.push((name.to_string(), data.into()));
+    }
+
+    /// Write every file into `dir`: first into a fresh sibling folder, then
+    /// swap it into place. An existing `dir` is only replaced once the new
+    /// content is complete.
+    pub fn commit(&self, dir: &Path) -> Result<()> {
+        let parent = match dir.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        let name = dir.file_name().context("--out needs a folder name")?.to_string_lossy().to_string();
+        if dir.exists() && !dir.is_dir() {
+            anyhow::bail!("--out {}: exists and is not a folder", dir.display());
+        }
+        std::fs::create_dir_all(&parent).with_context(|| format!("--out: cannot create {}", parent.display()))?;
+        let stamp = format!("{}-{}", std::process::id(), std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map_or(0, |d| d.as_nanos()));
+        let tmp = parent.join(format!(".{name}.tmp-{stamp}"));
+        std::fs::create_dir(&tmp).with_context(|| format!("--out: cannot create {}", tmp.display()))?;
+        let write_all = || -> Result<()> {
+            for (f, data) in &self.files {
+                std::fs::write(tmp.join(f), data).with_context(|| format!("--out: cannot write {f}"))?;
+            }
+            Ok(())
+        };
+        if let Err(e) = write_all() {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(e);
+        }
+        if dir.exists() {
+            let old = parent.join(format!(".{name}.old-{stamp}"));
+            std::fs::rename(dir, &old).with_context(|| format!("--out: cannot move the old {} aside", dir.display()))?;
+            if let Err(e) = std::fs::rename(&tmp, dir) {
+                let _ = std::fs::rename(&old, dir);
+                let _ = std::fs::remove_dir_all(&tmp);
+                return Err(e).with_context(|| format!("--out: cannot rename into {}", dir.display()));
+            }
+            let _ = std::fs::remove_dir_all(&old);
+        } else {
+            std::fs::rename(&tmp, dir).with_context(|| format!("--out: cannot rename into {}", dir.display()))?;
+        }
+        Ok(())
+    }
+}
+
+/// Bill of materials CSV: part, count and the catalog's details, extra
+/// columns carried through.
+pub fn bom_csv(problem: &Problem, bank: &[(usize, u32)]) -> Vec<u8> {
+    let cat = &problem.catalog;
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut head: Vec<String> = [
+        "part", "count", "technology", "capacitance", "rated_voltage", "dielectric", "case", "esr", "esl", "unit_cost", "line_total_cost",
+        "manufacturer", "mpn", "description",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    head.extend(cat.extra_columns.iter().cloned());
+    w.write_record(&head).expect("in memory");
+    for &(i, n) in bank.iter().filter(|b| b.1 > 0) {
+        let p = &cat.parts[i];
+        let mut row = vec![
+            p.id.clone(),
+            n.to_string(),
+            p.technology.name().to_string(),
+            format!("{:e}", p.capacitance),
+            p.rated_voltage.to_string(),
+            p.dielectric.as_ref().map_or(String::new(), |d| d.0.clone()),
+            p.case.clone().unwrap_or_default(),
+            format!("{:e}", p.esr),
+            format!("{:e}", p.esl),
+            p.cost.to_string(),
+            format!("{:.4}", p.cost * n as f64),
+            p.manufacturer.clone().unwrap_or_default(),
+            p.mpn.clone().unwrap_or_default(),
+            p.description.clone().unwrap_or_default(),
+        ];
+        for c in &cat.extra_columns {
+            row.push(p.extra.iter().find(|(h, _)| h == c).map_or(String::new(), |(_, v)| v.clone()));
+        }
+        w.write_record(&row).expect("in memory");
+    }
+    w.into_inner().expect("in memory")
+}
+
+/// Pretty JSON text with non-finite numbers removed.
+pub fn json_text(mut v: Value) -> String {
+    sanitize(&mut v);
+    serde_json::to_string_pretty(&v).expect("serialisable") + "\n"
+}
