@@ -161,7 +161,7 @@ impl Evaluator {
                 let n = ev.n_full;
                 for k in 0..n {
                     let zt = ev.transfer_of(Complex64::default(), k);
-                    ev.buf[k] = cur[k] * zt * filt(ev.freqs[k], sb);
+                    ev.buf[k + 1] = cur[k] * zt * filt(ev.freqs[k], sb);
                 }
                 let pp = ev.pp_from_buf(n, true);
                 let scale = if pp > 0.0 { target / pp } else { 0.0 };
@@ -291,6 +291,79 @@ impl Evaluator {
             worst = worst.max(self.pp_from_buf(n, band == Band::Full));
         }
         worst
+    }
+
+    /// Worst-corner ripple of the target figure, stopping early once it is
+    /// known to exceed `limit`: then the value returned is a lower bound
+    /// above `limit` (the largest harmonic, or the first corner over it).
+    /// Used by the optimizer, which only needs to know pass or fail.
+    pub fn ripple_check(&mut self, bank: &Bank, limit: f64) -> f64 {
+        if self.is_empty(bank) {
+            return f64::INFINITY;
+        }
+        let n = self.n_limited;
+        self.fill_transfer(bank, Corner::Worst, n);
+        // max_k |V_k| <= peak-to-peak: |V_k| = |(2/M) Σ_m (v_m - c) e^{-j2πkm/M}|
+        // <= 2 max|v_m - c| = pp with c the mid-range value.
+        let mut floor: f64 = 0.0;
+        for d in &self.drive_limited {
+            for k in 0..n {
+                floor = floor.max((d[k] * self.zt[k]).norm_sqr());
+            }
+        }
+        let floor = floor.sqrt();
+        if floor > limit {
+            return floor;
+        }
+        let mut worst: f64 = floor;
+        for c in 0..self.currents.len() {
+            for k in 0..n {
+                self.buf[k + 1] = self.drive_limited[c][k] * self.zt[k];
+            }
+            worst = worst.max(self.pp_from_buf(n, false));
+            if worst > limit {
+                return worst;
+            }
+        }
+        worst
+    }
+
+    /// Linear necessary condition for the target (used by the optimizer's
+    /// bounds): any bank meeting `target` has Σ n_i |Y_ik| ≥ q_k at every
+    /// harmonic k of the target figure. From pp ≥ |V_k| = |D_k| / |Y_tot,k|
+    /// and |Y_tot| ≤ |Y_b|·|1 + jωLc·Y_int| + |Y_int|, |Y_b| ≤ Σ n_i |Y_ik|.
+    pub fn required_admittance(&self, target: f64) -> Vec<f64> {
+        (0..self.n_limited)
+            .map(|k| {
+                let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+                let (g, yi) = self.internal_terms(k);
+                ((d / target - yi) / g).max(0.0)
+            })
+            .collect()
+    }
+
+    /// Lower bound on the target figure's ripple of any bank whose
+    /// Σ n_i |Y_ik| is at most `sum_a[k]` (same argument as above).
+    pub fn ripple_floor_for(&self, sum_a: &[f64]) -> f64 {
+        let mut best: f64 = 0.0;
+        for k in 0..self.n_limited {
+            let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+            let (g, yi) = self.internal_terms(k);
+            let y = sum_a[k] * g + yi;
+            best = best.max(if y > 0.0 { d / y } else { f64::INFINITY });
+        }
+        best
+    }
+
+    fn internal_terms(&self, k: usize) -> (f64, f64) {
+        let w = 2.0 * PI * self.freqs[k];
+        let yi = self.y_int[k];
+        ((Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi).norm(), yi.norm())
+    }
+
+    /// |Y_ik| of one capacitor at the worst corner, for the target's harmonics.
+    pub fn admittance_magnitudes(&self, i: usize) -> Vec<f64> {
+        (0..self.n_limited).map(|k| self.y(i, k, Corner::Worst).norm()).collect()
     }
 
     /// Largest single harmonic amplitude max_k |V_k| of the target figure:

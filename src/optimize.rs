@@ -1,1 +1,855 @@
-//! The optimizer (being written).
+//! The optimizer: the bank of lowest cost (or area, or count) whose exact
+//! worst-corner ripple meets the target under every limit.
+//!
+//! Method (branch and bound over line sets, the evaluator as sole judge):
+//!
+//! 1. Parts that another part dominates (electrically identical, no worse
+//!    in cost, area, capacitance-limit share, rating) are dropped.
+//! 2. Every line set (which parts are used) gets a valid lower bound on its
+//!    objective from the linear necessary condition Σ n_i |Y_ik| ≥ q_k of
+//!    [`Evaluator::required_admittance`]; sets that cannot reach q_k even
+//!    at their largest counts are dropped.
+//! 3. Sets are solved in order of their bound. Within a set the counts are
+//!    enumerated in objective order: all but the last count by loops, the
+//!    last from the smallest value the necessary condition allows upward;
+//!    the first count whose exact ripple (and ripple currents) pass is the
+//!    cheapest for the others' counts. Every bound only discards what
+//!    provably cannot beat the incumbent, so when all sets are examined the
+//!    result is `optimal` under the model.
+//! 4. Catalogs too large to enumerate every line set use a pool of the most
+//!    promising parts (admittance per unit of objective at each harmonic,
+//!    plus line sets proposed by a mixed-integer model of the necessary
+//!    condition, solved with good_lp), then a neighbourhood search that
+//!    swaps, adds or removes one part at a time over the whole catalog; the
+//!    result is `optimal` only if it meets the mixed-integer lower bound,
+//!    else `feasible`.
+//! 5. With no design, the same search minimises the ripple instead
+//!    (`best_ripple_pp`), and each limit is relaxed in turn to find the
+//!    ones that bind.
+
+use crate::bank::{Evaluator, PartModel};
+use crate::problem::Problem;
+use crate::scenario::Objective;
+use indicatif::{ProgressBar, ProgressStyle};
+use serde::Serialize;
+use std::time::Instant;
+
+/// Objective vector: primary, then the two tie-breakers.
+pub type Key = [f64; 3];
+
+fn tol(a: f64, b: f64) -> f64 {
+    1e-9 * a.abs().max(b.abs()) + 1e-12
+}
+
+/// True when `a` is strictly better than `b` (lexicographic).
+pub fn better(a: &Key, b: &Key) -> bool {
+    for i in 0..3 {
+        let t = tol(a[i], b[i]);
+        if a[i] < b[i] - t {
+            return true;
+        }
+        if a[i] > b[i] + t {
+            return false;
+        }
+    }
+    false
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Status {
+    Optimal,
+    Feasible,
+    Infeasible,
+}
+
+impl Status {
+    pub fn name(self) -> &'static str {
+        match self {
+            Status::Optimal => "optimal",
+            Status::Feasible => "feasible",
+            Status::Infeasible => "infeasible",
+        }
+    }
+}
+
+/// A verified bank.
+#[derive(Debug, Clone)]
+pub struct Found {
+    /// Catalog indices and counts.
+    pub bank: Vec<(usize, u32)>,
+    pub key: Key,
+    pub ripple_pp: f64,
+}
+
+/// Result of a design run.
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    pub status: Status,
+    pub found: Option<Found>,
+    pub best_ripple_pp: Option<f64>,
+    pub best_ripple_bank: Option<Vec<(usize, u32)>>,
+    pub binding: Vec<String>,
+    pub stats: Stats,
+}
+
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Stats {
+    pub candidates: usize,
+    pub dominated: usize,
+    pub line_sets_total: usize,
+    pub line_sets_solved: usize,
+    pub evaluations: usize,
+    pub exhaustive: bool,
+    pub lower_bound: Option<f64>,
+    pub seconds: f64,
+}
+
+/// Knobs of the search.
+#[derive(Debug, Clone)]
+pub struct Settings {
+    pub progress: bool,
+    /// Largest number of line sets enumerated exhaustively.
+    pub exhaustive_limit: usize,
+    /// Pool size for large catalogs.
+    pub pool: usize,
+    /// Find the binding constraints when there is no design.
+    pub explain: bool,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true }
+    }
+}
+
+/// Limits that are linear in the counts.
+#[derive(Debug, Clone)]
+struct Limits {
+    max_cap: f64,
+    min_cap: f64,
+    max_count: f64,
+    max_area: f64,
+    max_lines: usize,
+}
+
+/// The search over one candidate list.
+struct Search {
+    ev: Evaluator,
+    /// Catalog index of each local part.
+    catalog_index: Vec<usize>,
+    parts: Vec<PartModel>,
+    /// Objective weights per part: w[j][i].
+    w: [Vec<f64>; 3],
+    line_w: Key,
+    lb: Vec<u32>,
+    ub: Vec<u32>,
+    /// |Y_ik| of each part, n harmonics each.
+    a: Vec<f64>,
+    q: Vec<f64>,
+    n: usize,
+    target: f64,
+    lim: Limits,
+    required: Vec<usize>,
+    check_currents: bool,
+    inc: Option<(Key, Vec<(usize, u32)>, f64)>,
+    evals: usize,
+    sets_solved: usize,
+    bank_buf: Vec<(usize, u32)>,
+}
+
+fn weights(obj: Objective, p: &PartModel) -> Key {
+    match obj {
+        Objective::Cost => [p.cost, p.area, 1.0],
+        Objective::Area => [p.area, p.cost, 1.0],
+        Objective::Count => [1.0, p.cost, p.area],
+    }
+}
+
+impl Search {
+    fn new(problem: &Problem, candidates: &[usize], target: f64) -> Search {
+        let s = &problem.scenario;
+        let ev = problem.evaluator(candidates);
+        let parts = ev.parts.clone();
+        let obj = s.selection.objective;
+        let mut w: [Vec<f64>; 3] = [vec![], vec![], vec![]];
+        for p in &parts {
+            let k = weights(obj, p);
+            for j in 0..3 {
+                w[j].push(k[j]);
+            }
+        }
+        let lc = s.selection.line_cost.0;
+        let line_w = match obj {
+            Objective::Cost => [lc, 0.0, 0.0],
+            _ => [0.0, lc, 0.0],
+        };
+        let lim = Limits {
+            max_cap: s.converter.max_capacitance.map_or(f64::INFINITY, |c| c.0),
+            min_cap: s.converter.min_capacitance.0,
+            max_count: s.board.max_count.map_or(f64::INFINITY, |c| c as f64),
+            max_area: s.board.max_area.map_or(f64::INFINITY, |a| a.0),
+            max_lines: s.max_lines() as usize,
+        };
+        let mut lb = Vec::new();
+        let mut ub = Vec::new();
+        let mut required = Vec::new();
+        for (j, p) in parts.iter().enumerate() {
+            let id = &problem.catalog.parts[p.index].id;
+            let req = s.selection.require.get(id).copied().unwrap_or(0);
+            if req > 0 {
+                required.push(j);
+            }
+            lb.push(req.max(1));
+            let mut u = s.selection.max_per_part as f64;
+            if p.c_limit > 0.0 {
+                u = u.min((lim.max_cap / p.c_limit * (1.0 + 1e-12)).floor());
+            }
+            u = u.min(lim.max_count);
+            if p.area > 0.0 {
+                u = u.min((lim.max_area / p.area * (1.0 + 1e-12)).floor());
+            }
+            ub.push(u.max(0.0) as u32);
+        }
+        let q = ev.required_admittance(target);
+        let n = q.len();
+        let mut a = Vec::with_capacity(parts.len() * n);
+        for j in 0..parts.len() {
+            a.extend(ev.admittance_magnitudes(j));
+        }
+        let check_currents = parts.iter().any(|p| p.rating.is_some());
+        Search {
+            catalog_index: candidates.to_vec(),
+            ev,
+            parts,
+            w,
+            line_w,
+            lb,
+            ub,
+            a,
+            q,
+            n,
+            target,
+            lim,
+            required,
+            check_currents,
+            inc: None,
+            evals: 0,
+            sets_solved: 0,
+            bank_buf: Vec::new(),
+        }
+    }
+
+    fn a_row(&self, i: usize) -> &[f64] {
+        &self.a[i * self.n..(i + 1) * self.n]
+    }
+
+    /// Valid lower bound on the primary objective of line set `set`, or
+    /// `None` if the set cannot meet the necessary condition or the limits.
+    fn set_bound(&self, set: &[usize]) -> Option<f64> {
+        if set.iter().any(|&i| self.ub[i] < self.lb[i]) {
+            return None;
+        }
+        let (mut cap, mut cnt, mut area, mut base) = (0.0, 0.0, 0.0, set.len() as f64 * self.line_w[0]);
+        let mut cmin_max = 0.0;
+        for &i in set {
+            let l = self.lb[i] as f64;
+            cap += l * self.parts[i].c_limit;
+            cnt += l;
+            area += l * self.parts[i].area;
+            base += l * self.w[0][i];
+            cmin_max += self.ub[i] as f64 * self.parts[i].c_worst;
+        }
+        if cap > self.lim.max_cap * (1.0 + 1e-12) || cnt > self.lim.max_count || area > self.lim.max_area * (1.0 + 1e-12) {
+            return None;
+        }
+        if cmin_max < self.lim.min_cap {
+            return None;
+        }
+        let mut extra: f64 = 0.0;
+        for k in 0..self.n {
+            let (mut at_lb, mut at_ub, mut best_ratio) = (0.0, 0.0, f64::INFINITY);
+            for &i in set {
+                let ai = self.a[i * self.n + k];
+                at_lb += self.lb[i] as f64 * ai;
+                at_ub += self.ub[i] as f64 * ai;
+                if ai > 0.0 {
+                    best_ratio = best_ratio.min(self.w[0][i] / ai);
+                }
+            }
+            let need = self.q[k];
+            if at_ub < need * (1.0 - 1e-9) {
+                return None;
+            }
+            if need > at_lb {
+                extra = extra.max((need - at_lb) * best_ratio);
+            }
+        }
+        Some(base + extra)
+    }
+
+    fn inc_primary(&self) -> f64 {
+        self.inc.as_ref().map_or(f64::INFINITY, |i| i.0[0])
+    }
+
+    /// Exact check of the bank in `bank_buf`: ripple and ripple currents.
+    fn exact(&mut self) -> Option<f64> {
+        self.evals += 1;
+        let r = self.ev.ripple_check(&self.bank_buf, self.target);
+        if !(r <= self.target) {
+            return None;
+        }
+        if self.check_currents && self.bank_buf.iter().any(|&(i, _)| self.parts[i].rating.is_some()) {
+            let cur = self.ev.part_currents(&self.bank_buf);
+            for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
+                if let Some(r) = self.parts[i].rating {
+                    if cur[j] > r {
+                        return None;
+                    }
+                }
+            }
+        }
+        Some(r)
+    }
+
+    fn key_of(&self, set: &[usize], counts: &[u32]) -> Key {
+        let mut k = [0.0; 3];
+        for j in 0..3 {
+            k[j] = set.len() as f64 * self.line_w[j] + set.iter().zip(counts).map(|(&i, &n)| n as f64 * self.w[j][i]).sum::<f64>();
+        }
+        k
+    }
+
+    /// Cheapest counts for `set` that beat the incumbent (updates it).
+    fn solve_set(&mut self, set: &[usize]) {
+        self.sets_solved += 1;
+        let m = set.len();
+        // rest_ub[d][k] = Σ_{j>d} ub_j a_jk
+        let n = self.n;
+        let mut rest_ub = vec![vec![0.0; n]; m];
+        for d in (0..m.saturating_sub(1)).rev() {
+            let i = set[d + 1];
+            for k in 0..n {
+                rest_ub[d][k] = rest_ub[d + 1][k] + self.ub[i] as f64 * self.a[i * n + k];
+            }
+        }
+        let mut stack = vec![vec![0.0; n]; m + 1];
+        let mut counts = vec![0u32; m];
+        let start = Partial { key0: m as f64 * self.line_w[0], cap: 0.0, cnt: 0.0, area: 0.0, cmin: 0.0 };
+        self.rec(set, 0, start, &mut stack, &mut counts, &rest_ub);
+    }
+
+    fn rec(&mut self, set: &[usize], d: usize, p: Partial, stack: &mut [Vec<f64>], counts: &mut [u32], rest_ub: &[Vec<f64>]) {
+        let m = set.len();
+        let i = set[d];
+        let pm = &self.parts[i];
+        let (c_limit, c_worst, area_i, w0) = (pm.c_limit, pm.c_worst, pm.area, self.w[0][i]);
+        // The later parts at their lower bounds.
+        let (mut rest_key, mut rest_cap, mut rest_cnt, mut rest_area) = (0.0, 0.0, 0.0, 0.0);
+        for &j in &set[d + 1..] {
+            let l = self.lb[j] as f64;
+            rest_key += l * self.w[0][j];
+            rest_cap += l * self.parts[j].c_limit;
+            rest_cnt += l;
+            rest_area += l * self.parts[j].area;
+        }
+        let mut hi = self.ub[i] as f64;
+        if c_limit > 0.0 {
+            hi = hi.min(((self.lim.max_cap - p.cap - rest_cap) / c_limit * (1.0 + 1e-12) + 1e-9).floor());
+        }
+        hi = hi.min(self.lim.max_count - p.cnt - rest_cnt);
+        if area_i > 0.0 {
+            hi = hi.min(((self.lim.max_area - p.area - rest_area) / area_i * (1.0 + 1e-12) + 1e-9).floor());
+        }
+        let lo = self.lb[i] as f64;
+        if hi < lo {
+            return;
+        }
+        let hi = hi as u32;
+        if d + 1 == m {
+            let cur = &stack[d];
+            // Smallest count the necessary condition allows.
+            let mut need = lo;
+            let row = &self.a[i * self.n..(i + 1) * self.n];
+            for k in 0..self.n {
+                let deficit = self.q[k] - cur[k];
+                if deficit > 0.0 {
+                    if row[k] <= 0.0 {
+                        return;
+                    }
+                    need = need.max(deficit / row[k] - 1e-9);
+                }
+            }
+            if self.lim.min_cap > p.cmin && c_worst > 0.0 {
+                need = need.max((self.lim.min_cap - p.cmin) / c_worst - 1e-9);
+            }
+            let need = need.ceil().max(lo);
+            if need > hi as f64 {
+                return;
+            }
+            for c in need as u32..=hi {
+                let key0 = p.key0 + c as f64 * w0;
+                let inc0 = self.inc_primary();
+                if key0 > inc0 + tol(key0, inc0) {
+                    break;
+                }
+                counts[d] = c;
+                self.bank_buf.clear();
+                self.bank_buf.extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
+                if let Some(r) = self.exact() {
+                    let key = self.key_of(set, counts);
+                    if self.inc.as_ref().is_none_or(|inc| better(&key, &inc.0)) {
+                        self.inc = Some((key, self.bank_buf.clone(), r));
+                    }
+                    break;
+                }
+            }
+            return;
+        }
+        let row_start = i * self.n;
+        'outer: for c in lo as u32..=hi {
+            let key0 = p.key0 + c as f64 * w0 + rest_key;
+            let inc0 = self.inc_primary();
+            if key0 > inc0 + tol(key0, inc0) {
+                break;
+            }
+            let cf = c as f64;
+            let mut ok = true;
+            let (head, tail) = stack.split_at_mut(d + 1);
+            let (cur, next) = (&head[d], &mut tail[0]);
+            for k in 0..self.n {
+                let v = cur[k] + cf * self.a[row_start + k];
+                next[k] = v;
+                if v + rest_ub[d][k] < self.q[k] * (1.0 - 1e-9) {
+                    ok = false;
+                }
+            }
+            if !ok {
+                continue 'outer;
+            }
+            counts[d] = c;
+            let np = Partial {
+                key0: p.key0 + cf * w0,
+                cap: p.cap + cf * c_limit,
+                cnt: p.cnt + cf,
+                area: p.area + cf * area_i,
+                cmin: p.cmin + cf * c_worst,
+            };
+            self.rec(set, d + 1, np, stack, counts, rest_ub);
+        }
+    }
+}
+
+#[derive(Clone, Copy)]
+struct Partial {
+    key0: f64,
+    cap: f64,
+    cnt: f64,
+    area: f64,
+    cmin: f64,
+}
+
+/// Drop parts that another candidate dominates.
+fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>, usize) {
+    let models: Vec<PartModel> = cands.iter().map(|&i| problem.part_model(i)).collect();
+    let req = &problem.scenario.selection.require;
+    let mut keep = vec![true; cands.len()];
+    let mut order: Vec<usize> = (0..cands.len()).collect();
+    // Group electrically identical parts.
+    order.sort_by(|&x, &y| {
+        let (a, b) = (&models[x], &models[y]);
+        (a.c_worst, a.c_typical, a.esr, a.esl).partial_cmp(&(b.c_worst, b.c_typical, b.esr, b.esl)).unwrap().then(x.cmp(&y))
+    });
+    let same = |a: &PartModel, b: &PartModel| a.c_worst == b.c_worst && a.c_typical == b.c_typical && a.esr == b.esr && a.esl == b.esl;
+    let mut g = 0;
+    while g < order.len() {
+        let mut h = g + 1;
+        while h < order.len() && same(&models[order[g]], &models[order[h]]) {
+            h += 1;
+        }
+        for x in g..h {
+            for y in g..h {
+                if x == y || !keep[order[y]] {
+                    continue;
+                }
+                let (a, b) = (&models[order[x]], &models[order[y]]);
+                if req.contains_key(&problem.catalog.parts[b.index].id) {
+                    continue;
+                }
+                let rating_ok = match (a.rating, b.rating) {
+                    (None, _) => true,
+                    (Some(_), None) => false,
+                    (Some(ra), Some(rb)) => ra >= rb,
+                };
+                let no_worse = a.cost <= b.cost && a.area <= b.area && a.c_limit <= b.c_limit && rating_ok;
+                let strictly = a.cost < b.cost || a.area < b.area || a.c_limit < b.c_limit || a.rating != b.rating || order[x] < order[y];
+                if no_worse && strictly && keep[order[x]] {
+                    keep[order[y]] = false;
+                }
+            }
+        }
+        g = h;
+    }
+    let kept: Vec<usize> = cands.iter().zip(&keep).filter(|(_, &k)| k).map(|(&c, _)| c).collect();
+    let n = cands.len() - kept.len();
+    (kept, n)
+}
+
+fn binomial_sum(n: usize, k: usize) -> usize {
+    let mut total: usize = 0;
+    let mut c: usize = 1;
+    for j in 1..=k.min(n) {
+        c = c.saturating_mul(n + 1 - j) / j;
+        total = total.saturating_add(c);
+    }
+    total
+}
+
+/// All line sets: the required parts plus up to `free` others from `pool`.
+fn line_sets(required: &[usize], pool: &[usize], free: usize) -> Vec<Vec<usize>> {
+    let others: Vec<usize> = pool.iter().copied().filter(|i| !required.contains(i)).collect();
+    let mut out = Vec::new();
+    if !required.is_empty() {
+        out.push(required.to_vec());
+    }
+    let mut cur: Vec<usize> = Vec::new();
+    fn go(others: &[usize], start: usize, left: usize, cur: &mut Vec<usize>, req: &[usize], out: &mut Vec<Vec<usize>>) {
+        for j in start..others.len() {
+            cur.push(others[j]);
+            let mut s: Vec<usize> = req.to_vec();
+            s.extend_from_slice(cur);
+            out.push(s);
+            if left > 1 {
+                go(others, j + 1, left - 1, cur, req, out);
+            }
+            cur.pop();
+        }
+    }
+    if free > 0 {
+        go(&others, 0, free, &mut cur, required, &mut out);
+    }
+    out
+}
+
+fn bar(show: bool, len: usize, msg: &str) -> ProgressBar {
+    if !show {
+        return ProgressBar::hidden();
+    }
+    let pb = ProgressBar::new(len as u64);
+    pb.set_style(ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} line sets ({elapsed})").expect("template").progress_chars("=> "));
+    pb.set_message(msg.to_string());
+    pb
+}
+
+/// Find the best bank for the scenario's target.
+pub fn design(problem: &Problem, settings: &Settings) -> Outcome {
+    design_for(problem, problem.scenario.target.ripple_pp.0, settings)
+}
+
+/// Find the best bank for a given ripple target.
+pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcome {
+    let t0 = Instant::now();
+    let (cands, dominated) = prune_dominated(problem, &problem.eligible);
+    let mut stats = Stats { candidates: cands.len(), dominated, ..Default::default() };
+    let mut found: Option<Found> = None;
+    let mut exhaustive = false;
+    if !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
+        let mut s = Search::new(problem, &cands, target);
+        // The converter alone (no added parts), when it has capacitance of its own.
+        if s.required.is_empty() && problem.scenario.converter.internal_capacitance.is_some() && s.lim.min_cap <= 0.0 {
+            s.bank_buf.clear();
+            if let Some(r) = s.exact() {
+                s.inc = Some(([0.0; 3], Vec::new(), r));
+            }
+        }
+        let free = s.lim.max_lines.saturating_sub(s.required.len());
+        let all: Vec<usize> = (0..s.parts.len()).collect();
+        let total = binomial_sum(all.len() - s.required.len(), free) + usize::from(!s.required.is_empty());
+        stats.line_sets_total = total;
+        if s.required.len() <= s.lim.max_lines {
+            if total <= settings.exhaustive_limit {
+                let sets = line_sets(&s.required, &all, free);
+                run_sets(&mut s, sets, settings, "design");
+                exhaustive = true;
+            } else {
+                let pool = pool(&s, settings.pool);
+                let sets = line_sets(&s.required, &pool, free);
+                run_sets(&mut s, sets, settings, "design (pool)");
+                neighbourhood(&mut s, settings);
+            }
+        }
+        stats.evaluations = s.evals;
+        stats.line_sets_solved = s.sets_solved;
+        if let Some((key, bank, r)) = s.inc.take() {
+            found = Some(Found { bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(), key, ripple_pp: r });
+        }
+    }
+    stats.exhaustive = exhaustive;
+    let status = match (&found, exhaustive) {
+        (Some(_), true) => Status::Optimal,
+        (Some(_), false) => Status::Feasible,
+        (None, _) => Status::Infeasible,
+    };
+    let mut out = Outcome { status, found, best_ripple_pp: None, best_ripple_bank: None, binding: Vec::new(), stats };
+    if status == Status::Infeasible {
+        let (r, bank) = min_ripple(problem, &cands);
+        out.best_ripple_pp = r.is_finite().then_some(r);
+        out.best_ripple_bank = bank;
+        if settings.explain {
+            out.binding = binding(problem, target);
+        }
+    }
+    out.stats.seconds = t0.elapsed().as_secs_f64();
+    out
+}
+
+fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &str) {
+    let mut bounded: Vec<(f64, Vec<usize>)> = sets.into_iter().filter_map(|set| s.set_bound(&set).map(|b| (b, set))).collect();
+    bounded.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap().then(x.1.len().cmp(&y.1.len())));
+    let pb = bar(settings.progress, bounded.len(), msg);
+    for (j, (b, set)) in bounded.iter().enumerate() {
+        let inc0 = s.inc_primary();
+        if *b > inc0 + tol(*b, inc0) {
+            break;
+        }
+        s.solve_set(set);
+        if j % 64 == 0 {
+            pb.set_position(j as u64);
+        }
+    }
+    pb.finish_and_clear();
+}
+
+/// The most promising parts for a large catalog: for each harmonic where
+/// the target asks for admittance, the parts with the most admittance per
+/// unit of objective; ranked by how often they are near the top.
+fn pool(s: &Search, size: usize) -> Vec<usize> {
+    let p = s.parts.len();
+    let mut score = vec![0.0_f64; p];
+    let active: Vec<usize> = (0..s.n).filter(|&k| s.q[k] > 0.0).collect();
+    let step = (active.len() / 64).max(1);
+    let mut idx: Vec<usize> = (0..p).collect();
+    for &k in active.iter().step_by(step) {
+        idx.sort_by(|&x, &y| {
+            let ex = s.a[x * s.n + k] / s.w[0][x].max(1e-12);
+            let ey = s.a[y * s.n + k] / s.w[0][y].max(1e-12);
+            ey.partial_cmp(&ex).unwrap()
+        });
+        for (rank, &i) in idx.iter().take(size).enumerate() {
+            score[i] += 1.0 / (1.0 + rank as f64);
+        }
+    }
+    // Parts able to meet the condition alone at their largest count.
+    for i in 0..p {
+        if active.iter().all(|&k| s.ub[i] as f64 * s.a[i * s.n + k] >= s.q[k]) {
+            score[i] += 0.5;
+        }
+    }
+    let mut order: Vec<usize> = (0..p).collect();
+    order.sort_by(|&x, &y| score[y].partial_cmp(&score[x]).unwrap());
+    let mut out: Vec<usize> = order.into_iter().take(size).collect();
+    for &r in &s.required {
+        if !out.contains(&r) {
+            out.push(r);
+        }
+    }
+    out
+}
+
+/// Swap, add or remove one part of the incumbent's line set while that improves.
+fn neighbourhood(s: &mut Search, settings: &Settings) {
+    loop {
+        let Some((key, bank, _)) = s.inc.clone() else { return };
+        let cur: Vec<usize> = bank.iter().map(|b| b.0).collect();
+        let mut sets: Vec<Vec<usize>> = Vec::new();
+        let p = s.parts.len();
+        for (j, &i) in cur.iter().enumerate() {
+            if s.required.contains(&i) {
+                continue;
+            }
+            let mut r = cur.clone();
+            r.remove(j);
+            if !r.is_empty() {
+                sets.push(r.clone());
+            }
+            for x in 0..p {
+                if !cur.contains(&x) {
+                    let mut t = r.clone();
+                    t.push(x);
+                    sets.push(t);
+                }
+            }
+        }
+        if cur.len() < s.lim.max_lines {
+            for x in 0..p {
+                if !cur.contains(&x) {
+                    let mut t = cur.clone();
+                    t.push(x);
+                    sets.push(t);
+                }
+            }
+        }
+        run_sets(s, sets, settings, "design (neighbourhood)");
+        match &s.inc {
+            Some((k2, _, _)) if better(k2, &key) => continue,
+            _ => return,
+        }
+    }
+}
+
+/// The lowest worst-corner ripple any bank allowed by the other limits
+/// reaches (searched, not proven), and that bank.
+pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize, u32)>>) {
+    if cands.is_empty() {
+        return (f64::INFINITY, None);
+    }
+    let mut s = Search::new(problem, cands, f64::INFINITY);
+    let free = s.lim.max_lines.saturating_sub(s.required.len());
+    let all: Vec<usize> = (0..s.parts.len()).collect();
+    let sets = if binomial_sum(all.len(), free) <= 20_000 {
+        line_sets(&s.required.clone(), &all, free)
+    } else {
+        // Rank parts by their admittance at the most demanding harmonic.
+        let mut order = all.clone();
+        let k = (0..s.n).max_by(|&x, &y| s.q[x].partial_cmp(&s.q[y]).unwrap()).unwrap_or(0);
+        order.sort_by(|&x, &y| (s.ub[y] as f64 * s.a[y * s.n + k]).partial_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k])).unwrap());
+        order.truncate(24);
+        line_sets(&s.required.clone(), &order, free)
+    };
+    // Optimistic floor per set, then greedy descent in floor order.
+    let mut floored: Vec<(f64, Vec<usize>)> = sets
+        .into_iter()
+        .filter(|set| set.iter().all(|&i| s.ub[i] >= s.lb[i]))
+        .map(|set| {
+            let mut sum = vec![0.0; s.n];
+            for &i in &set {
+                for k in 0..s.n {
+                    sum[k] += s.ub[i] as f64 * s.a[i * s.n + k];
+                }
+            }
+            (s.ev.ripple_floor_for(&sum), set)
+        })
+        .collect();
+    floored.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap());
+    let mut best = f64::INFINITY;
+    let mut best_bank = None;
+    for (floor, set) in floored.iter().take(4000) {
+        if *floor >= best {
+            break;
+        }
+        if let Some((r, bank)) = descend(&mut s, set) {
+            if r < best {
+                best = r;
+                best_bank = Some(bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect());
+            }
+        }
+    }
+    (best, best_bank)
+}
+
+/// Greedy: from the lower bounds, add the part that lowers the ripple most
+/// while the limits allow; stop when nothing helps.
+fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
+    let mut counts: Vec<u32> = set.iter().map(|&i| s.lb[i]).collect();
+    let fits = |s: &Search, counts: &[u32]| -> bool {
+        let (mut cap, mut cnt, mut area) = (0.0, 0.0, 0.0);
+        for (&i, &n) in set.iter().zip(counts) {
+            cap += n as f64 * s.parts[i].c_limit;
+            cnt += n as f64;
+            area += n as f64 * s.parts[i].area;
+            if n > s.ub[i] {
+                return false;
+            }
+        }
+        cap <= s.lim.max_cap * (1.0 + 1e-12) && cnt <= s.lim.max_count && area <= s.lim.max_area * (1.0 + 1e-12)
+    };
+    if !fits(s, &counts) {
+        return None;
+    }
+    let mut eval = |s: &mut Search, counts: &[u32]| -> f64 {
+        s.bank_buf.clear();
+        s.bank_buf.extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
+        s.evals += 1;
+        s.ev.ripple_pp(&s.bank_buf.clone(), crate::bank::Corner::Worst, crate::bank::Band::Limited)
+    };
+    let mut cur = eval(s, &counts);
+    loop {
+        let mut best: Option<(f64, usize)> = None;
+        for j in 0..set.len() {
+            counts[j] += 1;
+            if fits(s, &counts) {
+                let r = eval(s, &counts);
+                if r < cur && best.is_none_or(|b| r < b.0) {
+                    best = Some((r, j));
+                }
+            }
+            counts[j] -= 1;
+        }
+        match best {
+            Some((r, j)) => {
+                counts[j] += 1;
+                cur = r;
+            }
+            None => break,
+        }
+    }
+    Some((cur, set.iter().zip(&counts).map(|(&a, &b)| (a, b)).collect()))
+}
+
+/// Relax each limit in turn; those whose removal lets the target be met bind.
+pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
+    use crate::scenario::{Plain, Scenario};
+    let base = &problem.scenario;
+    type Relax = Box<dyn Fn(&mut Scenario)>;
+    let mut tries: Vec<(&str, Relax)> = Vec::new();
+    if base.converter.max_capacitance.is_some() {
+        tries.push(("max_capacitance", Box::new(|s: &mut Scenario| s.converter.max_capacitance = None)));
+    }
+    if base.board.max_count.is_some() {
+        tries.push(("max_count", Box::new(|s: &mut Scenario| s.board.max_count = None)));
+    }
+    if base.board.max_area.is_some() {
+        tries.push(("max_area", Box::new(|s: &mut Scenario| s.board.max_area = None)));
+    }
+    tries.push(("max_lines", Box::new(|s: &mut Scenario| s.board.max_lines = Some(s.max_lines() + 2))));
+    tries.push(("max_per_part", Box::new(|s: &mut Scenario| s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000))));
+    if base.board.max_height.is_some() {
+        tries.push(("max_height", Box::new(|s: &mut Scenario| s.board.max_height = Some(Plain(1e9)))));
+    }
+    if !base.selection.exclude.is_empty() {
+        tries.push(("exclude", Box::new(|s: &mut Scenario| s.selection.exclude.clear())));
+    }
+    if !base.selection.allow_nrnd {
+        tries.push(("status nrnd", Box::new(|s: &mut Scenario| s.selection.allow_nrnd = true)));
+    }
+    if !base.selection.require.is_empty() {
+        tries.push(("require", Box::new(|s: &mut Scenario| s.selection.require.clear())));
+    }
+    if base.converter.min_capacitance.0 > 0.0 {
+        tries.push(("min_capacitance", Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0)));
+    }
+    let mut out = Vec::new();
+    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false };
+    for (name, relax) in tries {
+        let mut sc = base.clone();
+        relax(&mut sc);
+        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else { continue };
+        if design_for(&p, target, &quick).found.is_some() {
+            out.push(name.to_string());
+        }
+    }
+    // Ripple-current ratings: ignore them.
+    let mut p = Problem { scenario: base.clone(), catalog: problem.catalog.clone(), eligible: problem.eligible.clone(), excluded: vec![], ops: problem.ops.clone(), warnings: vec![] };
+    if p.eligible.iter().any(|&i| p.catalog.parts[i].ripple_current.is_some()) {
+        for part in p.catalog.parts.iter_mut() {
+            part.ripple_current = None;
+        }
+        if design_for(&p, target, &quick).found.is_some() {
+            out.push("ripple_current".into());
+        }
+    }
+    if out.is_empty() {
+        out.push("ripple_pp (no single limit's removal makes the target reachable: the catalog's parts cannot reach it)".into());
+    }
+    out
+}
