@@ -88,11 +88,16 @@ pub struct Evaluator {
     y_typical: Vec<Complex64>,
     plan_limited: Plan,
     plan_full: Plan,
+    /// Coarse inverse FFT: every `m / SUB` th sample of the target figure.
+    plan_sub: Arc<dyn Fft<f64>>,
     // Scratch, reused by every call.
     zt: Vec<Complex64>,
     buf: Vec<Complex64>,
     fft_scratch: Vec<Complex64>,
 }
+
+/// Samples per period of the coarse pass in [`Evaluator::ripple_check`].
+const SUB: usize = 512;
 
 fn samples_for(n: usize) -> usize {
     (8 * n).max(4096).next_power_of_two()
@@ -131,7 +136,12 @@ impl Evaluator {
         };
         let plan_limited = mk(n_limited, &mut planner);
         let plan_full = mk(n_full, &mut planner);
-        let scratch_len = plan_limited.fft.get_inplace_scratch_len().max(plan_full.fft.get_inplace_scratch_len());
+        let plan_sub = planner.plan_fft_inverse(SUB);
+        let scratch_len = plan_limited
+            .fft
+            .get_inplace_scratch_len()
+            .max(plan_full.fft.get_inplace_scratch_len())
+            .max(plan_sub.get_inplace_scratch_len());
         let mut ev = Evaluator {
             parts: Vec::new(),
             f_ripple,
@@ -151,6 +161,7 @@ impl Evaluator {
             fft_scratch: vec![Complex64::default(); scratch_len],
             plan_limited,
             plan_full,
+            plan_sub,
         };
         if c.topology == Topology::Module {
             // Scale each corner's unit triangle so that the internal bank
@@ -315,7 +326,27 @@ impl Evaluator {
         if floor > limit {
             return floor;
         }
+        // Coarse pass: the samples at every (M/SUB)-th instant are the
+        // inverse FFT of size SUB of the spectrum folded modulo SUB, and a
+        // subset of the samples has a peak-to-peak no larger than all of them.
         let mut worst: f64 = floor;
+        for c in 0..self.currents.len() {
+            let sub = &mut self.buf[..SUB];
+            sub.iter_mut().for_each(|x| *x = Complex64::default());
+            for k in 0..n {
+                sub[(k + 1) % SUB] += self.drive_limited[c][k] * self.zt[k];
+            }
+            self.plan_sub.process_with_scratch(sub, &mut self.fft_scratch);
+            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+            for x in sub.iter() {
+                lo = lo.min(x.re);
+                hi = hi.max(x.re);
+            }
+            worst = worst.max(hi - lo);
+            if worst > limit {
+                return worst;
+            }
+        }
         for c in 0..self.currents.len() {
             for k in 0..n {
                 self.buf[k + 1] = self.drive_limited[c][k] * self.zt[k];
@@ -353,6 +384,20 @@ impl Evaluator {
             best = best.max(if y > 0.0 { d / y } else { f64::INFINITY });
         }
         best
+    }
+
+    /// Per harmonic of the target figure: r_k = max over corners of
+    /// |D_k| / target (the total admittance a passing bank must have at k),
+    /// G_k = 1 + jωLc·Y_int and Y_int, so that Y_tot = Y_b·G_k + Y_int.
+    pub fn phase_terms(&self, target: f64) -> Vec<(f64, Complex64, Complex64)> {
+        (0..self.n_limited)
+            .map(|k| {
+                let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+                let w = 2.0 * PI * self.freqs[k];
+                let yi = self.y_int[k];
+                (d / target, Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi, yi)
+            })
+            .collect()
     }
 
     fn internal_terms(&self, k: usize) -> (f64, f64) {

@@ -28,6 +28,7 @@
 //!    ones that bind.
 
 use crate::bank::{Evaluator, PartModel};
+use num_complex::Complex64;
 use crate::problem::Problem;
 use crate::scenario::Objective;
 use indicatif::{ProgressBar, ProgressStyle};
@@ -147,6 +148,10 @@ struct Search {
     /// |Y_ik| of each part, n harmonics each.
     a: Vec<f64>,
     q: Vec<f64>,
+    /// Complex admittance Y_ik per part (worst corner), n harmonics each.
+    y: Vec<Complex64>,
+    /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
+    phase: Vec<(f64, Complex64, Complex64)>,
     n: usize,
     target: f64,
     lim: Limits,
@@ -218,7 +223,16 @@ impl Search {
             a.extend(ev.admittance_magnitudes(j));
         }
         let check_currents = parts.iter().any(|p| p.rating.is_some());
+        let mut y = Vec::with_capacity(parts.len() * n);
+        for j in 0..parts.len() {
+            for k in 0..n {
+                y.push(ev.y(j, k, crate::bank::Corner::Worst));
+            }
+        }
+        let phase = ev.phase_terms(target);
         Search {
+            y,
+            phase,
             catalog_index: candidates.to_vec(),
             ev,
             parts,
@@ -334,12 +348,56 @@ impl Search {
             }
         }
         let mut stack = vec![vec![0.0; n]; m + 1];
+        let mut cstack = vec![vec![Complex64::default(); n]; m + 1];
         let mut counts = vec![0u32; m];
         let start = Partial { key0: m as f64 * self.line_w[0], cap: 0.0, cnt: 0.0, area: 0.0, cmin: 0.0 };
-        self.rec(set, 0, start, &mut stack, &mut counts, &rest_ub);
+        self.rec(set, 0, start, &mut stack, &mut cstack, &mut counts, &rest_ub);
     }
 
-    fn rec(&mut self, set: &[usize], d: usize, p: Partial, stack: &mut [Vec<f64>], counts: &mut [u32], rest_ub: &[Vec<f64>]) {
+    /// Smallest count c ≥ lo of part i such that, with the other parts'
+    /// admittance `sum` fixed, every harmonic meets |Y_tot,k| ≥ r_k exactly
+    /// (phases kept): |A + c·B|² ≥ r² is a quadratic in c whose failing set
+    /// is one open interval. `None` if no count up to `hi` does.
+    fn phase_need(&self, i: usize, sum: &[Complex64], lo: f64, hi: f64) -> Option<f64> {
+        let n = self.n;
+        let row = &self.y[i * n..(i + 1) * n];
+        let mut c = lo;
+        loop {
+            let mut moved = false;
+            for k in 0..n {
+                let (r, g, yi) = self.phase[k];
+                let a_ = sum[k] * g + yi;
+                let b_ = row[k] * g;
+                let qa = b_.norm_sqr();
+                let qb = 2.0 * (a_ * b_.conj()).re;
+                let qc = a_.norm_sqr() - r * r;
+                let val = (qa * c + qb) * c + qc;
+                if val >= -1e-9 * r * r {
+                    continue;
+                }
+                if qa <= 0.0 {
+                    return None;
+                }
+                let disc = qb * qb - 4.0 * qa * qc;
+                if disc <= 0.0 {
+                    continue;
+                }
+                let x2 = (-qb + disc.sqrt()) / (2.0 * qa);
+                let next = (x2 - 1e-9 * x2.abs().max(1.0)).ceil().max(c + 1.0);
+                if next > hi {
+                    return None;
+                }
+                c = next;
+                moved = true;
+            }
+            if !moved {
+                return Some(c);
+            }
+        }
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    fn rec(&mut self, set: &[usize], d: usize, p: Partial, stack: &mut [Vec<f64>], cstack: &mut [Vec<Complex64>], counts: &mut [u32], rest_ub: &[Vec<f64>]) {
         let m = set.len();
         let i = set[d];
         let pm = &self.parts[i];
@@ -387,7 +445,11 @@ impl Search {
             if need > hi as f64 {
                 return;
             }
+            let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else { return };
             for c in need as u32..=hi {
+                if (c as f64) < next_ok {
+                    continue;
+                }
                 let key0 = p.key0 + c as f64 * w0;
                 let inc0 = self.inc_primary();
                 if key0 > inc0 + tol(key0, inc0) {
@@ -403,6 +465,10 @@ impl Search {
                     }
                     break;
                 }
+                match self.phase_need(i, &cstack[d], c as f64 + 1.0, hi as f64) {
+                    Some(x) => next_ok = x,
+                    None => return,
+                }
             }
             return;
         }
@@ -417,6 +483,13 @@ impl Search {
             let mut ok = true;
             let (head, tail) = stack.split_at_mut(d + 1);
             let (cur, next) = (&head[d], &mut tail[0]);
+            {
+                let (ch, ct) = cstack.split_at_mut(d + 1);
+                let yrow = &self.y[row_start..row_start + self.n];
+                for ((nx, cu), y) in ct[0].iter_mut().zip(&ch[d]).zip(yrow) {
+                    *nx = cu + y * cf;
+                }
+            }
             for k in 0..self.n {
                 let v = cur[k] + cf * self.a[row_start + k];
                 next[k] = v;
@@ -435,7 +508,7 @@ impl Search {
                 area: p.area + cf * area_i,
                 cmin: p.cmin + cf * c_worst,
             };
-            self.rec(set, d + 1, np, stack, counts, rest_ub);
+            self.rec(set, d + 1, np, stack, cstack, counts, rest_ub);
         }
     }
 }
