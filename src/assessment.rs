@@ -82,6 +82,10 @@ pub struct Assessment {
     pub warnings: Vec<String>,
 }
 
+/// The most parts of one line a bank may hold (far beyond any real bank; it
+/// keeps every count and sum within `u32`).
+pub const MAX_COUNT_PER_PART: u32 = 100_000;
+
 /// Parse `PART=N,PART=N` into catalog indices and counts.
 pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>> {
     let mut out: Vec<(usize, u32)> = Vec::new();
@@ -95,6 +99,9 @@ pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>
             bail!("--bank: part `{id}` is not in the catalog {}", problem.catalog.source);
         };
         add(&mut out, i, n);
+        if out.iter().any(|&(_, n)| n > MAX_COUNT_PER_PART) {
+            bail!("--bank: more than {MAX_COUNT_PER_PART} of `{id}` is not a bank");
+        }
     }
     if out.is_empty() {
         bail!("--bank: no parts given (write PART=N,PART=N)");
@@ -104,7 +111,7 @@ pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>
 
 fn add(out: &mut Vec<(usize, u32)>, i: usize, n: u32) {
     match out.iter_mut().find(|(j, _)| *j == i) {
-        Some(e) => e.1 += n,
+        Some(e) => e.1 = e.1.saturating_add(n),
         None => out.push((i, n)),
     }
 }
@@ -113,10 +120,13 @@ fn add(out: &mut Vec<(usize, u32)>, i: usize, n: u32) {
 pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
     let src = path.display().to_string();
     let bytes = std::fs::read(path).map_err(|e| anyhow::anyhow!("{src}: cannot read the bill of materials: {e}"))?;
-    let text = String::from_utf8(bytes).map_err(|_| anyhow::anyhow!("{src}: not UTF-8 text"))?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let (line, column) = crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
+        anyhow::anyhow!("{src}: line {line}, column {column}: not UTF-8 text; a bill of materials is CSV text")
+    })?;
     let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
     if text.trim().is_empty() {
-        bail!("{src}: the bill of materials is empty (it needs columns `part` and `count`)");
+        bail!("{src}: line 1: the bill of materials is empty (it needs columns `part` and `count`)");
     }
     let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).flexible(true).from_reader(text.as_bytes());
     let headers: Vec<String> = rdr
@@ -128,9 +138,10 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
     let pc = headers.iter().position(|h| h == "part").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `part` is missing"))?;
     let cc = headers.iter().position(|h| h == "count").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `count` is missing"))?;
     let mut out: Vec<(String, u32, u64)> = Vec::new();
+    let mut lines = crate::catalog::LineCounter::new(text.as_bytes());
     for rec in rdr.records() {
-        let rec = rec.map_err(|e| anyhow::anyhow!("{src}: {e}"))?;
-        let line = rec.position().map_or(0, |p| p.line());
+        let rec = rec.map_err(|e| anyhow::anyhow!("{src}: line {}: {e}", lines.line(e.position())))?;
+        let line = lines.line(rec.position());
         if rec.iter().all(|f| f.is_empty()) {
             continue;
         }
@@ -139,17 +150,28 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
             bail!("{src}: line {line}, column {} (part): empty part id", pc + 1);
         }
         let cs = rec.get(cc).unwrap_or("");
+        if cs.is_empty() {
+            bail!("{src}: line {line}, column {} (count): the count of `{part}` is empty", cc + 1);
+        }
         let count: u32 = cs
             .parse()
             .map_err(|_| anyhow::anyhow!("{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts", cc + 1))?;
-        if let Some(e) = out.iter_mut().find(|e| e.0 == part) {
-            e.1 += count;
-        } else {
-            out.push((part, count, line));
+        let total = match out.iter_mut().find(|e| e.0 == part) {
+            Some(e) => {
+                e.1 = e.1.saturating_add(count);
+                e.1
+            }
+            None => {
+                out.push((part, count, line));
+                count
+            }
+        };
+        if total > MAX_COUNT_PER_PART {
+            bail!("{src}: line {line}, column {} (count): more than {MAX_COUNT_PER_PART} of one part is not a bank", cc + 1);
         }
     }
     if out.is_empty() {
-        bail!("{src}: the bill of materials lists no parts");
+        bail!("{src}: line 1: the bill of materials has a header row but lists no parts below it");
     }
     Ok(out)
 }
@@ -159,7 +181,7 @@ pub fn bom_to_bank(problem: &Problem, bom: &[(String, u32, u64)], src: &str) -> 
     let mut out = Vec::new();
     for (id, n, line) in bom {
         let Some(i) = problem.catalog.position(id) else {
-            bail!("{src}: line {line}: part `{id}` is not in the catalog {}", problem.catalog.source);
+            bail!("{src}: line {line}, column `part`: part `{id}` is not in the catalog {}", problem.catalog.source);
         };
         add(&mut out, i, *n);
     }

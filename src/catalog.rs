@@ -357,8 +357,9 @@ impl Catalog {
         let text = match std::str::from_utf8(bytes) {
             Ok(t) => t.to_string(),
             Err(e) => {
-                if bytes.contains(&0) {
-                    bail!("{source}: not a text file (it holds NUL bytes); a catalog is CSV text");
+                if let Some(at) = bytes.iter().position(|&b| b == 0) {
+                    let (line, column) = text_position(bytes, at);
+                    bail!("{source}: line {line}, column {column}: a NUL byte: this is not a text file; a catalog is CSV text");
                 }
                 // Spreadsheet exports are often Windows-1252/Latin-1: decode
                 // those byte for byte rather than refuse them.
@@ -368,7 +369,7 @@ impl Catalog {
         };
         let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
         if text.trim().is_empty() {
-            bail!("{source}: the catalog is empty (it needs a header row and at least one part)");
+            bail!("{source}: line 1: the catalog is empty (it needs a header row and at least one part)");
         }
         let first_line = text.lines().next().unwrap_or("");
         let semicolon = first_line.matches(';').count() > first_line.matches(',').count();
@@ -408,17 +409,27 @@ impl Catalog {
             ..Default::default()
         };
         let mut warned_tol = 0usize;
+        let mut lines = LineCounter::new(text.as_bytes());
         for rec in rdr.records() {
             let rec = rec.map_err(|e| {
-                let line = e.position().map(|p| p.line()).unwrap_or(0);
+                let line = lines.line(e.position());
                 match e.kind() {
-                    csv::ErrorKind::UnequalLengths { expected_len, len, .. } => anyhow::anyhow!(
-                        "{source}: line {line}: {len} fields where the header has {expected_len}"
-                    ),
+                    csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
+                        let (len, expected_len) = (*len as usize, *expected_len as usize);
+                        let what = if len > expected_len {
+                            format!("{len} fields where the header has {expected_len}; a comma inside a value needs double quotes")
+                        } else {
+                            format!(
+                                "{len} fields where the header has {expected_len}: `{}` and later columns are missing",
+                                headers.get(len).map_or("", String::as_str)
+                            )
+                        };
+                        anyhow::anyhow!("{source}: line {line}, column {}: {what}", len.min(expected_len) + 1)
+                    }
                     _ => anyhow::anyhow!("{source}: line {line}: {e}"),
                 }
             })?;
-            let line = rec.position().map(|p| p.line()).unwrap_or(0);
+            let line = lines.line(rec.position());
             if rec.iter().all(|f| f.is_empty()) {
                 continue;
             }
@@ -440,7 +451,7 @@ impl Catalog {
             cat.parts.push(part);
         }
         if cat.parts.is_empty() {
-            bail!("{source}: the catalog has a header but no parts");
+            bail!("{source}: line 1: the catalog has a header row but no parts below it");
         }
         if warned_tol > 0 {
             cat.warnings.push(format!(
@@ -448,6 +459,49 @@ impl Catalog {
             ));
         }
         Ok(cat)
+    }
+}
+
+/// 1-based line and column (in characters, bytes past ASCII counted one
+/// each) of byte offset `at`.
+pub(crate) fn text_position(bytes: &[u8], at: usize) -> (usize, usize) {
+    let before = &bytes[..at.min(bytes.len())];
+    let line = before.iter().filter(|&&b| b == b'\n').count() + 1;
+    let start = before.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
+    (line, at - start + 1)
+}
+
+/// True 1-based line numbers of CSV records. The `csv` crate's own
+/// `Position::line` miscounts after CRLF line ends and blank lines (its byte
+/// offset points at the end of the previous record), so the line is counted
+/// here from the byte offset, skipping the line ends and blank lines before
+/// the record. Offsets must be asked in rising order (one pass over the text).
+pub(crate) struct LineCounter<'a> {
+    text: &'a [u8],
+    at: usize,
+    line: u64,
+}
+
+impl<'a> LineCounter<'a> {
+    pub(crate) fn new(text: &'a [u8]) -> Self {
+        LineCounter { text, at: 0, line: 1 }
+    }
+
+    /// Line on which the record at `pos` starts (0 when unknown).
+    pub(crate) fn line(&mut self, pos: Option<&csv::Position>) -> u64 {
+        let Some(pos) = pos else { return 0 };
+        let mut start = (pos.byte() as usize).min(self.text.len());
+        while start < self.text.len() && matches!(self.text[start], b'\r' | b'\n') {
+            start += 1;
+        }
+        if start < self.at {
+            // Not expected; count again from the beginning.
+            self.at = 0;
+            self.line = 1;
+        }
+        self.line += self.text[self.at..start].iter().filter(|&&b| b == b'\n').count() as u64;
+        self.at = start;
+        self.line
     }
 }
 

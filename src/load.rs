@@ -27,7 +27,17 @@ pub fn scenario_and_catalog(scenario: Option<&Path>, catalog: Option<&Path>) -> 
     };
     let c = match (catalog, scenario, s.catalog_path()) {
         (Some(c), _, _) => Catalog::from_path(c)?,
-        (None, Some(_), Some(p)) => Catalog::from_path(&p)?,
+        (None, Some(_), Some(p)) => {
+            if !p.is_file() {
+                bail!(
+                    "{}: key `catalog`: `{}` (that is {}) is not a readable file; fix the path (relative to the scenario) or give --catalog",
+                    s.source,
+                    s.catalog.as_deref().unwrap_or(""),
+                    p.display()
+                );
+            }
+            Catalog::from_path(&p)?
+        }
         (None, None, _) => Catalog::from_bytes(DEMO_CATALOG.as_bytes(), DEMO_CATALOG_NAME)?,
         (None, Some(_), None) => bail!("{}: no `catalog` key and no --catalog given", s.source),
     };

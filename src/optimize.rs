@@ -114,13 +114,19 @@ pub struct Settings {
     pub exhaustive_limit: usize,
     /// Pool size for large catalogs.
     pub pool: usize,
-    /// Find the binding constraints when there is no design.
+    /// With no design: search the lowest ripple and the binding limits.
     pub explain: bool,
+    /// Largest candidate list given whole to the mixed-integer model.
+    pub milp_parts: usize,
+    /// Line sets the mixed-integer model proposes (with no-good cuts).
+    pub milp_proposals: usize,
+    /// Time limit of one mixed-integer solve, s.
+    pub milp_seconds: f64,
 }
 
 impl Default for Settings {
     fn default() -> Self {
-        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true }
+        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0 }
     }
 }
 
@@ -645,10 +651,30 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
                 run_sets(&mut s, sets, settings, "design");
                 exhaustive = true;
             } else {
-                let pool = pool(&s, settings.pool);
+                let mut pool = pool(&s, settings.pool);
+                // Line sets proposed by the mixed-integer relaxation join the pool;
+                // its proven optimum over every candidate is a global lower bound.
+                let over = if all.len() <= settings.milp_parts { all.clone() } else { self::pool(&s, settings.milp_parts) };
+                let ks = milp::hard_harmonics(&s, &over, 8);
+                let mut cuts: Vec<Vec<usize>> = Vec::new();
+                for t in 0..settings.milp_proposals {
+                    let Some(prop) = milp::propose(&s, &over, &ks, &cuts, settings.milp_seconds) else { break };
+                    if t == 0 && prop.proven && over.len() == all.len() {
+                        stats.lower_bound = Some(prop.bound);
+                    }
+                    for &i in &prop.set {
+                        if !pool.contains(&i) {
+                            pool.push(i);
+                        }
+                    }
+                    cuts.push(prop.set);
+                }
                 let sets = line_sets(&s.required, &pool, free);
                 run_sets(&mut s, sets, settings, "design (pool)");
                 neighbourhood(&mut s, settings);
+                if let (Some(lb), Some(inc)) = (stats.lower_bound, &s.inc) {
+                    exhaustive = inc.0[0] <= lb + tol(lb, inc.0[0]);
+                }
             }
         }
         stats.evaluations = s.evals;
@@ -664,13 +690,11 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         (None, _) => Status::Infeasible,
     };
     let mut out = Outcome { status, found, best_ripple_pp: None, best_ripple_bank: None, binding: Vec::new(), stats };
-    if status == Status::Infeasible {
+    if status == Status::Infeasible && settings.explain {
         let (r, bank) = min_ripple(problem, &cands);
         out.best_ripple_pp = r.is_finite().then_some(r);
         out.best_ripple_bank = bank;
-        if settings.explain {
-            out.binding = binding(problem, target);
-        }
+        out.binding = binding(problem, target);
     }
     out.stats.seconds = t0.elapsed().as_secs_f64();
     out
@@ -693,32 +717,44 @@ fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &st
     pb.finish_and_clear();
 }
 
-/// The most promising parts for a large catalog: for each harmonic where
-/// the target asks for admittance, the parts with the most admittance per
-/// unit of objective; ranked by how often they are near the top.
+/// The most promising parts for a large catalog: for each of the hardest
+/// harmonics, the parts with the most admittance per unit of objective, and
+/// the parts that meet the necessary condition alone most cheaply.
 fn pool(s: &Search, size: usize) -> Vec<usize> {
     let p = s.parts.len();
+    let all: Vec<usize> = (0..p).collect();
     let mut score = vec![0.0_f64; p];
-    let active: Vec<usize> = (0..s.n).filter(|&k| s.q[k] > 0.0).collect();
-    let step = (active.len() / 64).max(1);
-    let mut idx: Vec<usize> = (0..p).collect();
-    for &k in active.iter().step_by(step) {
-        idx.sort_by(|&x, &y| {
-            let ex = s.a[x * s.n + k] / s.w[0][x].max(1e-12);
-            let ey = s.a[y * s.n + k] / s.w[0][y].max(1e-12);
-            ey.partial_cmp(&ex).unwrap()
-        });
+    let ks = milp::hard_harmonics(s, &all, 12);
+    let mut idx: Vec<usize> = all.clone();
+    for &k in &ks {
+        let eff = |x: usize| s.a[x * s.n + k] / s.w[0][x].max(1e-12);
+        idx.sort_by(|&x, &y| eff(y).partial_cmp(&eff(x)).unwrap());
         for (rank, &i) in idx.iter().take(size).enumerate() {
             score[i] += 1.0 / (1.0 + rank as f64);
         }
     }
-    // Parts able to meet the condition alone at their largest count.
-    for i in 0..p {
-        if active.iter().all(|&k| s.ub[i] as f64 * s.a[i * s.n + k] >= s.q[k]) {
-            score[i] += 0.5;
+    // Cost for one part alone to meet the condition at every harmonic.
+    let alone = |i: usize| -> f64 {
+        let mut need: f64 = s.lb[i] as f64;
+        for k in 0..s.n {
+            if s.q[k] > 0.0 {
+                need = need.max((s.q[k] / s.a[i * s.n + k].max(1e-300)).ceil());
+            }
+        }
+        if need > s.ub[i] as f64 {
+            f64::INFINITY
+        } else {
+            need * s.w[0][i]
+        }
+    };
+    let costs: Vec<f64> = all.iter().map(|&i| alone(i)).collect();
+    idx.sort_by(|&x, &y| costs[x].partial_cmp(&costs[y]).unwrap());
+    for (rank, &i) in idx.iter().take(size).enumerate() {
+        if costs[i].is_finite() {
+            score[i] += 2.0 / (1.0 + rank as f64);
         }
     }
-    let mut order: Vec<usize> = (0..p).collect();
+    let mut order: Vec<usize> = all;
     order.sort_by(|&x, &y| score[y].partial_cmp(&score[x]).unwrap());
     let mut out: Vec<usize> = order.into_iter().take(size).collect();
     for &r in &s.required {
@@ -902,7 +938,7 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         tries.push(("min_capacitance", Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0)));
     }
     let mut out = Vec::new();
-    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false };
+    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false, milp_proposals: 1, milp_seconds: 1.0, ..Settings::default() };
     for (name, relax) in tries {
         let mut sc = base.clone();
         relax(&mut sc);
@@ -925,4 +961,102 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         out.push("ripple_pp (no single limit's removal makes the target reachable: the catalog's parts cannot reach it)".into());
     }
     out
+}
+
+/// The mixed-integer relaxation: integer counts n_i ≤ ub_i·z_i, binary
+/// line items z_i, every linear limit, and the necessary condition
+/// Σ n_i |Y_ik| ≥ q_k at the most demanding harmonics. Every passing bank
+/// satisfies it, so its optimum is a lower bound on the true optimum; its
+/// line set is a proposal for the exact search. `cuts` exclude line sets
+/// already proposed (no-good cuts on the binaries).
+mod milp {
+    use super::Search;
+    use good_lp::{constraint, variable, variables, Expression, Solution, SolutionStatus, SolverModel, Variable, WithTimeLimit};
+
+    pub struct Proposal {
+        pub set: Vec<usize>,
+        pub bound: f64,
+        pub proven: bool,
+    }
+
+    /// The harmonics where the condition is hardest to meet.
+    pub fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
+        let mut d: Vec<(f64, usize)> = (0..s.n)
+            .filter(|&k| s.q[k] > 0.0)
+            .map(|k| {
+                let best = over.iter().map(|&i| s.ub[i] as f64 * s.a[i * s.n + k]).fold(0.0, f64::max);
+                (s.q[k] / best.max(1e-300), k)
+            })
+            .collect();
+        d.sort_by(|x, y| y.0.partial_cmp(&x.0).unwrap());
+        let mut ks: Vec<usize> = d.iter().take(count).map(|x| x.1).collect();
+        if s.q.first().is_some_and(|&q| q > 0.0) && !ks.contains(&0) {
+            ks.push(0);
+        }
+        ks
+    }
+
+    pub fn propose(s: &Search, over: &[usize], harmonics: &[usize], cuts: &[Vec<usize>], seconds: f64) -> Option<Proposal> {
+        let mut vars = variables!();
+        let n: Vec<Variable> = over.iter().map(|&i| vars.add(variable().integer().min(0.0).max(s.ub[i] as f64))).collect();
+        let z: Vec<Variable> = over.iter().map(|_| vars.add(variable().binary())).collect();
+        let mut obj = Expression::from(0.0);
+        for (j, &i) in over.iter().enumerate() {
+            obj += s.w[0][i] * n[j] + s.line_w[0] * z[j];
+        }
+        let mut m = vars.minimise(obj).using(solver);
+        m = m.with_time_limit(seconds);
+        let sum = |f: &dyn Fn(usize) -> f64| -> Expression {
+            let mut e = Expression::from(0.0);
+            for (j, &i) in over.iter().enumerate() {
+                e += f(i) * n[j];
+            }
+            e
+        };
+        for (j, &i) in over.iter().enumerate() {
+            m = m.with(constraint!(n[j] <= s.ub[i] as f64 * z[j]));
+            m = m.with(constraint!(n[j] >= s.lb[i] as f64 * z[j]));
+            if s.required.contains(&i) {
+                m = m.with(constraint!(z[j] >= 1.0));
+            }
+        }
+        let zsum: Expression = z.iter().fold(Expression::from(0.0), |e, &v| e + v);
+        m = m.with(constraint!(zsum.clone() <= s.lim.max_lines as f64));
+        m = m.with(constraint!(zsum >= 1.0));
+        if s.lim.max_cap.is_finite() {
+            m = m.with(constraint!(sum(&|i| s.parts[i].c_limit) <= s.lim.max_cap));
+        }
+        if s.lim.max_count.is_finite() {
+            m = m.with(constraint!(sum(&|_| 1.0) <= s.lim.max_count));
+        }
+        if s.lim.max_area.is_finite() {
+            m = m.with(constraint!(sum(&|i| s.parts[i].area) <= s.lim.max_area));
+        }
+        if s.lim.min_cap > 0.0 {
+            m = m.with(constraint!(sum(&|i| s.parts[i].c_worst) >= s.lim.min_cap));
+        }
+        for &k in harmonics {
+            // Scaled to order one for the solver's tolerances.
+            let scale = 1.0 / s.q[k];
+            m = m.with(constraint!(sum(&|i| s.a[i * s.n + k] * scale) >= 1.0));
+        }
+        for cut in cuts {
+            let mut e = Expression::from(0.0);
+            for (j, &i) in over.iter().enumerate() {
+                if cut.contains(&i) {
+                    e += z[j];
+                }
+            }
+            m = m.with(constraint!(e <= cut.len() as f64 - 1.0));
+        }
+        let sol = m.solve().ok()?;
+        let set: Vec<usize> = over.iter().enumerate().filter(|(j, _)| sol.value(n[*j]) > 0.5).map(|(_, &i)| i).collect();
+        let bound: f64 = over.iter().enumerate().map(|(j, &i)| s.w[0][i] * sol.value(n[j]).round() + s.line_w[0] * sol.value(z[j]).round()).sum();
+        Some(Proposal { set, bound, proven: matches!(sol.status(), SolutionStatus::Optimal) })
+    }
+
+    #[cfg(not(feature = "highs"))]
+    use good_lp::solvers::microlp::microlp as solver;
+    #[cfg(feature = "highs")]
+    use good_lp::solvers::highs::highs as solver;
 }

@@ -265,8 +265,10 @@ impl Scenario {
     pub fn from_path(path: &Path) -> Result<Scenario> {
         let text = std::fs::read(path)
             .map_err(|e| anyhow::anyhow!("{}: cannot read the scenario: {e}", path.display()))?;
-        let text = String::from_utf8(text)
-            .map_err(|_| anyhow::anyhow!("{}: the scenario is not UTF-8 text", path.display()))?;
+        let text = String::from_utf8(text).map_err(|e| {
+            let (line, column) = crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
+            anyhow::anyhow!("{}: line {line}, column {column}: not UTF-8 text; a scenario is TOML text", path.display())
+        })?;
         let mut s = Scenario::from_str(&text, &path.display().to_string())?;
         s.dir = path.parent().map(|p| p.to_path_buf());
         Ok(s)

@@ -94,11 +94,34 @@ const ALL_UNITS: &[(&str, Unit)] = &[
     ("s", Unit::Second),
 ];
 
-/// Parse a textual value such as `"4.7uF"` into SI base units.
+/// Parse a textual value such as `"4.7uF"` into SI base units. An `Ok`
+/// value is always finite.
 pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
+    let v = parse_value(text, unit)?;
+    if !v.is_finite() {
+        // e.g. "1e300G": the number is finite, the scaled value is not.
+        return Err(ValueError(format!("`{}` is out of range (not a finite number)", text.trim())));
+    }
+    Ok(v)
+}
+
+/// "a capacitance", "an inductance".
+fn article(name: &str) -> &'static str {
+    if name.starts_with(['a', 'e', 'i', 'o', 'u']) {
+        "an"
+    } else {
+        "a"
+    }
+}
+
+fn parse_value(text: &str, unit: Unit) -> Result<f64, ValueError> {
     let s = text.trim();
     if s.is_empty() {
         return Err(ValueError("empty value".into()));
+    }
+    let bare = s.trim_start_matches(['+', '-']).to_ascii_lowercase();
+    if bare.starts_with("inf") || bare.starts_with("nan") {
+        return Err(ValueError(format!("`{s}` is not a finite number")));
     }
     // Split the numeric head from the suffix.
     let bytes = s.as_bytes();
@@ -165,8 +188,10 @@ pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
             if let Some(&(_, other)) = ALL_UNITS.iter().find(|(sym, _)| *sym == rest) {
                 if other != unit {
                     return Err(ValueError(format!(
-                        "`{s}` is a {}, but this field is a {}",
+                        "`{s}` is {} {}, but this field is {} {}",
+                        article(other.name()),
                         other.name(),
+                        article(unit.name()),
                         unit.name()
                     )));
                 }
@@ -269,6 +294,9 @@ mod tests {
         assert!(parse("nan", Unit::Ohm).is_err());
         assert!(parse("inf", Unit::Ohm).is_err());
         assert!(parse("5mm", Unit::Plain).is_err());
+        // Finite number, infinite value once scaled.
+        assert!(parse("1e300G", Unit::Hertz).is_err());
+        assert!(parse("-inf", Unit::Volt).unwrap_err().0.contains("finite"));
     }
 
     #[test]

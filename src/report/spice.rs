@@ -1,8 +1,467 @@
-//! SPICE netlist of a bank and its current source (placeholder, being written).
+//! SPICE netlist of a bank and the converter's current (`bank.cir`), for
+//! checking the evaluator with an independent circuit simulator. Written for
+//! ngspice in batch mode (`ngspice -b bank.cir`); plain SPICE elements only.
+//!
+//! The circuit: the capacitor current of one vin corner as a periodic
+//! piecewise-linear source into the converter's node, the converter's
+//! internal capacitance there, the connection inductance to the bank's node,
+//! one series R-L-C branch per bank line (worst-corner capacitance), a large
+//! resistor that only fixes the DC level, and the measurement-bandwidth
+//! filter as first-order RC sections between unity-gain buffers.
+//!
+//! Measurements (`.meas tran`, volts): `pp_full` at the bank's node and
+//! `pp_limited` after the bandwidth filter, over the last
+//! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
+//! periods just before, so that a reader can see that the run has settled.
 
+use crate::bank::{admittance, Band, Corner};
+use crate::converter::Waveform;
 use crate::problem::Problem;
-use anyhow::Result;
+use crate::spectrum;
+use anyhow::{bail, Result};
+use num_complex::Complex64;
+use std::f64::consts::PI;
+use std::fmt::Write;
 
-pub fn netlist(_problem: &Problem, _bank: &[(usize, u32)]) -> Result<String> {
-    Ok(String::from("* ripplebank netlist: not written yet\n.end\n"))
+/// Periods in each measurement window.
+pub const MEASURE_PERIODS: usize = 3;
+/// Longest run, in periods of the ripple frequency.
+pub const MAX_PERIODS: usize = 200;
+/// Settling allowance in multiples of the slowest decay time (e^-12 ≈ 6e-6).
+const SETTLE_TAUS: f64 = 12.0;
+/// Timepoints per period at most apart (`.tran` TMAX = period / this).
+const STEPS_PER_PERIOD: f64 = 2000.0;
+/// Resistance of each bandwidth-filter section, Ω.
+const FILTER_R: f64 = 1e3;
+
+/// Frequency sweep of an impedance netlist.
+#[derive(Debug, Clone, Copy)]
+pub enum Sweep {
+    /// `points` frequencies evenly spaced from `start` to `stop` (Hz), both included.
+    Linear { points: usize, start: f64, stop: f64 },
+    /// `per_decade` frequencies per decade from `start` to `stop` (Hz).
+    Decade { per_decade: usize, start: f64, stop: f64 },
+}
+
+/// One series R-L-C branch as written to the netlist.
+struct Branch {
+    label: String,
+    r: f64,
+    l: f64,
+    c: f64,
+}
+
+/// The circuit shared by the transient and the impedance netlists.
+struct Circuit {
+    /// Branches at the bank's node (one per bank line, counts folded in).
+    bank: Vec<Branch>,
+    internal: Option<Branch>,
+    lc: f64,
+}
+
+/// Number formatting that every SPICE reads the same way (no SI suffixes,
+/// which SPICE reads differently: `m` is milli, `M` too).
+fn num(x: f64) -> String {
+    format!("{x:.10e}")
+}
+
+fn circuit(problem: &Problem, bank: &[(usize, u32)]) -> Result<Circuit> {
+    let s = &problem.scenario;
+    let c = &s.converter;
+    let mut lines = Vec::new();
+    for &(i, n) in bank.iter().filter(|b| b.1 > 0) {
+        if i >= problem.catalog.parts.len() {
+            bail!("bank.cir: catalog index {i} is out of range");
+        }
+        let m = problem.part_model(i);
+        let p = &problem.catalog.parts[i];
+        let nf = n as f64;
+        lines.push(Branch {
+            label: format!(
+                "{} x {} ({}): per part C = {} F (worst corner), ESR = {} ohm, ESL + mounting = {} H",
+                p.id,
+                n,
+                p.technology.name(),
+                num(m.c_worst),
+                num(m.esr),
+                num(m.esl)
+            ),
+            r: m.esr / nf,
+            l: m.esl / nf,
+            c: m.c_worst * nf,
+        });
+    }
+    let internal = c.internal_capacitance.map(|ci| Branch {
+        label: format!(
+            "converter's internal capacitance: C = {} F, ESR = {} ohm, ESL = {} H",
+            num(ci.0),
+            num(c.internal_esr.0),
+            num(c.internal_esl.0)
+        ),
+        r: c.internal_esr.0,
+        l: c.internal_esl.0,
+        c: ci.0,
+    });
+    if lines.is_empty() && internal.is_none() {
+        bail!("bank.cir: the bank is empty and the converter has no internal capacitance");
+    }
+    Ok(Circuit { bank: lines, internal, lc: s.board.connection_inductance.0 })
+}
+
+impl Circuit {
+    /// Admittance of the whole bank (added and internal) seen from the bank's node.
+    fn y_total(&self, f: f64) -> Complex64 {
+        let mut y: Complex64 = self.bank.iter().map(|b| admittance(b.r, b.l, b.c, f)).sum();
+        if let Some(b) = &self.internal {
+            let yi = admittance(b.r, b.l, b.c, f);
+            // Through the connection inductance.
+            let w = 2.0 * PI * f;
+            y += yi / (Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi);
+        }
+        y
+    }
+
+    /// Slowest decay time of the bank's own modes (charge moving between
+    /// branches), estimated from every series loop of two branches and of
+    /// each branch against all the others in parallel. Exact for two
+    /// branches; an estimate (hence the generous [`SETTLE_TAUS`]) beyond.
+    fn slowest_decay(&self) -> f64 {
+        let mut br: Vec<(f64, f64, f64)> = self.bank.iter().map(|b| (b.r, b.l, b.c)).collect();
+        if let Some(b) = &self.internal {
+            br.push((b.r, b.l + self.lc, b.c));
+        }
+        let loop_tau = |(r, l, c): (f64, f64, f64)| -> f64 {
+            // L s² + R s + 1/C = 0; the slower root.
+            if l <= 0.0 {
+                return r * c;
+            }
+            let disc = r * r - 4.0 * l / c;
+            if disc < 0.0 {
+                if r > 0.0 {
+                    2.0 * l / r
+                } else {
+                    f64::INFINITY
+                }
+            } else {
+                c * (r + disc.sqrt()) / 2.0
+            }
+        };
+        let series = |a: (f64, f64, f64), b: (f64, f64, f64)| (a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2));
+        let mut tau: f64 = 0.0;
+        let n = br.len();
+        for i in 0..n {
+            for j in i + 1..n {
+                tau = tau.max(loop_tau(series(br[i], br[j])));
+            }
+            if n > 2 {
+                let others: Vec<_> = (0..n).filter(|&j| j != i).map(|j| br[j]).collect();
+                let par = |v: Vec<f64>| -> f64 {
+                    if v.iter().any(|&x| x <= 0.0) {
+                        0.0
+                    } else {
+                        1.0 / v.iter().map(|x| 1.0 / x).sum::<f64>()
+                    }
+                };
+                let rest = (
+                    par(others.iter().map(|b| b.0).collect()),
+                    par(others.iter().map(|b| b.1).collect()),
+                    others.iter().map(|b| b.2).sum::<f64>(),
+                );
+                tau = tau.max(loop_tau(series(br[i], rest)));
+            }
+        }
+        tau
+    }
+
+    /// Elements of the circuit between the converter's node `conv` and the
+    /// bank's node `bank` (the same node without connection inductance).
+    fn write(&self, o: &mut String) -> (&'static str, &'static str) {
+        let (conv, bank) = if self.lc > 0.0 { ("conv", "bank") } else { ("bank", "bank") };
+        let _ = writeln!(o, "* Each bank line is one series R-L-C branch: n identical parts in parallel are");
+        let _ = writeln!(o, "* exactly one branch with ESR/n, ESL/n and C*n. ESL includes the board's mounting");
+        let _ = writeln!(o, "* inductance. Elements of zero value are left out (their nodes joined).");
+        for (j, b) in self.bank.iter().enumerate() {
+            let _ = writeln!(o, "* line {}: {}", j + 1, b.label);
+            series_rlc(o, &format!("{}", j + 1), bank, b);
+        }
+        if let Some(b) = &self.internal {
+            let _ = writeln!(o, "* {}", b.label);
+            series_rlc(o, "int", conv, b);
+        }
+        if self.lc > 0.0 {
+            let _ = writeln!(o, "* connection inductance between the converter's output and the bank");
+            let _ = writeln!(o, "Lconn conv bank {}", num(self.lc));
+        } else {
+            let _ = writeln!(o, "* no connection inductance: the converter drives the bank's node directly");
+        }
+        (conv, bank)
+    }
+}
+
+/// R, L and C of one branch in series from `node` to ground.
+fn series_rlc(o: &mut String, tag: &str, node: &str, b: &Branch) {
+    let mut from = node.to_string();
+    if b.r > 0.0 {
+        let to = format!("n{tag}a");
+        let _ = writeln!(o, "R{tag} {from} {to} {}", num(b.r));
+        from = to;
+    }
+    if b.l > 0.0 {
+        let to = format!("n{tag}b");
+        let _ = writeln!(o, "L{tag} {from} {to} {}", num(b.l));
+        from = to;
+    }
+    let _ = writeln!(o, "C{tag} {from} 0 {}", num(b.c));
+}
+
+/// The measurement-bandwidth filter from `bank` to `out`: a unity-gain
+/// buffer, then `order` first-order RC sections each followed by a buffer,
+/// so that H = (1 + j f / bandwidth)^-order exactly. Returns the output node.
+fn write_filter(o: &mut String, bank: &str, bw: f64, order: u32) -> String {
+    let cf = 1.0 / (2.0 * PI * FILTER_R * bw);
+    let _ = writeln!(o, "* measurement bandwidth {} Hz, order {order}: first-order RC sections", num(bw));
+    let _ = writeln!(o, "* (R = {} ohm, C = 1/(2 pi R bandwidth)) between unity-gain buffers", num(FILTER_R));
+    let _ = writeln!(o, "Ebuf0 f0 0 {bank} 0 1");
+    let mut prev = "f0".to_string();
+    for k in 1..=order {
+        let _ = writeln!(o, "Rf{k} {prev} f{k}rc {}", num(FILTER_R));
+        let _ = writeln!(o, "Cf{k} f{k}rc 0 {}", num(cf));
+        let _ = writeln!(o, "Ebuf{k} f{k} 0 f{k}rc 0 1");
+        prev = format!("f{k}");
+    }
+    prev
+}
+
+fn header(o: &mut String, problem: &Problem, what: &str) {
+    let s = &problem.scenario;
+    let name = if s.name.is_empty() { s.source.as_str() } else { s.name.as_str() };
+    let _ = writeln!(o, "* {what} - scenario: {}", name.replace(['\n', '\r'], " "));
+    let _ = writeln!(o, "* Written by ripplebank {}. Run: ngspice -b bank.cir", env!("CARGO_PKG_VERSION"));
+    let _ = writeln!(o, "* Units: SI base units (F, ohm, H, A, V, s, Hz).");
+    let _ = writeln!(o, "* Capacitances: worst corner C = C_nom (1 - tol) k_bias(vout) (1 - drop_T).");
+}
+
+/// The converter's current of one corner prepared for the netlist: jumps
+/// made into short ramps, mean removed, and rotated to start at a zero
+/// crossing (so the DC operating point at t = 0 is all zero).
+fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
+    let t = w.period;
+    let has_jump = w.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0);
+    let w = if has_jump { w.with_edges(min_ramp) } else { w.clone() };
+    let mean = w.mean();
+    let pts: Vec<(f64, f64)> = w.points.iter().map(|&(ti, v)| (ti, (v - mean) * scale)).collect();
+    // Unrolled over [t0, t0 + T] with the closing vertex.
+    let n = pts.len();
+    let mut un: Vec<(f64, f64)> = pts.clone();
+    un.push((pts[0].0 + t, pts[0].1));
+    // First zero crossing.
+    let mut start = None;
+    for i in 0..n {
+        let ((ta, va), (tb, vb)) = (un[i], un[i + 1]);
+        if va == 0.0 {
+            start = Some(ta);
+            break;
+        }
+        if (va < 0.0 && vb >= 0.0) || (va > 0.0 && vb <= 0.0) {
+            start = Some(if tb > ta { ta + (tb - ta) * (-va) / (vb - va) } else { tb });
+            break;
+        }
+    }
+    let t0 = start.unwrap_or(pts[0].0);
+    let at = |x: f64| -> f64 {
+        let x = pts[0].0 + (x - pts[0].0).rem_euclid(t);
+        for i in 0..n {
+            let ((ta, va), (tb, vb)) = (un[i], un[i + 1]);
+            if x >= ta && x <= tb && tb > ta {
+                return va + (vb - va) * (x - ta) / (tb - ta);
+            }
+        }
+        un[0].1
+    };
+    let v0 = at(t0);
+    let mut out = vec![(0.0, v0)];
+    let eps = 1e-9 * t;
+    for k in 0..2 {
+        for &(ti, v) in &pts {
+            let tt = ti + k as f64 * t - t0;
+            if tt > eps && tt < t - eps {
+                out.push((tt, v));
+            }
+        }
+    }
+    out.sort_by(|a, b| a.0.partial_cmp(&b.0).unwrap());
+    out.push((t, v0));
+    // Strictly increasing times (a safety net; ramps already separate jumps).
+    for i in 1..out.len() {
+        if out[i].0 <= out[i - 1].0 {
+            out[i].0 = out[i - 1].0 + eps;
+        }
+    }
+    (out, mean * scale)
+}
+
+/// The transient netlist `bank.cir` for a bank (catalog indices and counts).
+pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
+    let s = &problem.scenario;
+    let ckt = circuit(problem, bank)?;
+    let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|b| b.1 > 0).collect();
+    let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+    let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+    let mut ev = problem.evaluator(&parts);
+    // The vin corner whose worst-corner ripple (target bandwidth) is largest.
+    let mut corner = 0;
+    let mut best = f64::NEG_INFINITY;
+    let mut per_corner = Vec::new();
+    for c in 0..ev.vin_corners() {
+        let pp = |w: Vec<f64>| w.iter().cloned().fold(f64::NEG_INFINITY, f64::max) - w.iter().cloned().fold(f64::INFINITY, f64::min);
+        let lim = pp(ev.waveform(&local, Corner::Worst, Band::Limited, c));
+        let full = pp(ev.waveform(&local, Corner::Worst, Band::Full, c));
+        per_corner.push((lim, full));
+        if lim > best {
+            best = lim;
+            corner = c;
+        }
+    }
+    let op = &problem.ops[corner];
+    // The evaluator scales a module's unit triangle to the standalone
+    // ripple; take the same factor from its spectra.
+    let scale = {
+        let h = spectrum::harmonics(&op.waveform, 1)[0].norm();
+        let e = ev.currents[corner][0].norm();
+        if s.converter.topology == crate::scenario::Topology::Module && h > 0.0 {
+            e / h
+        } else {
+            1.0
+        }
+    };
+    let period = op.waveform.period;
+    let f_top = ev.n_full as f64 * ev.f_ripple;
+    let min_ramp = (0.1 / f_top).min(1e-3 * period);
+    let (pts, mean) = source_points(&op.waveform, scale, min_ramp);
+
+    let mut o = String::new();
+    header(&mut o, problem, "Output ripple of a capacitor bank (transient)");
+    match op.vin {
+        Some(v) => {
+            let _ = writeln!(o, "* vin corner: {} V (corner {} of {}, the one with the largest ripple per the evaluator)", v, corner + 1, ev.vin_corners());
+        }
+        None => {
+            let _ = writeln!(o, "* vin: not given (one corner)");
+        }
+    }
+    let _ = writeln!(
+        o,
+        "* converter: {}, ripple frequency {} Hz, duty {:.6}{}",
+        s.converter.topology.name(),
+        num(op.f_ripple),
+        op.duty,
+        if op.mode.is_empty() { String::new() } else { format!(", {}", op.mode) }
+    );
+    let (lim, full) = per_corner[corner];
+    let _ = writeln!(o, "* evaluator at this corner (worst-corner capacitances): ripple_pp {} V at the target bandwidth, {} V at full bandwidth", num(lim), num(full));
+    let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
+    let _ = writeln!(o);
+
+    let (conv, bnode) = ckt.write(&mut o);
+
+    // The DC-level resistor: small enough a conductance to change the
+    // ripple by < 1e-6, large enough that the DC offset left by the start
+    // drifts by < 1e-5 of the ripple per period.
+    let y1 = ckt.y_total(op.f_ripple).norm();
+    let rdc = (1e6_f64).max(1e6 / y1);
+    let _ = writeln!(o, "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|");
+    let _ = writeln!(o, "Rdc {bnode} 0 {}", num(rdc));
+
+    // Run length.
+    let tau = ckt.slowest_decay();
+    let settle = if tau.is_finite() { (SETTLE_TAUS * tau / period).ceil() as usize } else { MAX_PERIODS };
+    let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, MAX_PERIODS);
+
+    // Source.
+    let _ = writeln!(o);
+    let _ = writeln!(o, "* Capacitor current of the converter (into the bank > 0), {total} periods written out");
+    let _ = writeln!(o, "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on).");
+    if scale != 1.0 {
+        let _ = writeln!(o, "* module: the unit triangle is scaled by {} (standalone ripple), as the evaluator does", num(scale));
+    }
+    let _ = writeln!(o, "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.", num(mean));
+    if op.waveform.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0) {
+        let _ = writeln!(o, "* current jumps are ramps of {} s (a tenth of the highest harmonic's period).", num(min_ramp));
+    }
+    let _ = write!(o, "Idrive 0 {conv} PWL(");
+    let mut k = 0usize;
+    for p in 0..total {
+        for (j, &(t, v)) in pts.iter().enumerate() {
+            if p > 0 && j == 0 {
+                continue;
+            }
+            if k % 4 == 0 {
+                let _ = write!(o, "\n+ ");
+            }
+            k += 1;
+            let _ = write!(o, "{:.12e} {} ", t + p as f64 * period, num(v));
+        }
+    }
+    let _ = writeln!(o, ")");
+
+    // Filter.
+    let _ = writeln!(o);
+    let filtered = match s.target.bandwidth {
+        Some(bw) => write_filter(&mut o, bnode, bw.0, s.target.bandwidth_order.max(1)),
+        None => {
+            let _ = writeln!(o, "* no measurement bandwidth in the target: pp_limited is measured at the bank's node");
+            bnode.to_string()
+        }
+    };
+
+    let t_stop = total as f64 * period;
+    let t_meas = (total - MEASURE_PERIODS) as f64 * period;
+    let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
+    let mut tmax = period / STEPS_PER_PERIOD;
+    if s.converter.edge_time.0 > 0.0 {
+        tmax = tmax.min(s.converter.edge_time.0 / 10.0);
+    }
+    if let Some(bw) = s.target.bandwidth {
+        tmax = tmax.min(0.05 / bw.0);
+    }
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
+        num(tau),
+        total,
+        if settle + 2 * MEASURE_PERIODS > MAX_PERIODS { format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)") } else { String::new() }
+    );
+    let _ = writeln!(o, "* Gear integration: the trapezoidal rule rings point to point after the current's corners");
+    let _ = writeln!(o, ".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9");
+    let _ = writeln!(o, ".tran {} {} {} {}", num(tmax), num(t_stop), num(t_prev), num(tmax));
+    let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
+    let _ = writeln!(o, ".meas tran pp_full PP v({bnode}) from={} to={}", num(t_meas), num(t_stop));
+    let _ = writeln!(o, ".meas tran pp_limited PP v({filtered}) from={} to={}", num(t_meas), num(t_stop));
+    let _ = writeln!(o, ".meas tran pp_full_prev PP v({bnode}) from={} to={}", num(t_prev), num(t_meas));
+    let _ = writeln!(o, ".meas tran pp_limited_prev PP v({filtered}) from={} to={}", num(t_prev), num(t_meas));
+    let _ = writeln!(o, ".end");
+    Ok(o)
+}
+
+/// An AC netlist of the same bank: a 1 A current into the converter's node,
+/// printing `vm(bank)`, the magnitude of the transfer impedance to the bank's
+/// node in ohms (what the evaluator calls the transfer impedance).
+pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep) -> Result<String> {
+    let ckt = circuit(problem, bank)?;
+    let mut o = String::new();
+    header(&mut o, problem, "Transfer impedance of a capacitor bank (AC)");
+    let _ = writeln!(o);
+    let (conv, bnode) = ckt.write(&mut o);
+    let _ = writeln!(o, "Idrive 0 {conv} DC 0 AC 1");
+    let _ = writeln!(o, "Rdc {bnode} 0 {}", num(1e12));
+    let line = match sweep {
+        Sweep::Linear { points, start, stop } => format!(".ac lin {} {} {}", points.max(1), num(start), num(stop)),
+        Sweep::Decade { per_decade, start, stop } => format!(".ac dec {} {} {}", per_decade.max(1), num(start), num(stop)),
+    };
+    let _ = writeln!(o, "{line}");
+    let _ = writeln!(o, ".options numdgt=10");
+    let _ = writeln!(o, ".print ac vm({bnode})");
+    let _ = writeln!(o, ".end");
+    Ok(o)
 }

@@ -1,0 +1,388 @@
+//! Checks of the evaluator against ngspice (Debian package) as an
+//! independent simulator: the bank's impedance (AC analysis) and the
+//! steady-state ripple (transient analysis) of the same circuit.
+//!
+//! When ngspice is not on PATH these tests print a note and pass, unless
+//! RIPPLEBANK_REQUIRE_NGSPICE=1 is set, which makes its absence an error.
+
+use ripplebank::bank::{admittance, Band, Corner};
+use ripplebank::catalog::Catalog;
+use ripplebank::problem::Problem;
+use ripplebank::report::spice::{self, Sweep};
+use ripplebank::scenario::Scenario;
+use std::path::Path;
+use std::process::Command;
+
+/// Named beside every comparison.
+const REF: &str = "ngspice (Debian package) as an independent simulator";
+
+/// Invented parts (demo data, no real part numbers): two ceramics with a
+/// DC-bias curve, an aluminum polymer, an aluminum electrolytic.
+const CATALOG: &str = "\
+part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance,dielectric,dc_bias,case,height
+T-CER-22U,ceramic,22u,10,3m,0.45n,0.10,20%,X5R,0:1;3.3:0.6;5:0.45;10:0.3,1206,1.6
+T-CER-1U,ceramic,1u,16,9m,0.3n,0.02,10%,X7R,0:1;3.3:0.85;12:0.55;16:0.45,0402,0.5
+T-POLY-220U,polymer-aluminum,220u,16,12m,1.8n,0.40,20%,,,,2.8
+T-ELEC-470U,aluminum-electrolytic,470u,25,60m,4n,0.20,20%,,,,8
+";
+
+fn ngspice_on_path() -> bool {
+    let Some(path) = std::env::var_os("PATH") else { return false };
+    std::env::split_paths(&path).any(|d| {
+        let p = d.join("ngspice");
+        p.is_file() && std::fs::metadata(&p).map(|m| {
+            use std::os::unix::fs::PermissionsExt;
+            m.permissions().mode() & 0o111 != 0
+        }).unwrap_or(false)
+    })
+}
+
+/// Whether to run: true with ngspice; false (after a note) without it;
+/// a failure without it when RIPPLEBANK_REQUIRE_NGSPICE=1.
+fn have_ngspice() -> bool {
+    if ngspice_on_path() {
+        return true;
+    }
+    if std::env::var("RIPPLEBANK_REQUIRE_NGSPICE").as_deref() == Ok("1") {
+        panic!("ngspice not found on PATH and RIPPLEBANK_REQUIRE_NGSPICE=1: install it with `apt-get install ngspice` (Debian package)");
+    }
+    eprintln!("skipped: ngspice not found; install it with `apt-get install ngspice` (Debian package) or set RIPPLEBANK_REQUIRE_NGSPICE=1 to make this an error");
+    false
+}
+
+/// Runs `ngspice -b` on a netlist in a fresh temporary folder; its output.
+fn run_ngspice(netlist: &str) -> String {
+    // RIPPLEBANK_NGSPICE_KEEP=DIR keeps a copy of every netlist for inspection.
+    if let Some(keep) = std::env::var_os("RIPPLEBANK_NGSPICE_KEEP") {
+        let n = netlist.len() ^ netlist.bytes().fold(0usize, |h, b| h.wrapping_mul(31).wrapping_add(b as usize));
+        let _ = std::fs::write(Path::new(&keep).join(format!("net-{n:016x}.cir")), netlist);
+    }
+    let dir = tempfile::tempdir().expect("temp dir");
+    let file = dir.path().join("bank.cir");
+    std::fs::write(&file, netlist).expect("write netlist");
+    run_ngspice_file(&file)
+}
+
+fn run_ngspice_file(file: &Path) -> String {
+    let out = Command::new("ngspice")
+        .arg("-b")
+        .arg(file.file_name().unwrap())
+        .current_dir(file.parent().unwrap())
+        .output()
+        .expect("run ngspice");
+    let text = format!("{}\n{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
+    assert!(out.status.success(), "ngspice failed ({}):\n{text}", out.status);
+    let bad = text.lines().map(|l| l.trim().to_ascii_lowercase()).find(|l| l.starts_with("error") || l.contains("timestep too small"));
+    assert!(bad.is_none(), "ngspice reported a problem ({}):\n{text}", bad.unwrap_or_default());
+    text
+}
+
+/// The value of a `.meas` result such as `pp_full  =  1.234e-03 from= ...`.
+fn meas(output: &str, name: &str) -> f64 {
+    for line in output.lines() {
+        let l = line.trim();
+        let Some(rest) = l.strip_prefix(name) else { continue };
+        let rest = rest.trim_start();
+        let Some(rest) = rest.strip_prefix('=') else { continue };
+        if let Some(tok) = rest.split_whitespace().next() {
+            if let Ok(v) = tok.parse::<f64>() {
+                return v;
+            }
+        }
+    }
+    panic!("no result `{name}` in the ngspice output:\n{output}");
+}
+
+/// Rows of a `.print ac` table: (frequency, value).
+fn print_table(output: &str) -> Vec<(f64, f64)> {
+    let mut rows = Vec::new();
+    for line in output.lines() {
+        let t: Vec<&str> = line.split_whitespace().collect();
+        if t.len() == 3 && t[0].parse::<usize>().is_ok() {
+            if let (Ok(f), Ok(v)) = (t[1].parse::<f64>(), t[2].parse::<f64>()) {
+                rows.push((f, v));
+            }
+        }
+    }
+    rows
+}
+
+fn problem(scenario: &str) -> Problem {
+    let s = Scenario::from_str(scenario, "test scenario").expect("scenario");
+    let c = Catalog::from_bytes(CATALOG.as_bytes(), "test catalog").expect("catalog");
+    Problem::new(s, c).expect("problem")
+}
+
+fn bank(p: &Problem, spec: &[(&str, u32)]) -> Vec<(usize, u32)> {
+    spec.iter().map(|&(id, n)| (p.catalog.position(id).expect("part"), n)).collect()
+}
+
+fn rel(a: f64, b: f64) -> f64 {
+    (a - b).abs() / b.abs()
+}
+
+const BUCK: &str = r#"
+name = "test buck (invented)"
+[converter]
+topology = "buck"
+vin = 12
+vout = 3.3
+iout = 6
+fsw = "600k"
+inductance = "1.5u"
+[target]
+ripple_pp = "10m"
+bandwidth = "20M"
+bandwidth_order = 1
+[board]
+mounting_inductance = "0.4n"
+"#;
+
+const MIXED: &[(&str, u32)] = &[("T-CER-22U", 4), ("T-CER-1U", 3), ("T-POLY-220U", 1), ("T-ELEC-470U", 1)];
+
+/// Transfer impedance of the evaluator at every harmonic vs an ngspice AC
+/// analysis at the same frequencies.
+fn check_transfer(p: &Problem, spec: &[(&str, u32)], what: &str) {
+    let b = bank(p, spec);
+    let parts: Vec<usize> = b.iter().map(|x| x.0).collect();
+    let local: Vec<(usize, u32)> = b.iter().enumerate().map(|(j, x)| (j, x.1)).collect();
+    let mut ev = p.evaluator(&parts);
+    let z = ev.transfer_magnitude(&local, Corner::Worst);
+    let n = z.len();
+    let f1 = ev.f_ripple;
+    let net = spice::impedance_netlist(p, &b, Sweep::Linear { points: n, start: f1, stop: n as f64 * f1 }).unwrap();
+    let rows = print_table(&run_ngspice(&net));
+    assert_eq!(rows.len(), n, "{what}: ngspice printed {} of {n} frequencies", rows.len());
+    let mut worst = (0.0, 0.0);
+    for (k, &(f, zs)) in rows.iter().enumerate() {
+        assert!(rel(f, (k + 1) as f64 * f1) < 1e-6, "{what}: frequency {f} is not harmonic {}", k + 1);
+        let e = rel(z[k], zs);
+        if e > worst.0 {
+            worst = (e, f);
+        }
+        assert!(e < 0.005, "{what}: |Z| at {f} Hz: evaluator {} ohm, {REF} {zs} ohm ({:.3} %)", z[k], 100.0 * e);
+    }
+    eprintln!("{what}: |Z| at {n} harmonics {:.3e}..{:.3e} Hz agrees with {REF}; worst {:.2e} % at {:.3e} Hz", f1, n as f64 * f1, 100.0 * worst.0, worst.1);
+}
+
+#[test]
+fn bank_impedance_matches_ngspice_ac() {
+    if !have_ngspice() {
+        return;
+    }
+    // Mixed bank, mounting inductance, no internal capacitance.
+    let p = problem(BUCK);
+    check_transfer(&p, MIXED, "mixed bank");
+
+    // The same bank behind a connection inductance, with internal capacitance.
+    let module = r#"
+name = "test module (invented)"
+[converter]
+topology = "module"
+vin = 12
+vout = 5
+fsw = "400k"
+standalone_ripple_pp = "30m"
+internal_capacitance = "10u"
+internal_esr = "5m"
+internal_esl = "1n"
+[target]
+ripple_pp = "5m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.3n"
+connection_inductance = "2n"
+"#;
+    let pm = problem(module);
+    check_transfer(&pm, &[("T-CER-22U", 2), ("T-POLY-220U", 1)], "bank behind 2 nH with internal capacitance");
+
+    // Bank admittance 1/|Σ n·Y_i| from the evaluator's admittance() over a
+    // decade sweep 1 kHz … 1 GHz (down where the electrolytic matters).
+    let b = bank(&p, MIXED);
+    let net = spice::impedance_netlist(&p, &b, Sweep::Decade { per_decade: 40, start: 1e3, stop: 1e9 }).unwrap();
+    let rows = print_table(&run_ngspice(&net));
+    assert!(rows.len() >= 240, "ngspice printed {} rows", rows.len());
+    let mut worst: f64 = 0.0;
+    for &(f, zs) in &rows {
+        let y: num_complex::Complex64 = b
+            .iter()
+            .map(|&(i, n)| {
+                let m = p.part_model(i);
+                admittance(m.esr, m.esl, m.c_worst, f) * n as f64
+            })
+            .sum();
+        let z = 1.0 / y.norm();
+        let e = rel(z, zs);
+        worst = worst.max(e);
+        assert!(e < 0.005, "|Z| at {f} Hz: admittance() {z} ohm, {REF} {zs} ohm");
+    }
+    eprintln!("mixed bank, 1 kHz..1 GHz: |Z| agrees with {REF}; worst {:.2e} %", 100.0 * worst);
+}
+
+/// ngspice's steady-state ripple vs the evaluator, at the target bandwidth
+/// and at full bandwidth (one vin corner).
+fn check_ripple(p: &Problem, spec: &[(&str, u32)], what: &str) {
+    let b = bank(p, spec);
+    let parts: Vec<usize> = b.iter().map(|x| x.0).collect();
+    let local: Vec<(usize, u32)> = b.iter().enumerate().map(|(j, x)| (j, x.1)).collect();
+    let mut ev = p.evaluator(&parts);
+    let lim = ev.ripple_pp(&local, Corner::Worst, Band::Limited);
+    let full = ev.ripple_pp(&local, Corner::Worst, Band::Full);
+    let net = spice::netlist(p, &b).unwrap();
+    let t0 = std::time::Instant::now();
+    let out = run_ngspice(&net);
+    let secs = t0.elapsed().as_secs_f64();
+    let (sl, sf) = (meas(&out, "pp_limited"), meas(&out, "pp_full"));
+    let (sl0, sf0) = (meas(&out, "pp_limited_prev"), meas(&out, "pp_full_prev"));
+    eprintln!(
+        "{what}: target bandwidth: evaluator {lim:.6e} V, {REF} {sl:.6e} V ({:+.3} %); full bandwidth: evaluator {full:.6e} V, ngspice {sf:.6e} V ({:+.3} %); ngspice {secs:.1} s",
+        100.0 * (lim - sl) / sl,
+        100.0 * (full - sf) / sf
+    );
+    // Settled: the window before the last gives the same figure.
+    assert!(rel(sl0, sl) < 1e-3 && rel(sf0, sf) < 1e-3, "{what}: not settled: {sl0} vs {sl}, {sf0} vs {sf}");
+    assert!(rel(lim, sl) < 0.02, "{what}: ripple at the target bandwidth: evaluator {lim} V, {REF} {sl} V");
+    assert!(rel(full, sf) < 0.02, "{what}: ripple at full bandwidth: evaluator {full} V, {REF} {sf} V");
+}
+
+#[test]
+fn buck_ripple_matches_ngspice_transient() {
+    if !have_ngspice() {
+        return;
+    }
+    let p = problem(BUCK);
+    check_ripple(&p, MIXED, "buck 12 V to 3.3 V, mixed bank");
+    check_ripple(&p, &[("T-CER-22U", 3)], "buck 12 V to 3.3 V, three ceramics");
+}
+
+#[test]
+fn flyback_ripple_matches_ngspice_transient() {
+    if !have_ngspice() {
+        return;
+    }
+    let fly = r#"
+name = "test flyback (invented)"
+[converter]
+topology = "flyback"
+vin = 48
+vout = 12
+iout = 2
+fsw = "250k"
+inductance = "60u"
+turns_ratio = 0.5
+edge_time = "30n"
+[target]
+ripple_pp = "60m"
+bandwidth = "20M"
+bandwidth_order = 1
+[board]
+mounting_inductance = "0.5n"
+"#;
+    let p = problem(fly);
+    assert_eq!(p.ops[0].mode, "CCM");
+    check_ripple(&p, &[("T-CER-1U", 4), ("T-POLY-220U", 2), ("T-ELEC-470U", 1)], "flyback 48 V to 12 V (CCM, 30 ns edges)");
+    // Light load: discontinuous conduction.
+    let p = problem(&fly.replace("iout = 2", "iout = 0.3"));
+    assert_eq!(p.ops[0].mode, "DCM");
+    check_ripple(&p, &[("T-CER-1U", 4), ("T-POLY-220U", 1)], "flyback 48 V to 12 V (DCM, 30 ns edges)");
+}
+
+#[test]
+fn written_netlist_matches_report() {
+    if !have_ngspice() {
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let cat = dir.path().join("parts.csv");
+    std::fs::write(&cat, CATALOG).unwrap();
+    // A module with two vin corners, internal capacitance, connection
+    // inductance and a second-order measurement filter.
+    let scen = dir.path().join("module.toml");
+    std::fs::write(
+        &scen,
+        r#"
+name = "test module, two corners (invented)"
+catalog = "parts.csv"
+[converter]
+topology = "module"
+vin_min = 9
+vin_max = 16
+vout = 5
+fsw = "400k"
+standalone_ripple_pp = "30m"
+standalone_bandwidth = "20M"
+internal_capacitance = "10u"
+internal_esr = "5m"
+internal_esl = "1n"
+[target]
+ripple_pp = "5m"
+bandwidth = "10M"
+bandwidth_order = 2
+[board]
+mounting_inductance = "0.3n"
+connection_inductance = "1n"
+"#,
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let res = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["assess", "--bank", "T-CER-22U=2,T-POLY-220U=1", "--json", "--scenario"])
+        .arg(&scen)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(matches!(res.status.code(), Some(0) | Some(1)), "assess: {}", String::from_utf8_lossy(&res.stderr));
+    let doc: serde_json::Value = serde_json::from_slice(&res.stdout).unwrap();
+    let report = doc["ripple_pp"].as_f64().unwrap();
+    let file = out.join("bank.cir");
+    let text = std::fs::read_to_string(&file).unwrap();
+    assert!(text.contains("ripplebank") && text.trim_end().ends_with(".end"));
+    let o = run_ngspice_file(&file);
+    let sl = meas(&o, "pp_limited");
+    eprintln!("bank.cir from `assess --out`: report ripple_pp {report:.6e} V, {REF} {sl:.6e} V ({:+.3} %)", 100.0 * (report - sl) / sl);
+    assert!(rel(report, sl) < 0.02, "bank.cir: report {report} V, {REF} {sl} V");
+}
+
+/// The netlist and the simulator against a closed form: one polymer part on
+/// the buck, full bandwidth. The ripple current is a triangle of
+/// ΔI = Vout (1 − D) / (L f) (Erickson & Maksimović, Fundamentals of Power
+/// Electronics, ch. 2); its slope changes by Vin / L at each corner, which
+/// the part's inductance turns into a voltage step ESL · Vin / L (inductor
+/// law v = L di/dt). With ESR · C well above half a period, the extremes sit
+/// at the corners, so pp = ESR · ΔI + ESL · Vin / L exactly.
+#[test]
+fn ngspice_full_bandwidth_matches_esr_esl_closed_form() {
+    if !have_ngspice() {
+        return;
+    }
+    let p = problem(&BUCK.replace("bandwidth = \"20M\"\n", ""));
+    let b = bank(&p, &[("T-POLY-220U", 1)]);
+    let m = p.part_model(b[0].0);
+    let (vin, vout, l, f) = (12.0, 3.3, 1.5e-6, 600e3);
+    let di = vout * (1.0 - vout / vin) / (l * f);
+    assert!(m.esr * m.c_worst > 0.5 / f, "the closed form needs ESR·C above half a period");
+    let want = m.esr * di + m.esl * vin / l;
+    let got = meas(&run_ngspice(&spice::netlist(&p, &b).unwrap()), "pp_full");
+    eprintln!("one polymer on the buck: ESR·ΔI + ESL·Vin/L = {want:.6e} V, {REF} {got:.6e} V ({:+.4} %)", 100.0 * (got - want) / want);
+    assert!(rel(got, want) < 1e-3, "closed form {want} V, {REF} {got} V");
+}
+
+/// Known evaluator deviation, kept as a check for when it is fixed: when the
+/// bank's inductance turns the corners of the current into voltage steps
+/// (ESL x change of di/dt), the full-bandwidth figure, a Fourier series cut
+/// at N harmonics, overshoots each step by about 9 % of its height (the
+/// Gibbs phenomenon; e.g. Oppenheim & Willsky, Signals and Systems, ch. 3),
+/// at every N. Without a target bandwidth this is the pass/fail figure.
+#[test]
+#[ignore = "evaluator overshoots voltage steps at full bandwidth (Gibbs); see the ngspice report"]
+fn full_bandwidth_ripple_with_esl_steps_matches_ngspice() {
+    if !have_ngspice() {
+        return;
+    }
+    let p = problem(&BUCK.replace("bandwidth = \"20M\"\n", ""));
+    check_ripple(&p, &[("T-POLY-220U", 1)], "buck, one polymer, no bandwidth limit");
+    let p = problem(&BUCK.replace("iout = 6", "iout = 6\nphases = 3"));
+    check_ripple(&p, &[("T-CER-22U", 4), ("T-CER-1U", 2)], "three-phase buck, ceramics");
+}
