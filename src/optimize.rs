@@ -260,10 +260,6 @@ impl Search {
         }
     }
 
-    fn a_row(&self, i: usize) -> &[f64] {
-        &self.a[i * self.n..(i + 1) * self.n]
-    }
-
     /// Valid lower bound on the primary objective of line set `set`, or
     /// `None` if the set cannot meet the necessary condition or the limits.
     fn set_bound(&self, set: &[usize]) -> Option<f64> {
@@ -875,7 +871,7 @@ fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
     if !fits(s, &counts) {
         return None;
     }
-    let mut eval = |s: &mut Search, counts: &[u32]| -> f64 {
+    let eval = |s: &mut Search, counts: &[u32]| -> f64 {
         s.bank_buf.clear();
         s.bank_buf.extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
         s.evals += 1;
@@ -1059,4 +1055,25 @@ mod milp {
     use good_lp::solvers::microlp::microlp as solver;
     #[cfg(feature = "highs")]
     use good_lp::solvers::highs::highs as solver;
+}
+
+/// The cheapest bank the other limits allow, whatever its ripple (the
+/// loose end of a trade-off), with that ripple.
+pub fn smallest_bank(problem: &Problem) -> Option<Found> {
+    let settings = Settings { explain: false, milp_proposals: 0, ..Settings::default() };
+    let out = design_for(problem, f64::MAX, &settings);
+    out.found.map(|mut f| {
+        let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
+        let mut ev = problem.evaluator(&parts);
+        let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+        f.ripple_pp = ev.ripple_pp(&local, crate::bank::Corner::Worst, crate::bank::Band::Limited);
+        f
+    })
+}
+
+/// The lowest worst-corner ripple found over the eligible parts (dominated
+/// parts dropped first), and that bank.
+pub fn lowest_ripple(problem: &Problem) -> (f64, Option<Vec<(usize, u32)>>) {
+    let (cands, _) = prune_dominated(problem, &problem.eligible);
+    min_ripple(problem, &cands)
 }

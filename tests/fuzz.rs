@@ -296,6 +296,51 @@ proptest! {
     }
 }
 
+/// A converter drawn from the whole accepted range (and a little beyond):
+/// whatever the scenario check lets through must evaluate to finite numbers.
+fn converter_scenario() -> impl Strategy<Value = String> {
+    fn pick(v: &[&'static str]) -> impl Strategy<Value = &'static str> {
+        prop::sample::select(v.to_vec())
+    }
+    let conv = (
+        pick(&["buck", "forward", "bridge", "flyback", "boost", "module"]),
+        pick(&["0.001", "1", "5", "12", "48", "400", "10000"]),
+        pick(&["0.001", "1", "3.3", "12", "24", "60", "1000"]),
+        pick(&["0", "0.001", "1", "6", "100"]),
+        pick(&["\"100\"", "\"1k\"", "\"600k\"", "\"10M\"", "\"100M\""]),
+        pick(&["\"1n\"", "\"1u\"", "\"1m\"", "1"]),
+        pick(&["", "turns_ratio = 0.01", "turns_ratio = 0.5", "turns_ratio = 1", "turns_ratio = 10"]),
+        pick(&["", "phases = 2", "phases = 3", "phases = 16"]),
+        pick(&["", "edge_time = \"1n\"", "edge_time = \"100n\""]),
+    );
+    let rest = (
+        pick(&["", "internal_capacitance = \"1p\"", "internal_capacitance = \"10u\"", "internal_capacitance = 10"]),
+        pick(&["", "internal_esr = \"1m\"\ninternal_esl = \"1n\""]),
+        pick(&["", "standalone_ripple_pp = \"30m\"", "standalone_ripple_pp = 1"]),
+        pick(&["", "bandwidth = \"1k\"", "bandwidth = \"20M\"", "bandwidth = \"1G\""]),
+        pick(&["1", "2", "8"]),
+        pick(&["0", "1", "4000"]),
+        pick(&["0", "\"1n\"", "\"1u\""]),
+        pick(&["0", "\"0.3n\""]),
+    );
+    (conv, rest).prop_map(|((t, vin, vout, iout, fsw, l, n, ph, edge), (ci, ce, sa, bw, ord, h, lc, lm))| {
+        format!(
+            "[converter]\ntopology = \"{t}\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = {fsw}\ninductance = {l}\n{n}\n{ph}\n{edge}\n{ci}\n{ce}\n{sa}\n\
+             [target]\nripple_pp = \"8m\"\n{bw}\nbandwidth_order = {ord}\nharmonics = {h}\n\
+             [board]\nconnection_inductance = {lc}\nmounting_inductance = {lm}\n"
+        )
+    })
+}
+
+proptest! {
+    #![proptest_config(cfg())]
+
+    #[test]
+    fn any_accepted_converter_evaluates_to_finite_numbers(text in converter_scenario()) {
+        exercise_scenario(&text);
+    }
+}
+
 /// Deep nesting must not overflow the stack (the process would abort, not panic).
 #[test]
 fn deeply_nested_toml_is_an_error_not_a_crash() {

@@ -17,13 +17,14 @@ use std::process::Command;
 const REF: &str = "ngspice (Debian package) as an independent simulator";
 
 /// Invented parts (demo data, no real part numbers): two ceramics with a
-/// DC-bias curve, an aluminum polymer, an aluminum electrolytic.
+/// DC-bias curve, an aluminum polymer, an aluminum electrolytic, a film part.
 const CATALOG: &str = "\
 part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance,dielectric,dc_bias,case,height
 T-CER-22U,ceramic,22u,10,3m,0.45n,0.10,20%,X5R,0:1;3.3:0.6;5:0.45;10:0.3,1206,1.6
 T-CER-1U,ceramic,1u,16,9m,0.3n,0.02,10%,X7R,0:1;3.3:0.85;12:0.55;16:0.45,0402,0.5
 T-POLY-220U,polymer-aluminum,220u,16,12m,1.8n,0.40,20%,,,,2.8
 T-ELEC-470U,aluminum-electrolytic,470u,25,60m,4n,0.20,20%,,,,8
+T-FILM-4U7,film,4.7u,63,6m,3.5n,0.90,10%,,,,5
 ";
 
 fn ngspice_on_path() -> bool {
@@ -222,6 +223,11 @@ connection_inductance = "2n"
 /// ngspice's steady-state ripple vs the evaluator, at the target bandwidth
 /// and at full bandwidth (one vin corner).
 fn check_ripple(p: &Problem, spec: &[(&str, u32)], what: &str) {
+    check_ripple_bands(p, spec, what, true)
+}
+
+/// As [`check_ripple`]; `full = false` checks the target bandwidth only.
+fn check_ripple_bands(p: &Problem, spec: &[(&str, u32)], what: &str, check_full: bool) {
     let b = bank(p, spec);
     let parts: Vec<usize> = b.iter().map(|x| x.0).collect();
     let local: Vec<(usize, u32)> = b.iter().enumerate().map(|(j, x)| (j, x.1)).collect();
@@ -242,7 +248,7 @@ fn check_ripple(p: &Problem, spec: &[(&str, u32)], what: &str) {
     // Settled: the window before the last gives the same figure.
     assert!(rel(sl0, sl) < 1e-3 && rel(sf0, sf) < 1e-3, "{what}: not settled: {sl0} vs {sl}, {sf0} vs {sf}");
     assert!(rel(lim, sl) < 0.02, "{what}: ripple at the target bandwidth: evaluator {lim} V, {REF} {sl} V");
-    assert!(rel(full, sf) < 0.02, "{what}: ripple at full bandwidth: evaluator {full} V, {REF} {sf} V");
+    assert!(!check_full || rel(full, sf) < 0.02, "{what}: ripple at full bandwidth: evaluator {full} V, {REF} {sf} V");
 }
 
 #[test]
@@ -385,4 +391,60 @@ fn full_bandwidth_ripple_with_esl_steps_matches_ngspice() {
     check_ripple(&p, &[("T-POLY-220U", 1)], "buck, one polymer, no bandwidth limit");
     let p = problem(&BUCK.replace("iout = 6", "iout = 6\nphases = 3"));
     check_ripple(&p, &[("T-CER-22U", 4), ("T-CER-1U", 2)], "three-phase buck, ceramics");
+}
+
+/// Known evaluator deviation at the target bandwidth (the pass/fail figure),
+/// kept as a check for when it is fixed. (1) Fast current edges through the
+/// bank's inductance make a short voltage pulse whose filtered corners need
+/// far more than the automatic 10 × bandwidth of harmonics: the series
+/// converges only as 1/N, here from below (optimistic). (2) With
+/// edge_time = 0 the jump of the current through ESL leaves a step in the
+/// filtered ripple, and the cut series overshoots it (Gibbs) at every N.
+#[test]
+#[ignore = "evaluator misses fast-edge ripple at the target bandwidth; see the ngspice report"]
+fn target_bandwidth_ripple_with_fast_edges_matches_ngspice() {
+    if !have_ngspice() {
+        return;
+    }
+    let boost = r#"
+name = "test boost, 10 ns edges (invented)"
+[converter]
+topology = "boost"
+vin = 5
+vout = 24
+iout = 0.5
+fsw = "1M"
+inductance = "4.7u"
+edge_time = "10n"
+[target]
+ripple_pp = "100m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.4n"
+"#;
+    let r = std::panic::catch_unwind(|| {
+        check_ripple_bands(&problem(boost), &[("T-FILM-4U7", 4)], "boost 5 V to 24 V at 1 MHz, 10 ns edges, film parts", false)
+    });
+    let fly = r#"
+name = "test flyback, ideal edges (invented)"
+[converter]
+topology = "flyback"
+vin = 48
+vout = 12
+iout = 2
+fsw = "250k"
+inductance = "60u"
+turns_ratio = 0.5
+[target]
+ripple_pp = "60m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.5n"
+"#;
+    // At full bandwidth an ideal current jump through ESL is a Dirac pulse:
+    // no finite figure to compare, so the target bandwidth only.
+    check_ripple_bands(&problem(fly), &[("T-CER-22U", 4), ("T-CER-1U", 2)], "flyback, edge_time = 0, ceramics", false);
+    if let Err(e) = r {
+        std::panic::resume_unwind(e);
+    }
 }

@@ -277,7 +277,8 @@ fn evaluator_section(a: &Args) -> Result<String> {
             [(i, 1 + rng.below(6) as u32), (j, 1 + rng.below(6) as u32), (k, 1 + rng.below(6) as u32)]
         })
         .collect();
-    let time = |f: &mut dyn FnMut(&[(usize, u32)]) -> f64| -> (f64, f64) {
+    type Call<'a> = dyn FnMut(&[(usize, u32)]) -> f64 + 'a;
+    let time = |f: &mut Call| -> (f64, f64) {
         for b in banks.iter().take(200) {
             black_box(f(b));
         }
