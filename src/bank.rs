@@ -90,6 +90,7 @@ pub struct Evaluator {
     plan_full: Plan,
     /// Coarse inverse FFT: every `m / SUB` th sample of the target figure.
     plan_sub: Arc<dyn Fft<f64>>,
+    plan_first: Arc<dyn Fft<f64>>,
     // Scratch, reused by every call.
     zt: Vec<Complex64>,
     buf: Vec<Complex64>,
@@ -98,6 +99,8 @@ pub struct Evaluator {
 
 /// Samples per period of the coarse pass in [`Evaluator::ripple_check`].
 const SUB: usize = 512;
+/// Samples per period of the first, cheapest pass.
+const SUB_FIRST: usize = 64;
 
 fn samples_for(n: usize) -> usize {
     (8 * n).max(4096).next_power_of_two()
@@ -137,11 +140,13 @@ impl Evaluator {
         let plan_limited = mk(n_limited, &mut planner);
         let plan_full = mk(n_full, &mut planner);
         let plan_sub = planner.plan_fft_inverse(SUB);
+        let plan_first = planner.plan_fft_inverse(SUB_FIRST);
         let scratch_len = plan_limited
             .fft
             .get_inplace_scratch_len()
             .max(plan_full.fft.get_inplace_scratch_len())
-            .max(plan_sub.get_inplace_scratch_len());
+            .max(plan_sub.get_inplace_scratch_len())
+            .max(plan_first.get_inplace_scratch_len());
         let mut ev = Evaluator {
             parts: Vec::new(),
             f_ripple,
@@ -162,6 +167,7 @@ impl Evaluator {
             plan_limited,
             plan_full,
             plan_sub,
+            plan_first,
         };
         if c.topology == Topology::Module {
             // Scale each corner's unit triangle so that the internal bank
@@ -314,6 +320,26 @@ impl Evaluator {
         }
         let n = self.n_limited;
         self.fill_transfer(bank, Corner::Worst, n);
+        self.check_filled(limit)
+    }
+
+    /// As [`Evaluator::ripple_check`], from the added bank's admittance per
+    /// harmonic (worst corner, `n_limited` values) instead of a bank.
+    pub fn ripple_check_admittance(&mut self, yb: &[Complex64], limit: f64) -> f64 {
+        let n = self.n_limited;
+        if !self.has_int && yb.iter().all(|y| *y == Complex64::default()) {
+            return f64::INFINITY;
+        }
+        for k in 0..n {
+            self.zt[k] = self.transfer_of(yb[k], k);
+        }
+        self.check_filled(limit)
+    }
+
+    /// The pass/fail cascade on the transfer impedance in `zt`: each stage
+    /// is a lower bound of the next, so a stage above `limit` ends it.
+    fn check_filled(&mut self, limit: f64) -> f64 {
+        let n = self.n_limited;
         // max_k |V_k| <= peak-to-peak: |V_k| = |(2/M) Σ_m (v_m - c) e^{-j2πkm/M}|
         // <= 2 max|v_m - c| = pp with c the mid-range value.
         let mut floor: f64 = 0.0;
@@ -326,25 +352,28 @@ impl Evaluator {
         if floor > limit {
             return floor;
         }
-        // Coarse pass: the samples at every (M/SUB)-th instant are the
-        // inverse FFT of size SUB of the spectrum folded modulo SUB, and a
-        // subset of the samples has a peak-to-peak no larger than all of them.
+        // Coarse passes: the samples at every (M/S)-th instant are the inverse
+        // FFT of size S of the spectrum folded modulo S, and a subset of the
+        // samples has a peak-to-peak no larger than all of them.
         let mut worst: f64 = floor;
-        for c in 0..self.currents.len() {
-            let sub = &mut self.buf[..SUB];
-            sub.iter_mut().for_each(|x| *x = Complex64::default());
-            for k in 0..n {
-                sub[(k + 1) % SUB] += self.drive_limited[c][k] * self.zt[k];
-            }
-            self.plan_sub.process_with_scratch(sub, &mut self.fft_scratch);
-            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-            for x in sub.iter() {
-                lo = lo.min(x.re);
-                hi = hi.max(x.re);
-            }
-            worst = worst.max(hi - lo);
-            if worst > limit {
-                return worst;
+        for pass in 0..2 {
+            for c in 0..self.currents.len() {
+                let (size, plan) = if pass == 0 { (SUB_FIRST, &self.plan_first) } else { (SUB, &self.plan_sub) };
+                let sub = &mut self.buf[..size];
+                sub.iter_mut().for_each(|x| *x = Complex64::default());
+                for k in 0..n {
+                    sub[(k + 1) % size] += self.drive_limited[c][k] * self.zt[k];
+                }
+                plan.process_with_scratch(sub, &mut self.fft_scratch);
+                let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+                for x in sub.iter() {
+                    lo = lo.min(x.re);
+                    hi = hi.max(x.re);
+                }
+                worst = worst.max(hi - lo);
+                if worst > limit {
+                    return worst;
+                }
             }
         }
         for c in 0..self.currents.len() {

@@ -149,9 +149,11 @@ pub fn design_report(p: &Problem, out: &optimize::Outcome, what: &str) -> Result
                 "\n{what}: {} — {}",
                 out.status.name().to_uppercase(),
                 if out.status == optimize::Status::Optimal {
-                    "the best bank under the model (every line set examined or bounded)"
+                    "the best bank under the model (every line set examined or bounded)".to_string()
+                } else if st.stopped {
+                    format!("a verified bank; the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
                 } else {
-                    "a verified bank; the catalog was too large to prove it the best"
+                    "a verified bank; the catalog was too large to prove it the best".to_string()
                 }
             );
             body.push_str(&text::assessment(&a));
@@ -301,7 +303,8 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
     let targets: Vec<f64> = (0..points).map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64)).collect();
     let pb = if show { ProgressBar::new(points as u64) } else { ProgressBar::hidden() };
     pb.set_style(ProgressStyle::with_template("tradeoff [{bar:30}] {pos}/{len} targets ({elapsed})").expect("template").progress_chars("=> "));
-    let settings = optimize::Settings { explain: false, ..Default::default() };
+    // Each point gets a share of the work a single design may take.
+    let settings = optimize::Settings { explain: false, max_evaluations: 1_000_000, ..Default::default() };
     let mut results: Vec<(f64, optimize::Outcome)> = Vec::new();
     for &t in &targets {
         results.push((t, optimize::design_for(&p, t, &settings)));

@@ -102,6 +102,8 @@ pub struct Stats {
     pub line_sets_solved: usize,
     pub evaluations: usize,
     pub exhaustive: bool,
+    /// The search reached its evaluation budget before it finished.
+    pub stopped: bool,
     pub lower_bound: Option<f64>,
     pub seconds: f64,
 }
@@ -122,11 +124,14 @@ pub struct Settings {
     pub milp_proposals: usize,
     /// Time limit of one mixed-integer solve, s.
     pub milp_seconds: f64,
+    /// Exact evaluations allowed in one search; past it the search stops
+    /// and the result is `feasible` at best.
+    pub max_evaluations: usize,
 }
 
 impl Default for Settings {
     fn default() -> Self {
-        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0 }
+        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0, max_evaluations: 3_000_000 }
     }
 }
 
@@ -167,6 +172,10 @@ struct Search {
     evals: usize,
     sets_solved: usize,
     bank_buf: Vec<(usize, u32)>,
+    yb_buf: Vec<Complex64>,
+    /// Exact evaluations allowed; past it the search stops (result `feasible`).
+    budget: usize,
+    stopped: bool,
 }
 
 fn weights(obj: Objective, p: &PartModel) -> Key {
@@ -257,6 +266,9 @@ impl Search {
             evals: 0,
             sets_solved: 0,
             bank_buf: Vec::new(),
+            yb_buf: vec![Complex64::default(); n],
+            budget: usize::MAX,
+            stopped: false,
         }
     }
 
@@ -283,18 +295,19 @@ impl Search {
             return None;
         }
         let mut extra: f64 = 0.0;
+        let left = [self.lim.max_count - cnt, self.lim.max_cap - cap, self.lim.max_area - area];
+        let items: Vec<(usize, f64)> = set.iter().map(|&i| (i, (self.ub[i] - self.lb[i]) as f64)).collect();
         for k in 0..self.n {
-            let (mut at_lb, mut at_ub, mut best_ratio) = (0.0, 0.0, f64::INFINITY);
+            let (mut at_lb, mut best_ratio) = (0.0, f64::INFINITY);
             for &i in set {
                 let ai = self.a[i * self.n + k];
                 at_lb += self.lb[i] as f64 * ai;
-                at_ub += self.ub[i] as f64 * ai;
                 if ai > 0.0 {
                     best_ratio = best_ratio.min(self.w[0][i] / ai);
                 }
             }
             let need = self.q[k];
-            if at_ub < need * (1.0 - 1e-9) {
+            if need > at_lb && at_lb + self.capacity(&items, &left, k) < need * (1.0 - 1e-9) {
                 return None;
             }
             if need > at_lb {
@@ -304,8 +317,62 @@ impl Search {
         Some(base + extra)
     }
 
+    /// Upper bound on Σ a_ik·x_i over 0 ≤ x_i ≤ room_i under each of the
+    /// remaining count, capacitance-limit and area budgets `left`: the
+    /// smallest of the fractional-knapsack optima, one budget at a time
+    /// (each drops the other budgets, so each is a valid upper bound).
+    fn capacity(&self, items: &[(usize, f64)], left: &[f64; 3], k: usize) -> f64 {
+        let mut best = items.iter().map(|&(i, room)| room * self.a[i * self.n + k]).sum::<f64>();
+        for (r, &budget) in left.iter().enumerate() {
+            if !budget.is_finite() {
+                continue;
+            }
+            let weight = |i: usize| match r {
+                0 => 1.0,
+                1 => self.parts[i].c_limit,
+                _ => self.parts[i].area,
+            };
+            // Items in order of value per unit of this resource.
+            let mut order: [(f64, usize, f64); 8] = [(0.0, 0, 0.0); 8];
+            let m = items.len().min(8);
+            if items.len() > 8 {
+                continue;
+            }
+            for (j, &(i, room)) in items.iter().enumerate() {
+                let w = weight(i);
+                let v = self.a[i * self.n + k];
+                order[j] = (if w > 0.0 { v / w } else { f64::INFINITY }, i, room);
+            }
+            order[..m].sort_by(|x, y| y.0.partial_cmp(&x.0).unwrap());
+            let (mut b, mut total) = (budget.max(0.0), 0.0);
+            for &(_, i, room) in &order[..m] {
+                let w = weight(i);
+                let v = self.a[i * self.n + k];
+                let take = if w > 0.0 { room.min(b / w) } else { room };
+                total += take * v;
+                b -= take * w;
+                if b <= 0.0 && w > 0.0 {
+                    break;
+                }
+            }
+            best = best.min(total);
+        }
+        best
+    }
+
     fn inc_primary(&self) -> f64 {
         self.inc.as_ref().map_or(f64::INFINITY, |i| i.0[0])
+    }
+
+    /// Exact check of the bank in `bank_buf` whose admittance is in
+    /// `yb_buf`: ripple and ripple currents.
+    fn exact_from_admittance(&mut self) -> Option<f64> {
+        self.evals += 1;
+        let r = self.ev.ripple_check_admittance(&self.yb_buf, self.target);
+        if !(r <= self.target) {
+            return None;
+        }
+        self.currents_ok().then_some(r)
     }
 
     /// Exact check of the bank in `bank_buf`: ripple and ripple currents.
@@ -315,17 +382,21 @@ impl Search {
         if !(r <= self.target) {
             return None;
         }
+        self.currents_ok().then_some(r)
+    }
+
+    fn currents_ok(&mut self) -> bool {
         if self.check_currents && self.bank_buf.iter().any(|&(i, _)| self.parts[i].rating.is_some()) {
             let cur = self.ev.part_currents(&self.bank_buf);
             for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
                 if let Some(r) = self.parts[i].rating {
                     if cur[j] > r {
-                        return None;
+                        return false;
                     }
                 }
             }
         }
-        Some(r)
+        true
     }
 
     fn key_of(&self, set: &[usize], counts: &[u32]) -> Key {
@@ -447,8 +518,9 @@ impl Search {
             if need > hi as f64 {
                 return;
             }
+            // Jump over the counts that fail a harmonic outright.
             let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else { return };
-            for c in need as u32..=hi {
+            for c in next_ok as u32..=hi {
                 if (c as f64) < next_ok {
                     continue;
                 }
@@ -460,12 +532,23 @@ impl Search {
                 counts[d] = c;
                 self.bank_buf.clear();
                 self.bank_buf.extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
-                if let Some(r) = self.exact() {
+                {
+                    let cf = c as f64;
+                    let row = &self.y[i * self.n..(i + 1) * self.n];
+                    for ((yb, s0), y) in self.yb_buf.iter_mut().zip(&cstack[d]).zip(row) {
+                        *yb = s0 + y * cf;
+                    }
+                }
+                if let Some(r) = self.exact_from_admittance() {
                     let key = self.key_of(set, counts);
                     if self.inc.as_ref().is_none_or(|inc| better(&key, &inc.0)) {
                         self.inc = Some((key, self.bank_buf.clone(), r));
                     }
                     break;
+                }
+                if self.evals >= self.budget {
+                    self.stopped = true;
+                    return;
                 }
                 match self.phase_need(i, &cstack[d], c as f64 + 1.0, hi as f64) {
                     Some(x) => next_ok = x,
@@ -628,8 +711,10 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
     let mut stats = Stats { candidates: cands.len(), dominated, ..Default::default() };
     let mut found: Option<Found> = None;
     let mut exhaustive = false;
+    let mut stopped = false;
     if !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
         let mut s = Search::new(problem, &cands, target);
+        s.budget = settings.max_evaluations;
         // The converter alone (no added parts), when it has capacitance of its own.
         if s.required.is_empty() && problem.scenario.converter.internal_capacitance.is_some() && s.lim.min_cap <= 0.0 {
             s.bank_buf.clear();
@@ -674,12 +759,15 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
             }
         }
         stats.evaluations = s.evals;
+        stopped = s.stopped;
         stats.line_sets_solved = s.sets_solved;
         if let Some((key, bank, r)) = s.inc.take() {
             found = Some(Found { bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(), key, ripple_pp: r });
         }
     }
-    stats.exhaustive = exhaustive;
+    stats.stopped = stopped;
+    stats.exhaustive = exhaustive && !stopped;
+    let exhaustive = stats.exhaustive;
     let status = match (&found, exhaustive) {
         (Some(_), true) => Status::Optimal,
         (Some(_), false) => Status::Feasible,
@@ -701,6 +789,9 @@ fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &st
     bounded.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap().then(x.1.len().cmp(&y.1.len())));
     let pb = bar(settings.progress, bounded.len(), msg);
     for (j, (b, set)) in bounded.iter().enumerate() {
+        if s.stopped {
+            break;
+        }
         let inc0 = s.inc_primary();
         if *b > inc0 + tol(*b, inc0) {
             break;
@@ -1076,4 +1167,27 @@ pub fn smallest_bank(problem: &Problem) -> Option<Found> {
 pub fn lowest_ripple(problem: &Problem) -> (f64, Option<Vec<(usize, u32)>>) {
     let (cands, _) = prune_dominated(problem, &problem.eligible);
     min_ripple(problem, &cands)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn milp_bound_is_below_the_exhaustive_optimum() {
+        // The mixed-integer relaxation is a relaxation: its proven optimum
+        // can never exceed the optimum found by exhaustive search (source:
+        // the exhaustive enumeration of every line set on the demo).
+        let p = crate::load::problem(None, None, &Default::default()).unwrap();
+        let (cands, _) = prune_dominated(&p, &p.eligible);
+        let s = Search::new(&p, &cands, p.scenario.target.ripple_pp.0);
+        let all: Vec<usize> = (0..s.parts.len()).collect();
+        let ks = milp::hard_harmonics(&s, &all, 8);
+        let prop = milp::propose(&s, &all, &ks, &[], 20.0).expect("the relaxation has a solution");
+        let exact = design(&p, &Settings::default());
+        let opt = exact.found.unwrap().key[0];
+        eprintln!("milp bound {} proven {} set {:?}; optimum {opt}", prop.bound, prop.proven, prop.set);
+        assert!(prop.proven);
+        assert!(prop.bound <= opt * (1.0 + 1e-9));
+    }
 }
