@@ -1210,7 +1210,9 @@ pub fn rework(problem: &Problem, current: &[(usize, u32)], forced_out: &[usize],
     let t0 = Instant::now();
     let target = problem.scenario.target.ripple_pp.0;
     let kept_cat: Vec<usize> = current.iter().map(|b| b.0).filter(|i| !forced_out.contains(i)).collect();
-    let (mut cands, dominated) = prune_dominated(problem, &problem.eligible);
+    // Parts that must go can dominate nothing.
+    let allowed: Vec<usize> = problem.eligible.iter().copied().filter(|i| !forced_out.contains(i)).collect();
+    let (mut cands, dominated) = prune_dominated(problem, &allowed);
     for &i in &kept_cat {
         if !cands.contains(&i) {
             cands.push(i);

@@ -1,0 +1,118 @@
+//! Random small cases shared by the brute-force tests (invented data).
+
+use rand::rngs::StdRng;
+use rand::Rng;
+
+pub const MAX_COUNT: u32 = 8;
+
+pub fn random_catalog(rng: &mut StdRng, n: usize) -> String {
+    let mut s = String::from("part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance,dielectric,dc_bias,case,area,height,ripple_current\n");
+    for i in 0..n {
+        let kind = rng.gen_range(0..4);
+        let row = match kind {
+            0 | 1 => {
+                let c = [1.0, 2.2, 4.7, 10.0, 22.0, 47.0][rng.gen_range(0..6)];
+                let case = ["0402", "0603", "0805", "1206", "1210"][rng.gen_range(0..5)];
+                let k = rng.gen_range(0.3..0.9);
+                format!(
+                    "P{i},ceramic,{c}u,50,{:.1}m,{:.2}n,{:.3},10%,X7R,0:1;50:{k:.2},{case},,1.0,",
+                    rng.gen_range(2.0..10.0),
+                    rng.gen_range(0.3..1.0),
+                    rng.gen_range(0.02..0.3)
+                )
+            }
+            2 => format!(
+                "P{i},polymer-aluminum,{}u,50,{:.0}m,{:.1}n,{:.2},20%,,,D6.3x5.8,{:.1},5.8,{:.1}",
+                [100, 150, 220, 330][rng.gen_range(0..4)],
+                rng.gen_range(6.0..30.0),
+                rng.gen_range(1.0..3.0),
+                rng.gen_range(0.2..0.8),
+                rng.gen_range(30.0..50.0),
+                rng.gen_range(1.0..4.0)
+            ),
+            _ => format!(
+                "P{i},aluminum-electrolytic,{}u,50,{:.0}m,{:.1}n,{:.2},20%,,,D8x10,{:.1},10,{:.2}",
+                [100, 220, 470][rng.gen_range(0..3)],
+                rng.gen_range(40.0..300.0),
+                rng.gen_range(2.0..5.0),
+                rng.gen_range(0.05..0.3),
+                rng.gen_range(60.0..80.0),
+                rng.gen_range(0.3..1.5)
+            ),
+        };
+        s.push_str(&row);
+        s.push('\n');
+    }
+    s
+}
+
+pub fn random_converter(rng: &mut StdRng) -> String {
+    match rng.gen_range(0..6) {
+        0 => format!(
+            "topology = \"buck\"\nvin = {}\nvout = {:.1}\niout = 5\nfsw = \"{}k\"\ninductance = \"{:.1}u\"\nphases = {}\n",
+            rng.gen_range(8..20),
+            rng.gen_range(1.0..5.0),
+            rng.gen_range(300..1500),
+            rng.gen_range(0.5..4.0),
+            rng.gen_range(1..3)
+        ),
+        1 => format!(
+            "topology = \"flyback\"\nvin_min = 36\nvin_max = 72\nvout = 12\niout = {:.1}\nfsw = \"{}k\"\ninductance = \"{}u\"\nturns_ratio = 0.5\nedge_time = \"30n\"\n",
+            rng.gen_range(0.3..3.0),
+            rng.gen_range(100..400),
+            rng.gen_range(30..200)
+        ),
+        2 => format!(
+            "topology = \"boost\"\nvin = 5\nvout = {}\niout = {:.2}\nfsw = \"{}k\"\ninductance = \"{:.1}u\"\nedge_time = \"10n\"\n",
+            rng.gen_range(9..30),
+            rng.gen_range(0.1..1.0),
+            rng.gen_range(300..1500),
+            rng.gen_range(2.0..10.0)
+        ),
+        3 => format!(
+            "topology = \"bridge\"\nvin_min = 36\nvin_max = 60\nvout = 5\niout = 10\nfsw = \"{}k\"\ninductance = \"{:.1}u\"\nturns_ratio = 0.25\n",
+            rng.gen_range(100..300),
+            rng.gen_range(1.0..4.0)
+        ),
+        4 => format!(
+            "topology = \"forward\"\nvin = 48\nvout = 5\niout = 5\nfsw = \"{}k\"\ninductance = \"{:.1}u\"\nturns_ratio = 0.2\n",
+            rng.gen_range(100..500),
+            rng.gen_range(2.0..10.0)
+        ),
+        _ => format!(
+            "topology = \"module\"\nvin = 12\nvout = 5\niout = 3\nfsw = \"{}k\"\nstandalone_ripple_pp = \"{}m\"\ninternal_capacitance = \"{}u\"\ninternal_esr = \"5m\"\ninternal_esl = \"1n\"\n",
+            rng.gen_range(200..800),
+            rng.gen_range(20..60),
+            rng.gen_range(5..30)
+        ),
+    }
+}
+
+/// Every count vector with at most three lines, each count 1..=MAX_COUNT.
+pub fn all_banks(n: usize) -> Vec<Vec<(usize, u32)>> {
+    let mut out = Vec::new();
+    for mask in 1u32..(1 << n) {
+        if mask.count_ones() > 3 {
+            continue;
+        }
+        let idx: Vec<usize> = (0..n).filter(|i| mask & (1 << i) != 0).collect();
+        let mut counts = vec![1u32; idx.len()];
+        loop {
+            out.push(idx.iter().copied().zip(counts.iter().copied()).collect());
+            let mut j = 0;
+            while j < counts.len() {
+                counts[j] += 1;
+                if counts[j] <= MAX_COUNT {
+                    break;
+                }
+                counts[j] = 1;
+                j += 1;
+            }
+            if j == counts.len() {
+                break;
+            }
+        }
+    }
+    out
+}
+

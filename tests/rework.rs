@@ -1,0 +1,130 @@
+//! `rework` against brute-force enumeration (source: brute-force
+//! enumeration of every bank of ≤ 3 lines with counts ≤ 8): the rework
+//! changes no more line items than the fewest possible, and costs no more
+//! than the cheapest bank with that many changes.
+
+mod common;
+
+use assert_cmd::Command;
+use common::{all_banks, random_catalog, random_converter, MAX_COUNT};
+use rand::rngs::StdRng;
+use rand::{Rng, SeedableRng};
+use ripplebank::bank::{Band, Corner};
+use ripplebank::catalog::Catalog;
+use ripplebank::optimize::{self, Settings};
+use ripplebank::problem::Problem;
+use ripplebank::scenario::Scenario;
+
+/// Changed line items between two banks: lines removed plus lines added.
+fn changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
+    old.iter().filter(|o| !new.iter().any(|n| n.0 == o.0)).count() + new.iter().filter(|n| !old.iter().any(|o| o.0 == n.0)).count()
+}
+
+#[test]
+fn rework_matches_brute_force() {
+    let mut rng = StdRng::seed_from_u64(0x2e_0012);
+    let mut compared = 0;
+    for case in 0..120 {
+        let nparts = rng.gen_range(3..=6);
+        let cat_text = random_catalog(&mut rng, nparts);
+        let conv = random_converter(&mut rng);
+        let scen = format!(
+            "[converter]\n{conv}max_capacitance = \"{}u\"\n[target]\nripple_pp = \"{}m\"\nbandwidth = \"20M\"\nharmonics = 80\n[board]\nmounting_inductance = \"0.3n\"\nmax_count = 16\nmax_lines = 3\n[selection]\nmax_per_part = {MAX_COUNT}\n",
+            rng.gen_range(300..2000),
+            rng.gen_range(5..80),
+        );
+        let catalog = Catalog::from_bytes(cat_text.as_bytes(), "random.csv").unwrap();
+        let scenario = Scenario::from_str(&scen, "random.toml").unwrap();
+        let p = Problem::new(scenario, catalog).unwrap();
+        if p.eligible.len() < 3 {
+            continue;
+        }
+        let e = p.eligible.clone();
+        let target = p.scenario.target.ripple_pp.0;
+        let mut ev = p.evaluator(&e);
+        let cat = &p.catalog;
+        // Every allowed bank that meets the target, by the evaluator.
+        let max_cap = p.scenario.converter.max_capacitance.unwrap().0;
+        let mut good: Vec<(Vec<(usize, u32)>, f64)> = Vec::new();
+        for b in all_banks(e.len()) {
+            let cap: f64 = b.iter().map(|&(i, n)| n as f64 * cat.parts[e[i]].c_nominal_max()).sum();
+            let count: u32 = b.iter().map(|x| x.1).sum();
+            if cap > max_cap || count > 16 {
+                continue;
+            }
+            if ev.ripple_pp(&b, Corner::Worst, Band::Limited) > target {
+                continue;
+            }
+            let cur = ev.part_currents(&b);
+            if !b.iter().zip(&cur).all(|(&(i, _), &c)| cat.parts[e[i]].ripple_current.is_none_or(|r| c <= r)) {
+                continue;
+            }
+            let cost = b.iter().map(|&(i, n)| n as f64 * cat.parts[e[i]].cost).sum();
+            good.push((b.iter().map(|&(i, n)| (e[i], n)).collect(), cost));
+        }
+        // A released bank of two or three lines; one of its parts goes.
+        let k = rng.gen_range(2..=3usize.min(e.len()));
+        let mut idx: Vec<usize> = (0..e.len()).collect();
+        for j in 0..k {
+            let r = rng.gen_range(j..idx.len());
+            idx.swap(j, r);
+        }
+        let current: Vec<(usize, u32)> = idx[..k].iter().map(|&i| (e[i], rng.gen_range(1..=4))).collect();
+        let forced = vec![current[0].0];
+        let allowed: Vec<&(Vec<(usize, u32)>, f64)> = good.iter().filter(|(b, _)| !b.iter().any(|x| x.0 == forced[0])).collect();
+        let best = allowed.iter().map(|(b, c)| (changes(&current, b), *c)).min_by(|x, y| x.0.cmp(&y.0).then(x.1.partial_cmp(&y.1).unwrap()));
+        let r = optimize::rework(&p, &current, &forced, &Settings { explain: false, ..Default::default() });
+        match (best, &r.found) {
+            (None, None) => {}
+            (Some(b), None) => panic!("case {case}: rework found nothing, brute force {b:?}"),
+            (None, Some(f)) => {
+                // Counts above 8 lie outside the brute force's space.
+                assert!(f.bank.iter().any(|x| x.1 > MAX_COUNT), "case {case}: rework found {:?}, brute force nothing", f.bank);
+            }
+            (Some((ch, cost)), Some(f)) => {
+                compared += 1;
+                assert!(!f.bank.iter().any(|x| x.0 == forced[0]), "case {case}: the dropped part stayed");
+                let got = changes(&current, &f.bank);
+                assert_eq!(got, ch, "case {case}: {got} changes, fewest possible {ch}");
+                assert_eq!(r.changes, ch + 0, "case {case}: reported changes");
+                let tool_cost: f64 = f.bank.iter().map(|&(i, n)| n as f64 * cat.parts[i].cost).sum();
+                assert!(tool_cost <= cost * 1.01 + 1e-12, "case {case}: cost {tool_cost} above {cost}");
+            }
+        }
+    }
+    eprintln!("rework: {compared} cases compared with brute force");
+    assert!(compared >= 40, "too few comparable cases: {compared}");
+}
+
+#[test]
+fn bank_with_nothing_obsolete_is_still_good() {
+    // The demo design's bank meets the target with active parts only
+    // (checked here with `assess` first, the same evaluator).
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(&bom, "part,count\nRB-C0402-X5R-1U-6V3,1\nRB-C0603-X5R-10U-6V3,2\nRB-C1206-X5R-47U-6V3,2\n").unwrap();
+    Command::cargo_bin("ripplebank").unwrap().args(["assess", "--bom"]).arg(&bom).assert().code(0);
+    let out = Command::cargo_bin("ripplebank").unwrap().args(["rework", "--json", "--bom"]).arg(&bom).assert().code(0).get_output().stdout.clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert_eq!(v["still_good"], true);
+    assert_eq!(v["removed"].as_array().unwrap().len(), 0);
+    assert_eq!(v["added"].as_array().unwrap().len(), 0);
+    assert_eq!(v["kept"].as_array().unwrap().len(), 3);
+    for k in v["kept"].as_array().unwrap() {
+        assert_eq!(k["count_before"], k["count_after"]);
+    }
+}
+
+#[test]
+fn obsolete_part_is_replaced_with_one_change() {
+    // RB-C0805-X5R-22U-10V is obsolete in the demo catalog.
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(&bom, "part,count\nRB-C0805-X5R-22U-10V,3\nRB-C1206-X5R-47U-6V3,2\n").unwrap();
+    let out = Command::cargo_bin("ripplebank").unwrap().args(["rework", "--json", "--bom"]).arg(&bom).assert().code(0).get_output().stdout.clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    let removed = v["removed"].as_array().unwrap();
+    assert!(removed.iter().any(|r| r["part"] == "RB-C0805-X5R-22U-10V" && r["reason"] == "obsolete"));
+    assert!(v["ripple_pp"].as_f64().unwrap() <= v["target_ripple_pp"].as_f64().unwrap());
+    assert!(!v["bank"].as_array().unwrap().iter().any(|b| b["part"] == "RB-C0805-X5R-22U-10V"));
+}
