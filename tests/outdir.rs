@@ -1,5 +1,5 @@
 //! `--out DIR` never loses work (SPEC §7): a failed run leaves an existing
-//! folder exactly as it was, a successful one replaces its content whole,
+//! folder exactly as it was, a successful one writes its files and keeps the user's own,
 //! and no temporary folder is left beside it.
 
 use assert_cmd::Command;
@@ -91,7 +91,8 @@ fn failed_runs_leave_the_folder_as_it_was_and_a_good_run_replaces_it() {
     for f in ["bom.csv", "report.json", "bank.cir", "report.html"] {
         assert!(after.contains(&f.to_string()), "{f} missing: {after:?}");
     }
-    assert!(!after.contains(&"sentinel.txt".to_string()) && !after.contains(&"notes".to_string()), "old content kept: {after:?}");
+    // Nothing already on disk is lost: the user's own files stay.
+    assert!(after.contains(&"sentinel.txt".to_string()) && after.contains(&"notes".to_string()), "user files lost: {after:?}");
     no_leftovers(parent.path(), "out");
     assert_eq!(names(parent.path()), vec!["out".to_string()]);
     // The files describe the bank that was asked for.

@@ -60,8 +60,9 @@ impl OutFiles {
     }
 
     /// Write every file into `dir`: first into a fresh sibling folder, then
-    /// swap it into place. An existing `dir` is only replaced once the new
-    /// content is complete.
+    /// rename it into place (or, when `dir` exists, rename each file into
+    /// it). Nothing is touched until every file is written; files in `dir`
+    /// that this run does not write are kept.
     pub fn commit(&self, dir: &Path) -> Result<()> {
         let parent = match dir.parent() {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
@@ -86,14 +87,16 @@ impl OutFiles {
             return Err(e);
         }
         if dir.exists() {
-            let old = parent.join(format!(".{name}.old-{stamp}"));
-            std::fs::rename(dir, &old).with_context(|| format!("--out: cannot move the old {} aside", dir.display()))?;
-            if let Err(e) = std::fs::rename(&tmp, dir) {
-                let _ = std::fs::rename(&old, dir);
-                let _ = std::fs::remove_dir_all(&tmp);
-                return Err(e).with_context(|| format!("--out: cannot rename into {}", dir.display()));
+            // Move our files in one by one (each rename is atomic and
+            // replaces only a file of the same name); anything else the
+            // folder holds is left alone.
+            for (f, _) in &self.files {
+                if let Err(e) = std::fs::rename(tmp.join(f), dir.join(f)) {
+                    let _ = std::fs::remove_dir_all(&tmp);
+                    return Err(e).with_context(|| format!("--out: cannot move {f} into {}", dir.display()));
+                }
             }
-            let _ = std::fs::remove_dir_all(&old);
+            let _ = std::fs::remove_dir_all(&tmp);
         } else {
             std::fs::rename(&tmp, dir).with_context(|| format!("--out: cannot rename into {}", dir.display()))?;
         }
