@@ -929,7 +929,7 @@ pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize
     floored.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap());
     let mut best = f64::INFINITY;
     let mut best_bank = None;
-    for (floor, set) in floored.iter().take(4000) {
+    for (floor, set) in floored.iter().take(MIN_RIPPLE_SETS) {
         if *floor >= best {
             break;
         }
@@ -942,6 +942,9 @@ pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize
     }
     (best, best_bank)
 }
+
+/// Line sets the lowest-ripple search descends from (in floor order).
+const MIN_RIPPLE_SETS: usize = 400;
 
 /// Greedy: from the lower bounds, add the part that lowers the ripple most
 /// while the limits allow; stop when nothing helps.
@@ -1025,7 +1028,7 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         tries.push(("min_capacitance", Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0)));
     }
     let mut out = Vec::new();
-    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false, milp_proposals: 1, milp_seconds: 1.0, ..Settings::default() };
+    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false, milp_proposals: 1, milp_seconds: 1.0, max_evaluations: 150_000, ..Settings::default() };
     for (name, relax) in tries {
         let mut sc = base.clone();
         relax(&mut sc);

@@ -1,0 +1,161 @@
+//! Each limit changes the design as it should, on the bundled demo (a
+//! 12 V → 3.3 V buck, invented data). Every check recomputes the limit from
+//! its definition (SPEC §3–§4) on the reported bank with the evaluator.
+
+use ripplebank::assessment::{assess, Assessment};
+use ripplebank::catalog::{Catalog, Status as Life};
+use ripplebank::load;
+use ripplebank::optimize::{design, Settings};
+use ripplebank::problem::Problem;
+use ripplebank::scenario::{Farads, Plain, Scenario};
+
+fn demo() -> (Scenario, Catalog) {
+    load::scenario_and_catalog(None, None).unwrap()
+}
+
+fn solve(s: Scenario, c: Catalog) -> (Problem, Option<Assessment>) {
+    let p = Problem::new(s, c).unwrap();
+    let out = design(&p, &Settings { explain: false, ..Default::default() });
+    let a = out.found.map(|f| assess(&p, &f.bank).unwrap());
+    if let Some(a) = &a {
+        assert!(a.ripple_pp <= p.scenario.target.ripple_pp.0, "every reported bank verifies");
+    }
+    (p, a)
+}
+
+fn baseline() -> Assessment {
+    let (s, c) = demo();
+    solve(s, c).1.expect("the demo has a design")
+}
+
+fn has(a: &Assessment, part: &str) -> bool {
+    a.bank.iter().any(|l| l.part == part)
+}
+
+#[test]
+fn max_capacitance() {
+    let b = baseline();
+    let (mut s, c) = demo();
+    let limit = b.capacitance_max_total * 0.9;
+    s.converter.max_capacitance = Some(Farads(limit));
+    let (_, a) = solve(s, c);
+    let a = a.expect("a smaller bank exists");
+    assert!(a.capacitance_max_total <= limit * (1.0 + 1e-12));
+    assert!(a.cost >= b.cost - 1e-12);
+}
+
+#[test]
+fn max_lines() {
+    let b = baseline();
+    assert!(b.lines > 1, "the baseline uses several lines");
+    let (mut s, c) = demo();
+    s.board.max_lines = Some(1);
+    let (_, a) = solve(s, c);
+    let a = a.expect("one line can do it");
+    assert_eq!(a.lines, 1);
+    assert!(a.cost > b.cost);
+}
+
+#[test]
+fn max_count() {
+    let b = baseline();
+    let (mut s, c) = demo();
+    s.board.max_count = Some(b.count - 2);
+    let (_, a) = solve(s, c);
+    if let Some(a) = a {
+        assert!(a.count <= b.count - 2);
+        assert!(a.cost >= b.cost - 1e-12);
+    }
+}
+
+#[test]
+fn max_area() {
+    let b = baseline();
+    let (mut s, c) = demo();
+    let limit = b.area * 0.8;
+    s.board.max_area = Some(Plain(limit));
+    let (_, a) = solve(s, c);
+    if let Some(a) = a {
+        assert!(a.area <= limit * (1.0 + 1e-12), "{} > {limit}", a.area);
+        assert!(a.cost >= b.cost - 1e-12);
+    }
+}
+
+#[test]
+fn max_height() {
+    let b = baseline();
+    let tallest = b.bank.iter().filter_map(|l| l.height).fold(0.0, f64::max);
+    let (mut s, c) = demo();
+    s.board.max_height = Some(Plain(tallest - 0.01));
+    let (_, a) = solve(s, c);
+    if let Some(a) = a {
+        assert!(a.bank.iter().all(|l| l.height.unwrap() < tallest));
+    }
+}
+
+#[test]
+fn ripple_current_rating() {
+    let b = baseline();
+    // Rate the baseline's hardest-working part just below what it carries.
+    let line = b.bank.iter().max_by(|x, y| x.ripple_current_rms.partial_cmp(&y.ripple_current_rms).unwrap()).unwrap();
+    let (s, mut c) = demo();
+    let i = c.position(&line.part).unwrap();
+    c.parts[i].ripple_current = Some(line.ripple_current_rms * 0.9);
+    let (_, a) = solve(s, c);
+    let a = a.expect("another bank exists");
+    for r in &a.ripple_current {
+        if let Some(limit) = r.rating {
+            assert!(r.rms <= limit, "{} carries {} over {limit}", r.part, r.rms);
+        }
+    }
+    // The answer changed.
+    let key = |x: &Assessment| x.bank.iter().map(|l| (l.part.clone(), l.count)).collect::<Vec<_>>();
+    assert_ne!(key(&a), key(&b));
+}
+
+#[test]
+fn require() {
+    let b = baseline();
+    let part = "RB-C0805-X5R-22U-6V3";
+    assert!(!has(&b, part));
+    let (mut s, c) = demo();
+    s.selection.require.insert(part.into(), 3);
+    let (_, a) = solve(s, c);
+    let a = a.expect("a design with the required part");
+    assert!(a.bank.iter().any(|l| l.part == part && l.count >= 3));
+    assert!(a.cost >= b.cost - 1e-12);
+}
+
+#[test]
+fn exclude() {
+    let b = baseline();
+    let part = b.bank.iter().max_by(|x, y| x.line_total_cost.partial_cmp(&y.line_total_cost).unwrap()).unwrap().part.clone();
+    let (mut s, c) = demo();
+    s.selection.exclude.push(part.clone());
+    let (p, a) = solve(s, c);
+    let a = a.expect("a design without it");
+    assert!(!has(&a, &part));
+    assert!(p.excluded.iter().any(|e| e.part == part && e.reason.contains("excluded")));
+    assert!(a.cost >= b.cost - 1e-12);
+}
+
+#[test]
+fn status_obsolete_and_nrnd() {
+    let b = baseline();
+    let part = b.bank[0].part.clone();
+    let (s, mut c) = demo();
+    let i = c.position(&part).unwrap();
+    c.parts[i].status = Life::Obsolete;
+    let (p, a) = solve(s.clone(), c.clone());
+    assert!(!a.is_some_and(|a| has(&a, &part)));
+    assert!(p.excluded.iter().any(|e| e.part == part && e.reason.contains("obsolete")));
+    // nrnd: refused by default, allowed with allow_nrnd (then the baseline is back).
+    c.parts[i].status = Life::Nrnd;
+    let (_, a) = solve(s.clone(), c.clone());
+    assert!(!a.is_some_and(|a| has(&a, &part)));
+    let mut s2 = s;
+    s2.selection.allow_nrnd = true;
+    let (_, a) = solve(s2, c);
+    let a = a.unwrap();
+    assert!((a.cost - b.cost).abs() < 1e-12);
+}
