@@ -120,6 +120,13 @@ impl Problem {
                 ));
             }
         }
+        if matches!(scenario.converter.topology, Topology::Flyback | Topology::Boost) && scenario.converter.edge_time.0 == 0.0 {
+            warnings.push(format!(
+                "converter.edge_time is 0: the {}'s current jumps are ideal steps, so the ripple across the parts' ESL \
+                 depends on the harmonic count; give the commutation time (typically 10-50 ns)",
+                scenario.converter.topology.name()
+            ));
+        }
         if scenario.converter.topology == Topology::Module && scenario.converter.standalone_bandwidth.is_none() && scenario.target.bandwidth.is_some() {
             warnings.push("converter.standalone_bandwidth not given: the standalone ripple is taken at the target's bandwidth".into());
         }
