@@ -131,7 +131,7 @@ pub struct Settings {
 
 impl Default for Settings {
     fn default() -> Self {
-        Settings { progress: false, exhaustive_limit: 150_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0, max_evaluations: 3_000_000 }
+        Settings { progress: false, exhaustive_limit: 1_500_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0, max_evaluations: 3_000_000 }
     }
 }
 
@@ -663,6 +663,29 @@ fn binomial_sum(n: usize, k: usize) -> usize {
     total
 }
 
+/// Visit every line set: the required parts plus up to `free` others from
+/// `pool`, without storing them.
+fn each_line_set(required: &[usize], pool: &[usize], free: usize, f: &mut dyn FnMut(&[usize])) {
+    let others: Vec<usize> = pool.iter().copied().filter(|i| !required.contains(i)).collect();
+    let mut cur: Vec<usize> = required.to_vec();
+    if !required.is_empty() {
+        f(&cur);
+    }
+    fn go(others: &[usize], start: usize, left: usize, cur: &mut Vec<usize>, f: &mut dyn FnMut(&[usize])) {
+        for j in start..others.len() {
+            cur.push(others[j]);
+            f(cur);
+            if left > 1 {
+                go(others, j + 1, left - 1, cur, f);
+            }
+            cur.pop();
+        }
+    }
+    if free > 0 {
+        go(&others, 0, free, &mut cur, f);
+    }
+}
+
 /// All line sets: the required parts plus up to `free` others from `pool`.
 fn line_sets(required: &[usize], pool: &[usize], free: usize) -> Vec<Vec<usize>> {
     let others: Vec<usize> = pool.iter().copied().filter(|i| !required.contains(i)).collect();
@@ -728,8 +751,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         stats.line_sets_total = total;
         if s.required.len() <= s.lim.max_lines {
             if total <= settings.exhaustive_limit {
-                let sets = line_sets(&s.required, &all, free);
-                run_sets(&mut s, sets, settings, "design");
+                run_all_sets(&mut s, &all, free, settings, "design");
                 exhaustive = true;
             } else {
                 let mut pool = pool(&s, settings.pool);
@@ -750,8 +772,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
                     }
                     cuts.push(prop.set);
                 }
-                let sets = line_sets(&s.required, &pool, free);
-                run_sets(&mut s, sets, settings, "design (pool)");
+                run_all_sets(&mut s, &pool, free, settings, "design (pool)");
                 neighbourhood(&mut s, settings);
                 if let (Some(lb), Some(inc)) = (stats.lower_bound, &s.inc) {
                     exhaustive = inc.0[0] <= lb + tol(lb, inc.0[0]);
@@ -785,7 +806,27 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
 }
 
 fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &str) {
-    let mut bounded: Vec<(f64, Vec<usize>)> = sets.into_iter().filter_map(|set| s.set_bound(&set).map(|b| (b, set))).collect();
+    let bounded: Vec<(f64, Vec<usize>)> = sets.into_iter().filter_map(|set| s.set_bound(&set).map(|b| (b, set))).collect();
+    solve_bounded(s, bounded, settings, msg);
+}
+
+/// As [`run_sets`] over every line set of the required parts plus up to
+/// `free` parts of `pool`; only the sets that pass their bound are stored.
+fn run_all_sets(s: &mut Search, pool: &[usize], free: usize, settings: &Settings, msg: &str) {
+    let mut bounded: Vec<(f64, Vec<usize>)> = Vec::new();
+    let required = s.required.clone();
+    let inc0 = s.inc_primary();
+    each_line_set(&required, pool, free, &mut |set| {
+        if let Some(b) = s.set_bound(set) {
+            if b <= inc0 + tol(b, inc0) {
+                bounded.push((b, set.to_vec()));
+            }
+        }
+    });
+    solve_bounded(s, bounded, settings, msg);
+}
+
+fn solve_bounded(s: &mut Search, mut bounded: Vec<(f64, Vec<usize>)>, settings: &Settings, msg: &str) {
     bounded.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap().then(x.1.len().cmp(&y.1.len())));
     let pb = bar(settings.progress, bounded.len(), msg);
     for (j, (b, set)) in bounded.iter().enumerate() {
