@@ -94,9 +94,14 @@ pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>
             bail!("--bank: `{item}` is not of the form PART=N");
         };
         let (id, n) = (id.trim(), n.trim());
-        let n: u32 = n.parse().map_err(|_| anyhow::anyhow!("--bank: count `{n}` of `{id}` is not a whole number"))?;
+        let n: u32 = n
+            .parse()
+            .map_err(|_| anyhow::anyhow!("--bank: count `{n}` of `{id}` is not a whole number"))?;
         let Some(i) = problem.catalog.position(id) else {
-            bail!("--bank: part `{id}` is not in the catalog {}", problem.catalog.source);
+            bail!(
+                "--bank: part `{id}` is not in the catalog {}",
+                problem.catalog.source
+            );
         };
         add(&mut out, i, n);
         if out.iter().any(|&(_, n)| n > MAX_COUNT_PER_PART) {
@@ -119,43 +124,68 @@ fn add(out: &mut Vec<(usize, u32)>, i: usize, n: u32) {
 /// A bill of materials as read from CSV: (part id, count, line number).
 pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
     let src = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| anyhow::anyhow!("{src}: cannot read the bill of materials: {e}"))?;
+    let bytes = std::fs::read(path)
+        .map_err(|e| anyhow::anyhow!("{src}: cannot read the bill of materials: {e}"))?;
     let text = String::from_utf8(bytes).map_err(|e| {
-        let (line, column) = crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
-        anyhow::anyhow!("{src}: line {line}, column {column}: not UTF-8 text; a bill of materials is CSV text")
+        let (line, column) =
+            crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
+        anyhow::anyhow!(
+            "{src}: line {line}, column {column}: not UTF-8 text; a bill of materials is CSV text"
+        )
     })?;
     let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
     if text.trim().is_empty() {
-        bail!("{src}: line 1: the bill of materials is empty (it needs columns `part` and `count`)");
+        bail!(
+            "{src}: line 1: the bill of materials is empty (it needs columns `part` and `count`)"
+        );
     }
-    let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).flexible(true).from_reader(text.as_bytes());
+    let mut rdr = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .flexible(true)
+        .from_reader(text.as_bytes());
     let headers: Vec<String> = rdr
         .headers()
         .map_err(|e| anyhow::anyhow!("{src}: line 1: {e}"))?
         .iter()
         .map(|h| h.trim().to_ascii_lowercase())
         .collect();
-    let pc = headers.iter().position(|h| h == "part").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `part` is missing"))?;
-    let cc = headers.iter().position(|h| h == "count").ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `count` is missing"))?;
+    let pc = headers
+        .iter()
+        .position(|h| h == "part")
+        .ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `part` is missing"))?;
+    let cc = headers
+        .iter()
+        .position(|h| h == "count")
+        .ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `count` is missing"))?;
     let mut out: Vec<(String, u32, u64)> = Vec::new();
     let mut lines = crate::catalog::LineCounter::new(text.as_bytes());
     for rec in rdr.records() {
-        let rec = rec.map_err(|e| anyhow::anyhow!("{src}: line {}: {e}", lines.line(e.position())))?;
+        let rec =
+            rec.map_err(|e| anyhow::anyhow!("{src}: line {}: {e}", lines.line(e.position())))?;
         let line = lines.line(rec.position());
         if rec.iter().all(|f| f.is_empty()) {
             continue;
         }
         let part = rec.get(pc).unwrap_or("").to_string();
         if part.is_empty() {
-            bail!("{src}: line {line}, column {} (part): empty part id", pc + 1);
+            bail!(
+                "{src}: line {line}, column {} (part): empty part id",
+                pc + 1
+            );
         }
         let cs = rec.get(cc).unwrap_or("");
         if cs.is_empty() {
-            bail!("{src}: line {line}, column {} (count): the count of `{part}` is empty", cc + 1);
+            bail!(
+                "{src}: line {line}, column {} (count): the count of `{part}` is empty",
+                cc + 1
+            );
         }
-        let count: u32 = cs
-            .parse()
-            .map_err(|_| anyhow::anyhow!("{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts", cc + 1))?;
+        let count: u32 = cs.parse().map_err(|_| {
+            anyhow::anyhow!(
+                "{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts",
+                cc + 1
+            )
+        })?;
         let total = match out.iter_mut().find(|e| e.0 == part) {
             Some(e) => {
                 e.1 = e.1.saturating_add(count);
@@ -177,11 +207,18 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
 }
 
 /// Resolve a bill of materials against the catalog; unknown parts are errors.
-pub fn bom_to_bank(problem: &Problem, bom: &[(String, u32, u64)], src: &str) -> Result<Vec<(usize, u32)>> {
+pub fn bom_to_bank(
+    problem: &Problem,
+    bom: &[(String, u32, u64)],
+    src: &str,
+) -> Result<Vec<(usize, u32)>> {
     let mut out = Vec::new();
     for (id, n, line) in bom {
         let Some(i) = problem.catalog.position(id) else {
-            bail!("{src}: line {line}, column `part`: part `{id}` is not in the catalog {}", problem.catalog.source);
+            bail!(
+                "{src}: line {line}, column `part`: part `{id}` is not in the catalog {}",
+                problem.catalog.source
+            );
         };
         add(&mut out, i, *n);
     }
@@ -201,7 +238,12 @@ pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
 }
 
 /// As [`assess`], with an evaluator already built over (at least) the bank's parts.
-pub fn assess_with(problem: &Problem, ev: &mut Evaluator, bank: &[(usize, u32)], local: &[(usize, u32)]) -> Assessment {
+pub fn assess_with(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    bank: &[(usize, u32)],
+    local: &[(usize, u32)],
+) -> Assessment {
     let s = &problem.scenario;
     let cat = &problem.catalog;
     let ripple_pp = ev.ripple_pp(local, Corner::Worst, Band::Limited);
@@ -259,62 +301,152 @@ pub fn assess_with(problem: &Problem, ev: &mut Evaluator, bank: &[(usize, u32)],
         });
         let (tmin, tmax) = p.temperature_range();
         if let Some(t) = tmin {
-            checks.push(Check { name: format!("temperature_min {}", p.id), value: t, limit: s.environment.temperature_min, unit: "°C".into(), ok: t <= s.environment.temperature_min });
+            checks.push(Check {
+                name: format!("temperature_min {}", p.id),
+                value: t,
+                limit: s.environment.temperature_min,
+                unit: "°C".into(),
+                ok: t <= s.environment.temperature_min,
+            });
         }
         if let Some(t) = tmax {
-            checks.push(Check { name: format!("temperature_max {}", p.id), value: t, limit: s.environment.temperature_max, unit: "°C".into(), ok: t >= s.environment.temperature_max });
+            checks.push(Check {
+                name: format!("temperature_max {}", p.id),
+                value: t,
+                limit: s.environment.temperature_max,
+                unit: "°C".into(),
+                ok: t >= s.environment.temperature_max,
+            });
         }
         if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
-            checks.push(Check { name: format!("height {}", p.id), value: ph, limit: h.0, unit: "mm".into(), ok: ph <= h.0 });
+            checks.push(Check {
+                name: format!("height {}", p.id),
+                value: ph,
+                limit: h.0,
+                unit: "mm".into(),
+                ok: ph <= h.0,
+            });
         }
         if let Some(r) = p.ripple_current {
-            checks.push(Check { name: format!("ripple_current {}", p.id), value: currents[j], limit: r, unit: "A".into(), ok: currents[j] <= r });
+            checks.push(Check {
+                name: format!("ripple_current {}", p.id),
+                value: currents[j],
+                limit: r,
+                unit: "A".into(),
+                ok: currents[j] <= r,
+            });
         }
         match p.status {
             Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
-            Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!("{} is not recommended for new designs (nrnd)", p.id)),
+            Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!(
+                "{} is not recommended for new designs (nrnd)",
+                p.id
+            )),
             _ => {}
         }
         if s.selection.exclude.contains(&p.id) {
             warnings.push(format!("{} is on the scenario's exclude list", p.id));
         }
         if !p.tolerance_given {
-            warnings.push(format!("{}: no tolerance in the catalog; 20 % assumed", p.id));
+            warnings.push(format!(
+                "{}: no tolerance in the catalog; 20 % assumed",
+                p.id
+            ));
         }
         if n > s.selection.max_per_part {
-            checks.push(Check { name: format!("max_per_part {}", p.id), value: nf, limit: s.selection.max_per_part as f64, unit: "".into(), ok: false });
+            checks.push(Check {
+                name: format!("max_per_part {}", p.id),
+                value: nf,
+                limit: s.selection.max_per_part as f64,
+                unit: "".into(),
+                ok: false,
+            });
         }
     }
     let nlines = bank.len() as u32;
     let parts_cost = cost;
     cost += nlines as f64 * s.selection.line_cost.0;
-    checks.insert(0, Check { name: "ripple_pp".into(), value: ripple_pp, limit: s.target.ripple_pp.0, unit: "V".into(), ok: ripple_pp <= s.target.ripple_pp.0 });
+    checks.insert(
+        0,
+        Check {
+            name: "ripple_pp".into(),
+            value: ripple_pp,
+            limit: s.target.ripple_pp.0,
+            unit: "V".into(),
+            ok: ripple_pp <= s.target.ripple_pp.0,
+        },
+    );
     if let Some(m) = s.converter.max_capacitance {
-        checks.push(Check { name: "max_capacitance".into(), value: climit, limit: m.0, unit: "F".into(), ok: climit <= m.0 * (1.0 + 1e-12) });
+        checks.push(Check {
+            name: "max_capacitance".into(),
+            value: climit,
+            limit: m.0,
+            unit: "F".into(),
+            ok: climit <= m.0 * (1.0 + 1e-12),
+        });
     }
     if s.converter.min_capacitance.0 > 0.0 {
         let m = s.converter.min_capacitance.0;
-        checks.push(Check { name: "min_capacitance".into(), value: ceff, limit: m, unit: "F".into(), ok: ceff >= m });
+        checks.push(Check {
+            name: "min_capacitance".into(),
+            value: ceff,
+            limit: m,
+            unit: "F".into(),
+            ok: ceff >= m,
+        });
     }
     if let Some(m) = s.board.max_count {
-        checks.push(Check { name: "max_count".into(), value: count as f64, limit: m as f64, unit: "".into(), ok: count <= m });
+        checks.push(Check {
+            name: "max_count".into(),
+            value: count as f64,
+            limit: m as f64,
+            unit: "".into(),
+            ok: count <= m,
+        });
     }
-    checks.push(Check { name: "max_lines".into(), value: nlines as f64, limit: s.max_lines() as f64, unit: "".into(), ok: nlines <= s.max_lines() });
+    checks.push(Check {
+        name: "max_lines".into(),
+        value: nlines as f64,
+        limit: s.max_lines() as f64,
+        unit: "".into(),
+        ok: nlines <= s.max_lines(),
+    });
     if let Some(m) = s.board.max_area {
         if area_known {
-            checks.push(Check { name: "max_area".into(), value: area, limit: m.0, unit: "mm²".into(), ok: area <= m.0 * (1.0 + 1e-12) });
+            checks.push(Check {
+                name: "max_area".into(),
+                value: area,
+                limit: m.0,
+                unit: "mm²".into(),
+                ok: area <= m.0 * (1.0 + 1e-12),
+            });
         } else {
             warnings.push("some parts have no area: board.max_area cannot be checked".into());
         }
     }
     for (id, &req) in &s.selection.require {
-        let have = bank.iter().find(|(i, _)| &cat.parts[*i].id == id).map_or(0, |b| b.1);
-        checks.push(Check { name: format!("require {id}"), value: have as f64, limit: req as f64, unit: "".into(), ok: have >= req });
+        let have = bank
+            .iter()
+            .find(|(i, _)| &cat.parts[*i].id == id)
+            .map_or(0, |b| b.1);
+        checks.push(Check {
+            name: format!("require {id}"),
+            value: have as f64,
+            limit: req as f64,
+            unit: "".into(),
+            ok: have >= req,
+        });
     }
     let corners = problem
         .ops
         .iter()
-        .map(|op| CornerInfo { vin: op.vin, duty: op.duty, mode: op.mode.into(), ripple_frequency: op.f_ripple, current_pp: op.current_pp })
+        .map(|op| CornerInfo {
+            vin: op.vin,
+            duty: op.duty,
+            mode: op.mode.into(),
+            ripple_frequency: op.f_ripple,
+            current_pp: op.current_pp,
+        })
         .collect();
     let meets_target = ripple_pp <= s.target.ripple_pp.0;
     let all_ok = checks.iter().all(|c| c.ok);
@@ -338,7 +470,11 @@ pub fn assess_with(problem: &Problem, ev: &mut Evaluator, bank: &[(usize, u32)],
         ripple_current: bank
             .iter()
             .enumerate()
-            .map(|(j, &(i, _))| PartCurrent { part: cat.parts[i].id.clone(), rms: currents[j], rating: cat.parts[i].ripple_current })
+            .map(|(j, &(i, _))| PartCurrent {
+                part: cat.parts[i].id.clone(),
+                rms: currents[j],
+                rating: cat.parts[i].ripple_current,
+            })
             .collect(),
         checks,
         corners,

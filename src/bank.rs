@@ -110,7 +110,11 @@ impl Evaluator {
     pub fn new(s: &Scenario, ops: &[OperatingPoint], parts: Vec<PartModel>) -> Evaluator {
         let f_ripple = ops[0].f_ripple;
         let bw = s.target.bandwidth.map(|b| b.0);
-        let n_limited = if s.target.harmonics > 0 { s.target.harmonics } else { spectrum::auto_count(f_ripple, bw) };
+        let n_limited = if s.target.harmonics > 0 {
+            s.target.harmonics
+        } else {
+            spectrum::auto_count(f_ripple, bw)
+        };
         let n_full = n_limited.max(spectrum::auto_count(f_ripple, None));
         let freqs: Vec<f64> = (1..=n_full).map(|k| k as f64 * f_ripple).collect();
         let order = s.target.bandwidth_order as i32;
@@ -131,11 +135,18 @@ impl Evaluator {
             })
             .collect();
         let lc = s.board.connection_inductance.0;
-        let mut currents: Vec<Vec<Complex64>> = ops.iter().map(|op| spectrum::harmonics(&op.waveform, n_full)).collect();
+        let mut currents: Vec<Vec<Complex64>> = ops
+            .iter()
+            .map(|op| spectrum::harmonics(&op.waveform, n_full))
+            .collect();
         let mut planner = FftPlanner::new();
         let mk = |n: usize, planner: &mut FftPlanner<f64>| {
             let m = samples_for(n);
-            Plan { n, m, fft: planner.plan_fft_inverse(m) }
+            Plan {
+                n,
+                m,
+                fft: planner.plan_fft_inverse(m),
+            }
         };
         let plan_limited = mk(n_limited, &mut planner);
         let plan_full = mk(n_full, &mut planner);
@@ -187,7 +198,13 @@ impl Evaluator {
         }
         ev.drive_limited = currents
             .iter()
-            .map(|cur| cur[..n_limited].iter().zip(&ev.filter).map(|(i, h)| i * h).collect())
+            .map(|cur| {
+                cur[..n_limited]
+                    .iter()
+                    .zip(&ev.filter)
+                    .map(|(i, h)| i * h)
+                    .collect()
+            })
             .collect();
         ev.currents = currents;
         ev.set_parts(parts);
@@ -202,7 +219,8 @@ impl Evaluator {
         for p in &parts {
             for &f in &self.freqs {
                 self.y_worst.push(admittance(p.esr, p.esl, p.c_worst, f));
-                self.y_typical.push(admittance(p.esr, p.esl, p.c_typical, f));
+                self.y_typical
+                    .push(admittance(p.esr, p.esl, p.c_typical, f));
             }
         }
         self.parts = parts;
@@ -267,7 +285,11 @@ impl Evaluator {
     }
 
     fn pp_from_buf(&mut self, n: usize, full: bool) -> f64 {
-        let plan = if full { &self.plan_full } else { &self.plan_limited };
+        let plan = if full {
+            &self.plan_full
+        } else {
+            &self.plan_limited
+        };
         let m = plan.m;
         debug_assert!(n <= plan.n.max(n) && n < m / 2);
         let buf = &mut self.buf[..m];
@@ -358,7 +380,11 @@ impl Evaluator {
         let mut worst: f64 = floor;
         for pass in 0..2 {
             for c in 0..self.currents.len() {
-                let (size, plan) = if pass == 0 { (SUB_FIRST, &self.plan_first) } else { (SUB, &self.plan_sub) };
+                let (size, plan) = if pass == 0 {
+                    (SUB_FIRST, &self.plan_first)
+                } else {
+                    (SUB, &self.plan_sub)
+                };
                 let sub = &mut self.buf[..size];
                 sub.iter_mut().for_each(|x| *x = Complex64::default());
                 for k in 0..n {
@@ -395,7 +421,11 @@ impl Evaluator {
     pub fn required_admittance(&self, target: f64) -> Vec<f64> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+                let d = self
+                    .drive_limited
+                    .iter()
+                    .map(|d| d[k].norm())
+                    .fold(0.0, f64::max);
                 let (g, yi) = self.internal_terms(k);
                 ((d / target - yi) / g).max(0.0)
             })
@@ -407,7 +437,11 @@ impl Evaluator {
     pub fn ripple_floor_for(&self, sum_a: &[f64]) -> f64 {
         let mut best: f64 = 0.0;
         for k in 0..self.n_limited {
-            let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+            let d = self
+                .drive_limited
+                .iter()
+                .map(|d| d[k].norm())
+                .fold(0.0, f64::max);
             let (g, yi) = self.internal_terms(k);
             let y = sum_a[k] * g + yi;
             best = best.max(if y > 0.0 { d / y } else { f64::INFINITY });
@@ -421,10 +455,18 @@ impl Evaluator {
     pub fn phase_terms(&self, target: f64) -> Vec<(f64, Complex64, Complex64)> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self.drive_limited.iter().map(|d| d[k].norm()).fold(0.0, f64::max);
+                let d = self
+                    .drive_limited
+                    .iter()
+                    .map(|d| d[k].norm())
+                    .fold(0.0, f64::max);
                 let w = 2.0 * PI * self.freqs[k];
                 let yi = self.y_int[k];
-                (d / target, Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi, yi)
+                (
+                    d / target,
+                    Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi,
+                    yi,
+                )
             })
             .collect()
     }
@@ -432,12 +474,17 @@ impl Evaluator {
     fn internal_terms(&self, k: usize) -> (f64, f64) {
         let w = 2.0 * PI * self.freqs[k];
         let yi = self.y_int[k];
-        ((Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi).norm(), yi.norm())
+        (
+            (Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi).norm(),
+            yi.norm(),
+        )
     }
 
     /// |Y_ik| of one capacitor at the worst corner, for the target's harmonics.
     pub fn admittance_magnitudes(&self, i: usize) -> Vec<f64> {
-        (0..self.n_limited).map(|k| self.y(i, k, Corner::Worst).norm()).collect()
+        (0..self.n_limited)
+            .map(|k| self.y(i, k, Corner::Worst).norm())
+            .collect()
     }
 
     /// Largest single harmonic amplitude max_k |V_k| of the target figure:
@@ -458,7 +505,13 @@ impl Evaluator {
     }
 
     /// Samples of one period of the ripple at one vin corner.
-    pub fn waveform(&mut self, bank: &Bank, corner: Corner, band: Band, vin_corner: usize) -> Vec<f64> {
+    pub fn waveform(
+        &mut self,
+        bank: &Bank,
+        corner: Corner,
+        band: Band,
+        vin_corner: usize,
+    ) -> Vec<f64> {
         if self.is_empty(bank) {
             return Vec::new();
         }
@@ -475,18 +528,29 @@ impl Evaluator {
             self.buf[k + 1] = drive * self.zt[k];
         }
         self.pp_from_buf(n, band == Band::Full);
-        let m = if band == Band::Full { self.plan_full.m } else { self.plan_limited.m };
+        let m = if band == Band::Full {
+            self.plan_full.m
+        } else {
+            self.plan_limited.m
+        };
         self.buf[..m].iter().map(|x| x.re).collect()
     }
 
     /// Harmonic voltage phasors V_k of the target figure at one vin corner.
-    pub fn harmonic_voltages(&mut self, bank: &Bank, corner: Corner, vin_corner: usize) -> Vec<Complex64> {
+    pub fn harmonic_voltages(
+        &mut self,
+        bank: &Bank,
+        corner: Corner,
+        vin_corner: usize,
+    ) -> Vec<Complex64> {
         let n = self.n_limited;
         if self.is_empty(bank) {
             return vec![Complex64::default(); n];
         }
         self.fill_transfer(bank, corner, n);
-        (0..n).map(|k| self.drive_limited[vin_corner][k] * self.zt[k]).collect()
+        (0..n)
+            .map(|k| self.drive_limited[vin_corner][k] * self.zt[k])
+            .collect()
     }
 
     /// |Z| seen by the converter's current at every harmonic (full set).

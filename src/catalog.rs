@@ -103,7 +103,12 @@ pub struct Dielectric {
 pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
     let c = code.trim().to_ascii_uppercase();
     if matches!(c.as_str(), "C0G" | "COG" | "NP0" | "NPO") {
-        return Some(Dielectric { temp_min: -55.0, temp_max: 125.0, drop: 0.0, class1: true });
+        return Some(Dielectric {
+            temp_min: -55.0,
+            temp_max: 125.0,
+            drop: 0.0,
+            class1: true,
+        });
     }
     let b = c.as_bytes();
     if b.len() != 3 {
@@ -134,7 +139,12 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
         b'V' => 0.82,
         _ => return None,
     };
-    Some(Dielectric { temp_min, temp_max, drop, class1: false })
+    Some(Dielectric {
+        temp_min,
+        temp_max,
+        drop,
+        class1: false,
+    })
 }
 
 /// Footprint (body length × width, mm²) of an imperial EIA case code.
@@ -179,7 +189,10 @@ impl BiasCurve {
                 continue;
             }
             let Some((v, k)) = item.split_once(':') else {
-                return Err(format!("point {} `{item}` is not of the form V:fraction", i + 1));
+                return Err(format!(
+                    "point {} `{item}` is not of the form V:fraction",
+                    i + 1
+                ));
             };
             let v = units::parse(v, Unit::Volt).map_err(|e| format!("point {}: {e}", i + 1))?;
             let k = units::parse(k, Unit::Fraction).map_err(|e| format!("point {}: {e}", i + 1))?;
@@ -280,7 +293,10 @@ impl Part {
 
     /// Worst corner: `C_nom · (1 − tol) · k_bias(vdc) · (1 − drop_T)` (SPEC §4).
     pub fn c_worst(&self, vdc: f64) -> f64 {
-        self.capacitance * (1.0 - self.tolerance) * self.bias_factor(vdc) * (1.0 - self.temperature_drop())
+        self.capacitance
+            * (1.0 - self.tolerance)
+            * self.bias_factor(vdc)
+            * (1.0 - self.temperature_drop())
     }
 
     /// Typical corner: `C_nom · k_bias(vdc)` (SPEC §4).
@@ -328,7 +344,15 @@ const KNOWN: &[&str] = &[
     "mpn",
     "description",
 ];
-const REQUIRED: &[&str] = &["part", "technology", "capacitance", "rated_voltage", "esr", "esl", "cost"];
+const REQUIRED: &[&str] = &[
+    "part",
+    "technology",
+    "capacitance",
+    "rated_voltage",
+    "esr",
+    "esl",
+    "cost",
+];
 
 fn normalise_header(h: &str) -> String {
     h.trim()
@@ -392,7 +416,10 @@ impl Catalog {
             }
             if let Some(k) = KNOWN.iter().find(|k| **k == h) {
                 if col.insert(k, i).is_some() {
-                    bail!("{source}: line 1, column {}: column `{h}` appears twice", i + 1);
+                    bail!(
+                        "{source}: line 1, column {}: column `{h}` appears twice",
+                        i + 1
+                    );
                 }
             } else {
                 extra.push((i, h.clone()));
@@ -400,7 +427,10 @@ impl Catalog {
         }
         for r in REQUIRED {
             if !col.contains_key(r) {
-                bail!("{source}: line 1: required column `{r}` is missing (have: {})", headers.join(", "));
+                bail!(
+                    "{source}: line 1: required column `{r}` is missing (have: {})",
+                    headers.join(", ")
+                );
             }
         }
         let mut cat = Catalog {
@@ -433,7 +463,13 @@ impl Catalog {
             if rec.iter().all(|f| f.is_empty()) {
                 continue;
             }
-            let row = Row { rec: &rec, col: &col, source, line, semicolon };
+            let row = Row {
+                rec: &rec,
+                col: &col,
+                source,
+                line,
+                semicolon,
+            };
             let part = row.part(&extra)?;
             if part.tolerance_given {
             } else {
@@ -467,7 +503,10 @@ impl Catalog {
 pub(crate) fn text_position(bytes: &[u8], at: usize) -> (usize, usize) {
     let before = &bytes[..at.min(bytes.len())];
     let line = before.iter().filter(|&&b| b == b'\n').count() + 1;
-    let start = before.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
+    let start = before
+        .iter()
+        .rposition(|&b| b == b'\n')
+        .map_or(0, |i| i + 1);
     (line, at - start + 1)
 }
 
@@ -484,7 +523,11 @@ pub(crate) struct LineCounter<'a> {
 
 impl<'a> LineCounter<'a> {
     pub(crate) fn new(text: &'a [u8]) -> Self {
-        LineCounter { text, at: 0, line: 1 }
+        LineCounter {
+            text,
+            at: 0,
+            line: 1,
+        }
     }
 
     /// Line on which the record at `pos` starts (0 when unknown).
@@ -499,7 +542,10 @@ impl<'a> LineCounter<'a> {
             self.at = 0;
             self.line = 1;
         }
-        self.line += self.text[self.at..start].iter().filter(|&&b| b == b'\n').count() as u64;
+        self.line += self.text[self.at..start]
+            .iter()
+            .filter(|&&b| b == b'\n')
+            .count() as u64;
         self.at = start;
         self.line
     }
@@ -522,7 +568,11 @@ impl Row<'_> {
 
     fn err(&self, name: &str, msg: impl fmt::Display) -> anyhow::Error {
         let c = self.col.get(name).map_or(0, |i| i + 1);
-        anyhow::anyhow!("{}: line {}, column {c} ({name}): {msg}", self.source, self.line)
+        anyhow::anyhow!(
+            "{}: line {}, column {c} ({name}): {msg}",
+            self.source,
+            self.line
+        )
     }
 
     fn text(&self, name: &str) -> Option<String> {
@@ -530,7 +580,9 @@ impl Row<'_> {
     }
 
     fn num(&self, name: &str, unit: Unit) -> Result<Option<f64>> {
-        let Some((_, v)) = self.raw(name) else { return Ok(None) };
+        let Some((_, v)) = self.raw(name) else {
+            return Ok(None);
+        };
         let owned;
         let v = if self.semicolon && v.contains(',') {
             owned = v.replace(',', ".");
@@ -538,23 +590,40 @@ impl Row<'_> {
         } else {
             v
         };
-        units::parse(v, unit).map(Some).map_err(|e| self.err(name, e))
+        units::parse(v, unit)
+            .map(Some)
+            .map_err(|e| self.err(name, e))
     }
 
     fn req(&self, name: &str, unit: Unit) -> Result<f64> {
-        self.num(name, unit)?.ok_or_else(|| self.err(name, "required value is empty"))
+        self.num(name, unit)?
+            .ok_or_else(|| self.err(name, "required value is empty"))
     }
 
     fn positive(&self, name: &str, v: f64, allow_zero: bool) -> Result<()> {
         if v < 0.0 || (!allow_zero && v == 0.0) {
-            return Err(self.err(name, format!("{v} must be {}", if allow_zero { "zero or more" } else { "above zero" })));
+            return Err(self.err(
+                name,
+                format!(
+                    "{v} must be {}",
+                    if allow_zero {
+                        "zero or more"
+                    } else {
+                        "above zero"
+                    }
+                ),
+            ));
         }
         Ok(())
     }
 
     fn part(&self, extra: &[(usize, String)]) -> Result<Part> {
-        let id = self.text("part").ok_or_else(|| self.err("part", "part id is empty"))?;
-        let tech_text = self.text("technology").ok_or_else(|| self.err("technology", "required value is empty"))?;
+        let id = self
+            .text("part")
+            .ok_or_else(|| self.err("part", "part id is empty"))?;
+        let tech_text = self
+            .text("technology")
+            .ok_or_else(|| self.err("technology", "required value is empty"))?;
         let technology = Technology::parse(&tech_text).ok_or_else(|| {
             self.err(
                 "technology",
@@ -567,7 +636,12 @@ impl Row<'_> {
         let capacitance = self.req("capacitance", Unit::Farad)?;
         self.positive("capacitance", capacitance, false)?;
         if capacitance > 100.0 {
-            return Err(self.err("capacitance", format!("{capacitance} F is beyond any output capacitor (did a prefix go missing?)")));
+            return Err(self.err(
+                "capacitance",
+                format!(
+                    "{capacitance} F is beyond any output capacitor (did a prefix go missing?)"
+                ),
+            ));
         }
         let rated_voltage = self.req("rated_voltage", Unit::Volt)?;
         self.positive("rated_voltage", rated_voltage, false)?;
@@ -586,7 +660,10 @@ impl Row<'_> {
         let tol = self.num("tolerance", Unit::Fraction)?;
         if let Some(t) = tol {
             if !(0.0..1.0).contains(&t) {
-                return Err(self.err("tolerance", format!("{t} must be at least 0 and below 1 (100 %)")));
+                return Err(self.err(
+                    "tolerance",
+                    format!("{t} must be at least 0 and below 1 (100 %)"),
+                ));
             }
         }
         let dielectric = match self.text("dielectric") {
@@ -604,7 +681,11 @@ impl Row<'_> {
         let dc_bias = match self.text("dc_bias") {
             None => None,
             Some(t) => {
-                let t = if self.semicolon { t.replace(',', ".") } else { t };
+                let t = if self.semicolon {
+                    t.replace(',', ".")
+                } else {
+                    t
+                };
                 Some(BiasCurve::parse(&t).map_err(|e| self.err("dc_bias", e))?)
             }
         };
@@ -643,7 +724,12 @@ impl Row<'_> {
                 "active" => Status::Active,
                 "nrnd" => Status::Nrnd,
                 "obsolete" => Status::Obsolete,
-                _ => return Err(self.err("status", format!("unknown status `{s}` (active, nrnd, obsolete)"))),
+                _ => {
+                    return Err(self.err(
+                        "status",
+                        format!("unknown status `{s}` (active, nrnd, obsolete)"),
+                    ))
+                }
             },
         };
         Ok(Part {
@@ -687,8 +773,23 @@ mod tests {
         // EIA-198 (EIA/IS-198) class II codes: first letter = low temperature,
         // digit = high temperature, last letter = maximum capacitance change.
         let lows = [('X', -55.0), ('Y', -30.0), ('Z', 10.0)];
-        let highs = [('2', 45.0), ('4', 65.0), ('5', 85.0), ('6', 105.0), ('7', 125.0), ('8', 150.0), ('9', 200.0)];
-        let drops = [('P', 0.10), ('R', 0.15), ('S', 0.22), ('T', 0.33), ('U', 0.56), ('V', 0.82)];
+        let highs = [
+            ('2', 45.0),
+            ('4', 65.0),
+            ('5', 85.0),
+            ('6', 105.0),
+            ('7', 125.0),
+            ('8', 150.0),
+            ('9', 200.0),
+        ];
+        let drops = [
+            ('P', 0.10),
+            ('R', 0.15),
+            ('S', 0.22),
+            ('T', 0.33),
+            ('U', 0.56),
+            ('V', 0.82),
+        ];
         for (l, tl) in lows {
             for (h, th) in highs {
                 for (d, dd) in drops {
@@ -737,13 +838,18 @@ mod tests {
         let csv = "part,technology,capacitance,rated_voltage,esr,esl,cost,case,vendor_code\n\
                    A,ceramic,22u,6.3,3m,0.4n,0.05,0805,x1\n\
                    B,ceramic,10uH,6.3,3m,0.4n,0.05,0603,x2\n";
-        let e = Catalog::from_bytes(csv.as_bytes(), "t.csv").unwrap_err().to_string();
+        let e = Catalog::from_bytes(csv.as_bytes(), "t.csv")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("t.csv: line 3, column 3 (capacitance)"), "{e}");
         let ok = "part,technology,capacitance,rated_voltage,esr,esl,cost,case,vendor_code\n\
                   A,ceramic,22u,6.3,3m,0.4n,0.05,0805,x1\n";
         let c = Catalog::from_bytes(ok.as_bytes(), "t.csv").unwrap();
         assert_eq!(c.parts[0].area, Some(2.5));
-        assert_eq!(c.parts[0].extra, vec![("vendor_code".to_string(), "x1".to_string())]);
+        assert_eq!(
+            c.parts[0].extra,
+            vec![("vendor_code".to_string(), "x1".to_string())]
+        );
         assert_eq!(c.parts[0].tolerance, 0.2);
     }
 

@@ -4,8 +4,8 @@
 
 use crate::assessment::{self, Assessment};
 use crate::load::{self, Overrides};
-use crate::problem::Problem;
 use crate::optimize;
+use crate::problem::Problem;
 use crate::report::{self, text, OutFiles};
 use crate::scenario::Objective;
 use anyhow::Result;
@@ -33,7 +33,14 @@ fn load(c: &Common, o: &Overrides) -> Result<Problem> {
 }
 
 /// The standard output files for one bank.
-pub fn bank_files(problem: &Problem, bank: &[(usize, u32)], a: &Assessment, doc: &serde_json::Value, title: &str, body: &str) -> Result<OutFiles> {
+pub fn bank_files(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    a: &Assessment,
+    doc: &serde_json::Value,
+    title: &str,
+    body: &str,
+) -> Result<OutFiles> {
     let mut files = OutFiles::default();
     files.add("bom.csv", report::bom_csv(problem, bank));
     files.add("report.json", report::json_text(doc.clone()));
@@ -58,11 +65,19 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             "excluded": p.excluded,
             "warnings": p.warnings,
         });
-        return Ok(Outcome { stdout: report::json_text(doc), code: 0 });
+        return Ok(Outcome {
+            stdout: report::json_text(doc),
+            code: 0,
+        });
     }
     let mut o = String::new();
     let _ = writeln!(o, "Scenario {} is valid.", p.scenario.source);
-    let _ = writeln!(o, "Catalog {} is valid: {} parts.", p.catalog.source, p.catalog.parts.len());
+    let _ = writeln!(
+        o,
+        "Catalog {} is valid: {} parts.",
+        p.catalog.source,
+        p.catalog.parts.len()
+    );
     o.push_str(&text::header(&p));
     let _ = writeln!(o, "\nParts that may be used: {}", p.eligible.len());
     for &i in &p.eligible {
@@ -111,7 +126,12 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
         if a.all_ok {
             "PASS — the bank meets the target and every limit at the worst corner.".to_string()
         } else {
-            let failed: Vec<&str> = a.checks.iter().filter(|c| !c.ok).map(|c| c.name.as_str()).collect();
+            let failed: Vec<&str> = a
+                .checks
+                .iter()
+                .filter(|c| !c.ok)
+                .map(|c| c.name.as_str())
+                .collect();
             format!("FAIL — {}", failed.join(", "))
         }
     );
@@ -120,7 +140,10 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
         bank_files(&p, &bank, &a, &doc, "Bank assessment", &body)?.commit(dir)?;
     }
     let stdout = if c.json { report::json_text(doc) } else { body };
-    Ok(Outcome { stdout, code: if a.all_ok { 0 } else { 1 } })
+    Ok(Outcome {
+        stdout,
+        code: if a.all_ok { 0 } else { 1 },
+    })
 }
 
 /// Show progress only on a terminal and never with --json.
@@ -132,12 +155,18 @@ pub fn show_progress(c: &Common) -> bool {
 fn objective_arg(o: Option<&str>) -> Result<Option<Objective>> {
     match o {
         None => Ok(None),
-        Some(t) => Objective::parse(t).map(Some).ok_or_else(|| anyhow::anyhow!("--objective: `{t}` is not one of cost, area, count")),
+        Some(t) => Objective::parse(t)
+            .map(Some)
+            .ok_or_else(|| anyhow::anyhow!("--objective: `{t}` is not one of cost, area, count")),
     }
 }
 
 /// Text and JSON for a design outcome.
-pub fn design_report(p: &Problem, out: &optimize::Outcome, what: &str) -> Result<(String, serde_json::Value, Option<Assessment>)> {
+pub fn design_report(
+    p: &Problem,
+    out: &optimize::Outcome,
+    what: &str,
+) -> Result<(String, serde_json::Value, Option<Assessment>)> {
     let mut body = text::header(p);
     let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
     let st = &out.stats;
@@ -162,7 +191,10 @@ pub fn design_report(p: &Problem, out: &optimize::Outcome, what: &str) -> Result
             (doc, Some(a))
         }
         None => {
-            let _ = writeln!(body, "\n{what}: INFEASIBLE — no bank meets the target under every limit.");
+            let _ = writeln!(
+                body,
+                "\n{what}: INFEASIBLE — no bank meets the target under every limit."
+            );
             match out.best_ripple_pp {
                 Some(r) => {
                     let _ = writeln!(
@@ -176,7 +208,11 @@ pub fn design_report(p: &Problem, out: &optimize::Outcome, what: &str) -> Result
                     let _ = writeln!(body, "  No part may be used, so no bank can be built.");
                 }
             }
-            let _ = writeln!(body, "  Binding (relaxing any one of these alone makes the target reachable): {}", out.binding.join(", "));
+            let _ = writeln!(
+                body,
+                "  Binding (relaxing any one of these alone makes the target reachable): {}",
+                out.binding.join(", ")
+            );
             let mut doc = json!({
                 "status": "infeasible",
                 "bank": [],
@@ -213,9 +249,15 @@ pub fn design_report(p: &Problem, out: &optimize::Outcome, what: &str) -> Result
 }
 
 pub fn design(c: &Common, objective: Option<&str>, exclude: &[String]) -> Result<Outcome> {
-    let o = Overrides { objective: objective_arg(objective)?, exclude: exclude.to_vec() };
+    let o = Overrides {
+        objective: objective_arg(objective)?,
+        exclude: exclude.to_vec(),
+    };
     let p = load(c, &o)?;
-    let settings = optimize::Settings { progress: show_progress(c), ..Default::default() };
+    let settings = optimize::Settings {
+        progress: show_progress(c),
+        ..Default::default()
+    };
     let out = optimize::design(&p, &settings);
     let (body, doc, a) = design_report(&p, &out, "Design")?;
     if let Some(dir) = &c.out {
@@ -224,7 +266,10 @@ pub fn design(c: &Common, objective: Option<&str>, exclude: &[String]) -> Result
             _ => {
                 let mut files = OutFiles::default();
                 files.add("report.json", report::json_text(doc.clone()));
-                files.add("report.html", report::html::page("Bank design (infeasible)", &body, &[]));
+                files.add(
+                    "report.html",
+                    report::html::page("Bank design (infeasible)", &body, &[]),
+                );
                 files
             }
         };
@@ -239,7 +284,8 @@ fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
     match v {
         None => Ok(None),
         Some(t) => {
-            let x = crate::units::parse(t, crate::units::Unit::Volt).map_err(|e| anyhow::anyhow!("--{name}: {e}"))?;
+            let x = crate::units::parse(t, crate::units::Unit::Volt)
+                .map_err(|e| anyhow::anyhow!("--{name}: {e}"))?;
             if !(x > 0.0) {
                 anyhow::bail!("--{name}: {x} V must be above zero");
             }
@@ -256,10 +302,18 @@ pub const TRADEOFF_SPAN: f64 = 10.0;
 pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
     let mut b: Vec<(usize, u32)> = bank.iter().copied().filter(|x| x.1 > 0).collect();
     b.sort();
-    b.iter().map(|&(i, n)| format!("{}={n}", p.catalog.parts[i].id)).collect::<Vec<_>>().join(",")
+    b.iter()
+        .map(|&(i, n)| format!("{}={n}", p.catalog.parts[i].id))
+        .collect::<Vec<_>>()
+        .join(",")
 }
 
-pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize) -> Result<Outcome> {
+pub fn tradeoff(
+    c: &Common,
+    from: Option<&str>,
+    to: Option<&str>,
+    points: usize,
+) -> Result<Outcome> {
     use indicatif::{ProgressBar, ProgressStyle};
     let p = load(c, &Overrides::default())?;
     if !(2..=200).contains(&points) {
@@ -273,7 +327,9 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
         None => {
             let (r, _) = optimize::lowest_ripple(&p);
             if !r.is_finite() {
-                anyhow::bail!("no bank can be built from the eligible parts; see `ripplebank validate`");
+                anyhow::bail!(
+                    "no bank can be built from the eligible parts; see `ripplebank validate`"
+                );
             }
             r
         }
@@ -282,9 +338,14 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
     let hi = match to {
         Some(v) => v,
         None => {
-            let r = optimize::smallest_bank(&p).map(|f| f.ripple_pp).filter(|r| r.is_finite()).ok_or_else(|| {
-                anyhow::anyhow!("no bank satisfies the limits other than ripple; see `ripplebank validate`")
-            })?;
+            let r = optimize::smallest_bank(&p)
+                .map(|f| f.ripple_pp)
+                .filter(|r| r.is_finite())
+                .ok_or_else(|| {
+                    anyhow::anyhow!(
+                        "no bank satisfies the limits other than ripple; see `ripplebank validate`"
+                    )
+                })?;
             let cap = TRADEOFF_SPAN * p.scenario.target.ripple_pp.0;
             if r > cap && cap > lo {
                 note = format!(
@@ -299,12 +360,30 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
             }
         }
     };
-    let (lo, hi) = if hi > lo * (1.0 + 1e-6) { (lo, hi) } else { (lo, lo * 2.0) };
-    let targets: Vec<f64> = (0..points).map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64)).collect();
-    let pb = if show { ProgressBar::new(points as u64) } else { ProgressBar::hidden() };
-    pb.set_style(ProgressStyle::with_template("tradeoff [{bar:30}] {pos}/{len} targets ({elapsed})").expect("template").progress_chars("=> "));
+    let (lo, hi) = if hi > lo * (1.0 + 1e-6) {
+        (lo, hi)
+    } else {
+        (lo, lo * 2.0)
+    };
+    let targets: Vec<f64> = (0..points)
+        .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
+        .collect();
+    let pb = if show {
+        ProgressBar::new(points as u64)
+    } else {
+        ProgressBar::hidden()
+    };
+    pb.set_style(
+        ProgressStyle::with_template("tradeoff [{bar:30}] {pos}/{len} targets ({elapsed})")
+            .expect("template")
+            .progress_chars("=> "),
+    );
     // Each point gets a share of the work a single design may take.
-    let settings = optimize::Settings { explain: false, max_evaluations: 1_000_000, ..Default::default() };
+    let settings = optimize::Settings {
+        explain: false,
+        max_evaluations: 1_000_000,
+        ..Default::default()
+    };
     let mut results: Vec<(f64, optimize::Outcome)> = Vec::new();
     for &t in &targets {
         results.push((t, optimize::design_for(&p, t, &settings)));
@@ -329,13 +408,29 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
     let mut plot_points = Vec::new();
     let mut rows = Vec::new();
     let mut csv = csv::Writer::from_writer(Vec::new());
-    csv.write_record(["target", "status", "ripple_pp", "cost", "area", "count", "lines", "bank"])?;
+    csv.write_record([
+        "target",
+        "status",
+        "ripple_pp",
+        "cost",
+        "area",
+        "count",
+        "lines",
+        "bank",
+    ])?;
     let mut prev_cost: Option<(f64, f64)> = None;
     for (t, out) in &results {
         let (bank_json, ripple, cost, area, count, key) = match &out.found {
             Some(f) => {
                 let a = assessment::assess(&p, &f.bank)?;
-                (serde_json::to_value(&a.bank)?, Some(a.ripple_pp), Some(a.cost), Some(a.area), Some(a.count), bank_key(&p, &f.bank))
+                (
+                    serde_json::to_value(&a.bank)?,
+                    Some(a.ripple_pp),
+                    Some(a.cost),
+                    Some(a.area),
+                    Some(a.count),
+                    bank_key(&p, &f.bank),
+                )
             }
             None => (json!([]), None, None, None, None, String::new()),
         };
@@ -350,11 +445,15 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
             cost.map_or(String::new(), |x| format!("{x:.4}")),
             area.map_or(String::new(), |x| format!("{x:.3}")),
             count.map_or(String::new(), |x| x.to_string()),
-            out.found.as_ref().map_or(String::new(), |f| f.bank.len().to_string()),
+            out.found
+                .as_ref()
+                .map_or(String::new(), |f| f.bank.len().to_string()),
             key.clone(),
         ])?;
         let per_mv = match (prev_cost, cost) {
-            (Some((pt, pc)), Some(cc)) if (t - pt) > 0.0 => format!("{:.4}", (pc - cc) / ((t - pt) * 1e3)),
+            (Some((pt, pc)), Some(cc)) if (t - pt) > 0.0 => {
+                format!("{:.4}", (pc - cc) / ((t - pt) * 1e3))
+            }
             _ => "—".into(),
         };
         if let Some(cc) = cost {
@@ -368,7 +467,11 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
             per_mv,
             area.map_or("—".into(), |x| format!("{x:.1}")),
             count.map_or("—".into(), |x| x.to_string()),
-            if key.is_empty() { "no bank meets this target".into() } else { key.clone() },
+            if key.is_empty() {
+                "no bank meets this target".into()
+            } else {
+                key.clone()
+            },
         ]);
         plot_points.push(report::plots::TradeoffPoint {
             target: *t,
@@ -382,8 +485,26 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
     }
     let mut body = text::header(&p);
     let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
-    let _ = writeln!(body, "\nTrade-off: {} ripple targets from {} to {} (geometric)", points, text::mv(lo), text::mv(hi));
-    body.push_str(&text::table(&["target", "status", "ripple", "cost", "cost per mV", "mm²", "n", "bank"], &rows));
+    let _ = writeln!(
+        body,
+        "\nTrade-off: {} ripple targets from {} to {} (geometric)",
+        points,
+        text::mv(lo),
+        text::mv(hi)
+    );
+    body.push_str(&text::table(
+        &[
+            "target",
+            "status",
+            "ripple",
+            "cost",
+            "cost per mV",
+            "mm²",
+            "n",
+            "bank",
+        ],
+        &rows,
+    ));
     let _ = writeln!(
         body,
         "\n'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
@@ -405,9 +526,15 @@ pub fn tradeoff(c: &Common, from: Option<&str>, to: Option<&str>, points: usize)
     if let Some(dir) = &c.out {
         let plots = report::plots::tradeoff_plots(&plot_points)?;
         let mut files = OutFiles::default();
-        files.add("tradeoff.csv", csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?);
+        files.add(
+            "tradeoff.csv",
+            csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?,
+        );
         files.add("report.json", report::json_text(doc.clone()));
-        files.add("report.html", report::html::page("Ripple trade-off", &body, &plots));
+        files.add(
+            "report.html",
+            report::html::page("Ripple trade-off", &body, &plots),
+        );
         for (name, svg) in plots {
             files.add(&name, svg);
         }
@@ -446,7 +573,8 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             Some("nrnd (not recommended for new designs)".to_string())
         } else {
             // A kept part must still be allowed for reasons other than status.
-            crate::problem::ineligibility(&p.scenario, part, p.scenario.selection.objective).map(|r| format!("no longer allowed: {r}"))
+            crate::problem::ineligibility(&p.scenario, part, p.scenario.selection.objective)
+                .map(|r| format!("no longer allowed: {r}"))
         };
         if let Some(r) = reason {
             removed_forced.push((id.clone(), *n, r));
@@ -454,10 +582,17 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         }
     }
     // The current bank with today's catalog data.
-    let before = if current.is_empty() { None } else { Some(assessment::assess(&p, &current)?) };
+    let before = if current.is_empty() {
+        None
+    } else {
+        Some(assessment::assess(&p, &current)?)
+    };
     let complete = removed_forced.iter().all(|r| r.2 != "not in the catalog");
     let still_good = removed_forced.is_empty() && before.as_ref().is_some_and(|a| a.all_ok);
-    let settings = optimize::Settings { progress: show_progress(c), ..Default::default() };
+    let settings = optimize::Settings {
+        progress: show_progress(c),
+        ..Default::default()
+    };
     // The fresh optimum for comparison, without the parts that must go.
     let fresh = {
         let mut sc = p.scenario.clone();
@@ -465,25 +600,46 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             sc.selection.exclude.push(p.catalog.parts[i].id.clone());
         }
         let fp = Problem::new(sc, p.catalog.clone())?;
-        let out = optimize::design(&fp, &optimize::Settings { explain: false, ..settings.clone() });
+        let out = optimize::design(
+            &fp,
+            &optimize::Settings {
+                explain: false,
+                ..settings.clone()
+            },
+        );
         out.found.map(|f| (out.status, f))
     };
     let mut body = text::header(&p);
-    let _ = writeln!(body, "Objective: fewest changed line items, then {}", p.scenario.selection.objective.name());
+    let _ = writeln!(
+        body,
+        "Objective: fewest changed line items, then {}",
+        p.scenario.selection.objective.name()
+    );
     let _ = writeln!(body, "\nCurrent bill of materials ({src})");
     match &before {
         Some(a) => {
             let _ = writeln!(
                 body,
                 "  with today's catalog data{}: worst-corner ripple {} against {} — {}",
-                if complete { "" } else { " (parts missing from the catalog left out)" },
+                if complete {
+                    ""
+                } else {
+                    " (parts missing from the catalog left out)"
+                },
                 text::mv(a.ripple_pp),
                 text::mv(a.target_ripple_pp),
-                if a.all_ok { "meets the target and every limit" } else { "does NOT meet the target and every limit" }
+                if a.all_ok {
+                    "meets the target and every limit"
+                } else {
+                    "does NOT meet the target and every limit"
+                }
             );
         }
         None => {
-            let _ = writeln!(body, "  none of its parts is in the catalog; it cannot be assessed");
+            let _ = writeln!(
+                body,
+                "  none of its parts is in the catalog; it cannot be assessed"
+            );
         }
     }
     for (id, n, why) in &removed_forced {
@@ -493,7 +649,11 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         (optimize::Status::Optimal, current.clone(), 0)
     } else {
         let r = optimize::rework(&p, &current, &forced, &settings);
-        (r.status, r.found.map(|f| f.bank).unwrap_or_default(), r.changes)
+        (
+            r.status,
+            r.found.map(|f| f.bank).unwrap_or_default(),
+            r.changes,
+        )
     };
     let id = |i: usize| p.catalog.parts[i].id.clone();
     let mut kept = Vec::new();
@@ -502,14 +662,22 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     if status != optimize::Status::Infeasible {
         for &(i, n) in &current {
             match new_bank.iter().find(|b| b.0 == i) {
-                Some(&(_, m)) => kept.push(json!({"part": id(i), "count_before": n, "count_after": m})),
+                Some(&(_, m)) => {
+                    kept.push(json!({"part": id(i), "count_before": n, "count_after": m}))
+                }
                 None => {
-                    let why = removed_forced.iter().find(|r| r.0 == id(i)).map_or("replaced".to_string(), |r| r.2.clone());
+                    let why = removed_forced
+                        .iter()
+                        .find(|r| r.0 == id(i))
+                        .map_or("replaced".to_string(), |r| r.2.clone());
                     removed.push(json!({"part": id(i), "count": n, "reason": why}));
                 }
             }
         }
-        for (pid, n, why) in removed_forced.iter().filter(|r| r.2 == "not in the catalog") {
+        for (pid, n, why) in removed_forced
+            .iter()
+            .filter(|r| r.2 == "not in the catalog")
+        {
             removed.push(json!({"part": pid, "count": n, "reason": why}));
         }
         for &(i, m) in &new_bank {
@@ -524,7 +692,11 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         let _ = writeln!(body, "\nRework: INFEASIBLE — no bank reachable by changing line items meets the target under every limit.");
         let (r, closest) = optimize::lowest_ripple(&p);
         if r.is_finite() {
-            let _ = writeln!(body, "  The lowest worst-corner ripple any allowed bank reached is {}.", text::mv(r));
+            let _ = writeln!(
+                body,
+                "  The lowest worst-corner ripple any allowed bank reached is {}.",
+                text::mv(r)
+            );
         }
         doc = json!({
             "status": "infeasible", "bank": [], "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
@@ -545,27 +717,53 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     } else {
         let a = assessment::assess(&p, &new_bank)?;
         if still_good {
-            let _ = writeln!(body, "\nRework: nothing to change — the bank is still good.");
+            let _ = writeln!(
+                body,
+                "\nRework: nothing to change — the bank is still good."
+            );
         } else {
             let _ = writeln!(
                 body,
                 "\nRework: {} — {changes} changed line item(s){}",
                 status.name().to_uppercase(),
-                if status == optimize::Status::Optimal { " (the fewest possible; cheapest among those)" } else { " (the search was limited; fewer may exist)" }
+                if status == optimize::Status::Optimal {
+                    " (the fewest possible; cheapest among those)"
+                } else {
+                    " (the search was limited; fewer may exist)"
+                }
             );
         }
         let row = |v: &serde_json::Value, what: &str| -> Vec<String> {
             vec![
                 what.to_string(),
                 v["part"].as_str().unwrap_or("").to_string(),
-                v.get("count_before").or(v.get("count")).map_or(String::new(), |x| x.to_string()),
-                v.get("count_after").map_or(if what == "removed" { "0".into() } else { v["count"].to_string() }, |x| x.to_string()),
-                v.get("reason").and_then(|r| r.as_str()).unwrap_or("").to_string(),
+                v.get("count_before")
+                    .or(v.get("count"))
+                    .map_or(String::new(), |x| x.to_string()),
+                v.get("count_after").map_or(
+                    if what == "removed" {
+                        "0".into()
+                    } else {
+                        v["count"].to_string()
+                    },
+                    |x| x.to_string(),
+                ),
+                v.get("reason")
+                    .and_then(|r| r.as_str())
+                    .unwrap_or("")
+                    .to_string(),
             ]
         };
         let mut rows: Vec<Vec<String>> = Vec::new();
         for k in &kept {
-            rows.push(row(k, if k["count_before"] == k["count_after"] { "kept" } else { "kept, count changed" }));
+            rows.push(row(
+                k,
+                if k["count_before"] == k["count_after"] {
+                    "kept"
+                } else {
+                    "kept, count changed"
+                },
+            ));
         }
         rows.extend(removed.iter().map(|r| row(r, "removed")));
         rows.extend(added.iter().map(|r| {
@@ -573,7 +771,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             v[2] = "0".into();
             v
         }));
-        body.push_str(&text::table(&["change", "part", "before", "after", "reason"], &rows));
+        body.push_str(&text::table(
+            &["change", "part", "before", "after", "reason"],
+            &rows,
+        ));
         body.push_str(&text::assessment(&a));
         let before_cost = before.as_ref().map(|b| b.cost);
         let _ = writeln!(
@@ -581,12 +782,20 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             "\nCost before {} → after {:.3}; ripple before {} → after {}",
             before_cost.map_or("—".into(), |c| format!("{c:.3}")),
             a.cost,
-            before.as_ref().map_or("—".into(), |b| text::mv(b.ripple_pp)),
+            before
+                .as_ref()
+                .map_or("—".into(), |b| text::mv(b.ripple_pp)),
             text::mv(a.ripple_pp)
         );
         if let Some((st, f)) = &fresh {
             let fa = assessment::assess(&p, &f.bank)?;
-            let _ = writeln!(body, "A fresh design without the replaced parts ({}) would cost {:.3}: {}", st.name(), fa.cost, bank_key(&p, &f.bank));
+            let _ = writeln!(
+                body,
+                "A fresh design without the replaced parts ({}) would cost {:.3}: {}",
+                st.name(),
+                fa.cost,
+                bank_key(&p, &f.bank)
+            );
         }
         doc = report::assessment_json(status.name(), &a, &p);
         doc["kept"] = json!(kept);
@@ -597,11 +806,15 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     }
     doc["still_good"] = json!(still_good);
     doc["before"] = match &before {
-        Some(b) => json!({"ripple_pp": b.ripple_pp, "cost": b.cost, "meets_target": b.meets_target, "all_ok": b.all_ok, "complete": complete}),
+        Some(b) => {
+            json!({"ripple_pp": b.ripple_pp, "cost": b.cost, "meets_target": b.meets_target, "all_ok": b.all_ok, "complete": complete})
+        }
         None => serde_json::Value::Null,
     };
     doc["fresh_optimum"] = match &fresh {
-        Some((st, f)) => json!({"status": st.name(), "cost": assessment::assess(&p, &f.bank)?.cost, "bank": bank_key(&p, &f.bank)}),
+        Some((st, f)) => {
+            json!({"status": st.name(), "cost": assessment::assess(&p, &f.bank)?.cost, "bank": bank_key(&p, &f.bank)})
+        }
         None => serde_json::Value::Null,
     };
     body.push_str(&text::excluded(&p));
@@ -613,7 +826,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         } else {
             let mut files = OutFiles::default();
             files.add("report.json", report::json_text(doc.clone()));
-            files.add("report.html", report::html::page("Bank rework (infeasible)", &body, &[]));
+            files.add(
+                "report.html",
+                report::html::page("Bank rework (infeasible)", &body, &[]),
+            );
             files.commit(dir)?;
         }
     }

@@ -63,11 +63,18 @@ impl Waveform {
 
     /// Mean value over one period.
     pub fn mean(&self) -> f64 {
-        self.segments().map(|((ta, va), (tb, vb))| 0.5 * (va + vb) * (tb - ta)).sum::<f64>() / self.period
+        self.segments()
+            .map(|((ta, va), (tb, vb))| 0.5 * (va + vb) * (tb - ta))
+            .sum::<f64>()
+            / self.period
     }
 
     pub fn min_max(&self) -> (f64, f64) {
-        self.points.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &(_, v)| (lo.min(v), hi.max(v)))
+        self.points
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &(_, v)| {
+                (lo.min(v), hi.max(v))
+            })
     }
 
     /// Sum of `n` copies shifted by `period / n` (interleaved phases). Exact
@@ -89,7 +96,10 @@ impl Waveform {
             .iter()
             .map(|&t| (t, (0..n).map(|p| self.at(t - p as f64 * shift)).sum()))
             .collect();
-        Waveform { period: self.period, points }
+        Waveform {
+            period: self.period,
+            points,
+        }
     }
 
     /// Replace every jump by a linear ramp of `edge` seconds centred on it;
@@ -104,7 +114,11 @@ impl Waveform {
         let seg_len = |i: usize| -> f64 {
             // Duration of the segment starting at vertex i.
             let a = p[i].0;
-            let b = if i + 1 < n { p[i + 1].0 } else { p[0].0 + self.period };
+            let b = if i + 1 < n {
+                p[i + 1].0
+            } else {
+                p[0].0 + self.period
+            };
             b - a
         };
         let mut out = p.clone();
@@ -140,7 +154,10 @@ impl Waveform {
             .map(|(t, v)| (t.rem_euclid(self.period), v))
             .collect();
         pts.sort_by(|a, b| a.0.partial_cmp(&b.0).unwrap());
-        Waveform { period: self.period, points: pts }
+        Waveform {
+            period: self.period,
+            points: pts,
+        }
     }
 }
 
@@ -154,14 +171,23 @@ pub fn operating_points(s: &Scenario) -> Vec<OperatingPoint> {
     if corners.is_empty() {
         corners.push(None);
     }
-    corners.into_iter().map(|vin| operating_point(s, vin)).collect::<Vec<_>>().into_iter().map(|mut op| {
-        op.waveform = op.waveform.with_edges(c.edge_time.0);
-        op
-    }).collect()
+    corners
+        .into_iter()
+        .map(|vin| operating_point(s, vin))
+        .collect::<Vec<_>>()
+        .into_iter()
+        .map(|mut op| {
+            op.waveform = op.waveform.with_edges(c.edge_time.0);
+            op
+        })
+        .collect()
 }
 
 fn triangle(period: f64, duty: f64, pp: f64) -> Waveform {
-    Waveform { period, points: vec![(0.0, -0.5 * pp), (duty * period, 0.5 * pp)] }
+    Waveform {
+        period,
+        points: vec![(0.0, -0.5 * pp), (duty * period, 0.5 * pp)],
+    }
 }
 
 fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
@@ -174,13 +200,24 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
     match c.topology {
         Topology::Buck | Topology::Forward | Topology::Bridge => {
             let vin = vin.expect("checked: vin present");
-            let f = if c.topology == Topology::Bridge { 2.0 * fsw } else { fsw };
+            let f = if c.topology == Topology::Bridge {
+                2.0 * fsw
+            } else {
+                fsw
+            };
             let ratio = if c.topology == Topology::Buck { 1.0 } else { n };
             let d = vout / (vin * ratio);
             let di = vout * (1.0 - d) / (l * f);
             let w = triangle(1.0 / f, d, di).interleave(c.phases);
             let (lo, hi) = w.min_max();
-            OperatingPoint { vin: Some(vin), duty: d, f_ripple: f, current_pp: hi - lo, mode: "", waveform: w }
+            OperatingPoint {
+                vin: Some(vin),
+                duty: d,
+                f_ripple: f,
+                current_pp: hi - lo,
+                mode: "",
+                waveform: w,
+            }
         }
         Topology::Flyback => {
             let vin = vin.expect("checked: vin present");
@@ -191,13 +228,31 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let mid = iout / (1.0 - d);
             let (points, mode, ipk) = if mid > dis / 2.0 {
                 let (ipk, imin) = (mid + dis / 2.0, mid - dis / 2.0);
-                (vec![(0.0, -iout), (d * t, -iout), (d * t, ipk - iout), (t, imin - iout)], "CCM", ipk)
+                (
+                    vec![
+                        (0.0, -iout),
+                        (d * t, -iout),
+                        (d * t, ipk - iout),
+                        (t, imin - iout),
+                    ],
+                    "CCM",
+                    ipk,
+                )
             } else {
                 let ipk_p = (2.0 * vout * iout / (l * fsw)).sqrt();
                 let t_on = ipk_p * l / vin;
                 let ipk = ipk_p / n;
                 let t_d = (ipk * ls / vout).min(t - t_on);
-                (vec![(0.0, -iout), (t_on, -iout), (t_on, ipk - iout), (t_on + t_d, -iout)], "DCM", ipk)
+                (
+                    vec![
+                        (0.0, -iout),
+                        (t_on, -iout),
+                        (t_on, ipk - iout),
+                        (t_on + t_d, -iout),
+                    ],
+                    "DCM",
+                    ipk,
+                )
             };
             let duty = if mode == "CCM" { d } else { points[1].0 / t };
             OperatingPoint {
@@ -217,19 +272,53 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let mid = iout / (1.0 - d);
             let (points, mode, ipk, duty) = if mid >= di / 2.0 {
                 let (ipk, imin) = (mid + di / 2.0, mid - di / 2.0);
-                (vec![(0.0, -iout), (d * t, -iout), (d * t, ipk - iout), (t, imin - iout)], "CCM", ipk, d)
+                (
+                    vec![
+                        (0.0, -iout),
+                        (d * t, -iout),
+                        (d * t, ipk - iout),
+                        (t, imin - iout),
+                    ],
+                    "CCM",
+                    ipk,
+                    d,
+                )
             } else {
                 let ipk = (2.0 * iout * (vout - vin) / (l * fsw)).sqrt();
                 let t_on = ipk * l / vin;
                 let t_d = (ipk * l / (vout - vin)).min(t - t_on);
-                (vec![(0.0, -iout), (t_on, -iout), (t_on, ipk - iout), (t_on + t_d, -iout)], "DCM", ipk, t_on / t)
+                (
+                    vec![
+                        (0.0, -iout),
+                        (t_on, -iout),
+                        (t_on, ipk - iout),
+                        (t_on + t_d, -iout),
+                    ],
+                    "DCM",
+                    ipk,
+                    t_on / t,
+                )
             };
-            OperatingPoint { vin: Some(vin), duty, f_ripple: fsw, current_pp: ipk, mode, waveform: Waveform { period: t, points } }
+            OperatingPoint {
+                vin: Some(vin),
+                duty,
+                f_ripple: fsw,
+                current_pp: ipk,
+                mode,
+                waveform: Waveform { period: t, points },
+            }
         }
         Topology::Module => {
             let d = vin.map_or(0.5, |v| vout / v);
             let w = triangle(1.0 / fsw, d, 1.0);
-            OperatingPoint { vin, duty: d, f_ripple: fsw, current_pp: 1.0, mode: "", waveform: w }
+            OperatingPoint {
+                vin,
+                duty: d,
+                f_ripple: fsw,
+                current_pp: 1.0,
+                mode: "",
+                waveform: w,
+            }
         }
     }
 }

@@ -20,7 +20,10 @@ pub struct Overrides {
     pub exclude: Vec<String>,
 }
 
-pub fn scenario_and_catalog(scenario: Option<&Path>, catalog: Option<&Path>) -> Result<(Scenario, Catalog)> {
+pub fn scenario_and_catalog(
+    scenario: Option<&Path>,
+    catalog: Option<&Path>,
+) -> Result<(Scenario, Catalog)> {
     let s = match scenario {
         Some(p) => Scenario::from_path(p)?,
         None => Scenario::from_str(DEMO_SCENARIO, DEMO_SCENARIO_NAME)?,

@@ -100,7 +100,12 @@ enum Cmd {
 }
 
 fn common(input: Input, output: Output) -> Common {
-    Common { scenario: input.scenario, catalog: input.catalog, out: output.out, json: output.json }
+    Common {
+        scenario: input.scenario,
+        catalog: input.catalog,
+        out: output.out,
+        json: output.json,
+    }
 }
 
 fn main() -> ExitCode {
@@ -113,15 +118,42 @@ fn main() -> ExitCode {
         }
     };
     let result = match cli.command {
-        Cmd::Design { input, objective, exclude, output } => commands::design(&common(input, output), objective.as_deref(), &exclude),
-        Cmd::Assess { bank, bom, input, output } => commands::assess(&common(input, output), bank.as_deref(), bom.as_deref()),
-        Cmd::Tradeoff { input, from, to, points, output } => {
-            commands::tradeoff(&common(input, output), from.as_deref(), to.as_deref(), points)
-        }
-        Cmd::Rework { bom, drop, input, output } => commands::rework(&common(input, output), &bom, &drop),
-        Cmd::Validate { input, json } => {
-            commands::validate(&Common { scenario: input.scenario, catalog: input.catalog, out: None, json })
-        }
+        Cmd::Design {
+            input,
+            objective,
+            exclude,
+            output,
+        } => commands::design(&common(input, output), objective.as_deref(), &exclude),
+        Cmd::Assess {
+            bank,
+            bom,
+            input,
+            output,
+        } => commands::assess(&common(input, output), bank.as_deref(), bom.as_deref()),
+        Cmd::Tradeoff {
+            input,
+            from,
+            to,
+            points,
+            output,
+        } => commands::tradeoff(
+            &common(input, output),
+            from.as_deref(),
+            to.as_deref(),
+            points,
+        ),
+        Cmd::Rework {
+            bom,
+            drop,
+            input,
+            output,
+        } => commands::rework(&common(input, output), &bom, &drop),
+        Cmd::Validate { input, json } => commands::validate(&Common {
+            scenario: input.scenario,
+            catalog: input.catalog,
+            out: None,
+            json,
+        }),
     };
     match result {
         Ok(Outcome { stdout, code }) => {

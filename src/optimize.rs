@@ -28,10 +28,10 @@
 //!    ones that bind.
 
 use crate::bank::{Evaluator, PartModel};
-use num_complex::Complex64;
 use crate::problem::Problem;
 use crate::scenario::Objective;
 use indicatif::{ProgressBar, ProgressStyle};
+use num_complex::Complex64;
 use serde::Serialize;
 use std::time::Instant;
 
@@ -131,7 +131,16 @@ pub struct Settings {
 
 impl Default for Settings {
     fn default() -> Self {
-        Settings { progress: false, exhaustive_limit: 1_500_000, pool: 36, explain: true, milp_parts: 120, milp_proposals: 2, milp_seconds: 2.0, max_evaluations: 3_000_000 }
+        Settings {
+            progress: false,
+            exhaustive_limit: 1_500_000,
+            pool: 36,
+            explain: true,
+            milp_parts: 120,
+            milp_proposals: 2,
+            milp_seconds: 2.0,
+            max_evaluations: 3_000_000,
+        }
     }
 }
 
@@ -278,7 +287,8 @@ impl Search {
         if set.iter().any(|&i| self.ub[i] < self.lb[i]) {
             return None;
         }
-        let (mut cap, mut cnt, mut area, mut base) = (0.0, 0.0, 0.0, set.len() as f64 * self.line_w[0]);
+        let (mut cap, mut cnt, mut area, mut base) =
+            (0.0, 0.0, 0.0, set.len() as f64 * self.line_w[0]);
         let mut cmin_max = 0.0;
         for &i in set {
             let l = self.lb[i] as f64;
@@ -288,15 +298,25 @@ impl Search {
             base += l * self.w[0][i];
             cmin_max += self.ub[i] as f64 * self.parts[i].c_worst;
         }
-        if cap > self.lim.max_cap * (1.0 + 1e-12) || cnt > self.lim.max_count || area > self.lim.max_area * (1.0 + 1e-12) {
+        if cap > self.lim.max_cap * (1.0 + 1e-12)
+            || cnt > self.lim.max_count
+            || area > self.lim.max_area * (1.0 + 1e-12)
+        {
             return None;
         }
         if cmin_max < self.lim.min_cap {
             return None;
         }
         let mut extra: f64 = 0.0;
-        let left = [self.lim.max_count - cnt, self.lim.max_cap - cap, self.lim.max_area - area];
-        let items: Vec<(usize, f64)> = set.iter().map(|&i| (i, (self.ub[i] - self.lb[i]) as f64)).collect();
+        let left = [
+            self.lim.max_count - cnt,
+            self.lim.max_cap - cap,
+            self.lim.max_area - area,
+        ];
+        let items: Vec<(usize, f64)> = set
+            .iter()
+            .map(|&i| (i, (self.ub[i] - self.lb[i]) as f64))
+            .collect();
         for k in 0..self.n {
             let (mut at_lb, mut best_ratio) = (0.0, f64::INFINITY);
             for &i in set {
@@ -322,7 +342,10 @@ impl Search {
     /// smallest of the fractional-knapsack optima, one budget at a time
     /// (each drops the other budgets, so each is a valid upper bound).
     fn capacity(&self, items: &[(usize, f64)], left: &[f64; 3], k: usize) -> f64 {
-        let mut best = items.iter().map(|&(i, room)| room * self.a[i * self.n + k]).sum::<f64>();
+        let mut best = items
+            .iter()
+            .map(|&(i, room)| room * self.a[i * self.n + k])
+            .sum::<f64>();
         for (r, &budget) in left.iter().enumerate() {
             if !budget.is_finite() {
                 continue;
@@ -386,7 +409,12 @@ impl Search {
     }
 
     fn currents_ok(&mut self) -> bool {
-        if self.check_currents && self.bank_buf.iter().any(|&(i, _)| self.parts[i].rating.is_some()) {
+        if self.check_currents
+            && self
+                .bank_buf
+                .iter()
+                .any(|&(i, _)| self.parts[i].rating.is_some())
+        {
             let cur = self.ev.part_currents(&self.bank_buf);
             for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
                 if let Some(r) = self.parts[i].rating {
@@ -402,7 +430,12 @@ impl Search {
     fn key_of(&self, set: &[usize], counts: &[u32]) -> Key {
         let mut k = [0.0; 3];
         for j in 0..3 {
-            k[j] = set.len() as f64 * self.line_w[j] + set.iter().zip(counts).map(|(&i, &n)| n as f64 * self.w[j][i]).sum::<f64>();
+            k[j] = set.len() as f64 * self.line_w[j]
+                + set
+                    .iter()
+                    .zip(counts)
+                    .map(|(&i, &n)| n as f64 * self.w[j][i])
+                    .sum::<f64>();
         }
         k
     }
@@ -423,8 +456,22 @@ impl Search {
         let mut stack = vec![vec![0.0; n]; m + 1];
         let mut cstack = vec![vec![Complex64::default(); n]; m + 1];
         let mut counts = vec![0u32; m];
-        let start = Partial { key0: m as f64 * self.line_w[0], cap: 0.0, cnt: 0.0, area: 0.0, cmin: 0.0 };
-        self.rec(set, 0, start, &mut stack, &mut cstack, &mut counts, &rest_ub);
+        let start = Partial {
+            key0: m as f64 * self.line_w[0],
+            cap: 0.0,
+            cnt: 0.0,
+            area: 0.0,
+            cmin: 0.0,
+        };
+        self.rec(
+            set,
+            0,
+            start,
+            &mut stack,
+            &mut cstack,
+            &mut counts,
+            &rest_ub,
+        );
     }
 
     /// Smallest count c ≥ lo of part i such that, with the other parts'
@@ -470,7 +517,16 @@ impl Search {
     }
 
     #[allow(clippy::too_many_arguments)]
-    fn rec(&mut self, set: &[usize], d: usize, p: Partial, stack: &mut [Vec<f64>], cstack: &mut [Vec<Complex64>], counts: &mut [u32], rest_ub: &[Vec<f64>]) {
+    fn rec(
+        &mut self,
+        set: &[usize],
+        d: usize,
+        p: Partial,
+        stack: &mut [Vec<f64>],
+        cstack: &mut [Vec<Complex64>],
+        counts: &mut [u32],
+        rest_ub: &[Vec<f64>],
+    ) {
         let m = set.len();
         let i = set[d];
         let pm = &self.parts[i];
@@ -486,11 +542,15 @@ impl Search {
         }
         let mut hi = self.ub[i] as f64;
         if c_limit > 0.0 {
-            hi = hi.min(((self.lim.max_cap - p.cap - rest_cap) / c_limit * (1.0 + 1e-12) + 1e-9).floor());
+            hi = hi.min(
+                ((self.lim.max_cap - p.cap - rest_cap) / c_limit * (1.0 + 1e-12) + 1e-9).floor(),
+            );
         }
         hi = hi.min(self.lim.max_count - p.cnt - rest_cnt);
         if area_i > 0.0 {
-            hi = hi.min(((self.lim.max_area - p.area - rest_area) / area_i * (1.0 + 1e-12) + 1e-9).floor());
+            hi = hi.min(
+                ((self.lim.max_area - p.area - rest_area) / area_i * (1.0 + 1e-12) + 1e-9).floor(),
+            );
         }
         let lo = self.lb[i] as f64;
         if hi < lo {
@@ -519,7 +579,9 @@ impl Search {
                 return;
             }
             // Jump over the counts that fail a harmonic outright.
-            let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else { return };
+            let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else {
+                return;
+            };
             for c in next_ok as u32..=hi {
                 if (c as f64) < next_ok {
                     continue;
@@ -531,7 +593,8 @@ impl Search {
                 }
                 counts[d] = c;
                 self.bank_buf.clear();
-                self.bank_buf.extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
+                self.bank_buf
+                    .extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
                 {
                     let cf = c as f64;
                     let row = &self.y[i * self.n..(i + 1) * self.n];
@@ -616,9 +679,14 @@ fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>, usize) {
     // Group electrically identical parts.
     order.sort_by(|&x, &y| {
         let (a, b) = (&models[x], &models[y]);
-        (a.c_worst, a.c_typical, a.esr, a.esl).partial_cmp(&(b.c_worst, b.c_typical, b.esr, b.esl)).unwrap().then(x.cmp(&y))
+        (a.c_worst, a.c_typical, a.esr, a.esl)
+            .partial_cmp(&(b.c_worst, b.c_typical, b.esr, b.esl))
+            .unwrap()
+            .then(x.cmp(&y))
     });
-    let same = |a: &PartModel, b: &PartModel| a.c_worst == b.c_worst && a.c_typical == b.c_typical && a.esr == b.esr && a.esl == b.esl;
+    let same = |a: &PartModel, b: &PartModel| {
+        a.c_worst == b.c_worst && a.c_typical == b.c_typical && a.esr == b.esr && a.esl == b.esl
+    };
     let mut g = 0;
     while g < order.len() {
         let mut h = g + 1;
@@ -639,8 +707,13 @@ fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>, usize) {
                     (Some(_), None) => false,
                     (Some(ra), Some(rb)) => ra >= rb,
                 };
-                let no_worse = a.cost <= b.cost && a.area <= b.area && a.c_limit <= b.c_limit && rating_ok;
-                let strictly = a.cost < b.cost || a.area < b.area || a.c_limit < b.c_limit || a.rating != b.rating || order[x] < order[y];
+                let no_worse =
+                    a.cost <= b.cost && a.area <= b.area && a.c_limit <= b.c_limit && rating_ok;
+                let strictly = a.cost < b.cost
+                    || a.area < b.area
+                    || a.c_limit < b.c_limit
+                    || a.rating != b.rating
+                    || order[x] < order[y];
                 if no_worse && strictly && keep[order[x]] {
                     keep[order[y]] = false;
                 }
@@ -648,7 +721,12 @@ fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>, usize) {
         }
         g = h;
     }
-    let kept: Vec<usize> = cands.iter().zip(&keep).filter(|(_, &k)| k).map(|(&c, _)| c).collect();
+    let kept: Vec<usize> = cands
+        .iter()
+        .zip(&keep)
+        .filter(|(_, &k)| k)
+        .map(|(&c, _)| c)
+        .collect();
     let n = cands.len() - kept.len();
     (kept, n)
 }
@@ -666,12 +744,22 @@ fn binomial_sum(n: usize, k: usize) -> usize {
 /// Visit every line set: the required parts plus up to `free` others from
 /// `pool`, without storing them.
 fn each_line_set(required: &[usize], pool: &[usize], free: usize, f: &mut dyn FnMut(&[usize])) {
-    let others: Vec<usize> = pool.iter().copied().filter(|i| !required.contains(i)).collect();
+    let others: Vec<usize> = pool
+        .iter()
+        .copied()
+        .filter(|i| !required.contains(i))
+        .collect();
     let mut cur: Vec<usize> = required.to_vec();
     if !required.is_empty() {
         f(&cur);
     }
-    fn go(others: &[usize], start: usize, left: usize, cur: &mut Vec<usize>, f: &mut dyn FnMut(&[usize])) {
+    fn go(
+        others: &[usize],
+        start: usize,
+        left: usize,
+        cur: &mut Vec<usize>,
+        f: &mut dyn FnMut(&[usize]),
+    ) {
         for j in start..others.len() {
             cur.push(others[j]);
             f(cur);
@@ -688,13 +776,24 @@ fn each_line_set(required: &[usize], pool: &[usize], free: usize, f: &mut dyn Fn
 
 /// All line sets: the required parts plus up to `free` others from `pool`.
 fn line_sets(required: &[usize], pool: &[usize], free: usize) -> Vec<Vec<usize>> {
-    let others: Vec<usize> = pool.iter().copied().filter(|i| !required.contains(i)).collect();
+    let others: Vec<usize> = pool
+        .iter()
+        .copied()
+        .filter(|i| !required.contains(i))
+        .collect();
     let mut out = Vec::new();
     if !required.is_empty() {
         out.push(required.to_vec());
     }
     let mut cur: Vec<usize> = Vec::new();
-    fn go(others: &[usize], start: usize, left: usize, cur: &mut Vec<usize>, req: &[usize], out: &mut Vec<Vec<usize>>) {
+    fn go(
+        others: &[usize],
+        start: usize,
+        left: usize,
+        cur: &mut Vec<usize>,
+        req: &[usize],
+        out: &mut Vec<Vec<usize>>,
+    ) {
         for j in start..others.len() {
             cur.push(others[j]);
             let mut s: Vec<usize> = req.to_vec();
@@ -717,7 +816,11 @@ fn bar(show: bool, len: usize, msg: &str) -> ProgressBar {
         return ProgressBar::hidden();
     }
     let pb = ProgressBar::new(len as u64);
-    pb.set_style(ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} line sets ({elapsed})").expect("template").progress_chars("=> "));
+    pb.set_style(
+        ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} line sets ({elapsed})")
+            .expect("template")
+            .progress_chars("=> "),
+    );
     pb.set_message(msg.to_string());
     pb
 }
@@ -731,7 +834,11 @@ pub fn design(problem: &Problem, settings: &Settings) -> Outcome {
 pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcome {
     let t0 = Instant::now();
     let (cands, dominated) = prune_dominated(problem, &problem.eligible);
-    let mut stats = Stats { candidates: cands.len(), dominated, ..Default::default() };
+    let mut stats = Stats {
+        candidates: cands.len(),
+        dominated,
+        ..Default::default()
+    };
     let mut found: Option<Found> = None;
     let mut exhaustive = false;
     let mut stopped = false;
@@ -739,7 +846,10 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         let mut s = Search::new(problem, &cands, target);
         s.budget = settings.max_evaluations;
         // The converter alone (no added parts), when it has capacitance of its own.
-        if s.required.is_empty() && problem.scenario.converter.internal_capacitance.is_some() && s.lim.min_cap <= 0.0 {
+        if s.required.is_empty()
+            && problem.scenario.converter.internal_capacitance.is_some()
+            && s.lim.min_cap <= 0.0
+        {
             s.bank_buf.clear();
             if let Some(r) = s.exact() {
                 s.inc = Some(([0.0; 3], Vec::new(), r));
@@ -747,7 +857,8 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         }
         let free = s.lim.max_lines.saturating_sub(s.required.len());
         let all: Vec<usize> = (0..s.parts.len()).collect();
-        let total = binomial_sum(all.len() - s.required.len(), free) + usize::from(!s.required.is_empty());
+        let total =
+            binomial_sum(all.len() - s.required.len(), free) + usize::from(!s.required.is_empty());
         stats.line_sets_total = total;
         if s.required.len() <= s.lim.max_lines {
             if total <= settings.exhaustive_limit {
@@ -757,11 +868,18 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
                 let mut pool = pool(&s, settings.pool);
                 // Line sets proposed by the mixed-integer relaxation join the pool;
                 // its proven optimum over every candidate is a global lower bound.
-                let over = if all.len() <= settings.milp_parts { all.clone() } else { self::pool(&s, settings.milp_parts) };
+                let over = if all.len() <= settings.milp_parts {
+                    all.clone()
+                } else {
+                    self::pool(&s, settings.milp_parts)
+                };
                 let ks = milp::hard_harmonics(&s, &over, 8);
                 let mut cuts: Vec<Vec<usize>> = Vec::new();
                 for t in 0..settings.milp_proposals {
-                    let Some(prop) = milp::propose(&s, &over, &ks, &cuts, settings.milp_seconds) else { break };
+                    let Some(prop) = milp::propose(&s, &over, &ks, &cuts, settings.milp_seconds)
+                    else {
+                        break;
+                    };
                     if t == 0 && prop.proven && over.len() == all.len() {
                         stats.lower_bound = Some(prop.bound);
                     }
@@ -783,7 +901,11 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         stopped = s.stopped;
         stats.line_sets_solved = s.sets_solved;
         if let Some((key, bank, r)) = s.inc.take() {
-            found = Some(Found { bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(), key, ripple_pp: r });
+            found = Some(Found {
+                bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(),
+                key,
+                ripple_pp: r,
+            });
         }
     }
     stats.stopped = stopped;
@@ -794,7 +916,14 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         (Some(_), false) => Status::Feasible,
         (None, _) => Status::Infeasible,
     };
-    let mut out = Outcome { status, found, best_ripple_pp: None, best_ripple_bank: None, binding: Vec::new(), stats };
+    let mut out = Outcome {
+        status,
+        found,
+        best_ripple_pp: None,
+        best_ripple_bank: None,
+        binding: Vec::new(),
+        stats,
+    };
     if status == Status::Infeasible && settings.explain {
         let (r, bank) = min_ripple(problem, &cands);
         out.best_ripple_pp = r.is_finite().then_some(r);
@@ -806,7 +935,10 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
 }
 
 fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &str) {
-    let bounded: Vec<(f64, Vec<usize>)> = sets.into_iter().filter_map(|set| s.set_bound(&set).map(|b| (b, set))).collect();
+    let bounded: Vec<(f64, Vec<usize>)> = sets
+        .into_iter()
+        .filter_map(|set| s.set_bound(&set).map(|b| (b, set)))
+        .collect();
     solve_bounded(s, bounded, settings, msg);
 }
 
@@ -826,8 +958,17 @@ fn run_all_sets(s: &mut Search, pool: &[usize], free: usize, settings: &Settings
     solve_bounded(s, bounded, settings, msg);
 }
 
-fn solve_bounded(s: &mut Search, mut bounded: Vec<(f64, Vec<usize>)>, settings: &Settings, msg: &str) {
-    bounded.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap().then(x.1.len().cmp(&y.1.len())));
+fn solve_bounded(
+    s: &mut Search,
+    mut bounded: Vec<(f64, Vec<usize>)>,
+    settings: &Settings,
+    msg: &str,
+) {
+    bounded.sort_by(|x, y| {
+        x.0.partial_cmp(&y.0)
+            .unwrap()
+            .then(x.1.len().cmp(&y.1.len()))
+    });
     let pb = bar(settings.progress, bounded.len(), msg);
     for (j, (b, set)) in bounded.iter().enumerate() {
         if s.stopped {
@@ -896,7 +1037,9 @@ fn pool(s: &Search, size: usize) -> Vec<usize> {
 /// Swap, add or remove one part of the incumbent's line set while that improves.
 fn neighbourhood(s: &mut Search, settings: &Settings) {
     loop {
-        let Some((key, bank, _)) = s.inc.clone() else { return };
+        let Some((key, bank, _)) = s.inc.clone() else {
+            return;
+        };
         let cur: Vec<usize> = bank.iter().map(|b| b.0).collect();
         let mut sets: Vec<Vec<usize>> = Vec::new();
         let p = s.parts.len();
@@ -948,8 +1091,14 @@ pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize
     } else {
         // Rank parts by their admittance at the most demanding harmonic.
         let mut order = all.clone();
-        let k = (0..s.n).max_by(|&x, &y| s.q[x].partial_cmp(&s.q[y]).unwrap()).unwrap_or(0);
-        order.sort_by(|&x, &y| (s.ub[y] as f64 * s.a[y * s.n + k]).partial_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k])).unwrap());
+        let k = (0..s.n)
+            .max_by(|&x, &y| s.q[x].partial_cmp(&s.q[y]).unwrap())
+            .unwrap_or(0);
+        order.sort_by(|&x, &y| {
+            (s.ub[y] as f64 * s.a[y * s.n + k])
+                .partial_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
+                .unwrap()
+        });
         order.truncate(24);
         line_sets(&s.required.clone(), &order, free)
     };
@@ -1001,16 +1150,23 @@ fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
                 return false;
             }
         }
-        cap <= s.lim.max_cap * (1.0 + 1e-12) && cnt <= s.lim.max_count && area <= s.lim.max_area * (1.0 + 1e-12)
+        cap <= s.lim.max_cap * (1.0 + 1e-12)
+            && cnt <= s.lim.max_count
+            && area <= s.lim.max_area * (1.0 + 1e-12)
     };
     if !fits(s, &counts) {
         return None;
     }
     let eval = |s: &mut Search, counts: &[u32]| -> f64 {
         s.bank_buf.clear();
-        s.bank_buf.extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
+        s.bank_buf
+            .extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
         s.evals += 1;
-        s.ev.ripple_pp(&s.bank_buf.clone(), crate::bank::Corner::Worst, crate::bank::Band::Limited)
+        s.ev.ripple_pp(
+            &s.bank_buf.clone(),
+            crate::bank::Corner::Worst,
+            crate::bank::Band::Limited,
+        )
     };
     let mut cur = eval(s, &counts);
     loop {
@@ -1033,7 +1189,10 @@ fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
             None => break,
         }
     }
-    Some((cur, set.iter().zip(&counts).map(|(&a, &b)| (a, b)).collect()))
+    Some((
+        cur,
+        set.iter().zip(&counts).map(|(&a, &b)| (a, b)).collect(),
+    ))
 }
 
 /// Relax each limit in turn; those whose removal lets the target be met bind.
@@ -1043,44 +1202,97 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
     type Relax = Box<dyn Fn(&mut Scenario)>;
     let mut tries: Vec<(&str, Relax)> = Vec::new();
     if base.converter.max_capacitance.is_some() {
-        tries.push(("max_capacitance", Box::new(|s: &mut Scenario| s.converter.max_capacitance = None)));
+        tries.push((
+            "max_capacitance",
+            Box::new(|s: &mut Scenario| s.converter.max_capacitance = None),
+        ));
     }
     if base.board.max_count.is_some() {
-        tries.push(("max_count", Box::new(|s: &mut Scenario| s.board.max_count = None)));
+        tries.push((
+            "max_count",
+            Box::new(|s: &mut Scenario| s.board.max_count = None),
+        ));
     }
     if base.board.max_area.is_some() {
-        tries.push(("max_area", Box::new(|s: &mut Scenario| s.board.max_area = None)));
+        tries.push((
+            "max_area",
+            Box::new(|s: &mut Scenario| s.board.max_area = None),
+        ));
     }
-    tries.push(("max_lines", Box::new(|s: &mut Scenario| s.board.max_lines = Some(s.max_lines() + 2))));
-    tries.push(("max_per_part", Box::new(|s: &mut Scenario| s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000))));
+    tries.push((
+        "max_lines",
+        Box::new(|s: &mut Scenario| s.board.max_lines = Some(s.max_lines() + 2)),
+    ));
+    tries.push((
+        "max_per_part",
+        Box::new(|s: &mut Scenario| {
+            s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000)
+        }),
+    ));
     if base.board.max_height.is_some() {
-        tries.push(("max_height", Box::new(|s: &mut Scenario| s.board.max_height = Some(Plain(1e9)))));
+        tries.push((
+            "max_height",
+            Box::new(|s: &mut Scenario| s.board.max_height = Some(Plain(1e9))),
+        ));
     }
     if !base.selection.exclude.is_empty() {
-        tries.push(("exclude", Box::new(|s: &mut Scenario| s.selection.exclude.clear())));
+        tries.push((
+            "exclude",
+            Box::new(|s: &mut Scenario| s.selection.exclude.clear()),
+        ));
     }
     if !base.selection.allow_nrnd {
-        tries.push(("status nrnd", Box::new(|s: &mut Scenario| s.selection.allow_nrnd = true)));
+        tries.push((
+            "status nrnd",
+            Box::new(|s: &mut Scenario| s.selection.allow_nrnd = true),
+        ));
     }
     if !base.selection.require.is_empty() {
-        tries.push(("require", Box::new(|s: &mut Scenario| s.selection.require.clear())));
+        tries.push((
+            "require",
+            Box::new(|s: &mut Scenario| s.selection.require.clear()),
+        ));
     }
     if base.converter.min_capacitance.0 > 0.0 {
-        tries.push(("min_capacitance", Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0)));
+        tries.push((
+            "min_capacitance",
+            Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0),
+        ));
     }
     let mut out = Vec::new();
-    let quick = Settings { progress: false, exhaustive_limit: 20_000, pool: 24, explain: false, milp_proposals: 1, milp_seconds: 1.0, max_evaluations: 150_000, ..Settings::default() };
+    let quick = Settings {
+        progress: false,
+        exhaustive_limit: 20_000,
+        pool: 24,
+        explain: false,
+        milp_proposals: 1,
+        milp_seconds: 1.0,
+        max_evaluations: 150_000,
+        ..Settings::default()
+    };
     for (name, relax) in tries {
         let mut sc = base.clone();
         relax(&mut sc);
-        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else { continue };
+        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
+            continue;
+        };
         if design_for(&p, target, &quick).found.is_some() {
             out.push(name.to_string());
         }
     }
     // Ripple-current ratings: ignore them.
-    let mut p = Problem { scenario: base.clone(), catalog: problem.catalog.clone(), eligible: problem.eligible.clone(), excluded: vec![], ops: problem.ops.clone(), warnings: vec![] };
-    if p.eligible.iter().any(|&i| p.catalog.parts[i].ripple_current.is_some()) {
+    let mut p = Problem {
+        scenario: base.clone(),
+        catalog: problem.catalog.clone(),
+        eligible: problem.eligible.clone(),
+        excluded: vec![],
+        ops: problem.ops.clone(),
+        warnings: vec![],
+    };
+    if p.eligible
+        .iter()
+        .any(|&i| p.catalog.parts[i].ripple_current.is_some())
+    {
         for part in p.catalog.parts.iter_mut() {
             part.ripple_current = None;
         }
@@ -1102,7 +1314,10 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
 /// already proposed (no-good cuts on the binaries).
 mod milp {
     use super::Search;
-    use good_lp::{constraint, variable, variables, Expression, Solution, SolutionStatus, SolverModel, Variable, WithTimeLimit};
+    use good_lp::{
+        constraint, variable, variables, Expression, Solution, SolutionStatus, SolverModel,
+        Variable, WithTimeLimit,
+    };
 
     pub struct Proposal {
         pub set: Vec<usize>,
@@ -1115,7 +1330,10 @@ mod milp {
         let mut d: Vec<(f64, usize)> = (0..s.n)
             .filter(|&k| s.q[k] > 0.0)
             .map(|k| {
-                let best = over.iter().map(|&i| s.ub[i] as f64 * s.a[i * s.n + k]).fold(0.0, f64::max);
+                let best = over
+                    .iter()
+                    .map(|&i| s.ub[i] as f64 * s.a[i * s.n + k])
+                    .fold(0.0, f64::max);
                 (s.q[k] / best.max(1e-300), k)
             })
             .collect();
@@ -1127,9 +1345,18 @@ mod milp {
         ks
     }
 
-    pub fn propose(s: &Search, over: &[usize], harmonics: &[usize], cuts: &[Vec<usize>], seconds: f64) -> Option<Proposal> {
+    pub fn propose(
+        s: &Search,
+        over: &[usize],
+        harmonics: &[usize],
+        cuts: &[Vec<usize>],
+        seconds: f64,
+    ) -> Option<Proposal> {
         let mut vars = variables!();
-        let n: Vec<Variable> = over.iter().map(|&i| vars.add(variable().integer().min(0.0).max(s.ub[i] as f64))).collect();
+        let n: Vec<Variable> = over
+            .iter()
+            .map(|&i| vars.add(variable().integer().min(0.0).max(s.ub[i] as f64)))
+            .collect();
         let z: Vec<Variable> = over.iter().map(|_| vars.add(variable().binary())).collect();
         let mut obj = Expression::from(0.0);
         for (j, &i) in over.iter().enumerate() {
@@ -1181,27 +1408,50 @@ mod milp {
             m = m.with(constraint!(e <= cut.len() as f64 - 1.0));
         }
         let sol = m.solve().ok()?;
-        let set: Vec<usize> = over.iter().enumerate().filter(|(j, _)| sol.value(n[*j]) > 0.5).map(|(_, &i)| i).collect();
-        let bound: f64 = over.iter().enumerate().map(|(j, &i)| s.w[0][i] * sol.value(n[j]).round() + s.line_w[0] * sol.value(z[j]).round()).sum();
-        Some(Proposal { set, bound, proven: matches!(sol.status(), SolutionStatus::Optimal) })
+        let set: Vec<usize> = over
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| sol.value(n[*j]) > 0.5)
+            .map(|(_, &i)| i)
+            .collect();
+        let bound: f64 = over
+            .iter()
+            .enumerate()
+            .map(|(j, &i)| {
+                s.w[0][i] * sol.value(n[j]).round() + s.line_w[0] * sol.value(z[j]).round()
+            })
+            .sum();
+        Some(Proposal {
+            set,
+            bound,
+            proven: matches!(sol.status(), SolutionStatus::Optimal),
+        })
     }
 
-    #[cfg(not(feature = "highs"))]
-    use good_lp::solvers::microlp::microlp as solver;
     #[cfg(feature = "highs")]
     use good_lp::solvers::highs::highs as solver;
+    #[cfg(not(feature = "highs"))]
+    use good_lp::solvers::microlp::microlp as solver;
 }
 
 /// The cheapest bank the other limits allow, whatever its ripple (the
 /// loose end of a trade-off), with that ripple.
 pub fn smallest_bank(problem: &Problem) -> Option<Found> {
-    let settings = Settings { explain: false, milp_proposals: 0, ..Settings::default() };
+    let settings = Settings {
+        explain: false,
+        milp_proposals: 0,
+        ..Settings::default()
+    };
     let out = design_for(problem, f64::MAX, &settings);
     out.found.map(|mut f| {
         let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
         let mut ev = problem.evaluator(&parts);
         let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
-        f.ripple_pp = ev.ripple_pp(&local, crate::bank::Corner::Worst, crate::bank::Band::Limited);
+        f.ripple_pp = ev.ripple_pp(
+            &local,
+            crate::bank::Corner::Worst,
+            crate::bank::Band::Limited,
+        );
         f
     })
 }
@@ -1230,7 +1480,10 @@ mod tests {
         let prop = milp::propose(&s, &all, &ks, &[], 20.0).expect("the relaxation has a solution");
         let exact = design(&p, &Settings::default());
         let opt = exact.found.unwrap().key[0];
-        eprintln!("milp bound {} proven {} set {:?}; optimum {opt}", prop.bound, prop.proven, prop.set);
+        eprintln!(
+            "milp bound {} proven {} set {:?}; optimum {opt}",
+            prop.bound, prop.proven, prop.set
+        );
         assert!(prop.proven);
         assert!(prop.bound <= opt * (1.0 + 1e-9));
     }
@@ -1250,19 +1503,37 @@ pub struct Rework {
 /// then the scenario's objective) that meets the target and every limit.
 /// `forced_out` are catalog indices that must go; the other parts of
 /// `current` may stay (their counts may change) or go.
-pub fn rework(problem: &Problem, current: &[(usize, u32)], forced_out: &[usize], settings: &Settings) -> Rework {
+pub fn rework(
+    problem: &Problem,
+    current: &[(usize, u32)],
+    forced_out: &[usize],
+    settings: &Settings,
+) -> Rework {
     let t0 = Instant::now();
     let target = problem.scenario.target.ripple_pp.0;
-    let kept_cat: Vec<usize> = current.iter().map(|b| b.0).filter(|i| !forced_out.contains(i)).collect();
+    let kept_cat: Vec<usize> = current
+        .iter()
+        .map(|b| b.0)
+        .filter(|i| !forced_out.contains(i))
+        .collect();
     // Parts that must go can dominate nothing.
-    let allowed: Vec<usize> = problem.eligible.iter().copied().filter(|i| !forced_out.contains(i)).collect();
+    let allowed: Vec<usize> = problem
+        .eligible
+        .iter()
+        .copied()
+        .filter(|i| !forced_out.contains(i))
+        .collect();
     let (mut cands, dominated) = prune_dominated(problem, &allowed);
     for &i in &kept_cat {
         if !cands.contains(&i) {
             cands.push(i);
         }
     }
-    let mut stats = Stats { candidates: cands.len(), dominated, ..Default::default() };
+    let mut stats = Stats {
+        candidates: cands.len(),
+        dominated,
+        ..Default::default()
+    };
     let mut s = Search::new(problem, &cands, target);
     s.budget = settings.max_evaluations;
     let local = |cat: usize| cands.iter().position(|&c| c == cat).expect("candidate");
@@ -1285,7 +1556,11 @@ pub fn rework(problem: &Problem, current: &[(usize, u32)], forced_out: &[usize],
                 continue;
             }
             for removed in combinations(&kept, r) {
-                let stay: Vec<usize> = kept.iter().copied().filter(|i| !removed.contains(i)).collect();
+                let stay: Vec<usize> = kept
+                    .iter()
+                    .copied()
+                    .filter(|i| !removed.contains(i))
+                    .collect();
                 if stay.len() + a > max_lines {
                     continue;
                 }
@@ -1314,20 +1589,35 @@ pub fn rework(problem: &Problem, current: &[(usize, u32)], forced_out: &[usize],
     stats.stopped = s.stopped;
     stats.exhaustive = exhaustive && !s.stopped;
     stats.seconds = t0.elapsed().as_secs_f64();
-    let found = s.inc.take().map(|(key, bank, r)| Found { bank: bank.iter().map(|&(i, n)| (cands[i], n)).collect(), key, ripple_pp: r });
+    let found = s.inc.take().map(|(key, bank, r)| Found {
+        bank: bank.iter().map(|&(i, n)| (cands[i], n)).collect(),
+        key,
+        ripple_pp: r,
+    });
     let status = match (&found, stats.exhaustive) {
         (Some(_), true) => Status::Optimal,
         (Some(_), false) => Status::Feasible,
         (None, _) => Status::Infeasible,
     };
-    Rework { status, found, changes: found_at.unwrap_or(0), stats }
+    Rework {
+        status,
+        found,
+        changes: found_at.unwrap_or(0),
+        stats,
+    }
 }
 
 /// All `k`-element subsets of `items`, in order.
 fn combinations(items: &[usize], k: usize) -> Vec<Vec<usize>> {
     let mut out = Vec::new();
     let mut cur = Vec::with_capacity(k);
-    fn go(items: &[usize], start: usize, k: usize, cur: &mut Vec<usize>, out: &mut Vec<Vec<usize>>) {
+    fn go(
+        items: &[usize],
+        start: usize,
+        k: usize,
+        cur: &mut Vec<usize>,
+        out: &mut Vec<Vec<usize>>,
+    ) {
         if cur.len() == k {
             out.push(cur.clone());
             return;

@@ -34,32 +34,53 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
     if p.rated_voltage * der < vout {
         return Some(format!(
             "rated {} V × derating {} = {:.2} V is below vout {} V",
-            p.rated_voltage, der, p.rated_voltage * der, vout
+            p.rated_voltage,
+            der,
+            p.rated_voltage * der,
+            vout
         ));
     }
     let (tmin, tmax) = p.temperature_range();
     let env = &s.environment;
     if let Some(t) = tmin {
         if t > env.temperature_min {
-            return Some(format!("rated down to {t} °C only; the environment reaches {} °C", env.temperature_min));
+            return Some(format!(
+                "rated down to {t} °C only; the environment reaches {} °C",
+                env.temperature_min
+            ));
         }
     }
     if let Some(t) = tmax {
         if t < env.temperature_max {
-            return Some(format!("rated up to {t} °C only; the environment reaches {} °C", env.temperature_max));
+            return Some(format!(
+                "rated up to {t} °C only; the environment reaches {} °C",
+                env.temperature_max
+            ));
         }
     }
     match p.status {
         Status::Obsolete => return Some("status obsolete".into()),
         Status::Nrnd if !s.selection.allow_nrnd => {
-            return Some("status nrnd (not recommended for new designs; set selection.allow_nrnd)".into())
+            return Some(
+                "status nrnd (not recommended for new designs; set selection.allow_nrnd)".into(),
+            )
         }
         _ => {}
     }
     if let Some(h) = s.board.max_height {
         match p.height {
-            Some(ph) if ph > h.0 => return Some(format!("height {ph} mm is above board.max_height {} mm", h.0)),
-            None => return Some(format!("no height given, and board.max_height is {} mm", h.0)),
+            Some(ph) if ph > h.0 => {
+                return Some(format!(
+                    "height {ph} mm is above board.max_height {} mm",
+                    h.0
+                ))
+            }
+            None => {
+                return Some(format!(
+                    "no height given, and board.max_height is {} mm",
+                    h.0
+                ))
+            }
             _ => {}
         }
     }
@@ -72,7 +93,10 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
     if let Some(m) = s.converter.max_capacitance {
         let c = cap_limit_value(s, p);
         if c > m.0 {
-            return Some(format!("one part alone ({:.3e} F) exceeds converter.max_capacitance", c));
+            return Some(format!(
+                "one part alone ({:.3e} F) exceeds converter.max_capacitance",
+                c
+            ));
         }
     }
     None
@@ -95,7 +119,10 @@ impl Problem {
         for (i, p) in catalog.parts.iter().enumerate() {
             match ineligibility(&scenario, p, objective) {
                 None => eligible.push(i),
-                Some(reason) => excluded.push(Excluded { part: p.id.clone(), reason }),
+                Some(reason) => excluded.push(Excluded {
+                    part: p.id.clone(),
+                    reason,
+                }),
             }
         }
         for (id, n) in &scenario.selection.require {
@@ -120,17 +147,31 @@ impl Problem {
                 ));
             }
         }
-        if matches!(scenario.converter.topology, Topology::Flyback | Topology::Boost) && scenario.converter.edge_time.0 == 0.0 {
+        if matches!(
+            scenario.converter.topology,
+            Topology::Flyback | Topology::Boost
+        ) && scenario.converter.edge_time.0 == 0.0
+        {
             warnings.push(format!(
                 "converter.edge_time is 0: the {}'s current jumps are ideal steps, so the ripple across the parts' ESL \
                  depends on the harmonic count; give the commutation time (typically 10-50 ns)",
                 scenario.converter.topology.name()
             ));
         }
-        if scenario.converter.topology == Topology::Module && scenario.converter.standalone_bandwidth.is_none() && scenario.target.bandwidth.is_some() {
+        if scenario.converter.topology == Topology::Module
+            && scenario.converter.standalone_bandwidth.is_none()
+            && scenario.target.bandwidth.is_some()
+        {
             warnings.push("converter.standalone_bandwidth not given: the standalone ripple is taken at the target's bandwidth".into());
         }
-        Ok(Problem { scenario, catalog, eligible, excluded, ops, warnings })
+        Ok(Problem {
+            scenario,
+            catalog,
+            eligible,
+            excluded,
+            ops,
+            warnings,
+        })
     }
 
     /// Electrical and physical model of catalog part `i` in this scenario.

@@ -29,7 +29,11 @@ struct QuantityVisitor(Unit);
 impl<'de> Visitor<'de> for QuantityVisitor {
     type Value = f64;
     fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-        write!(f, "a {} as a number or a string such as \"4.7u\"", self.0.name())
+        write!(
+            f,
+            "a {} as a number or a string such as \"4.7u\"",
+            self.0.name()
+        )
     }
     fn visit_f64<E: de::Error>(self, v: f64) -> std::result::Result<f64, E> {
         if v.is_finite() {
@@ -142,7 +146,10 @@ fn room() -> f64 {
 
 impl Default for Environment {
     fn default() -> Self {
-        Environment { temperature_min: 25.0, temperature_max: 25.0 }
+        Environment {
+            temperature_min: 25.0,
+            temperature_max: 25.0,
+        }
     }
 }
 
@@ -266,8 +273,12 @@ impl Scenario {
         let text = std::fs::read(path)
             .map_err(|e| anyhow::anyhow!("{}: cannot read the scenario: {e}", path.display()))?;
         let text = String::from_utf8(text).map_err(|e| {
-            let (line, column) = crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
-            anyhow::anyhow!("{}: line {line}, column {column}: not UTF-8 text; a scenario is TOML text", path.display())
+            let (line, column) =
+                crate::catalog::text_position(e.as_bytes(), e.utf8_error().valid_up_to());
+            anyhow::anyhow!(
+                "{}: line {line}, column {column}: not UTF-8 text; a scenario is TOML text",
+                path.display()
+            )
         })?;
         let mut s = Scenario::from_str(&text, &path.display().to_string())?;
         s.dir = path.parent().map(|p| p.to_path_buf());
@@ -298,7 +309,11 @@ impl Scenario {
     /// Every given input-voltage value is a corner (SPEC §3).
     pub fn vin_corners(&self) -> Vec<f64> {
         let c = &self.converter;
-        let mut v: Vec<f64> = [c.vin_min, c.vin, c.vin_max].iter().flatten().map(|x| x.0).collect();
+        let mut v: Vec<f64> = [c.vin_min, c.vin, c.vin_max]
+            .iter()
+            .flatten()
+            .map(|x| x.0)
+            .collect();
         v.sort_by(|a, b| a.partial_cmp(b).unwrap());
         v.dedup();
         v
@@ -339,38 +354,68 @@ impl Scenario {
         nonneg("converter.iout", c.iout.0)?;
         pos("converter.fsw", c.fsw.0)?;
         if c.fsw.0 < 100.0 || c.fsw.0 > 100e6 {
-            return Err(self.err("converter.fsw", format!("{} Hz is outside 100 Hz … 100 MHz", c.fsw.0)));
+            return Err(self.err(
+                "converter.fsw",
+                format!("{} Hz is outside 100 Hz … 100 MHz", c.fsw.0),
+            ));
         }
-        for (k, v) in [("converter.vin", c.vin), ("converter.vin_min", c.vin_min), ("converter.vin_max", c.vin_max)] {
+        for (k, v) in [
+            ("converter.vin", c.vin),
+            ("converter.vin_min", c.vin_min),
+            ("converter.vin_max", c.vin_max),
+        ] {
             if let Some(v) = v {
                 pos(k, v.0)?;
             }
         }
         if let (Some(a), Some(b)) = (c.vin_min, c.vin_max) {
             if a.0 > b.0 {
-                return Err(self.err("converter.vin_min", format!("{} V is above vin_max {} V", a.0, b.0)));
+                return Err(self.err(
+                    "converter.vin_min",
+                    format!("{} V is above vin_max {} V", a.0, b.0),
+                ));
             }
         }
         let vins = self.vin_corners();
         if c.topology != Topology::Module && vins.is_empty() {
-            return Err(self.err("converter.vin", format!("a {} needs vin (or vin_min / vin_max)", c.topology.name())));
+            return Err(self.err(
+                "converter.vin",
+                format!("a {} needs vin (or vin_min / vin_max)", c.topology.name()),
+            ));
         }
         if c.topology != Topology::Module {
             match c.inductance {
-                None => return Err(self.err("converter.inductance", format!("a {} needs its inductance", c.topology.name()))),
+                None => {
+                    return Err(self.err(
+                        "converter.inductance",
+                        format!("a {} needs its inductance", c.topology.name()),
+                    ))
+                }
                 Some(l) => pos("converter.inductance", l.0)?,
             }
         }
         if c.phases == 0 || c.phases > 16 {
-            return Err(self.err("converter.phases", format!("{} must be from 1 to 16", c.phases)));
+            return Err(self.err(
+                "converter.phases",
+                format!("{} must be from 1 to 16", c.phases),
+            ));
         }
         if c.phases > 1 && c.topology != Topology::Buck {
-            return Err(self.err("converter.phases", "interleaved phases are modelled for the buck only"));
+            return Err(self.err(
+                "converter.phases",
+                "interleaved phases are modelled for the buck only",
+            ));
         }
-        let isolated = matches!(c.topology, Topology::Forward | Topology::Bridge | Topology::Flyback);
+        let isolated = matches!(
+            c.topology,
+            Topology::Forward | Topology::Bridge | Topology::Flyback
+        );
         match c.turns_ratio {
             None if isolated => {
-                return Err(self.err("converter.turns_ratio", format!("a {} needs turns_ratio (Ns/Np)", c.topology.name())))
+                return Err(self.err(
+                    "converter.turns_ratio",
+                    format!("a {} needs turns_ratio (Ns/Np)", c.topology.name()),
+                ))
             }
             Some(n) => pos("converter.turns_ratio", n.0)?,
             None => {}
@@ -402,12 +447,18 @@ impl Scenario {
                 }
                 Topology::Flyback => {
                     if c.iout.0 <= 0.0 {
-                        return Err(self.err("converter.iout", "a flyback needs a load current above zero"));
+                        return Err(self.err(
+                            "converter.iout",
+                            "a flyback needs a load current above zero",
+                        ));
                     }
                 }
                 Topology::Module => {
                     if c.vout.0 >= vin {
-                        return Err(self.err("converter.vout", format!("{} V is not below vin {vin} V", c.vout.0)));
+                        return Err(self.err(
+                            "converter.vout",
+                            format!("{} V is not below vin {vin} V", c.vout.0),
+                        ));
                     }
                 }
             }
@@ -417,7 +468,13 @@ impl Scenario {
         }
         nonneg("converter.edge_time", c.edge_time.0)?;
         if c.edge_time.0 * c.fsw.0 > 0.2 {
-            return Err(self.err("converter.edge_time", format!("{} s is over a fifth of the switching period", c.edge_time.0)));
+            return Err(self.err(
+                "converter.edge_time",
+                format!(
+                    "{} s is over a fifth of the switching period",
+                    c.edge_time.0
+                ),
+            ));
         }
         if let Some(m) = c.max_capacitance {
             pos("converter.max_capacitance", m.0)?;
@@ -433,7 +490,12 @@ impl Scenario {
         nonneg("converter.internal_esl", c.internal_esl.0)?;
         if c.topology == Topology::Module {
             match c.standalone_ripple_pp {
-                None => return Err(self.err("converter.standalone_ripple_pp", "a module needs its measured ripple without added capacitors")),
+                None => {
+                    return Err(self.err(
+                        "converter.standalone_ripple_pp",
+                        "a module needs its measured ripple without added capacitors",
+                    ))
+                }
                 Some(v) => pos("converter.standalone_ripple_pp", v.0)?,
             }
             if c.internal_capacitance.is_none() {
@@ -455,14 +517,26 @@ impl Scenario {
             pos("target.bandwidth", b.0)?;
         }
         if t.bandwidth_order == 0 || t.bandwidth_order > 8 {
-            return Err(self.err("target.bandwidth_order", format!("{} must be from 1 to 8", t.bandwidth_order)));
+            return Err(self.err(
+                "target.bandwidth_order",
+                format!("{} must be from 1 to 8", t.bandwidth_order),
+            ));
         }
         if t.harmonics > 20000 {
-            return Err(self.err("target.harmonics", format!("{} is more than 20000", t.harmonics)));
+            return Err(self.err(
+                "target.harmonics",
+                format!("{} is more than 20000", t.harmonics),
+            ));
         }
         let e = &self.environment;
-        if !e.temperature_min.is_finite() || !e.temperature_max.is_finite() || e.temperature_min > e.temperature_max {
-            return Err(self.err("environment.temperature_min", "must be finite and not above temperature_max"));
+        if !e.temperature_min.is_finite()
+            || !e.temperature_max.is_finite()
+            || e.temperature_min > e.temperature_max
+        {
+            return Err(self.err(
+                "environment.temperature_min",
+                "must be finite and not above temperature_max",
+            ));
         }
         let b = &self.board;
         nonneg("board.mounting_inductance", b.mounting_inductance.0)?;
@@ -488,16 +562,25 @@ impl Scenario {
             if Technology::parse(k).is_none() {
                 return Err(self.err(
                     &format!("selection.voltage_derating.{k}"),
-                    format!("unknown technology (one of: {})", Technology::ALL.map(|t| t.name()).join(", ")),
+                    format!(
+                        "unknown technology (one of: {})",
+                        Technology::ALL.map(|t| t.name()).join(", ")
+                    ),
                 ));
             }
             if !(v.0 > 0.0 && v.0 <= 1.0) {
-                return Err(self.err(&format!("selection.voltage_derating.{k}"), format!("{} must be above 0 and at most 1", v.0)));
+                return Err(self.err(
+                    &format!("selection.voltage_derating.{k}"),
+                    format!("{} must be above 0 and at most 1", v.0),
+                ));
             }
         }
         for (k, &v) in &s.require {
             if v > s.max_per_part {
-                return Err(self.err(&format!("selection.require.{k}"), format!("{v} is above max_per_part {}", s.max_per_part)));
+                return Err(self.err(
+                    &format!("selection.require.{k}"),
+                    format!("{v} is above max_per_part {}", s.max_per_part),
+                ));
             }
         }
         Ok(())
@@ -507,12 +590,20 @@ impl Scenario {
     pub fn check_against(&self, catalog: &crate::catalog::Catalog) -> Result<()> {
         for p in &self.selection.exclude {
             if catalog.get(p).is_none() {
-                bail!("{}: key `selection.exclude`: part `{p}` is not in the catalog {}", self.source, catalog.source);
+                bail!(
+                    "{}: key `selection.exclude`: part `{p}` is not in the catalog {}",
+                    self.source,
+                    catalog.source
+                );
             }
         }
         for p in self.selection.require.keys() {
             if catalog.get(p).is_none() {
-                bail!("{}: key `selection.require.{p}`: part `{p}` is not in the catalog {}", self.source, catalog.source);
+                bail!(
+                    "{}: key `selection.require.{p}`: part `{p}` is not in the catalog {}",
+                    self.source,
+                    catalog.source
+                );
             }
         }
         Ok(())
@@ -549,26 +640,34 @@ mod tests {
 
     #[test]
     fn unknown_key_is_named() {
-        let e = Scenario::from_str(&MIN.replace("iout = 6", "iout = 6\nfws = 3"), "t.toml").unwrap_err().to_string();
+        let e = Scenario::from_str(&MIN.replace("iout = 6", "iout = 6\nfws = 3"), "t.toml")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("fws"), "{e}");
         assert!(e.contains("line"), "{e}");
     }
 
     #[test]
     fn buck_cannot_step_up() {
-        let e = Scenario::from_str(&MIN.replace("vout = 3.3", "vout = 15"), "t.toml").unwrap_err().to_string();
+        let e = Scenario::from_str(&MIN.replace("vout = 3.3", "vout = 15"), "t.toml")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("converter.vout"), "{e}");
     }
 
     #[test]
     fn flyback_needs_turns_ratio() {
-        let e = Scenario::from_str(&MIN.replace("\"buck\"", "\"flyback\""), "t.toml").unwrap_err().to_string();
+        let e = Scenario::from_str(&MIN.replace("\"buck\"", "\"flyback\""), "t.toml")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("converter.turns_ratio"), "{e}");
     }
 
     #[test]
     fn wrong_unit_names_key() {
-        let e = Scenario::from_str(&MIN.replace("\"2.2u\"", "\"2.2uF\""), "t.toml").unwrap_err().to_string();
+        let e = Scenario::from_str(&MIN.replace("\"2.2u\"", "\"2.2uF\""), "t.toml")
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("inductance"), "{e}");
     }
 }

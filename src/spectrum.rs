@@ -54,12 +54,19 @@ mod tests {
         // the familiar 8/π² · (ΔI/2) for the fundamental.
         for &d in &[0.1, 0.275, 0.5, 0.83] {
             let di = 1.7;
-            let w = Waveform { period: 1e-6, points: vec![(0.0, -di / 2.0), (d * 1e-6, di / 2.0)] };
+            let w = Waveform {
+                period: 1e-6,
+                points: vec![(0.0, -di / 2.0), (d * 1e-6, di / 2.0)],
+            };
             let h = harmonics(&w, 50);
             for (i, c) in h.iter().enumerate() {
                 let n = (i + 1) as f64;
                 let cn = di * (n * PI * d).sin().abs() / (PI * PI * n * n * d * (1.0 - d));
-                assert!((c.norm() - cn).abs() < 1e-9 * di, "D={d} n={n}: {} vs {cn}", c.norm());
+                assert!(
+                    (c.norm() - cn).abs() < 1e-9 * di,
+                    "D={d} n={n}: {} vs {cn}",
+                    c.norm()
+                );
             }
         }
     }
@@ -68,11 +75,18 @@ mod tests {
     fn square_wave_closed_form() {
         // A ±1 square wave has peak harmonics 4/(πn) at odd n, 0 at even n
         // (any signals-and-systems text, Fourier series of a square wave).
-        let w = Waveform { period: 1.0, points: vec![(0.0, 1.0), (0.5, 1.0), (0.5, -1.0), (1.0, -1.0)] };
+        let w = Waveform {
+            period: 1.0,
+            points: vec![(0.0, 1.0), (0.5, 1.0), (0.5, -1.0), (1.0, -1.0)],
+        };
         let h = harmonics(&w, 9);
         for (i, c) in h.iter().enumerate() {
             let n = i + 1;
-            let want = if n % 2 == 1 { 4.0 / (PI * n as f64) } else { 0.0 };
+            let want = if n % 2 == 1 {
+                4.0 / (PI * n as f64)
+            } else {
+                0.0
+            };
             assert!((c.norm() - want).abs() < 1e-12, "n={n}");
         }
     }

@@ -100,7 +100,10 @@ pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
     let v = parse_value(text, unit)?;
     if !v.is_finite() {
         // e.g. "1e300G": the number is finite, the scaled value is not.
-        return Err(ValueError(format!("`{}` is out of range (not a finite number)", text.trim())));
+        return Err(ValueError(format!(
+            "`{}` is out of range (not a finite number)",
+            text.trim()
+        )));
     }
     Ok(v)
 }

@@ -42,79 +42,361 @@ use Kind::*;
 /// always checked too.
 const CASES: &[(&str, Kind, &[&str])] = &[
     // ---- catalogs: line and column (or the column's name for a header fault)
-    ("cat-missing-esr-column.csv", Catalog, &["line 1", "required column `esr` is missing"]),
-    ("cat-wrong-unit.csv", Catalog, &["line 3, column 3 (capacitance)", "`10uH` is an inductance"]),
-    ("cat-negative-capacitance.csv", Catalog, &["line 2, column 3 (capacitance)", "above zero"]),
-    ("cat-nan-esr.csv", Catalog, &["line 4, column 5 (esr)", "not a finite number"]),
-    ("cat-inf-esl.csv", Catalog, &["line 3, column 6 (esl)", "not a finite number"]),
-    ("cat-absurd-capacitance.csv", Catalog, &["line 2, column 3 (capacitance)", "prefix"]),
-    ("cat-absurd-esr.csv", Catalog, &["line 5, column 5 (esr)", "not a plausible ESR"]),
-    ("cat-negative-esr.csv", Catalog, &["line 2, column 5 (esr)", "zero or more"]),
-    ("cat-duplicate-part.csv", Catalog, &["line 4, column 1 (part)", "`CX-A-22U-6V3` already defined on line 2"]),
-    ("cat-bias-not-monotonic.csv", Catalog, &["line 2, column 10 (dc_bias)", "point 3", "rise strictly"]),
-    ("cat-bias-fraction-high.csv", Catalog, &["line 2, column 10 (dc_bias)", "point 2", "at most 1.5"]),
-    ("cat-bias-missing-colon.csv", Catalog, &["line 4, column 10 (dc_bias)", "`5 0.8` is not of the form V:fraction"]),
-    ("cat-unknown-dielectric.csv", Catalog, &["line 4, column 9 (dielectric)", "`X7Q`"]),
-    ("cat-tolerance-150.csv", Catalog, &["line 3, column 8 (tolerance)", "below 1 (100 %)"]),
-    ("cat-unknown-technology.csv", Catalog, &["line 3, column 2 (technology)", "`supercapacitor`"]),
-    ("cat-field-count.csv", Catalog, &["line 3, column 15", "15 fields where the header has 14"]),
-    ("cat-empty.csv", Catalog, &["line 1", "the catalog is empty"]),
-    ("cat-whitespace-only.csv", Catalog, &["line 1", "the catalog is empty"]),
+    (
+        "cat-missing-esr-column.csv",
+        Catalog,
+        &["line 1", "required column `esr` is missing"],
+    ),
+    (
+        "cat-wrong-unit.csv",
+        Catalog,
+        &["line 3, column 3 (capacitance)", "`10uH` is an inductance"],
+    ),
+    (
+        "cat-negative-capacitance.csv",
+        Catalog,
+        &["line 2, column 3 (capacitance)", "above zero"],
+    ),
+    (
+        "cat-nan-esr.csv",
+        Catalog,
+        &["line 4, column 5 (esr)", "not a finite number"],
+    ),
+    (
+        "cat-inf-esl.csv",
+        Catalog,
+        &["line 3, column 6 (esl)", "not a finite number"],
+    ),
+    (
+        "cat-absurd-capacitance.csv",
+        Catalog,
+        &["line 2, column 3 (capacitance)", "prefix"],
+    ),
+    (
+        "cat-absurd-esr.csv",
+        Catalog,
+        &["line 5, column 5 (esr)", "not a plausible ESR"],
+    ),
+    (
+        "cat-negative-esr.csv",
+        Catalog,
+        &["line 2, column 5 (esr)", "zero or more"],
+    ),
+    (
+        "cat-duplicate-part.csv",
+        Catalog,
+        &[
+            "line 4, column 1 (part)",
+            "`CX-A-22U-6V3` already defined on line 2",
+        ],
+    ),
+    (
+        "cat-bias-not-monotonic.csv",
+        Catalog,
+        &["line 2, column 10 (dc_bias)", "point 3", "rise strictly"],
+    ),
+    (
+        "cat-bias-fraction-high.csv",
+        Catalog,
+        &["line 2, column 10 (dc_bias)", "point 2", "at most 1.5"],
+    ),
+    (
+        "cat-bias-missing-colon.csv",
+        Catalog,
+        &[
+            "line 4, column 10 (dc_bias)",
+            "`5 0.8` is not of the form V:fraction",
+        ],
+    ),
+    (
+        "cat-unknown-dielectric.csv",
+        Catalog,
+        &["line 4, column 9 (dielectric)", "`X7Q`"],
+    ),
+    (
+        "cat-tolerance-150.csv",
+        Catalog,
+        &["line 3, column 8 (tolerance)", "below 1 (100 %)"],
+    ),
+    (
+        "cat-unknown-technology.csv",
+        Catalog,
+        &["line 3, column 2 (technology)", "`supercapacitor`"],
+    ),
+    (
+        "cat-field-count.csv",
+        Catalog,
+        &["line 3, column 15", "15 fields where the header has 14"],
+    ),
+    (
+        "cat-empty.csv",
+        Catalog,
+        &["line 1", "the catalog is empty"],
+    ),
+    (
+        "cat-whitespace-only.csv",
+        Catalog,
+        &["line 1", "the catalog is empty"],
+    ),
     ("cat-header-only.csv", Catalog, &["line 1", "no parts"]),
-    ("cat-unknown-status.csv", Catalog, &["line 5, column 13 (status)", "`discontinued`"]),
-    ("cat-empty-required-cell.csv", Catalog, &["line 3, column 4 (rated_voltage)", "required value is empty"]),
-    ("cat-not-a-number.csv", Catalog, &["line 4, column 7 (cost)", "`cheap`"]),
-    ("cat-duplicate-column.csv", Catalog, &["line 1, column 15", "`esr` appears twice"]),
-    ("cat-empty-column-name.csv", Catalog, &["line 1, column 15", "empty column name"]),
-    ("cat-semicolon-wrong-unit.csv", Catalog, &["line 3, column 6 (esl)", "is a capacitance (F)"]),
-    ("cat-temp-range-inverted.csv", Catalog, &["line 3, column 16 (temp_max)", "not above temp_min"]),
-    ("cat-empty-part-id.csv", Catalog, &["line 3, column 1 (part)", "part id is empty"]),
+    (
+        "cat-unknown-status.csv",
+        Catalog,
+        &["line 5, column 13 (status)", "`discontinued`"],
+    ),
+    (
+        "cat-empty-required-cell.csv",
+        Catalog,
+        &[
+            "line 3, column 4 (rated_voltage)",
+            "required value is empty",
+        ],
+    ),
+    (
+        "cat-not-a-number.csv",
+        Catalog,
+        &["line 4, column 7 (cost)", "`cheap`"],
+    ),
+    (
+        "cat-duplicate-column.csv",
+        Catalog,
+        &["line 1, column 15", "`esr` appears twice"],
+    ),
+    (
+        "cat-empty-column-name.csv",
+        Catalog,
+        &["line 1, column 15", "empty column name"],
+    ),
+    (
+        "cat-semicolon-wrong-unit.csv",
+        Catalog,
+        &["line 3, column 6 (esl)", "is a capacitance (F)"],
+    ),
+    (
+        "cat-temp-range-inverted.csv",
+        Catalog,
+        &["line 3, column 16 (temp_max)", "not above temp_min"],
+    ),
+    (
+        "cat-empty-part-id.csv",
+        Catalog,
+        &["line 3, column 1 (part)", "part id is empty"],
+    ),
     // CRLF and blank lines must not shift the line numbers.
-    ("cat-wrong-unit-crlf-blank-lines.csv", Catalog, &["line 6, column 5 (esr)", "`12mH` is an inductance"]),
-    ("cat-field-count-crlf.csv", Catalog, &["line 4, column 14", "13 fields where the header has 14", "`description`"]),
-    ("cat-huge-exponent.csv", Catalog, &["line 2, column 3 (capacitance)", "`1e300G`", "not a finite number"]),
+    (
+        "cat-wrong-unit-crlf-blank-lines.csv",
+        Catalog,
+        &["line 6, column 5 (esr)", "`12mH` is an inductance"],
+    ),
+    (
+        "cat-field-count-crlf.csv",
+        Catalog,
+        &[
+            "line 4, column 14",
+            "13 fields where the header has 14",
+            "`description`",
+        ],
+    ),
+    (
+        "cat-huge-exponent.csv",
+        Catalog,
+        &[
+            "line 2, column 3 (capacitance)",
+            "`1e300G`",
+            "not a finite number",
+        ],
+    ),
     // ---- scenarios: the key (TOML errors also quote the offending line)
-    ("scn-unknown-key.toml", Scenario, &["line 10", "unknown field `fws`"]),
-    ("scn-unknown-topology.toml", Scenario, &["topology = \"buk\"", "unknown variant `buk`"]),
-    ("scn-unknown-table.toml", Scenario, &["line 22", "unknown field `boards`"]),
-    ("scn-buck-step-up.toml", Scenario, &["key `converter.vout`", "a buck cannot make 15 V from 12 V"]),
-    ("scn-boost-step-down.toml", Scenario, &["key `converter.vout`", "a boost needs vout above vin"]),
-    ("scn-flyback-no-turns-ratio.toml", Scenario, &["key `converter.turns_ratio`"]),
-    ("scn-zero-fsw.toml", Scenario, &["key `converter.fsw`", "above zero"]),
-    ("scn-absurd-fsw.toml", Scenario, &["key `converter.fsw`", "outside 100 Hz"]),
-    ("scn-negative-inductance.toml", Scenario, &["key `converter.inductance`", "above zero"]),
-    ("scn-edge-time-too-long.toml", Scenario, &["key `converter.edge_time`", "switching period"]),
-    ("scn-wrong-unit.toml", Scenario, &["inductance = \"2.2uF\"", "is a capacitance (F), but this field is an inductance (H)"]),
+    (
+        "scn-unknown-key.toml",
+        Scenario,
+        &["line 10", "unknown field `fws`"],
+    ),
+    (
+        "scn-unknown-topology.toml",
+        Scenario,
+        &["topology = \"buk\"", "unknown variant `buk`"],
+    ),
+    (
+        "scn-unknown-table.toml",
+        Scenario,
+        &["line 22", "unknown field `boards`"],
+    ),
+    (
+        "scn-buck-step-up.toml",
+        Scenario,
+        &["key `converter.vout`", "a buck cannot make 15 V from 12 V"],
+    ),
+    (
+        "scn-boost-step-down.toml",
+        Scenario,
+        &["key `converter.vout`", "a boost needs vout above vin"],
+    ),
+    (
+        "scn-flyback-no-turns-ratio.toml",
+        Scenario,
+        &["key `converter.turns_ratio`"],
+    ),
+    (
+        "scn-zero-fsw.toml",
+        Scenario,
+        &["key `converter.fsw`", "above zero"],
+    ),
+    (
+        "scn-absurd-fsw.toml",
+        Scenario,
+        &["key `converter.fsw`", "outside 100 Hz"],
+    ),
+    (
+        "scn-negative-inductance.toml",
+        Scenario,
+        &["key `converter.inductance`", "above zero"],
+    ),
+    (
+        "scn-edge-time-too-long.toml",
+        Scenario,
+        &["key `converter.edge_time`", "switching period"],
+    ),
+    (
+        "scn-wrong-unit.toml",
+        Scenario,
+        &[
+            "inductance = \"2.2uF\"",
+            "is a capacitance (F), but this field is an inductance (H)",
+        ],
+    ),
     ("scn-missing-vout.toml", Scenario, &["missing field `vout`"]),
-    ("scn-missing-target.toml", Scenario, &["missing field `target`"]),
-    ("scn-catalog-not-found.toml", Scenario, &["key `catalog`", "no-such-catalog.csv"]),
-    ("scn-require-unknown-part.toml", Scenario, &["key `selection.require.CX-NOPE-1U`", "not in the catalog"]),
-    ("scn-exclude-unknown-part.toml", Scenario, &["key `selection.exclude`", "`CX-NOPE-1U`"]),
-    ("scn-require-above-max.toml", Scenario, &["key `selection.require.CX-A-22U-6V3`", "max_per_part"]),
-    ("scn-nan-vout.toml", Scenario, &["vout = nan", "not a finite number"]),
-    ("scn-inf-iout.toml", Scenario, &["iout = inf", "not a finite number"]),
-    ("scn-negative-iout.toml", Scenario, &["key `converter.iout`", "zero or more"]),
+    (
+        "scn-missing-target.toml",
+        Scenario,
+        &["missing field `target`"],
+    ),
+    (
+        "scn-catalog-not-found.toml",
+        Scenario,
+        &["key `catalog`", "no-such-catalog.csv"],
+    ),
+    (
+        "scn-require-unknown-part.toml",
+        Scenario,
+        &["key `selection.require.CX-NOPE-1U`", "not in the catalog"],
+    ),
+    (
+        "scn-exclude-unknown-part.toml",
+        Scenario,
+        &["key `selection.exclude`", "`CX-NOPE-1U`"],
+    ),
+    (
+        "scn-require-above-max.toml",
+        Scenario,
+        &["key `selection.require.CX-A-22U-6V3`", "max_per_part"],
+    ),
+    (
+        "scn-nan-vout.toml",
+        Scenario,
+        &["vout = nan", "not a finite number"],
+    ),
+    (
+        "scn-inf-iout.toml",
+        Scenario,
+        &["iout = inf", "not a finite number"],
+    ),
+    (
+        "scn-negative-iout.toml",
+        Scenario,
+        &["key `converter.iout`", "zero or more"],
+    ),
     ("scn-empty.toml", Scenario, &["missing field `converter`"]),
     ("scn-syntax-error.toml", Scenario, &["line 7", "vin = = 12"]),
-    ("scn-derating-unknown-technology.toml", Scenario, &["key `selection.voltage_derating.supercap`", "unknown technology"]),
-    ("scn-zero-phases.toml", Scenario, &["key `converter.phases`"]),
-    ("scn-temperature-inverted.toml", Scenario, &["key `environment.temperature_min`"]),
-    ("scn-unknown-objective.toml", Scenario, &["objective = \"price\"", "unknown variant `price`"]),
-    ("scn-bandwidth-order-zero.toml", Scenario, &["key `target.bandwidth_order`"]),
-    ("scn-string-not-number.toml", Scenario, &["vin = \"twelve\"", "does not start with a number"]),
-    ("scn-huge-exponent.toml", Scenario, &["vin = \"1e300G\"", "not a finite number"]),
-    ("scn-not-utf8.toml", Scenario, &["line 2, column 20", "not UTF-8"]),
+    (
+        "scn-derating-unknown-technology.toml",
+        Scenario,
+        &[
+            "key `selection.voltage_derating.supercap`",
+            "unknown technology",
+        ],
+    ),
+    (
+        "scn-zero-phases.toml",
+        Scenario,
+        &["key `converter.phases`"],
+    ),
+    (
+        "scn-temperature-inverted.toml",
+        Scenario,
+        &["key `environment.temperature_min`"],
+    ),
+    (
+        "scn-unknown-objective.toml",
+        Scenario,
+        &["objective = \"price\"", "unknown variant `price`"],
+    ),
+    (
+        "scn-bandwidth-order-zero.toml",
+        Scenario,
+        &["key `target.bandwidth_order`"],
+    ),
+    (
+        "scn-string-not-number.toml",
+        Scenario,
+        &["vin = \"twelve\"", "does not start with a number"],
+    ),
+    (
+        "scn-huge-exponent.toml",
+        Scenario,
+        &["vin = \"1e300G\"", "not a finite number"],
+    ),
+    (
+        "scn-not-utf8.toml",
+        Scenario,
+        &["line 2, column 20", "not UTF-8"],
+    ),
     // ---- bills of materials
-    ("bom-unknown-part.csv", Bom, &["line 3, column `part`", "`CX-NOPE-1U` is not in the catalog"]),
-    ("bom-unknown-part-crlf.csv", Bom, &["line 5, column `part`", "`CX-NOPE-1U`"]),
-    ("bom-non-integer-count.csv", Bom, &["line 2, column 2 (count)", "`2.5` is not a whole number"]),
-    ("bom-negative-count.csv", Bom, &["line 3, column 2 (count)", "`-1` is not a whole number"]),
-    ("bom-missing-count-column.csv", Bom, &["line 1", "column `count` is missing"]),
-    ("bom-missing-count-cell.csv", Bom, &["line 2, column 2 (count)", "empty"]),
+    (
+        "bom-unknown-part.csv",
+        Bom,
+        &[
+            "line 3, column `part`",
+            "`CX-NOPE-1U` is not in the catalog",
+        ],
+    ),
+    (
+        "bom-unknown-part-crlf.csv",
+        Bom,
+        &["line 5, column `part`", "`CX-NOPE-1U`"],
+    ),
+    (
+        "bom-non-integer-count.csv",
+        Bom,
+        &["line 2, column 2 (count)", "`2.5` is not a whole number"],
+    ),
+    (
+        "bom-negative-count.csv",
+        Bom,
+        &["line 3, column 2 (count)", "`-1` is not a whole number"],
+    ),
+    (
+        "bom-missing-count-column.csv",
+        Bom,
+        &["line 1", "column `count` is missing"],
+    ),
+    (
+        "bom-missing-count-cell.csv",
+        Bom,
+        &["line 2, column 2 (count)", "empty"],
+    ),
     ("bom-empty.csv", Bom, &["line 1", "empty"]),
-    ("bom-empty-part.csv", Bom, &["line 3, column 1 (part)", "empty part id"]),
+    (
+        "bom-empty-part.csv",
+        Bom,
+        &["line 3, column 1 (part)", "empty part id"],
+    ),
     ("bom-header-only.csv", Bom, &["line 1", "lists no parts"]),
-    ("bom-absurd-count.csv", Bom, &["line 2, column 2 (count)", "100000"]),
+    (
+        "bom-absurd-count.csv",
+        Bom,
+        &["line 2, column 2 (count)", "100000"],
+    ),
     ("bom-not-utf8.csv", Bom, &["line 3, column 13", "not UTF-8"]),
 ];
 
@@ -155,18 +437,30 @@ fn run_bad(file: &str, kind: Kind, expect: &[&str]) -> Result<(), String> {
     if problems.is_empty() {
         Ok(())
     } else {
-        Err(format!("{file} ({kind:?}): {}\n  stderr: {stderr}", problems.join("; ")))
+        Err(format!(
+            "{file} ({kind:?}): {}\n  stderr: {stderr}",
+            problems.join("; ")
+        ))
     }
 }
 
 #[test]
 fn every_malformed_input_exits_2_and_names_file_and_place() {
-    assert!(CASES.len() >= 30, "the brief asks for at least 30 malformed inputs");
+    assert!(
+        CASES.len() >= 30,
+        "the brief asks for at least 30 malformed inputs"
+    );
     let failures: Vec<String> = CASES
         .iter()
         .filter_map(|&(f, k, e)| run_bad(&corpus(f), k, e).err())
         .collect();
-    assert!(failures.is_empty(), "{} of {} cases fail:\n{}", failures.len(), CASES.len(), failures.join("\n"));
+    assert!(
+        failures.is_empty(),
+        "{} of {} cases fail:\n{}",
+        failures.len(),
+        CASES.len(),
+        failures.join("\n")
+    );
 }
 
 /// Deterministic bytes (xorshift64), with NUL and 0xFF bytes forced in.
@@ -188,9 +482,21 @@ fn binary_garbage_is_refused_with_a_position() {
     let dir = tempfile::tempdir().unwrap();
     let bytes = garbage(4096, 0x9e37_79b9_7f4a_7c15);
     for (name, kind, expect) in [
-        ("garbage-catalog.csv", Catalog, &["line ", "column ", "not a text file"][..]),
-        ("garbage-scenario.toml", Scenario, &["line ", "column ", "not UTF-8"][..]),
-        ("bom-garbage.csv", Bom, &["line ", "column ", "not UTF-8"][..]),
+        (
+            "garbage-catalog.csv",
+            Catalog,
+            &["line ", "column ", "not a text file"][..],
+        ),
+        (
+            "garbage-scenario.toml",
+            Scenario,
+            &["line ", "column ", "not UTF-8"][..],
+        ),
+        (
+            "bom-garbage.csv",
+            Bom,
+            &["line ", "column ", "not UTF-8"][..],
+        ),
     ] {
         let p = dir.path().join(name);
         std::fs::write(&p, &bytes).unwrap();
@@ -201,12 +507,21 @@ fn binary_garbage_is_refused_with_a_position() {
 #[test]
 fn unknown_part_on_the_command_line_exits_2() {
     let out = bin()
-        .args(["assess", "--scenario", &corpus("good-scenario.toml"), "--bank", "CX-NOPE-1U=2"])
+        .args([
+            "assess",
+            "--scenario",
+            &corpus("good-scenario.toml"),
+            "--bank",
+            "CX-NOPE-1U=2",
+        ])
         .output()
         .unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{stderr}");
-    assert!(stderr.contains("--bank") && stderr.contains("CX-NOPE-1U"), "{stderr}");
+    assert!(
+        stderr.contains("--bank") && stderr.contains("CX-NOPE-1U"),
+        "{stderr}"
+    );
     assert!(!stderr.contains("panicked"));
 }
 
@@ -220,14 +535,24 @@ fn manifest_lists_every_corpus_file_and_the_table_covers_every_bad_file() {
         .collect();
     names.sort();
     for n in &names {
-        assert!(readme.contains(&format!("`{n}`")), "tests/corpus/README.md does not list {n}");
+        assert!(
+            readme.contains(&format!("`{n}`")),
+            "tests/corpus/README.md does not list {n}"
+        );
         let ok = n.starts_with("ok-") || n.starts_with("good-");
         let in_table = CASES.iter().any(|c| c.0 == n);
-        assert!(ok || in_table, "{n} is in the corpus but not in the test table");
+        assert!(
+            ok || in_table,
+            "{n} is in the corpus but not in the test table"
+        );
         assert!(!(ok && in_table), "{n} is both a good file and a bad case");
     }
     for c in CASES {
-        assert!(names.iter().any(|n| n == c.0), "table names {} which is not in the corpus", c.0);
+        assert!(
+            names.iter().any(|n| n == c.0),
+            "table names {} which is not in the corpus",
+            c.0
+        );
     }
 }
 
@@ -249,24 +574,51 @@ const OK_CATALOGS: &[(&str, usize)] = &[
 fn real_world_catalogs_validate_through_the_cli() {
     for &(f, n) in OK_CATALOGS {
         let out = bin()
-            .args(["validate", "--json", "--scenario", &corpus("good-scenario.toml"), "--catalog", &corpus(f)])
+            .args([
+                "validate",
+                "--json",
+                "--scenario",
+                &corpus("good-scenario.toml"),
+                "--catalog",
+                &corpus(f),
+            ])
             .output()
             .unwrap();
         let stderr = String::from_utf8_lossy(&out.stderr);
         assert_eq!(out.status.code(), Some(0), "{f}: {stderr}");
-        let doc: Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("{f}: stdout is not JSON: {e}"));
+        let doc: Value = serde_json::from_slice(&out.stdout)
+            .unwrap_or_else(|e| panic!("{f}: stdout is not JSON: {e}"));
         assert_eq!(doc["status"], "valid", "{f}");
         assert_eq!(doc["parts"].as_u64(), Some(n as u64), "{f}");
     }
     // The good scenario alone, with its relative `catalog` key.
-    let out = bin().args(["validate", "--scenario", &corpus("good-scenario.toml")]).output().unwrap();
-    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
-    // A good bill of materials against the good scenario is a well-formed question.
     let out = bin()
-        .args(["assess", "--json", "--scenario", &corpus("good-scenario.toml"), "--bom", &corpus("good-bom.csv")])
+        .args(["validate", "--scenario", &corpus("good-scenario.toml")])
         .output()
         .unwrap();
-    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // A good bill of materials against the good scenario is a well-formed question.
+    let out = bin()
+        .args([
+            "assess",
+            "--json",
+            "--scenario",
+            &corpus("good-scenario.toml"),
+            "--bom",
+            &corpus("good-bom.csv"),
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        matches!(out.status.code(), Some(0 | 1)),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
 
 fn load(f: &str) -> Catalog {
@@ -316,11 +668,17 @@ fn quoted_fields_keep_commas_quotes_and_newlines() {
     let a = c.get("CX-Q-22U-6V3").unwrap();
     assert_eq!(a.description.as_deref(), Some("invented, demo part A"));
     assert_eq!(a.extra, vec![("note".to_string(), "keep, dry".to_string())]);
-    assert_eq!(a.dc_bias.as_ref().unwrap().points, vec![(0.0, 1.0), (3.3, 0.5)]);
+    assert_eq!(
+        a.dc_bias.as_ref().unwrap().points,
+        vec![(0.0, 1.0), (3.3, 0.5)]
+    );
     let b = c.get("CX-Q-47U-6V3").unwrap();
     close(b.capacitance, 47e-6);
     close(b.esr, 2e-3);
-    assert_eq!(b.description.as_deref(), Some("the \"big\" one,\ntwo lines"));
+    assert_eq!(
+        b.description.as_deref(),
+        Some("the \"big\" one,\ntwo lines")
+    );
     let q = c.get("CX-Q-1U-16V").unwrap();
     assert_eq!(q.description.as_deref(), Some("a, b"));
     // The quoted newline makes the third part start on line 5 of the file.
@@ -338,7 +696,10 @@ fn semicolon_export_with_decimal_commas() {
     close(a.esl, 0.45e-9);
     close(a.cost, 0.05);
     close(a.tolerance, 0.10);
-    assert_eq!(a.dc_bias.as_ref().unwrap().points, vec![(0.0, 1.0), (1.8, 0.8), (3.3, 0.5)]);
+    assert_eq!(
+        a.dc_bias.as_ref().unwrap().points,
+        vec![(0.0, 1.0), (1.8, 0.8), (3.3, 0.5)]
+    );
     assert_eq!(a.description.as_deref(), Some("invented, semicolon export"));
     close(a.area.unwrap(), 1.6 * 0.8); // EIA 0603 body 1.6 x 0.8 mm
     let b = c.get("CX-S-330U-6V3").unwrap();
@@ -373,7 +734,10 @@ fn latin1_bytes_are_read_byte_for_byte() {
     let a = c.get("CX-L-4U7-10V").unwrap();
     // 0xB5 is MICRO SIGN in Latin-1: a valid prefix (SPEC §1).
     close(a.capacitance, 4.7e-6);
-    assert_eq!(a.description.as_deref(), Some("condensateur céramique inventé"));
+    assert_eq!(
+        a.description.as_deref(),
+        Some("condensateur céramique inventé")
+    );
     let b = c.get("CX-L-10U-10V").unwrap();
     assert_eq!(b.technology, Technology::Film);
     close(b.capacitance, 10e-6);
@@ -390,7 +754,12 @@ fn blank_lines_are_skipped_and_line_numbers_stay_true() {
     let text = std::fs::read_to_string(root().join(CORPUS).join("ok-blank-lines.csv")).unwrap();
     for p in &c.parts {
         let l = text.lines().nth(p.line as usize - 1).unwrap();
-        assert!(l.starts_with(&p.id), "line {} is `{l}`, not part {}", p.line, p.id);
+        assert!(
+            l.starts_with(&p.id),
+            "line {} is `{l}`, not part {}",
+            p.line,
+            p.id
+        );
     }
 }
 
@@ -412,9 +781,18 @@ struct Conv {
 }
 
 const CONVERTERS: &[Conv] = &[
-    Conv { topology: "buck", body: "vin = 12\nvout = 3.3\niout = 2\n" },
-    Conv { topology: "boost", body: "vin = 5\nvout = 24\niout = 0.5\nedge_time = \"5n\"\n" },
-    Conv { topology: "flyback", body: "vin = 48\nvout = 12\niout = 1\nturns_ratio = 0.5\nedge_time = \"5n\"\n" },
+    Conv {
+        topology: "buck",
+        body: "vin = 12\nvout = 3.3\niout = 2\n",
+    },
+    Conv {
+        topology: "boost",
+        body: "vin = 5\nvout = 24\niout = 0.5\nedge_time = \"5n\"\n",
+    },
+    Conv {
+        topology: "flyback",
+        body: "vin = 48\nvout = 12\niout = 1\nturns_ratio = 0.5\nedge_time = \"5n\"\n",
+    },
 ];
 
 fn extreme_scenario(c: &Conv, fsw: &str, inductance: &str, target_extra: &str) -> String {
@@ -430,7 +808,16 @@ fn assess_json(dir: &Path, scenario: &str, bank: &str) -> (Option<i32>, Value, S
     let cp = dir.join("c.csv");
     std::fs::write(&cp, EXTREME_CATALOG).unwrap();
     let out = bin()
-        .args(["assess", "--json", "--bank", bank, "--scenario", sp.to_str().unwrap(), "--catalog", cp.to_str().unwrap()])
+        .args([
+            "assess",
+            "--json",
+            "--bank",
+            bank,
+            "--scenario",
+            sp.to_str().unwrap(),
+            "--catalog",
+            cp.to_str().unwrap(),
+        ])
         .output()
         .unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr).to_string();
@@ -444,14 +831,27 @@ fn assess_json(dir: &Path, scenario: &str, bank: &str) -> (Option<i32>, Value, S
 fn nulls(v: &Value, path: &str, out: &mut Vec<String>) {
     match v {
         Value::Null => out.push(path.to_string()),
-        Value::Array(a) => a.iter().enumerate().for_each(|(i, x)| nulls(x, &format!("{path}[{i}]"), out)),
-        Value::Object(o) => o.iter().for_each(|(k, x)| nulls(x, &format!("{path}.{k}"), out)),
+        Value::Array(a) => a
+            .iter()
+            .enumerate()
+            .for_each(|(i, x)| nulls(x, &format!("{path}[{i}]"), out)),
+        Value::Object(o) => o
+            .iter()
+            .for_each(|(k, x)| nulls(x, &format!("{path}.{k}"), out)),
         _ => {}
     }
 }
 
 /// Keys that are null by meaning (a value the catalog or scenario does not give).
-const OPTIONAL: &[&str] = &["rating", "ripple_current_rating", "unit_area", "height", "case", "bandwidth", "vin"];
+const OPTIONAL: &[&str] = &[
+    "rating",
+    "ripple_current_rating",
+    "unit_area",
+    "height",
+    "case",
+    "bandwidth",
+    "vin",
+];
 
 #[test]
 fn extreme_values_give_finite_numbers() {
@@ -464,7 +864,10 @@ fn extreme_values_give_finite_numbers() {
                 for bank in ["X-1P=1", "X-10F=1", "X-1P-IDEAL=1,X-10F=20,X-1U-10R=3"] {
                     let (code, doc, stderr) = assess_json(dir.path(), &s, bank);
                     let ctx = format!("{} fsw {fsw} {bw} bank {bank}", conv.topology);
-                    assert!(matches!(code, Some(0 | 1)), "{ctx}: exit {code:?}: {stderr}");
+                    assert!(
+                        matches!(code, Some(0 | 1)),
+                        "{ctx}: exit {code:?}: {stderr}"
+                    );
                     for k in [
                         "ripple_pp",
                         "ripple_pp_typical",
@@ -474,18 +877,25 @@ fn extreme_values_give_finite_numbers() {
                         "capacitance_max_total",
                         "capacitance_effective_total",
                     ] {
-                        let x = doc[k].as_f64().unwrap_or_else(|| panic!("{ctx}: `{k}` is {}", doc[k]));
+                        let x = doc[k]
+                            .as_f64()
+                            .unwrap_or_else(|| panic!("{ctx}: `{k}` is {}", doc[k]));
                         assert!(x.is_finite() && x >= 0.0, "{ctx}: {k} = {x}");
                     }
                     assert!(doc["ripple_pp"].as_f64().unwrap() > 0.0, "{ctx}");
                     for rc in doc["ripple_current"].as_array().unwrap() {
-                        let x = rc["rms"].as_f64().unwrap_or_else(|| panic!("{ctx}: rms is {}", rc["rms"]));
+                        let x = rc["rms"]
+                            .as_f64()
+                            .unwrap_or_else(|| panic!("{ctx}: rms is {}", rc["rms"]));
                         assert!(x.is_finite() && x >= 0.0, "{ctx}");
                     }
                     let mut n = Vec::new();
                     nulls(&doc, "", &mut n);
                     n.retain(|p| !OPTIONAL.iter().any(|k| p.ends_with(&format!(".{k}"))));
-                    assert!(n.is_empty(), "{ctx}: unexpected nulls (non-finite numbers?) at {n:?}");
+                    assert!(
+                        n.is_empty(),
+                        "{ctx}: unexpected nulls (non-finite numbers?) at {n:?}"
+                    );
                     runs += 1;
                 }
             }
@@ -524,7 +934,9 @@ fn ten_farads_at_ten_megahertz_matches_a_time_domain_integration() {
     let dir = tempfile::tempdir().unwrap();
     let s = extreme_scenario(&CONVERTERS[0], "10M", "1u", "harmonics = 4000");
     let (_, doc, stderr) = assess_json(dir.path(), &s, "X-10F-IDEAL=1");
-    let got = doc["ripple_pp"].as_f64().unwrap_or_else(|| panic!("{stderr}"));
+    let got = doc["ripple_pp"]
+        .as_f64()
+        .unwrap_or_else(|| panic!("{stderr}"));
     let (vin, vout, l, f, esr, c) = (12.0, 3.3, 1e-6, 10e6, 1e-4, 10.0);
     let di = buck_di(vin, vout, l, f);
     let (t, d) = (1.0 / f, vout / vin);

@@ -54,15 +54,23 @@ const GOOD_SCENARIO: &str = include_str!("corpus/good-scenario.toml");
 
 /// 256 cases per property (set PROPTEST_CASES for a longer local run).
 fn cfg() -> Config {
-    let cases = std::env::var("PROPTEST_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(256);
-    Config { cases, failure_persistence: None, ..Config::default() }
+    let cases = std::env::var("PROPTEST_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(256);
+    Config {
+        cases,
+        failure_persistence: None,
+        ..Config::default()
+    }
 }
 
 /// Strings built from the pieces a value is made of, to reach deep paths.
 fn value_like() -> impl Strategy<Value = String> {
     let pieces = vec![
-        "0", "1", "4.7", "9", ".", "e", "E", "+", "-", "e308", "e-320", "m", "M", "meg", "k", "u", "µ", "μ", "n", "p", "f", "G",
-        "F", "H", "Hz", "V", "A", "s", "Ohm", "Ω", "R", "%", " ", "inf", "nan", "x",
+        "0", "1", "4.7", "9", ".", "e", "E", "+", "-", "e308", "e-320", "m", "M", "meg", "k", "u",
+        "µ", "μ", "n", "p", "f", "G", "F", "H", "Hz", "V", "A", "s", "Ohm", "Ω", "R", "%", " ",
+        "inf", "nan", "x",
     ];
     prop::collection::vec(prop::sample::select(pieces), 0..8).prop_map(|v| v.concat())
 }
@@ -71,9 +79,11 @@ fn value_like() -> impl Strategy<Value = String> {
 fn token() -> impl Strategy<Value = String> {
     prop_oneof![
         prop::sample::select(vec![
-            "", "0", "-1", "nan", "inf", "-inf", "1e308", "1e-320", "1e300G", "10uH", "4.7u", "150%", "\"", "\"\"", ",", ";", "\n", "\r\n",
-            "µ", "\u{feff}", "0:1;1:2", "0:1;0:1", "1:", ":", "X7R", "X9Z", "C0G", "obsolete", "nrnd", "buck", "boost", "flyback",
-            "module", "bridge", "forward", "[]", "{}", "[x]", "true", "\"1meg\"", "\"0\"", "\"-2u\"", "= =", "'", "\\",
+            "", "0", "-1", "nan", "inf", "-inf", "1e308", "1e-320", "1e300G", "10uH", "4.7u",
+            "150%", "\"", "\"\"", ",", ";", "\n", "\r\n", "µ", "\u{feff}", "0:1;1:2", "0:1;0:1",
+            "1:", ":", "X7R", "X9Z", "C0G", "obsolete", "nrnd", "buck", "boost", "flyback",
+            "module", "bridge", "forward", "[]", "{}", "[x]", "true", "\"1meg\"", "\"0\"",
+            "\"-2u\"", "= =", "'", "\\",
         ])
         .prop_map(String::from),
         value_like(),
@@ -139,7 +149,11 @@ fn check_catalog(c: &Catalog) {
     for p in &c.parts {
         assert!(!p.id.is_empty());
         assert!(c.get(&p.id).is_some());
-        assert!(p.capacitance.is_finite() && p.capacitance > 0.0, "{}", p.capacitance);
+        assert!(
+            p.capacitance.is_finite() && p.capacitance > 0.0,
+            "{}",
+            p.capacitance
+        );
         assert!(p.rated_voltage.is_finite() && p.rated_voltage > 0.0);
         assert!(p.esr.is_finite() && p.esr >= 0.0);
         assert!(p.esl.is_finite() && p.esl >= 0.0);
@@ -148,7 +162,10 @@ fn check_catalog(c: &Catalog) {
         if let Some(b) = &p.dc_bias {
             assert!(!b.points.is_empty());
             assert!(b.points.windows(2).all(|w| w[1].0 > w[0].0));
-            assert!(b.points.iter().all(|&(v, k)| v.is_finite() && v >= 0.0 && k > 0.0 && k <= 1.5));
+            assert!(b
+                .points
+                .iter()
+                .all(|&(v, k)| v.is_finite() && v >= 0.0 && k > 0.0 && k <= 1.5));
         }
         let (cw, ct) = (p.c_worst(3.3), p.c_typical(3.3));
         assert!(cw.is_finite() && cw >= 0.0 && ct.is_finite() && ct > 0.0);
@@ -158,7 +175,9 @@ fn check_catalog(c: &Catalog) {
 /// Load the scenario and, when it parses, run it end to end on the good
 /// catalog: nothing may panic and the ripple must be a finite number.
 fn exercise_scenario(text: &str) {
-    let Ok(s) = Scenario::from_str(text, "fuzz.toml") else { return };
+    let Ok(s) = Scenario::from_str(text, "fuzz.toml") else {
+        return;
+    };
     assert!(s.converter.vout.0.is_finite() && s.converter.vout.0 > 0.0);
     assert!(s.converter.fsw.0.is_finite() && s.converter.fsw.0 > 0.0);
     assert!(s.target.ripple_pp.0.is_finite() && s.target.ripple_pp.0 > 0.0);
@@ -166,7 +185,11 @@ fn exercise_scenario(text: &str) {
     let Ok(p) = Problem::new(s, cat) else { return };
     let bank = [(0usize, 2u32), (2usize, 3u32)];
     if let Ok(a) = ripplebank::assessment::assess(&p, &bank) {
-        assert!(a.ripple_pp.is_finite() && a.ripple_pp >= 0.0, "{}", a.ripple_pp);
+        assert!(
+            a.ripple_pp.is_finite() && a.ripple_pp >= 0.0,
+            "{}",
+            a.ripple_pp
+        );
         assert!(a.ripple_pp_full_bandwidth.is_finite());
         assert!(a.ripple_current.iter().all(|r| r.rms.is_finite()));
     }
@@ -309,15 +332,35 @@ fn converter_scenario() -> impl Strategy<Value = String> {
         pick(&["0", "0.001", "1", "6", "100"]),
         pick(&["\"100\"", "\"1k\"", "\"600k\"", "\"10M\"", "\"100M\""]),
         pick(&["\"1n\"", "\"1u\"", "\"1m\"", "1"]),
-        pick(&["", "turns_ratio = 0.01", "turns_ratio = 0.5", "turns_ratio = 1", "turns_ratio = 10"]),
+        pick(&[
+            "",
+            "turns_ratio = 0.01",
+            "turns_ratio = 0.5",
+            "turns_ratio = 1",
+            "turns_ratio = 10",
+        ]),
         pick(&["", "phases = 2", "phases = 3", "phases = 16"]),
         pick(&["", "edge_time = \"1n\"", "edge_time = \"100n\""]),
     );
     let rest = (
-        pick(&["", "internal_capacitance = \"1p\"", "internal_capacitance = \"10u\"", "internal_capacitance = 10"]),
+        pick(&[
+            "",
+            "internal_capacitance = \"1p\"",
+            "internal_capacitance = \"10u\"",
+            "internal_capacitance = 10",
+        ]),
         pick(&["", "internal_esr = \"1m\"\ninternal_esl = \"1n\""]),
-        pick(&["", "standalone_ripple_pp = \"30m\"", "standalone_ripple_pp = 1"]),
-        pick(&["", "bandwidth = \"1k\"", "bandwidth = \"20M\"", "bandwidth = \"1G\""]),
+        pick(&[
+            "",
+            "standalone_ripple_pp = \"30m\"",
+            "standalone_ripple_pp = 1",
+        ]),
+        pick(&[
+            "",
+            "bandwidth = \"1k\"",
+            "bandwidth = \"20M\"",
+            "bandwidth = \"1G\"",
+        ]),
         pick(&["1", "2", "8"]),
         pick(&["0", "1", "4000"]),
         pick(&["0", "\"1n\"", "\"1u\""]),

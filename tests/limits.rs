@@ -15,10 +15,19 @@ fn demo() -> (Scenario, Catalog) {
 
 fn solve(s: Scenario, c: Catalog) -> (Problem, Option<Assessment>) {
     let p = Problem::new(s, c).unwrap();
-    let out = design(&p, &Settings { explain: false, ..Default::default() });
+    let out = design(
+        &p,
+        &Settings {
+            explain: false,
+            ..Default::default()
+        },
+    );
     let a = out.found.map(|f| assess(&p, &f.bank).unwrap());
     if let Some(a) = &a {
-        assert!(a.ripple_pp <= p.scenario.target.ripple_pp.0, "every reported bank verifies");
+        assert!(
+            a.ripple_pp <= p.scenario.target.ripple_pp.0,
+            "every reported bank verifies"
+        );
     }
     (p, a)
 }
@@ -97,7 +106,15 @@ fn max_height() {
 fn ripple_current_rating() {
     let b = baseline();
     // Rate the baseline's hardest-working part just below what it carries.
-    let line = b.bank.iter().max_by(|x, y| x.ripple_current_rms.partial_cmp(&y.ripple_current_rms).unwrap()).unwrap();
+    let line = b
+        .bank
+        .iter()
+        .max_by(|x, y| {
+            x.ripple_current_rms
+                .partial_cmp(&y.ripple_current_rms)
+                .unwrap()
+        })
+        .unwrap();
     let (s, mut c) = demo();
     let i = c.position(&line.part).unwrap();
     c.parts[i].ripple_current = Some(line.ripple_current_rms * 0.9);
@@ -109,7 +126,12 @@ fn ripple_current_rating() {
         }
     }
     // The answer changed.
-    let key = |x: &Assessment| x.bank.iter().map(|l| (l.part.clone(), l.count)).collect::<Vec<_>>();
+    let key = |x: &Assessment| {
+        x.bank
+            .iter()
+            .map(|l| (l.part.clone(), l.count))
+            .collect::<Vec<_>>()
+    };
     assert_ne!(key(&a), key(&b));
 }
 
@@ -129,13 +151,22 @@ fn require() {
 #[test]
 fn exclude() {
     let b = baseline();
-    let part = b.bank.iter().max_by(|x, y| x.line_total_cost.partial_cmp(&y.line_total_cost).unwrap()).unwrap().part.clone();
+    let part = b
+        .bank
+        .iter()
+        .max_by(|x, y| x.line_total_cost.partial_cmp(&y.line_total_cost).unwrap())
+        .unwrap()
+        .part
+        .clone();
     let (mut s, c) = demo();
     s.selection.exclude.push(part.clone());
     let (p, a) = solve(s, c);
     let a = a.expect("a design without it");
     assert!(!has(&a, &part));
-    assert!(p.excluded.iter().any(|e| e.part == part && e.reason.contains("excluded")));
+    assert!(p
+        .excluded
+        .iter()
+        .any(|e| e.part == part && e.reason.contains("excluded")));
     assert!(a.cost >= b.cost - 1e-12);
 }
 
@@ -148,7 +179,10 @@ fn status_obsolete_and_nrnd() {
     c.parts[i].status = Life::Obsolete;
     let (p, a) = solve(s.clone(), c.clone());
     assert!(!a.is_some_and(|a| has(&a, &part)));
-    assert!(p.excluded.iter().any(|e| e.part == part && e.reason.contains("obsolete")));
+    assert!(p
+        .excluded
+        .iter()
+        .any(|e| e.part == part && e.reason.contains("obsolete")));
     // nrnd: refused by default, allowed with allow_nrnd (then the baseline is back).
     c.parts[i].status = Life::Nrnd;
     let (_, a) = solve(s.clone(), c.clone());

@@ -14,11 +14,15 @@ fn problem(converter: &str, target: &str, catalog: &str) -> Problem {
 }
 
 fn ripple(p: &Problem, bank: &[(&str, u32)]) -> ripplebank::assessment::Assessment {
-    let b: Vec<(usize, u32)> = bank.iter().map(|(id, n)| (p.catalog.position(id).unwrap(), *n)).collect();
+    let b: Vec<(usize, u32)> = bank
+        .iter()
+        .map(|(id, n)| (p.catalog.position(id).unwrap(), *n))
+        .collect();
     assess(p, &b).unwrap()
 }
 
-const BUCK: &str = "topology = \"buck\"\nvin = 12\nvout = 3.3\niout = 6\nfsw = \"600k\"\ninductance = \"2.2u\"";
+const BUCK: &str =
+    "topology = \"buck\"\nvin = 12\nvout = 3.3\niout = 6\nfsw = \"600k\"\ninductance = \"2.2u\"";
 
 fn buck_di() -> f64 {
     // ΔI = Vout (1 − D) / (L f) (Erickson & Maksimović, Fundamentals of Power
@@ -30,11 +34,20 @@ fn buck_di() -> f64 {
 fn triangle_into_ideal_capacitor() {
     // Ideal capacitor: Δv = ΔI / (8 f C) (Erickson & Maksimović, Fundamentals
     // of Power Electronics, ch. 2, buck output voltage ripple). Within 0.5 %.
-    let p = problem(BUCK, "ripple_pp = \"1\"\nharmonics = 4000", "C,film,100u,50,0,0,1,0%,,,\n");
+    let p = problem(
+        BUCK,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "C,film,100u,50,0,0,1,0%,,,\n",
+    );
     let a = ripple(&p, &[("C", 1)]);
     let want = buck_di() / (8.0 * 600e3 * 100e-6);
     let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
-    assert!(err < 0.005, "model {} vs ΔI/(8fC) {want}: {:.3} %", a.ripple_pp_full_bandwidth, err * 100.0);
+    assert!(
+        err < 0.005,
+        "model {} vs ΔI/(8fC) {want}: {:.3} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
 }
 
 #[test]
@@ -42,11 +55,20 @@ fn triangle_into_esr_only() {
     // A capacitance large enough to vanish at the ripple frequency leaves
     // the ESR: Δv = ΔI · ESR (Erickson & Maksimović, ch. 2; Ohm's law on the
     // triangle). Within 0.5 %.
-    let p = problem(BUCK, "ripple_pp = \"1\"\nharmonics = 4000", "R,film,10,50,20m,0,1,0%,,,\n");
+    let p = problem(
+        BUCK,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "R,film,10,50,20m,0,1,0%,,,\n",
+    );
     let a = ripple(&p, &[("R", 1)]);
     let want = buck_di() * 20e-3;
     let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
-    assert!(err < 0.005, "model {} vs ΔI·ESR {want}: {:.3} %", a.ripple_pp_full_bandwidth, err * 100.0);
+    assert!(
+        err < 0.005,
+        "model {} vs ΔI·ESR {want}: {:.3} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
 }
 
 #[test]
@@ -67,12 +89,21 @@ fn flyback_capacitance_dominated_charge_balance() {
     // flyback output ripple). CCM, large capacitance, no ESR or ESL; the
     // secondary current ramp adds a small parabolic part, hence 3 %.
     let conv = "topology = \"flyback\"\nvin = 48\nvout = 12\niout = 2\nfsw = \"250k\"\ninductance = \"200u\"\nturns_ratio = 0.5";
-    let p = problem(conv, "ripple_pp = \"1\"\nharmonics = 4000", "C,film,100u,50,0,0,1,0%,,,\n");
+    let p = problem(
+        conv,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "C,film,100u,50,0,0,1,0%,,,\n",
+    );
     let d = 12.0 / (12.0 + 0.5 * 48.0);
     let a = ripple(&p, &[("C", 1)]);
     let want = 2.0 * d / (250e3 * 100e-6);
     let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
-    assert!(err < 0.03, "model {} vs Iout·D/(fC) {want}: {:.2} %", a.ripple_pp_full_bandwidth, err * 100.0);
+    assert!(
+        err < 0.03,
+        "model {} vs Iout·D/(fC) {want}: {:.2} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
     assert_eq!(a.corners[0].mode, "CCM");
 }
 
@@ -80,13 +111,23 @@ fn flyback_capacitance_dominated_charge_balance() {
 fn boost_capacitance_dominated_charge_balance() {
     // Boost: the capacitor feeds Iout while the switch is on (D·T):
     // Δv ≈ Iout · D / (f · C) (Erickson & Maksimović, ch. 2, boost ripple). 3 %.
-    let conv = "topology = \"boost\"\nvin = 5\nvout = 12\niout = 1\nfsw = \"500k\"\ninductance = \"10u\"";
-    let p = problem(conv, "ripple_pp = \"1\"\nharmonics = 4000", "C,film,47u,50,0,0,1,0%,,,\n");
+    let conv =
+        "topology = \"boost\"\nvin = 5\nvout = 12\niout = 1\nfsw = \"500k\"\ninductance = \"10u\"";
+    let p = problem(
+        conv,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "C,film,47u,50,0,0,1,0%,,,\n",
+    );
     let d = 1.0 - 5.0 / 12.0;
     let a = ripple(&p, &[("C", 1)]);
     let want = 1.0 * d / (500e3 * 47e-6);
     let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
-    assert!(err < 0.03, "model {} vs Iout·D/(fC) {want}: {:.2} %", a.ripple_pp_full_bandwidth, err * 100.0);
+    assert!(
+        err < 0.03,
+        "model {} vs Iout·D/(fC) {want}: {:.2} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
 }
 
 #[test]
@@ -95,8 +136,13 @@ fn first_order_bandwidth_attenuates_a_sine_as_expected() {
     // (any signals text). With ESR only and a 50 % triangle the fundamental
     // dominates; compare the filtered/unfiltered ratio of the fundamental
     // alone (harmonics = 1) at fc = f.
-    let conv = "topology = \"buck\"\nvin = 12\nvout = 6\niout = 1\nfsw = \"1meg\"\ninductance = \"10u\"";
-    let p = problem(conv, "ripple_pp = \"1\"\nbandwidth = \"1meg\"\nharmonics = 1", "R,film,10,50,10m,0,1,0%,,,\n");
+    let conv =
+        "topology = \"buck\"\nvin = 12\nvout = 6\niout = 1\nfsw = \"1meg\"\ninductance = \"10u\"";
+    let p = problem(
+        conv,
+        "ripple_pp = \"1\"\nbandwidth = \"1meg\"\nharmonics = 1",
+        "R,film,10,50,10m,0,1,0%,,,\n",
+    );
     let a = ripple(&p, &[("R", 1)]);
     let ratio = a.ripple_pp / a.ripple_pp_full_bandwidth;
     // The full-band figure uses more harmonics; compute the fundamental's
@@ -104,7 +150,11 @@ fn first_order_bandwidth_attenuates_a_sine_as_expected() {
     let di = 6.0 * 0.5 / (10e-6 * 1e6);
     let fund_pp = 2.0 * 8.0 / (std::f64::consts::PI.powi(2)) * di / 2.0 * 10e-3;
     let want = fund_pp / 2f64.sqrt();
-    assert!((a.ripple_pp - want).abs() / want < 1e-6, "filtered {} vs {want}", a.ripple_pp);
+    assert!(
+        (a.ripple_pp - want).abs() / want < 1e-6,
+        "filtered {} vs {want}",
+        a.ripple_pp
+    );
     assert!(ratio < 1.0);
 }
 
@@ -121,7 +171,11 @@ mod plausibility {
         let p = ripplebank::load::problem(None, None, &Default::default()).unwrap();
         let id = |s: &str| p.catalog.position(s).unwrap();
         let one = assess(&p, &[(id("RB-C0603-X5R-10U-6V3"), 1)]).unwrap();
-        assert!(one.ripple_pp > 20e-3 && one.ripple_pp < 500e-3, "{}", one.ripple_pp);
+        assert!(
+            one.ripple_pp > 20e-3 && one.ripple_pp < 500e-3,
+            "{}",
+            one.ripple_pp
+        );
         let hundred = assess(&p, &[(id("RB-C1206-X5R-47U-6V3"), 2)]).unwrap();
         assert!(hundred.ripple_pp < 12e-3, "{}", hundred.ripple_pp);
     }
@@ -137,9 +191,21 @@ mod plausibility {
         // the ~10 mV level is checked (typical corner, within a factor of two)
         // and that the bank cuts the 20 MHz ripple to a third or less.
         let conv = "topology = \"module\"\nvin = 12\nvout = 5\niout = 3\nfsw = \"400k\"\nstandalone_ripple_pp = \"30m\"\nstandalone_bandwidth = \"20M\"\ninternal_capacitance = \"10u\"\ninternal_esr = \"5m\"\ninternal_esl = \"1n\"";
-        let p = problem(conv, "ripple_pp = \"5m\"\nbandwidth = \"20M\"", "C,ceramic,10u,25,3m,0.4n,0.1,10%,X7R,,0805\n");
+        let p = problem(
+            conv,
+            "ripple_pp = \"5m\"\nbandwidth = \"20M\"",
+            "C,ceramic,10u,25,3m,0.4n,0.1,10%,X7R,,0805\n",
+        );
         let a = ripple(&p, &[("C", 2)]);
-        assert!(a.ripple_pp_typical > 5e-3 && a.ripple_pp_typical < 20e-3, "20 MHz typical: {}", a.ripple_pp_typical);
-        assert!(a.ripple_pp_typical < 30e-3 / 3.0 * 1.05, "20 MHz typical: {}", a.ripple_pp_typical);
+        assert!(
+            a.ripple_pp_typical > 5e-3 && a.ripple_pp_typical < 20e-3,
+            "20 MHz typical: {}",
+            a.ripple_pp_typical
+        );
+        assert!(
+            a.ripple_pp_typical < 30e-3 / 3.0 * 1.05,
+            "20 MHz typical: {}",
+            a.ripple_pp_typical
+        );
     }
 }

@@ -28,13 +28,18 @@ T-FILM-4U7,film,4.7u,63,6m,3.5n,0.90,10%,,,,5
 ";
 
 fn ngspice_on_path() -> bool {
-    let Some(path) = std::env::var_os("PATH") else { return false };
+    let Some(path) = std::env::var_os("PATH") else {
+        return false;
+    };
     std::env::split_paths(&path).any(|d| {
         let p = d.join("ngspice");
-        p.is_file() && std::fs::metadata(&p).map(|m| {
-            use std::os::unix::fs::PermissionsExt;
-            m.permissions().mode() & 0o111 != 0
-        }).unwrap_or(false)
+        p.is_file()
+            && std::fs::metadata(&p)
+                .map(|m| {
+                    use std::os::unix::fs::PermissionsExt;
+                    m.permissions().mode() & 0o111 != 0
+                })
+                .unwrap_or(false)
     })
 }
 
@@ -55,7 +60,10 @@ fn have_ngspice() -> bool {
 fn run_ngspice(netlist: &str) -> String {
     // RIPPLEBANK_NGSPICE_KEEP=DIR keeps a copy of every netlist for inspection.
     if let Some(keep) = std::env::var_os("RIPPLEBANK_NGSPICE_KEEP") {
-        let n = netlist.len() ^ netlist.bytes().fold(0usize, |h, b| h.wrapping_mul(31).wrapping_add(b as usize));
+        let n = netlist.len()
+            ^ netlist
+                .bytes()
+                .fold(0usize, |h, b| h.wrapping_mul(31).wrapping_add(b as usize));
         let _ = std::fs::write(Path::new(&keep).join(format!("net-{n:016x}.cir")), netlist);
     }
     let dir = tempfile::tempdir().expect("temp dir");
@@ -71,10 +79,25 @@ fn run_ngspice_file(file: &Path) -> String {
         .current_dir(file.parent().unwrap())
         .output()
         .expect("run ngspice");
-    let text = format!("{}\n{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
-    assert!(out.status.success(), "ngspice failed ({}):\n{text}", out.status);
-    let bad = text.lines().map(|l| l.trim().to_ascii_lowercase()).find(|l| l.starts_with("error") || l.contains("timestep too small"));
-    assert!(bad.is_none(), "ngspice reported a problem ({}):\n{text}", bad.unwrap_or_default());
+    let text = format!(
+        "{}\n{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(
+        out.status.success(),
+        "ngspice failed ({}):\n{text}",
+        out.status
+    );
+    let bad = text
+        .lines()
+        .map(|l| l.trim().to_ascii_lowercase())
+        .find(|l| l.starts_with("error") || l.contains("timestep too small"));
+    assert!(
+        bad.is_none(),
+        "ngspice reported a problem ({}):\n{text}",
+        bad.unwrap_or_default()
+    );
     text
 }
 
@@ -82,9 +105,13 @@ fn run_ngspice_file(file: &Path) -> String {
 fn meas(output: &str, name: &str) -> f64 {
     for line in output.lines() {
         let l = line.trim();
-        let Some(rest) = l.strip_prefix(name) else { continue };
+        let Some(rest) = l.strip_prefix(name) else {
+            continue;
+        };
         let rest = rest.trim_start();
-        let Some(rest) = rest.strip_prefix('=') else { continue };
+        let Some(rest) = rest.strip_prefix('=') else {
+            continue;
+        };
         if let Some(tok) = rest.split_whitespace().next() {
             if let Ok(v) = tok.parse::<f64>() {
                 return v;
@@ -115,7 +142,9 @@ fn problem(scenario: &str) -> Problem {
 }
 
 fn bank(p: &Problem, spec: &[(&str, u32)]) -> Vec<(usize, u32)> {
-    spec.iter().map(|&(id, n)| (p.catalog.position(id).expect("part"), n)).collect()
+    spec.iter()
+        .map(|&(id, n)| (p.catalog.position(id).expect("part"), n))
+        .collect()
 }
 
 fn rel(a: f64, b: f64) -> f64 {
@@ -139,7 +168,12 @@ bandwidth_order = 1
 mounting_inductance = "0.4n"
 "#;
 
-const MIXED: &[(&str, u32)] = &[("T-CER-22U", 4), ("T-CER-1U", 3), ("T-POLY-220U", 1), ("T-ELEC-470U", 1)];
+const MIXED: &[(&str, u32)] = &[
+    ("T-CER-22U", 4),
+    ("T-CER-1U", 3),
+    ("T-POLY-220U", 1),
+    ("T-ELEC-470U", 1),
+];
 
 /// Transfer impedance of the evaluator at every harmonic vs an ngspice AC
 /// analysis at the same frequencies.
@@ -151,17 +185,40 @@ fn check_transfer(p: &Problem, spec: &[(&str, u32)], what: &str) {
     let z = ev.transfer_magnitude(&local, Corner::Worst);
     let n = z.len();
     let f1 = ev.f_ripple;
-    let net = spice::impedance_netlist(p, &b, Sweep::Linear { points: n, start: f1, stop: n as f64 * f1 }).unwrap();
+    let net = spice::impedance_netlist(
+        p,
+        &b,
+        Sweep::Linear {
+            points: n,
+            start: f1,
+            stop: n as f64 * f1,
+        },
+    )
+    .unwrap();
     let rows = print_table(&run_ngspice(&net));
-    assert_eq!(rows.len(), n, "{what}: ngspice printed {} of {n} frequencies", rows.len());
+    assert_eq!(
+        rows.len(),
+        n,
+        "{what}: ngspice printed {} of {n} frequencies",
+        rows.len()
+    );
     let mut worst = (0.0, 0.0);
     for (k, &(f, zs)) in rows.iter().enumerate() {
-        assert!(rel(f, (k + 1) as f64 * f1) < 1e-6, "{what}: frequency {f} is not harmonic {}", k + 1);
+        assert!(
+            rel(f, (k + 1) as f64 * f1) < 1e-6,
+            "{what}: frequency {f} is not harmonic {}",
+            k + 1
+        );
         let e = rel(z[k], zs);
         if e > worst.0 {
             worst = (e, f);
         }
-        assert!(e < 0.005, "{what}: |Z| at {f} Hz: evaluator {} ohm, {REF} {zs} ohm ({:.3} %)", z[k], 100.0 * e);
+        assert!(
+            e < 0.005,
+            "{what}: |Z| at {f} Hz: evaluator {} ohm, {REF} {zs} ohm ({:.3} %)",
+            z[k],
+            100.0 * e
+        );
     }
     eprintln!("{what}: |Z| at {n} harmonics {:.3e}..{:.3e} Hz agrees with {REF}; worst {:.2e} % at {:.3e} Hz", f1, n as f64 * f1, 100.0 * worst.0, worst.1);
 }
@@ -195,12 +252,25 @@ mounting_inductance = "0.3n"
 connection_inductance = "2n"
 "#;
     let pm = problem(module);
-    check_transfer(&pm, &[("T-CER-22U", 2), ("T-POLY-220U", 1)], "bank behind 2 nH with internal capacitance");
+    check_transfer(
+        &pm,
+        &[("T-CER-22U", 2), ("T-POLY-220U", 1)],
+        "bank behind 2 nH with internal capacitance",
+    );
 
     // Bank admittance 1/|Σ n·Y_i| from the evaluator's admittance() over a
     // decade sweep 1 kHz … 1 GHz (down where the electrolytic matters).
     let b = bank(&p, MIXED);
-    let net = spice::impedance_netlist(&p, &b, Sweep::Decade { per_decade: 40, start: 1e3, stop: 1e9 }).unwrap();
+    let net = spice::impedance_netlist(
+        &p,
+        &b,
+        Sweep::Decade {
+            per_decade: 40,
+            start: 1e3,
+            stop: 1e9,
+        },
+    )
+    .unwrap();
     let rows = print_table(&run_ngspice(&net));
     assert!(rows.len() >= 240, "ngspice printed {} rows", rows.len());
     let mut worst: f64 = 0.0;
@@ -215,9 +285,15 @@ connection_inductance = "2n"
         let z = 1.0 / y.norm();
         let e = rel(z, zs);
         worst = worst.max(e);
-        assert!(e < 0.005, "|Z| at {f} Hz: admittance() {z} ohm, {REF} {zs} ohm");
+        assert!(
+            e < 0.005,
+            "|Z| at {f} Hz: admittance() {z} ohm, {REF} {zs} ohm"
+        );
     }
-    eprintln!("mixed bank, 1 kHz..1 GHz: |Z| agrees with {REF}; worst {:.2e} %", 100.0 * worst);
+    eprintln!(
+        "mixed bank, 1 kHz..1 GHz: |Z| agrees with {REF}; worst {:.2e} %",
+        100.0 * worst
+    );
 }
 
 /// ngspice's steady-state ripple vs the evaluator, at the target bandwidth
@@ -246,9 +322,18 @@ fn check_ripple_bands(p: &Problem, spec: &[(&str, u32)], what: &str, check_full:
         100.0 * (full - sf) / sf
     );
     // Settled: the window before the last gives the same figure.
-    assert!(rel(sl0, sl) < 1e-3 && rel(sf0, sf) < 1e-3, "{what}: not settled: {sl0} vs {sl}, {sf0} vs {sf}");
-    assert!(rel(lim, sl) < 0.02, "{what}: ripple at the target bandwidth: evaluator {lim} V, {REF} {sl} V");
-    assert!(!check_full || rel(full, sf) < 0.02, "{what}: ripple at full bandwidth: evaluator {full} V, {REF} {sf} V");
+    assert!(
+        rel(sl0, sl) < 1e-3 && rel(sf0, sf) < 1e-3,
+        "{what}: not settled: {sl0} vs {sl}, {sf0} vs {sf}"
+    );
+    assert!(
+        rel(lim, sl) < 0.02,
+        "{what}: ripple at the target bandwidth: evaluator {lim} V, {REF} {sl} V"
+    );
+    assert!(
+        !check_full || rel(full, sf) < 0.02,
+        "{what}: ripple at full bandwidth: evaluator {full} V, {REF} {sf} V"
+    );
 }
 
 #[test]
@@ -258,7 +343,11 @@ fn buck_ripple_matches_ngspice_transient() {
     }
     let p = problem(BUCK);
     check_ripple(&p, MIXED, "buck 12 V to 3.3 V, mixed bank");
-    check_ripple(&p, &[("T-CER-22U", 3)], "buck 12 V to 3.3 V, three ceramics");
+    check_ripple(
+        &p,
+        &[("T-CER-22U", 3)],
+        "buck 12 V to 3.3 V, three ceramics",
+    );
 }
 
 #[test]
@@ -286,11 +375,19 @@ mounting_inductance = "0.5n"
 "#;
     let p = problem(fly);
     assert_eq!(p.ops[0].mode, "CCM");
-    check_ripple(&p, &[("T-CER-1U", 4), ("T-POLY-220U", 2), ("T-ELEC-470U", 1)], "flyback 48 V to 12 V (CCM, 30 ns edges)");
+    check_ripple(
+        &p,
+        &[("T-CER-1U", 4), ("T-POLY-220U", 2), ("T-ELEC-470U", 1)],
+        "flyback 48 V to 12 V (CCM, 30 ns edges)",
+    );
     // Light load: discontinuous conduction.
     let p = problem(&fly.replace("iout = 2", "iout = 0.3"));
     assert_eq!(p.ops[0].mode, "DCM");
-    check_ripple(&p, &[("T-CER-1U", 4), ("T-POLY-220U", 1)], "flyback 48 V to 12 V (DCM, 30 ns edges)");
+    check_ripple(
+        &p,
+        &[("T-CER-1U", 4), ("T-POLY-220U", 1)],
+        "flyback 48 V to 12 V (DCM, 30 ns edges)",
+    );
 }
 
 #[test]
@@ -333,13 +430,23 @@ connection_inductance = "1n"
     let out = dir.path().join("out");
     let res = assert_cmd::Command::cargo_bin("ripplebank")
         .unwrap()
-        .args(["assess", "--bank", "T-CER-22U=2,T-POLY-220U=1", "--json", "--scenario"])
+        .args([
+            "assess",
+            "--bank",
+            "T-CER-22U=2,T-POLY-220U=1",
+            "--json",
+            "--scenario",
+        ])
         .arg(&scen)
         .arg("--out")
         .arg(&out)
         .output()
         .unwrap();
-    assert!(matches!(res.status.code(), Some(0) | Some(1)), "assess: {}", String::from_utf8_lossy(&res.stderr));
+    assert!(
+        matches!(res.status.code(), Some(0) | Some(1)),
+        "assess: {}",
+        String::from_utf8_lossy(&res.stderr)
+    );
     let doc: serde_json::Value = serde_json::from_slice(&res.stdout).unwrap();
     let report = doc["ripple_pp"].as_f64().unwrap();
     let file = out.join("bank.cir");
@@ -348,7 +455,10 @@ connection_inductance = "1n"
     let o = run_ngspice_file(&file);
     let sl = meas(&o, "pp_limited");
     eprintln!("bank.cir from `assess --out`: report ripple_pp {report:.6e} V, {REF} {sl:.6e} V ({:+.3} %)", 100.0 * (report - sl) / sl);
-    assert!(rel(report, sl) < 0.02, "bank.cir: report {report} V, {REF} {sl} V");
+    assert!(
+        rel(report, sl) < 0.02,
+        "bank.cir: report {report} V, {REF} {sl} V"
+    );
 }
 
 /// The netlist and the simulator against a closed form: one polymer part on
@@ -368,10 +478,16 @@ fn ngspice_full_bandwidth_matches_esr_esl_closed_form() {
     let m = p.part_model(b[0].0);
     let (vin, vout, l, f) = (12.0, 3.3, 1.5e-6, 600e3);
     let di = vout * (1.0 - vout / vin) / (l * f);
-    assert!(m.esr * m.c_worst > 0.5 / f, "the closed form needs ESR·C above half a period");
+    assert!(
+        m.esr * m.c_worst > 0.5 / f,
+        "the closed form needs ESR·C above half a period"
+    );
     let want = m.esr * di + m.esl * vin / l;
     let got = meas(&run_ngspice(&spice::netlist(&p, &b).unwrap()), "pp_full");
-    eprintln!("one polymer on the buck: ESR·ΔI + ESL·Vin/L = {want:.6e} V, {REF} {got:.6e} V ({:+.4} %)", 100.0 * (got - want) / want);
+    eprintln!(
+        "one polymer on the buck: ESR·ΔI + ESL·Vin/L = {want:.6e} V, {REF} {got:.6e} V ({:+.4} %)",
+        100.0 * (got - want) / want
+    );
     assert!(rel(got, want) < 1e-3, "closed form {want} V, {REF} {got} V");
 }
 
@@ -388,9 +504,17 @@ fn full_bandwidth_ripple_with_esl_steps_matches_ngspice() {
         return;
     }
     let p = problem(&BUCK.replace("bandwidth = \"20M\"\n", ""));
-    check_ripple(&p, &[("T-POLY-220U", 1)], "buck, one polymer, no bandwidth limit");
+    check_ripple(
+        &p,
+        &[("T-POLY-220U", 1)],
+        "buck, one polymer, no bandwidth limit",
+    );
     let p = problem(&BUCK.replace("iout = 6", "iout = 6\nphases = 3"));
-    check_ripple(&p, &[("T-CER-22U", 4), ("T-CER-1U", 2)], "three-phase buck, ceramics");
+    check_ripple(
+        &p,
+        &[("T-CER-22U", 4), ("T-CER-1U", 2)],
+        "three-phase buck, ceramics",
+    );
 }
 
 /// Known evaluator deviation at the target bandwidth (the pass/fail figure),
@@ -423,7 +547,12 @@ bandwidth = "20M"
 mounting_inductance = "0.4n"
 "#;
     let r = std::panic::catch_unwind(|| {
-        check_ripple_bands(&problem(boost), &[("T-FILM-4U7", 4)], "boost 5 V to 24 V at 1 MHz, 10 ns edges, film parts", false)
+        check_ripple_bands(
+            &problem(boost),
+            &[("T-FILM-4U7", 4)],
+            "boost 5 V to 24 V at 1 MHz, 10 ns edges, film parts",
+            false,
+        )
     });
     let fly = r#"
 name = "test flyback, ideal edges (invented)"
@@ -443,7 +572,12 @@ mounting_inductance = "0.5n"
 "#;
     // At full bandwidth an ideal current jump through ESL is a Dirac pulse:
     // no finite figure to compare, so the target bandwidth only.
-    check_ripple_bands(&problem(fly), &[("T-CER-22U", 4), ("T-CER-1U", 2)], "flyback, edge_time = 0, ceramics", false);
+    check_ripple_bands(
+        &problem(fly),
+        &[("T-CER-22U", 4), ("T-CER-1U", 2)],
+        "flyback, edge_time = 0, ceramics",
+        false,
+    );
     if let Err(e) = r {
         std::panic::resume_unwind(e);
     }

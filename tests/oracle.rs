@@ -32,14 +32,24 @@ fn oracle(p: &Problem) -> Oracle {
     if s.converter.internal_capacitance.is_some() {
         banks.push(Vec::new()); // the converter alone
     }
-    let cost = |b: &Vec<(usize, u32)>| b.iter().map(|&(i, n)| n as f64 * cat.parts[eligible[i]].cost).sum::<f64>();
+    let cost = |b: &Vec<(usize, u32)>| {
+        b.iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].cost)
+            .sum::<f64>()
+    };
     banks.sort_by(|a, b| cost(a).partial_cmp(&cost(b)).unwrap());
     let mut best = None;
     let mut margin_bank = false;
     for b in banks {
-        let cap: f64 = b.iter().map(|&(i, n)| n as f64 * cat.parts[eligible[i]].c_nominal_max()).sum();
+        let cap: f64 = b
+            .iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].c_nominal_max())
+            .sum();
         let count: u32 = b.iter().map(|x| x.1).sum();
-        let area: f64 = b.iter().map(|&(i, n)| n as f64 * cat.parts[eligible[i]].area.unwrap()).sum();
+        let area: f64 = b
+            .iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].area.unwrap())
+            .sum();
         if cap > max_cap || count > max_count || area > max_area {
             continue;
         }
@@ -48,7 +58,10 @@ fn oracle(p: &Problem) -> Oracle {
             continue;
         }
         let cur = ev.part_currents(&b);
-        let ok = b.iter().zip(&cur).all(|(&(i, _), &c)| cat.parts[eligible[i]].ripple_current.is_none_or(|r| c <= r));
+        let ok = b
+            .iter()
+            .zip(&cur)
+            .all(|(&(i, _), &c)| cat.parts[eligible[i]].ripple_current.is_none_or(|r| c <= r));
         if !ok {
             continue;
         }
@@ -69,7 +82,8 @@ fn oracle(p: &Problem) -> Oracle {
 fn optimizer_matches_brute_force_on_random_cases() {
     let mut rng = StdRng::seed_from_u64(0x5eed_2026);
     let cases = 200;
-    let (mut exact, mut within1, mut worst_excess, mut both_infeasible, mut feasible_cases) = (0, 0, 0.0f64, 0, 0);
+    let (mut exact, mut within1, mut worst_excess, mut both_infeasible, mut feasible_cases) =
+        (0, 0, 0.0f64, 0, 0);
     for case in 0..cases {
         let nparts = rng.gen_range(2..=6);
         let cat_text = random_catalog(&mut rng, nparts);
@@ -83,10 +97,14 @@ fn optimizer_matches_brute_force_on_random_cases() {
             rng.gen_range(40..400),
         );
         let catalog = Catalog::from_bytes(cat_text.as_bytes(), "random.csv").unwrap();
-        let scenario = Scenario::from_str(&scen, "random.toml").unwrap_or_else(|e| panic!("case {case}: {e}\n{scen}"));
+        let scenario = Scenario::from_str(&scen, "random.toml")
+            .unwrap_or_else(|e| panic!("case {case}: {e}\n{scen}"));
         let p = Problem::new(scenario, catalog).unwrap();
         let o = oracle(&p);
-        let settings = Settings { explain: false, ..Default::default() };
+        let settings = Settings {
+            explain: false,
+            ..Default::default()
+        };
         let d = optimize::design(&p, &settings);
         match (&o.best, &d.found) {
             (None, None) => both_infeasible += 1,
@@ -97,16 +115,26 @@ fn optimizer_matches_brute_force_on_random_cases() {
             }
             (None, Some(f)) => {
                 // The tool's bank must still verify; the oracle's space is smaller only if counts > 8.
-                panic!("case {case}: oracle found nothing, tool found {:?}\n{scen}\n{cat_text}", f.bank);
+                panic!(
+                    "case {case}: oracle found nothing, tool found {:?}\n{scen}\n{cat_text}",
+                    f.bank
+                );
             }
             (Some((oc, _)), Some(f)) => {
                 feasible_cases += 1;
                 // Every reported bank verifies with the evaluator.
                 let a = ripplebank::assessment::assess(&p, &f.bank).unwrap();
-                assert!(a.ripple_pp <= p.scenario.target.ripple_pp.0 * (1.0 + 1e-9), "case {case}: bank does not verify");
+                assert!(
+                    a.ripple_pp <= p.scenario.target.ripple_pp.0 * (1.0 + 1e-9),
+                    "case {case}: bank does not verify"
+                );
                 let tool = f.key[0];
                 let excess = if *oc > 0.0 { (tool - oc) / oc } else { tool };
-                assert!(excess < 0.05, "case {case}: tool cost {tool} is {:.1} % above the oracle's {oc}", excess * 100.0);
+                assert!(
+                    excess < 0.05,
+                    "case {case}: tool cost {tool} is {:.1} % above the oracle's {oc}",
+                    excess * 100.0
+                );
                 assert!(tool >= oc * (1.0 - 1e-9), "case {case}: tool cost {tool} below the oracle's {oc}: the oracle or the limits disagree");
                 if excess <= 1e-9 {
                     exact += 1;
@@ -123,6 +151,9 @@ fn optimizer_matches_brute_force_on_random_cases() {
         "oracle: {cases} cases, {feasible_cases} feasible, {both_infeasible} infeasible for both; optimum reached in {exact}, within 1 % in {within1}, worst excess {:.2} %",
         worst_excess * 100.0
     );
-    assert!(feasible_cases >= 60, "too few feasible cases to mean anything: {feasible_cases}");
+    assert!(
+        feasible_cases >= 60,
+        "too few feasible cases to mean anything: {feasible_cases}"
+    );
     assert!(within1 as f64 >= 0.95 * feasible_cases as f64);
 }

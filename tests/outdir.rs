@@ -32,7 +32,10 @@ fn snapshot(dir: &Path) -> BTreeMap<PathBuf, Option<Vec<u8>>> {
 }
 
 fn names(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().to_string()).collect();
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
     v.sort();
     v
 }
@@ -66,16 +69,63 @@ fn failed_runs_leave_the_folder_as_it_was_and_a_good_run_replaces_it() {
     let d = dir.to_str().unwrap();
 
     let failing: &[(&[&str], &str)] = &[
-        (&["assess", "--bank", "NOSUCHPART=1", "--out", d], "NOSUCHPART"),
-        (&["assess", "--bank", "CX-A-22U-6V3=2", "--scenario", "tests/corpus/scn-buck-step-up.toml", "--out", d], "scn-buck-step-up.toml"),
         (
-            &["assess", "--bank", "CX-A-22U-6V3=2", "--scenario", "tests/corpus/good-scenario.toml", "--catalog", "tests/corpus/cat-wrong-unit.csv", "--out", d],
+            &["assess", "--bank", "NOSUCHPART=1", "--out", d],
+            "NOSUCHPART",
+        ),
+        (
+            &[
+                "assess",
+                "--bank",
+                "CX-A-22U-6V3=2",
+                "--scenario",
+                "tests/corpus/scn-buck-step-up.toml",
+                "--out",
+                d,
+            ],
+            "scn-buck-step-up.toml",
+        ),
+        (
+            &[
+                "assess",
+                "--bank",
+                "CX-A-22U-6V3=2",
+                "--scenario",
+                "tests/corpus/good-scenario.toml",
+                "--catalog",
+                "tests/corpus/cat-wrong-unit.csv",
+                "--out",
+                d,
+            ],
             "cat-wrong-unit.csv",
         ),
-        (&["assess", "--bom", "tests/corpus/bom-unknown-part.csv", "--scenario", "tests/corpus/good-scenario.toml", "--out", d], "bom-unknown-part.csv"),
+        (
+            &[
+                "assess",
+                "--bom",
+                "tests/corpus/bom-unknown-part.csv",
+                "--scenario",
+                "tests/corpus/good-scenario.toml",
+                "--out",
+                d,
+            ],
+            "bom-unknown-part.csv",
+        ),
         // Fails after the inputs are read: a bank of nothing.
-        (&["assess", "--bank", "RB-C1206-X5R-47U-6V3=0", "--out", d], "empty"),
-        (&["design", "--scenario", "tests/corpus/scn-zero-fsw.toml", "--out", d], "scn-zero-fsw.toml"),
+        (
+            &["assess", "--bank", "RB-C1206-X5R-47U-6V3=0", "--out", d],
+            "empty",
+        ),
+        (
+            &[
+                "design",
+                "--scenario",
+                "tests/corpus/scn-zero-fsw.toml",
+                "--out",
+                d,
+            ],
+            "scn-zero-fsw.toml",
+        ),
     ];
     for (args, says) in failing {
         let (code, stderr) = run(args);
@@ -92,15 +142,25 @@ fn failed_runs_leave_the_folder_as_it_was_and_a_good_run_replaces_it() {
         assert!(after.contains(&f.to_string()), "{f} missing: {after:?}");
     }
     // Nothing already on disk is lost: the user's own files stay.
-    assert!(after.contains(&"sentinel.txt".to_string()) && after.contains(&"notes".to_string()), "user files lost: {after:?}");
+    assert!(
+        after.contains(&"sentinel.txt".to_string()) && after.contains(&"notes".to_string()),
+        "user files lost: {after:?}"
+    );
     no_leftovers(parent.path(), "out");
     assert_eq!(names(parent.path()), vec!["out".to_string()]);
     // The files describe the bank that was asked for.
-    let doc: serde_json::Value = serde_json::from_slice(&std::fs::read(dir.join("report.json")).unwrap()).unwrap();
+    let doc: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("report.json")).unwrap()).unwrap();
     assert_eq!(doc["bank"][0]["part"], "RB-C1206-X5R-47U-6V3");
     assert_eq!(doc["bank"][0]["count"], 4);
     let bom = std::fs::read_to_string(dir.join("bom.csv")).unwrap();
-    assert!(bom.lines().nth(1).unwrap().starts_with("RB-C1206-X5R-47U-6V3,4,"), "{bom}");
+    assert!(
+        bom.lines()
+            .nth(1)
+            .unwrap()
+            .starts_with("RB-C1206-X5R-47U-6V3,4,"),
+        "{bom}"
+    );
 
     // A failure after a success keeps the successful run's files.
     let good = snapshot(&dir);
@@ -114,14 +174,26 @@ fn failed_runs_leave_the_folder_as_it_was_and_a_good_run_replaces_it() {
 fn out_creates_missing_parents_and_refuses_a_file() {
     let parent = tempfile::tempdir().unwrap();
     let deep = parent.path().join("a").join("b").join("run1");
-    let (code, stderr) = run(&["assess", "--bank", "RB-C1206-X5R-47U-6V3=4", "--out", deep.to_str().unwrap()]);
+    let (code, stderr) = run(&[
+        "assess",
+        "--bank",
+        "RB-C1206-X5R-47U-6V3=4",
+        "--out",
+        deep.to_str().unwrap(),
+    ]);
     assert!(matches!(code, Some(0 | 1)), "{stderr}");
     assert!(deep.join("report.json").is_file());
     no_leftovers(deep.parent().unwrap(), "run1");
 
     let file = parent.path().join("report-as-file");
     std::fs::write(&file, b"not a folder").unwrap();
-    let (code, stderr) = run(&["assess", "--bank", "RB-C1206-X5R-47U-6V3=4", "--out", file.to_str().unwrap()]);
+    let (code, stderr) = run(&[
+        "assess",
+        "--bank",
+        "RB-C1206-X5R-47U-6V3=4",
+        "--out",
+        file.to_str().unwrap(),
+    ]);
     assert_eq!(code, Some(2), "{stderr}");
     assert!(stderr.contains("report-as-file"), "{stderr}");
     assert_eq!(std::fs::read(&file).unwrap(), b"not a folder");

@@ -37,13 +37,20 @@ fn assessed(p: &Problem, spec: &str) -> (Vec<(usize, u32)>, Assessment) {
 
 /// All `<text>` contents of an SVG, trimmed.
 fn texts(doc: &roxmltree::Document) -> Vec<String> {
-    doc.descendants().filter(|n| n.has_tag_name("text")).map(|n| n.text().unwrap_or("").trim().to_string()).collect()
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .map(|n| n.text().unwrap_or("").trim().to_string())
+        .collect()
 }
 
 /// The HTML page as XML (it is written in XHTML syntax; `<!DOCTYPE html>` needs DTDs allowed).
 fn parse_html(page: &str) -> roxmltree::Document<'_> {
-    let opt = roxmltree::ParsingOptions { allow_dtd: true, ..Default::default() };
-    roxmltree::Document::parse_with_options(page, opt).unwrap_or_else(|e| panic!("the page is not well-formed: {e}"))
+    let opt = roxmltree::ParsingOptions {
+        allow_dtd: true,
+        ..Default::default()
+    };
+    roxmltree::Document::parse_with_options(page, opt)
+        .unwrap_or_else(|e| panic!("the page is not well-formed: {e}"))
 }
 
 fn parse(svg: &str) -> roxmltree::Document<'_> {
@@ -56,15 +63,35 @@ fn check_plot(svg: &str, title_word: &str, x_label: &str, y_label: &str) -> Vec<
     let doc = parse(svg);
     let root = doc.root_element();
     assert!(root.has_tag_name("svg"));
-    assert!(root.attribute("viewBox").is_some(), "needs a viewBox to scale in HTML");
-    let first_rect = doc.descendants().find(|n| n.has_tag_name("rect")).expect("background");
-    assert_eq!(first_rect.attribute("fill").map(|s| s.to_ascii_uppercase()), Some("#FFFFFF".into()));
+    assert!(
+        root.attribute("viewBox").is_some(),
+        "needs a viewBox to scale in HTML"
+    );
+    let first_rect = doc
+        .descendants()
+        .find(|n| n.has_tag_name("rect"))
+        .expect("background");
+    assert_eq!(
+        first_rect.attribute("fill").map(|s| s.to_ascii_uppercase()),
+        Some("#FFFFFF".into())
+    );
     let t = texts(&doc);
-    let title = doc.descendants().find(|n| n.has_tag_name("title")).and_then(|n| n.text()).expect("<title>").to_string();
-    assert!(title.to_lowercase().contains(&title_word.to_lowercase()), "{title}");
+    let title = doc
+        .descendants()
+        .find(|n| n.has_tag_name("title"))
+        .and_then(|n| n.text())
+        .expect("<title>")
+        .to_string();
+    assert!(
+        title.to_lowercase().contains(&title_word.to_lowercase()),
+        "{title}"
+    );
     assert!(t.contains(&title), "title drawn as text: {t:?}");
     for label in [x_label, y_label] {
-        assert!(t.iter().any(|s| s == label), "axis label {label:?} missing from {t:?}");
+        assert!(
+            t.iter().any(|s| s == label),
+            "axis label {label:?} missing from {t:?}"
+        );
         // Every axis label names its unit in parentheses.
         assert!(label.ends_with(')') && label.contains('('), "{label}");
     }
@@ -81,15 +108,26 @@ fn bank_plots_are_well_formed_and_labelled() {
 
     let t = check_plot(&plots[0].1, "impedance", "frequency (Hz)", "|Z| (Ω)");
     // Legend: one entry per line of the bank, the bank and the budget.
-    assert!(t.iter().any(|s| s.starts_with(&format!("4 × {BIG}"))), "{t:?}");
-    assert!(t.iter().any(|s| s.starts_with(&format!("2 × {SMALL}"))), "{t:?}");
+    assert!(
+        t.iter().any(|s| s.starts_with(&format!("4 × {BIG}"))),
+        "{t:?}"
+    );
+    assert!(
+        t.iter().any(|s| s.starts_with(&format!("2 × {SMALL}"))),
+        "{t:?}"
+    );
     assert!(t.iter().any(|s| s.contains("whole bank")));
-    assert!(t.iter().any(|s| s.contains("alone would use the whole budget")));
+    assert!(t
+        .iter()
+        .any(|s| s.contains("alone would use the whole budget")));
     // Log axis ticks carry units: decades of hertz and ohms.
     assert!(t.iter().any(|s| s == "1 MHz"), "{t:?}");
     assert!(t.iter().any(|s| s.ends_with("mΩ")), "{t:?}");
     let doc = parse(&plots[0].1);
-    let lines = doc.descendants().filter(|n| n.has_tag_name("polyline")).count();
+    let lines = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline"))
+        .count();
     assert!(lines >= 3, "two part lines and the bank: {lines} polylines");
 
     let t = check_plot(&plots[1].1, "ripple", "time (µs)", "output ripple (mV)");
@@ -97,7 +135,12 @@ fn bank_plots_are_well_formed_and_labelled() {
     assert!(t.iter().any(|s| s.starts_with("20 MHz bandwidth")), "{t:?}");
     assert!(t.iter().any(|s| s.starts_with("target band")), "{t:?}");
 
-    let t = check_plot(&plots[2].1, "harmonic voltage against the budget", "frequency (Hz)", "harmonic voltage, peak-to-peak (V)");
+    let t = check_plot(
+        &plots[2].1,
+        "harmonic voltage against the budget",
+        "frequency (Hz)",
+        "harmonic voltage, peak-to-peak (V)",
+    );
     assert!(t.iter().any(|s| s.starts_with("budget")), "{t:?}");
 }
 
@@ -113,16 +156,37 @@ fn impedance_of_one_line_is_a_series_rlc() {
     let n = 4.0;
     let f0 = 1.0 / (2.0 * PI * (m.esl * m.c_worst).sqrt());
     let z = plots::bank_impedance(&p, &b, &[f0, f0 * 0.99, f0 * 1.01]);
-    assert!((z[0] - m.esr / n).abs() < 1e-9 * m.esr, "{} vs {}", z[0], m.esr / n);
+    assert!(
+        (z[0] - m.esr / n).abs() < 1e-9 * m.esr,
+        "{} vs {}",
+        z[0],
+        m.esr / n
+    );
     assert!(z[1] > z[0] && z[2] > z[0]);
 
     let d = plots::impedance_data(&p, &b).unwrap();
     // The sweep starts a decade below the ripple frequency (600 kHz in the demo).
     let f_ripple = p.ops[0].f_ripple;
     assert!((d.freqs[0] - f_ripple / 10.0).abs() < 1e-9 * f_ripple);
-    let (i_min, z_min) = d.bank.iter().copied().enumerate().fold((0, f64::INFINITY), |acc, (i, z)| if z < acc.1 { (i, z) } else { acc });
-    assert!((z_min / (m.esr / n) - 1.0).abs() < 5e-3, "minimum {z_min} vs ESR/n {}", m.esr / n);
-    assert!((d.freqs[i_min] / f0 - 1.0).abs() < 0.015, "minimum at {} vs f0 {f0}", d.freqs[i_min]);
+    let (i_min, z_min) =
+        d.bank
+            .iter()
+            .copied()
+            .enumerate()
+            .fold(
+                (0, f64::INFINITY),
+                |acc, (i, z)| if z < acc.1 { (i, z) } else { acc },
+            );
+    assert!(
+        (z_min / (m.esr / n) - 1.0).abs() < 5e-3,
+        "minimum {z_min} vs ESR/n {}",
+        m.esr / n
+    );
+    assert!(
+        (d.freqs[i_min] / f0 - 1.0).abs() < 0.015,
+        "minimum at {} vs f0 {f0}",
+        d.freqs[i_min]
+    );
     let f = d.freqs[0];
     let zc = 1.0 / (2.0 * PI * f * n * m.c_worst);
     assert!((d.bank[0] / zc - 1.0).abs() < 0.01, "{} vs {zc}", d.bank[0]);
@@ -147,7 +211,11 @@ fn bank_curve_matches_the_circuit_and_the_evaluator() {
     let d = plots::impedance_data(&p, &b).unwrap();
     assert!(d.internal.is_some());
     let c = &p.scenario.converter;
-    let (ci, ri, li) = (c.internal_capacitance.unwrap().0, c.internal_esr.0, c.internal_esl.0);
+    let (ci, ri, li) = (
+        c.internal_capacitance.unwrap().0,
+        c.internal_esr.0,
+        c.internal_esl.0,
+    );
     let lc = p.scenario.board.connection_inductance.0;
     let zcap = |r: f64, l: f64, cap: f64, f: f64| {
         let w = 2.0 * PI * f;
@@ -163,12 +231,19 @@ fn bank_curve_matches_the_circuit_and_the_evaluator() {
         let zi = zcap(ri, li, ci, f);
         let jwl = Complex64::new(0.0, 2.0 * PI * f * lc);
         let want = (zi / (zi + jwl + zb) * zb).norm();
-        assert!((d.bank[k] / want - 1.0).abs() < 1e-9, "f {f}: {} vs {want}", d.bank[k]);
+        assert!(
+            (d.bank[k] / want - 1.0).abs() < 1e-9,
+            "f {f}: {} vs {want}",
+            d.bank[k]
+        );
     }
     // The harmonic markers come from the evaluator; they sit on the curve.
     let at = plots::bank_impedance(&p, &b, &d.harmonics.iter().map(|h| h.0).collect::<Vec<_>>());
     for ((f, z), z2) in d.harmonics.iter().zip(&at) {
-        assert!((z / z2 - 1.0).abs() < 1e-9, "f {f}: evaluator {z} vs curve {z2}");
+        assert!(
+            (z / z2 - 1.0).abs() < 1e-9,
+            "f {f}: evaluator {z} vs curve {z2}"
+        );
     }
 }
 
@@ -193,12 +268,20 @@ fn needed_impedance_follows_the_triangle_spectrum() {
     let h1 = 1.0 / Complex64::new(1.0, f / bw).norm();
     let want = p.scenario.target.ripple_pp.0 / (2.0 * i1 * h1);
     assert!((d.needed[0].0 - f).abs() < 1e-9 * f);
-    assert!((d.needed[0].1 / want - 1.0).abs() < 1e-9, "{} vs {want}", d.needed[0].1);
+    assert!(
+        (d.needed[0].1 / want - 1.0).abs() < 1e-9,
+        "{} vs {want}",
+        d.needed[0].1
+    );
     // Where the bank sits exactly at that impedance, the harmonic's own
     // peak-to-peak equals the target: |Z_k| / Z_needed = 2|V_k| / target.
     let s = plots::spectrum_data(&p, &b).unwrap();
     for ((h, n), v) in d.harmonics.iter().zip(&d.needed).zip(&s.amplitude).take(20) {
-        assert!((h.1 / n.1 - 2.0 * v / s.target).abs() < 1e-9 * (h.1 / n.1), "at {} Hz", h.0);
+        assert!(
+            (h.1 / n.1 - 2.0 * v / s.target).abs() < 1e-9 * (h.1 / n.1),
+            "at {} Hz",
+            h.0
+        );
     }
 }
 
@@ -210,13 +293,24 @@ fn ripple_and_spectrum_show_the_worst_corner() {
     assert_eq!(p.ops.len(), 3);
     let (b, a) = assessed(&p, &format!("{BIG}=3,{SMALL}=2"));
     let r = plots::ripple_data(&p, &b).unwrap();
-    let pp = |v: &[f64]| v.iter().copied().fold(f64::NEG_INFINITY, f64::max) - v.iter().copied().fold(f64::INFINITY, f64::min);
-    assert!((pp(&r.limited) / a.ripple_pp - 1.0).abs() < 1e-9, "{} vs {}", pp(&r.limited), a.ripple_pp);
+    let pp = |v: &[f64]| {
+        v.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+            - v.iter().copied().fold(f64::INFINITY, f64::min)
+    };
+    assert!(
+        (pp(&r.limited) / a.ripple_pp - 1.0).abs() < 1e-9,
+        "{} vs {}",
+        pp(&r.limited),
+        a.ripple_pp
+    );
     assert!(pp(&r.full) <= a.ripple_pp_full_bandwidth * (1.0 + 1e-9));
     assert!((r.period * p.scenario.converter.fsw.0 - 1.0).abs() < 1e-12);
     // The target band is centred on the trace: the trace lies inside it
     // exactly when the bank meets the target.
-    let inside = r.limited.iter().all(|v| (v - r.mid).abs() <= r.target / 2.0 + 1e-15);
+    let inside = r
+        .limited
+        .iter()
+        .all(|v| (v - r.mid).abs() <= r.target / 2.0 + 1e-15);
     assert_eq!(inside, a.meets_target);
     // Buck at higher vin has more inductor ripple: ΔI = vout(1 − vout/vin)/(L f)
     // grows with vin (Erickson & Maksimović, ch. 2), so the worst corner is vin_max.
@@ -230,7 +324,11 @@ fn ripple_and_spectrum_show_the_worst_corner() {
     assert_eq!(s.vin_corner, r.vin_corner);
     let max_k = s.amplitude.iter().copied().fold(0.0, f64::max);
     let sum: f64 = s.amplitude.iter().map(|v| 2.0 * v).sum();
-    assert!(max_k <= a.ripple_pp && a.ripple_pp <= sum, "{max_k} ≤ {} ≤ {sum}", a.ripple_pp);
+    assert!(
+        max_k <= a.ripple_pp && a.ripple_pp <= sum,
+        "{max_k} ≤ {} ≤ {sum}",
+        a.ripple_pp
+    );
     assert_eq!(s.amplitude.len(), a.harmonics);
 }
 
@@ -246,7 +344,13 @@ fn plots_escape_part_names() {
     let a = assessment::assess(&p, &b).unwrap();
     let plots = plots::bank_plots(&p, &b, &a).unwrap();
     let doc = parse(&plots[0].1);
-    assert!(texts(&doc).iter().any(|t| t.starts_with("4 × A&B <47u> \"x\"")), "{:?}", texts(&doc));
+    assert!(
+        texts(&doc)
+            .iter()
+            .any(|t| t.starts_with("4 × A&B <47u> \"x\"")),
+        "{:?}",
+        texts(&doc)
+    );
     let page = html::page("A & <B>", "Bank\n  A&B <47u>\n", &plots);
     let doc = parse_html(&page);
     let h1 = doc.descendants().find(|n| n.has_tag_name("h1")).unwrap();
@@ -273,41 +377,78 @@ fn html_report_is_self_contained_and_embeds_every_plot() {
     body.push_str(&ripplebank::report::text::cautions());
     let page = html::page("Bank assessment", &body, &plots);
     assert!(page.starts_with("<!DOCTYPE html>"));
-    assert!(!page.contains("<?xml"), "XML declarations must be stripped before inlining");
+    assert!(
+        !page.contains("<?xml"),
+        "XML declarations must be stripped before inlining"
+    );
     let doc = parse_html(&page);
-    let svgs: Vec<_> = doc.descendants().filter(|n| n.has_tag_name("svg")).collect();
+    let svgs: Vec<_> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("svg"))
+        .collect();
     assert_eq!(svgs.len(), plots.len());
     for (svg, (name, text)) in svgs.iter().zip(&plots) {
         let src = parse(text);
         // The same drawing: same number of elements and the same title.
-        assert_eq!(svg.descendants().count(), src.root_element().descendants().count(), "{name}");
-        let t = |n: roxmltree::Node| n.descendants().find(|c| c.has_tag_name("title")).and_then(|c| c.text()).map(str::to_string);
+        assert_eq!(
+            svg.descendants().count(),
+            src.root_element().descendants().count(),
+            "{name}"
+        );
+        let t = |n: roxmltree::Node| {
+            n.descendants()
+                .find(|c| c.has_tag_name("title"))
+                .and_then(|c| c.text())
+                .map(str::to_string)
+        };
         assert_eq!(t(*svg), t(src.root_element()), "{name}");
     }
     // Every caution, once, in the cautions box.
-    let lis: Vec<String> = doc.descendants().filter(|n| n.has_tag_name("li")).map(|n| n.text().unwrap_or("").to_string()).collect();
+    let lis: Vec<String> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("li"))
+        .map(|n| n.text().unwrap_or("").to_string())
+        .collect();
     for c in CAUTIONS {
         assert_eq!(lis.iter().filter(|l| l == c).count(), 1, "{c}");
-        let shown = doc.descendants().filter(|n| n.is_text() && n.text().unwrap_or("").contains(&c[..40])).count();
+        let shown = doc
+            .descendants()
+            .filter(|n| n.is_text() && n.text().unwrap_or("").contains(&c[..40]))
+            .count();
         assert_eq!(shown, 1, "the body's own cautions section is not repeated");
     }
     // The report's sections become headings.
-    let h2: Vec<&str> = doc.descendants().filter(|n| n.has_tag_name("h2")).filter_map(|n| n.text()).collect();
+    let h2: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("h2"))
+        .filter_map(|n| n.text())
+        .collect();
     for h in ["Bank", "Limits", "Plots", "Cautions"] {
         assert!(h2.contains(&h), "{h} in {h2:?}");
     }
-    assert!(doc.descendants().any(|n| n.attribute("class") == Some("verdict pass")));
+    assert!(doc
+        .descendants()
+        .any(|n| n.attribute("class") == Some("verdict pass")));
     // No scripts and nothing fetched from elsewhere.
-    assert!(!doc.descendants().any(|n| n.has_tag_name("script") || n.has_tag_name("link") || n.has_tag_name("img")));
+    assert!(!doc
+        .descendants()
+        .any(|n| n.has_tag_name("script") || n.has_tag_name("link") || n.has_tag_name("img")));
     assert!(doc.descendants().all(|n| n.attribute("src").is_none()));
-    assert!(doc.descendants().filter_map(|n| n.attribute("href")).all(|h| h.starts_with('#')));
+    assert!(doc
+        .descendants()
+        .filter_map(|n| n.attribute("href"))
+        .all(|h| h.starts_with('#')));
     assert!(!page.contains("url(") && !page.contains("@import"));
 }
 
 fn point(target_mv: f64, key: &str, cost: Option<f64>) -> plots::TradeoffPoint {
     plots::TradeoffPoint {
         target: target_mv * 1e-3,
-        status: if cost.is_some() { "optimal".into() } else { "infeasible".into() },
+        status: if cost.is_some() {
+            "optimal".into()
+        } else {
+            "infeasible".into()
+        },
         ripple_pp: cost.map(|_| target_mv * 0.8e-3),
         cost,
         area: cost.map(|c| c * 40.0),
@@ -328,16 +469,30 @@ fn tradeoff_plots_mark_where_the_bank_changes() {
         point(3.0, "A=3,B=2", Some(0.9)),
     ];
     let out = plots::tradeoff_plots(&pts).unwrap();
-    assert_eq!(out.iter().map(|x| x.0.as_str()).collect::<Vec<_>>(), ["cost.svg", "area.svg"]);
-    for ((_, svg), y) in out.iter().zip(["cost (catalog currency)", "board area (mm²)"]) {
-        let t = check_plot(svg, "against ripple target", "ripple target, peak-to-peak (mV)", y);
+    assert_eq!(
+        out.iter().map(|x| x.0.as_str()).collect::<Vec<_>>(),
+        ["cost.svg", "area.svg"]
+    );
+    for ((_, svg), y) in out
+        .iter()
+        .zip(["cost (catalog currency)", "board area (mm²)"])
+    {
+        let t = check_plot(
+            svg,
+            "against ripple target",
+            "ripple target, peak-to-peak (mV)",
+            y,
+        );
         // Three distinct banks, tightest target first.
         for k in ["1: A=3,B=2", "2: A=2,B=1", "3: A=1"] {
             assert!(t.iter().any(|s| s == k), "{k} in {t:?}");
         }
         let doc = parse(svg);
         // A filled, larger marker where the bank changes: three changes.
-        let big = doc.descendants().filter(|n| n.has_tag_name("circle") && n.attribute("r") == Some("6")).count();
+        let big = doc
+            .descendants()
+            .filter(|n| n.has_tag_name("circle") && n.attribute("r") == Some("6"))
+            .count();
         assert_eq!(big, 3);
         assert!(t.iter().any(|s| s == "no bank meets this target"));
     }

@@ -17,7 +17,13 @@ use ripplebank::scenario::Scenario;
 
 /// Changed line items between two banks: lines removed plus lines added.
 fn changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
-    old.iter().filter(|o| !new.iter().any(|n| n.0 == o.0)).count() + new.iter().filter(|n| !old.iter().any(|o| o.0 == n.0)).count()
+    old.iter()
+        .filter(|o| !new.iter().any(|n| n.0 == o.0))
+        .count()
+        + new
+            .iter()
+            .filter(|n| !old.iter().any(|o| o.0 == n.0))
+            .count()
 }
 
 #[test]
@@ -47,7 +53,10 @@ fn rework_matches_brute_force() {
         let max_cap = p.scenario.converter.max_capacitance.unwrap().0;
         let mut good: Vec<(Vec<(usize, u32)>, f64)> = Vec::new();
         for b in all_banks(e.len()) {
-            let cap: f64 = b.iter().map(|&(i, n)| n as f64 * cat.parts[e[i]].c_nominal_max()).sum();
+            let cap: f64 = b
+                .iter()
+                .map(|&(i, n)| n as f64 * cat.parts[e[i]].c_nominal_max())
+                .sum();
             let count: u32 = b.iter().map(|x| x.1).sum();
             if cap > max_cap || count > 16 {
                 continue;
@@ -56,10 +65,17 @@ fn rework_matches_brute_force() {
                 continue;
             }
             let cur = ev.part_currents(&b);
-            if !b.iter().zip(&cur).all(|(&(i, _), &c)| cat.parts[e[i]].ripple_current.is_none_or(|r| c <= r)) {
+            if !b
+                .iter()
+                .zip(&cur)
+                .all(|(&(i, _), &c)| cat.parts[e[i]].ripple_current.is_none_or(|r| c <= r))
+            {
                 continue;
             }
-            let cost = b.iter().map(|&(i, n)| n as f64 * cat.parts[e[i]].cost).sum();
+            let cost = b
+                .iter()
+                .map(|&(i, n)| n as f64 * cat.parts[e[i]].cost)
+                .sum();
             good.push((b.iter().map(|&(i, n)| (e[i], n)).collect(), cost));
         }
         // A released bank of two or three lines; one of its parts goes.
@@ -69,26 +85,57 @@ fn rework_matches_brute_force() {
             let r = rng.gen_range(j..idx.len());
             idx.swap(j, r);
         }
-        let current: Vec<(usize, u32)> = idx[..k].iter().map(|&i| (e[i], rng.gen_range(1..=4))).collect();
+        let current: Vec<(usize, u32)> = idx[..k]
+            .iter()
+            .map(|&i| (e[i], rng.gen_range(1..=4)))
+            .collect();
         let forced = vec![current[0].0];
-        let allowed: Vec<&(Vec<(usize, u32)>, f64)> = good.iter().filter(|(b, _)| !b.iter().any(|x| x.0 == forced[0])).collect();
-        let best = allowed.iter().map(|(b, c)| (changes(&current, b), *c)).min_by(|x, y| x.0.cmp(&y.0).then(x.1.partial_cmp(&y.1).unwrap()));
-        let r = optimize::rework(&p, &current, &forced, &Settings { explain: false, ..Default::default() });
+        let allowed: Vec<&(Vec<(usize, u32)>, f64)> = good
+            .iter()
+            .filter(|(b, _)| !b.iter().any(|x| x.0 == forced[0]))
+            .collect();
+        let best = allowed
+            .iter()
+            .map(|(b, c)| (changes(&current, b), *c))
+            .min_by(|x, y| x.0.cmp(&y.0).then(x.1.partial_cmp(&y.1).unwrap()));
+        let r = optimize::rework(
+            &p,
+            &current,
+            &forced,
+            &Settings {
+                explain: false,
+                ..Default::default()
+            },
+        );
         match (best, &r.found) {
             (None, None) => {}
             (Some(b), None) => panic!("case {case}: rework found nothing, brute force {b:?}"),
             (None, Some(f)) => {
                 // Counts above 8 lie outside the brute force's space.
-                assert!(f.bank.iter().any(|x| x.1 > MAX_COUNT), "case {case}: rework found {:?}, brute force nothing", f.bank);
+                assert!(
+                    f.bank.iter().any(|x| x.1 > MAX_COUNT),
+                    "case {case}: rework found {:?}, brute force nothing",
+                    f.bank
+                );
             }
             (Some((ch, cost)), Some(f)) => {
                 compared += 1;
-                assert!(!f.bank.iter().any(|x| x.0 == forced[0]), "case {case}: the dropped part stayed");
+                assert!(
+                    !f.bank.iter().any(|x| x.0 == forced[0]),
+                    "case {case}: the dropped part stayed"
+                );
                 let got = changes(&current, &f.bank);
                 assert_eq!(got, ch, "case {case}: {got} changes, fewest possible {ch}");
-                assert_eq!(r.changes, ch + 0, "case {case}: reported changes");
-                let tool_cost: f64 = f.bank.iter().map(|&(i, n)| n as f64 * cat.parts[i].cost).sum();
-                assert!(tool_cost <= cost * 1.01 + 1e-12, "case {case}: cost {tool_cost} above {cost}");
+                assert_eq!(r.changes, ch, "case {case}: reported changes");
+                let tool_cost: f64 = f
+                    .bank
+                    .iter()
+                    .map(|&(i, n)| n as f64 * cat.parts[i].cost)
+                    .sum();
+                assert!(
+                    tool_cost <= cost * 1.01 + 1e-12,
+                    "case {case}: cost {tool_cost} above {cost}"
+                );
             }
         }
     }
@@ -102,9 +149,26 @@ fn bank_with_nothing_obsolete_is_still_good() {
     // (checked here with `assess` first, the same evaluator).
     let dir = tempfile::tempdir().unwrap();
     let bom = dir.path().join("bom.csv");
-    std::fs::write(&bom, "part,count\nRB-C0402-X5R-1U-6V3,1\nRB-C0603-X5R-10U-6V3,2\nRB-C1206-X5R-47U-6V3,2\n").unwrap();
-    Command::cargo_bin("ripplebank").unwrap().args(["assess", "--bom"]).arg(&bom).assert().code(0);
-    let out = Command::cargo_bin("ripplebank").unwrap().args(["rework", "--json", "--bom"]).arg(&bom).assert().code(0).get_output().stdout.clone();
+    std::fs::write(
+        &bom,
+        "part,count\nRB-C0402-X5R-1U-6V3,1\nRB-C0603-X5R-10U-6V3,2\nRB-C1206-X5R-47U-6V3,2\n",
+    )
+    .unwrap();
+    Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["assess", "--bom"])
+        .arg(&bom)
+        .assert()
+        .code(0);
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--bom"])
+        .arg(&bom)
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
     let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
     assert_eq!(v["still_good"], true);
     assert_eq!(v["removed"].as_array().unwrap().len(), 0);
@@ -120,11 +184,29 @@ fn obsolete_part_is_replaced_with_one_change() {
     // RB-C0805-X5R-22U-10V is obsolete in the demo catalog.
     let dir = tempfile::tempdir().unwrap();
     let bom = dir.path().join("bom.csv");
-    std::fs::write(&bom, "part,count\nRB-C0805-X5R-22U-10V,3\nRB-C1206-X5R-47U-6V3,2\n").unwrap();
-    let out = Command::cargo_bin("ripplebank").unwrap().args(["rework", "--json", "--bom"]).arg(&bom).assert().code(0).get_output().stdout.clone();
+    std::fs::write(
+        &bom,
+        "part,count\nRB-C0805-X5R-22U-10V,3\nRB-C1206-X5R-47U-6V3,2\n",
+    )
+    .unwrap();
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--bom"])
+        .arg(&bom)
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
     let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
     let removed = v["removed"].as_array().unwrap();
-    assert!(removed.iter().any(|r| r["part"] == "RB-C0805-X5R-22U-10V" && r["reason"] == "obsolete"));
+    assert!(removed
+        .iter()
+        .any(|r| r["part"] == "RB-C0805-X5R-22U-10V" && r["reason"] == "obsolete"));
     assert!(v["ripple_pp"].as_f64().unwrap() <= v["target_ripple_pp"].as_f64().unwrap());
-    assert!(!v["bank"].as_array().unwrap().iter().any(|b| b["part"] == "RB-C0805-X5R-22U-10V"));
+    assert!(!v["bank"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|b| b["part"] == "RB-C0805-X5R-22U-10V"));
 }

@@ -13,7 +13,9 @@ fn front_is_monotone_and_every_point_verifies() {
     let out = dir.path().join("t");
     let o = Command::cargo_bin("ripplebank")
         .unwrap()
-        .args(["tradeoff", "--json", "--points", "6", "--from", "3m", "--to", "40m", "--out"])
+        .args([
+            "tradeoff", "--json", "--points", "6", "--from", "3m", "--to", "40m", "--out",
+        ])
         .arg(&out)
         .assert()
         .code(0)
@@ -30,19 +32,39 @@ fn front_is_monotone_and_every_point_verifies() {
         let t = pt["target"].as_f64().unwrap();
         assert!(t > last_target, "ordered by target");
         last_target = t;
-        let Some(cost) = pt["cost"].as_f64() else { continue };
-        assert!(cost <= last_cost + 1e-12, "cost rose from {last_cost} to {cost} at {t}");
+        let Some(cost) = pt["cost"].as_f64() else {
+            continue;
+        };
+        assert!(
+            cost <= last_cost + 1e-12,
+            "cost rose from {last_cost} to {cost} at {t}"
+        );
         last_cost = cost;
-        let bank: Vec<String> = pt["bank"].as_array().unwrap().iter().map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"])).collect();
+        let bank: Vec<String> = pt["bank"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"]))
+            .collect();
         let b = parse_bank_arg(&p, &bank.join(",")).unwrap();
         let a = assess(&p, &b).unwrap();
-        assert!(a.ripple_pp <= t * (1.0 + 1e-9), "point {t}: bank ripples {}", a.ripple_pp);
+        assert!(
+            a.ripple_pp <= t * (1.0 + 1e-9),
+            "point {t}: bank ripples {}",
+            a.ripple_pp
+        );
         assert!((a.ripple_pp - pt["ripple_pp"].as_f64().unwrap()).abs() < 1e-12);
     }
     // Geometric spacing from --from to --to, both included.
     assert!((pts[0]["target"].as_f64().unwrap() - 3e-3).abs() < 1e-12);
     assert!((pts[5]["target"].as_f64().unwrap() - 40e-3).abs() < 1e-12);
-    for f in ["tradeoff.csv", "cost.svg", "area.svg", "report.html", "report.json"] {
+    for f in [
+        "tradeoff.csv",
+        "cost.svg",
+        "area.svg",
+        "report.html",
+        "report.json",
+    ] {
         assert!(out.join(f).is_file(), "{f} missing");
     }
     let csv = std::fs::read_to_string(out.join("tradeoff.csv")).unwrap();

@@ -28,7 +28,10 @@ use std::process::{Command, ExitCode, Stdio};
 use std::time::{Duration, Instant};
 
 #[derive(Parser, Debug)]
-#[command(name = "ripplebank-bench", about = "Evaluator throughput and design scaling of ripplebank (synthetic catalogs)")]
+#[command(
+    name = "ripplebank-bench",
+    about = "Evaluator throughput and design scaling of ripplebank (synthetic catalogs)"
+)]
 struct Args {
     /// Catalog sizes (rows) for the design-scaling table.
     #[arg(long, value_delimiter = ',', default_value = "100,500,2000,5000")]
@@ -114,8 +117,20 @@ fn fmt_num(x: f64) -> String {
 fn synthetic_csv(rows: usize, dup_share: f64, seed: u64) -> Result<String> {
     let mut rd = csv::Reader::from_reader(load::DEMO_CATALOG.as_bytes());
     let headers = rd.headers()?.clone();
-    let col = |name: &str| headers.iter().position(|h| h == name).with_context(|| format!("demo catalog has no column `{name}`"));
-    let (c_part, c_cap, c_esr, c_esl, c_cost, c_rip) = (col("part")?, col("capacitance")?, col("esr")?, col("esl")?, col("cost")?, col("ripple_current")?);
+    let col = |name: &str| {
+        headers
+            .iter()
+            .position(|h| h == name)
+            .with_context(|| format!("demo catalog has no column `{name}`"))
+    };
+    let (c_part, c_cap, c_esr, c_esl, c_cost, c_rip) = (
+        col("part")?,
+        col("capacitance")?,
+        col("esr")?,
+        col("esl")?,
+        col("cost")?,
+        col("ripple_current")?,
+    );
     let (c_man, c_mpn, c_desc) = (col("manufacturer")?, col("mpn")?, col("description")?);
     let base: Vec<csv::StringRecord> = rd.records().collect::<std::result::Result<_, _>>()?;
     let demo = Catalog::from_bytes(load::DEMO_CATALOG.as_bytes(), load::DEMO_CATALOG_NAME)?;
@@ -133,7 +148,10 @@ fn synthetic_csv(rows: usize, dup_share: f64, seed: u64) -> Result<String> {
                 f = 1.05;
             }
             row[c_cost] = format!("{:.4}", (cost * f).max(0.001));
-            row[c_desc] = format!("SYNTHETIC BENCH DATA - invented; electrical copy, {}", row[c_desc].split("; ").last().unwrap_or(""));
+            row[c_desc] = format!(
+                "SYNTHETIC BENCH DATA - invented; electrical copy, {}",
+                row[c_desc].split("; ").last().unwrap_or("")
+            );
         } else {
             let b = rng.below(base.len());
             let p = &demo.parts[b];
@@ -145,7 +163,10 @@ fn synthetic_csv(rows: usize, dup_share: f64, seed: u64) -> Result<String> {
             if let Some(i) = p.ripple_current {
                 row[c_rip] = fmt_num(i * rng.factor(1.25));
             }
-            row[c_desc] = format!("SYNTHETIC BENCH DATA - invented; jittered from demo row {}", base[b][c_part].trim());
+            row[c_desc] = format!(
+                "SYNTHETIC BENCH DATA - invented; jittered from demo row {}",
+                base[b][c_part].trim()
+            );
         }
         row[c_part] = name.clone();
         row[c_man] = "Synthetic bench data".into();
@@ -184,14 +205,29 @@ fn run_one(rows: usize, a: &Args) -> Result<()> {
     let t_problem = t1.elapsed().as_secs_f64();
     let mem_before = vm_hwm_mb(None);
     let t2 = Instant::now();
-    let settings = if a.exhaustive { Settings { exhaustive_limit: usize::MAX, ..Settings::default() } } else { Settings::default() };
+    let settings = if a.exhaustive {
+        Settings {
+            exhaustive_limit: usize::MAX,
+            ..Settings::default()
+        }
+    } else {
+        Settings::default()
+    };
     let out = optimize::design(&problem, &settings);
     let t_design = t2.elapsed().as_secs_f64();
     let mem = vm_hwm_mb(None);
     let (cost, bank, ripple) = match &out.found {
         Some(f) => {
-            let cost: f64 = f.bank.iter().map(|&(i, n)| n as f64 * problem.catalog.parts[i].cost).sum();
-            let bank: Vec<String> = f.bank.iter().map(|&(i, n)| format!("{}={n}", problem.catalog.parts[i].id)).collect();
+            let cost: f64 = f
+                .bank
+                .iter()
+                .map(|&(i, n)| n as f64 * problem.catalog.parts[i].cost)
+                .sum();
+            let bank: Vec<String> = f
+                .bank
+                .iter()
+                .map(|&(i, n)| format!("{}={n}", problem.catalog.parts[i].id))
+                .collect();
             (Some(cost), bank, Some(f.ripple_pp))
         }
         None => (None, Vec::new(), None),
@@ -218,9 +254,20 @@ fn run_one(rows: usize, a: &Args) -> Result<()> {
 fn spawn_one(rows: usize, a: &Args, exhaustive: bool) -> Result<Value> {
     // The running image itself, even if a concurrent build has replaced the file.
     let self_exe = PathBuf::from("/proc/self/exe");
-    let exe = if self_exe.exists() { self_exe } else { std::env::current_exe()? };
+    let exe = if self_exe.exists() {
+        self_exe
+    } else {
+        std::env::current_exe()?
+    };
     let mut child = Command::new(exe)
-        .args(["--one", &rows.to_string(), "--seed", &a.seed.to_string(), "--duplicates", &a.duplicates.to_string()])
+        .args([
+            "--one",
+            &rows.to_string(),
+            "--seed",
+            &a.seed.to_string(),
+            "--duplicates",
+            &a.duplicates.to_string(),
+        ])
         .args(exhaustive.then_some("--exhaustive"))
         .stdout(Stdio::piped())
         .stderr(Stdio::inherit())
@@ -231,10 +278,16 @@ fn spawn_one(rows: usize, a: &Args, exhaustive: bool) -> Result<Value> {
     loop {
         if let Some(st) = child.try_wait()? {
             let mut s = String::new();
-            child.stdout.take().context("no child stdout")?.read_to_string(&mut s)?;
+            child
+                .stdout
+                .take()
+                .context("no child stdout")?
+                .read_to_string(&mut s)?;
             if !st.success() {
                 eprintln!("ripplebank-bench: size {rows}: the child process ended with {st}");
-                return Ok(json!({"rows": rows, "status": format!("failed ({st})"), "seconds_design": t0.elapsed().as_secs_f64(), "peak_mb": last_mem, "timeout": true}));
+                return Ok(
+                    json!({"rows": rows, "status": format!("failed ({st})"), "seconds_design": t0.elapsed().as_secs_f64(), "peak_mb": last_mem, "timeout": true}),
+                );
             }
             let line = s.lines().last().context("child printed nothing")?;
             return Ok(serde_json::from_str(line)?);
@@ -247,7 +300,9 @@ fn spawn_one(rows: usize, a: &Args, exhaustive: bool) -> Result<Value> {
             // Our own child, by its handle.
             let _ = child.kill();
             let _ = child.wait();
-            return Ok(json!({"rows": rows, "status": "timeout", "seconds_design": el, "peak_mb": last_mem, "timeout": true}));
+            return Ok(
+                json!({"rows": rows, "status": "timeout", "seconds_design": el, "peak_mb": last_mem, "timeout": true}),
+            );
         }
         std::thread::sleep(Duration::from_millis(50));
     }
@@ -274,7 +329,11 @@ fn evaluator_section(a: &Args) -> Result<String> {
             while k == i || k == j {
                 k = rng.below(np);
             }
-            [(i, 1 + rng.below(6) as u32), (j, 1 + rng.below(6) as u32), (k, 1 + rng.below(6) as u32)]
+            [
+                (i, 1 + rng.below(6) as u32),
+                (j, 1 + rng.below(6) as u32),
+                (k, 1 + rng.below(6) as u32),
+            ]
         })
         .collect();
     type Call<'a> = dyn FnMut(&[(usize, u32)]) -> f64 + 'a;
@@ -298,7 +357,10 @@ fn evaluator_section(a: &Args) -> Result<String> {
     let (full_rate, _) = time(&mut |b| ev.ripple_pp(b, Corner::Worst, Band::Full));
     let (chk_rate, _) = time(&mut |b| ev.ripple_check(b, target));
     // How many of the banks pass (ripple_check has to finish the fine pass for those).
-    let passing = banks.iter().filter(|b| ev.ripple_check(&b[..], target) <= target).count();
+    let passing = banks
+        .iter()
+        .filter(|b| ev.ripple_check(&b[..], target) <= target)
+        .count();
     let mut o = String::new();
     writeln!(o, "## Evaluator throughput\n")?;
     writeln!(
@@ -320,11 +382,18 @@ fn evaluator_section(a: &Args) -> Result<String> {
     for (name, r) in [
         ("`ripple_pp(bank, Worst, Limited)`", pp_rate),
         ("`ripple_pp(bank, Worst, Full)`", full_rate),
-        ("`ripple_check(bank, target)` (early exit on failing banks)", chk_rate),
+        (
+            "`ripple_check(bank, target)` (early exit on failing banks)",
+            chk_rate,
+        ),
     ] {
         writeln!(o, "| {name} | {:.0} | {:.1} |", r, 1e6 / r)?;
     }
-    writeln!(o, "\n({} `ripple_pp` calls took {:.3} s.)\n", a.evals, pp_secs)?;
+    writeln!(
+        o,
+        "\n({} `ripple_pp` calls took {:.3} s.)\n",
+        a.evals, pp_secs
+    )?;
     Ok(o)
 }
 
@@ -341,7 +410,9 @@ fn design_section(a: &Args) -> Result<String> {
         eprintln!("ripplebank-bench:   {r}");
         rows.push(r);
         if n <= a.exhaustive_up_to {
-            eprintln!("ripplebank-bench: exhaustive design with a synthetic catalog of {n} parts …");
+            eprintln!(
+                "ripplebank-bench: exhaustive design with a synthetic catalog of {n} parts …"
+            );
             let r = spawn_one(n, a, true)?;
             eprintln!("ripplebank-bench:   {r}");
             exh.push(r);
@@ -362,7 +433,11 @@ fn design_section(a: &Args) -> Result<String> {
     writeln!(o, "|---:|---:|---:|---:|---|---:|---:|---:|---:|---|")?;
     for r in &rows {
         let st = r.get("stats").cloned().unwrap_or(Value::Null);
-        let num = |v: &Value, k: &str| v.get(k).and_then(Value::as_u64).map_or("–".to_string(), |x| x.to_string());
+        let num = |v: &Value, k: &str| {
+            v.get(k)
+                .and_then(Value::as_u64)
+                .map_or("–".to_string(), |x| x.to_string())
+        };
         let timeout = r.get("timeout").is_some();
         writeln!(
             o,
@@ -389,9 +464,14 @@ fn design_section(a: &Args) -> Result<String> {
                 o,
                 "- {} parts: {} (ripple {}); catalog+problem {:.2} s; stats `{}`",
                 r["rows"],
-                if bank.is_empty() { "no bank".to_string() } else { bank.join(", ") },
+                if bank.is_empty() {
+                    "no bank".to_string()
+                } else {
+                    bank.join(", ")
+                },
                 get_f(r, "ripple_pp").map_or("–".into(), |v| format!("{:.3} mV", v * 1e3)),
-                get_f(r, "seconds_catalog").unwrap_or(0.0) + get_f(r, "seconds_problem").unwrap_or(0.0),
+                get_f(r, "seconds_catalog").unwrap_or(0.0)
+                    + get_f(r, "seconds_problem").unwrap_or(0.0),
                 r.get("stats").map_or(String::new(), |s| s.to_string())
             )?;
         }
@@ -402,9 +482,15 @@ fn design_section(a: &Args) -> Result<String> {
         writeln!(o, "| catalog size | default: status | default: cost | exhaustive: status | exhaustive: cost | exhaustive: time (s) | exhaustive: peak memory (MB) | exhaustive: line sets solved / total |")?;
         writeln!(o, "|---:|---|---:|---|---:|---:|---:|---|")?;
         for e in &exh {
-            let Some(r) = rows.iter().find(|r| r["rows"] == e["rows"]) else { continue };
+            let Some(r) = rows.iter().find(|r| r["rows"] == e["rows"]) else {
+                continue;
+            };
             let st = e.get("stats").cloned().unwrap_or(Value::Null);
-            let num = |v: &Value, k: &str| v.get(k).and_then(Value::as_u64).map_or("–".to_string(), |x| x.to_string());
+            let num = |v: &Value, k: &str| {
+                v.get(k)
+                    .and_then(Value::as_u64)
+                    .map_or("–".to_string(), |x| x.to_string())
+            };
             let cost = |v: &Value| get_f(v, "cost").map_or("–".into(), |c| format!("{c:.4}"));
             writeln!(
                 o,

@@ -58,11 +58,18 @@ fn blocks(body: &str) -> Vec<Block<'_>> {
             return;
         }
         let first = cur[0];
-        let rest_indented = cur.len() > 1 && cur[1..].iter().all(|l| l.starts_with(' ') || l.is_empty());
+        let rest_indented =
+            cur.len() > 1 && cur[1..].iter().all(|l| l.starts_with(' ') || l.is_empty());
         if !first.starts_with(' ') && rest_indented {
-            out.push(Block { heading: Some(first), lines: cur[1..].to_vec() });
+            out.push(Block {
+                heading: Some(first),
+                lines: cur[1..].to_vec(),
+            });
         } else {
-            out.push(Block { heading: None, lines: cur.clone() });
+            out.push(Block {
+                heading: None,
+                lines: cur.clone(),
+            });
         }
         cur.clear();
     }
@@ -112,11 +119,17 @@ pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
     let _ = writeln!(o, "<title>{} — ripplebank</title>", xml_escape(title));
     let _ = writeln!(o, "<style>{CSS}</style>\n</head>\n<body>");
     let _ = writeln!(o, "<header>\n<h1>{}</h1>", xml_escape(title));
-    let _ = writeln!(o, "<p class=\"meta\">ripplebank {}</p>\n</header>", env!("CARGO_PKG_VERSION"));
+    let _ = writeln!(
+        o,
+        "<p class=\"meta\">ripplebank {}</p>\n</header>",
+        env!("CARGO_PKG_VERSION")
+    );
 
     let blocks = blocks(body);
     // Verdict lines first, where the reader looks.
-    for b in blocks.iter().filter(|b| b.heading.is_none() && b.lines.first().is_some_and(|l| l.starts_with("Verdict:"))) {
+    for b in blocks.iter().filter(|b| {
+        b.heading.is_none() && b.lines.first().is_some_and(|l| l.starts_with("Verdict:"))
+    }) {
         let text = b.lines.join("\n");
         let class = if text.contains("PASS") {
             "pass"
@@ -142,14 +155,22 @@ pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
             }
             None if b.lines.first().is_some_and(|l| l.starts_with("Verdict:")) => continue,
             None => {
-                let _ = writeln!(o, "<section class=\"report-section\">\n<pre>{}</pre>\n</section>", xml_escape(&b.lines.join("\n")));
+                let _ = writeln!(
+                    o,
+                    "<section class=\"report-section\">\n<pre>{}</pre>\n</section>",
+                    xml_escape(&b.lines.join("\n"))
+                );
             }
         }
     }
     if !plots.is_empty() {
         o.push_str("<h2>Plots</h2>\n");
         for (name, svg) in plots {
-            let _ = writeln!(o, "<figure id=\"{}\">", xml_escape(name.trim_end_matches(".svg")));
+            let _ = writeln!(
+                o,
+                "<figure id=\"{}\">",
+                xml_escape(name.trim_end_matches(".svg"))
+            );
             match inline_svg(svg) {
                 Some(s) => o.push_str(s),
                 None => {
@@ -157,7 +178,13 @@ pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
                 }
             }
             let cap = caption(name);
-            let _ = writeln!(o, "\n<figcaption>{}{}{}</figcaption>\n</figure>", xml_escape(name), if cap.is_empty() { "" } else { " — " }, xml_escape(cap));
+            let _ = writeln!(
+                o,
+                "\n<figcaption>{}{}{}</figcaption>\n</figure>",
+                xml_escape(name),
+                if cap.is_empty() { "" } else { " — " },
+                xml_escape(cap)
+            );
         }
     }
     o.push_str("</main>\n");
@@ -176,7 +203,9 @@ mod tests {
 
     #[test]
     fn sections_and_plain_blocks() {
-        let b = blocks("Scenario: x\nConverter: y\n  corner\n\nBank\n  a  b\n  c  d\n\nVerdict: PASS\n");
+        let b = blocks(
+            "Scenario: x\nConverter: y\n  corner\n\nBank\n  a  b\n  c  d\n\nVerdict: PASS\n",
+        );
         assert_eq!(b.len(), 3);
         assert_eq!(b[0].heading, None);
         assert_eq!(b[1].heading, Some("Bank"));
@@ -186,7 +215,10 @@ mod tests {
 
     #[test]
     fn strips_declaration() {
-        assert_eq!(inline_svg("<?xml version=\"1.0\"?>\n<svg a=\"1\"><g/></svg>\n"), Some("<svg a=\"1\"><g/></svg>"));
+        assert_eq!(
+            inline_svg("<?xml version=\"1.0\"?>\n<svg a=\"1\"><g/></svg>\n"),
+            Some("<svg a=\"1\"><g/></svg>")
+        );
         assert_eq!(inline_svg("not svg"), None);
     }
 }

@@ -28,20 +28,22 @@ pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value
     let mut v = serde_json::to_value(a).expect("serialisable");
     let o = v.as_object_mut().expect("object");
     o.insert("status".into(), json!(status));
-    o.insert("excluded".into(), serde_json::to_value(&problem.excluded).expect("serialisable"));
+    o.insert(
+        "excluded".into(),
+        serde_json::to_value(&problem.excluded).expect("serialisable"),
+    );
     o.insert("scenario".into(), json!(problem.scenario.name));
-    o.insert("objective".into(), json!(problem.scenario.selection.objective.name()));
+    o.insert(
+        "objective".into(),
+        json!(problem.scenario.selection.objective.name()),
+    );
     v
 }
 
 /// Replace NaN and infinities (never valid JSON) by null, recursively.
 pub fn sanitize(v: &mut Value) {
     match v {
-        Value::Number(n) => {
-            if n.as_f64().is_some_and(|x| !x.is_finite()) {
-                *v = Value::Null;
-            }
-        }
+        Value::Number(n) if n.as_f64().is_some_and(|x| !x.is_finite()) => *v = Value::Null,
         Value::Array(a) => a.iter_mut().for_each(sanitize),
         Value::Object(o) => o.values_mut().for_each(sanitize),
         _ => {}
@@ -68,17 +70,30 @@ impl OutFiles {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
             _ => PathBuf::from("."),
         };
-        let name = dir.file_name().context("--out needs a folder name")?.to_string_lossy().to_string();
+        let name = dir
+            .file_name()
+            .context("--out needs a folder name")?
+            .to_string_lossy()
+            .to_string();
         if dir.exists() && !dir.is_dir() {
             anyhow::bail!("--out {}: exists and is not a folder", dir.display());
         }
-        std::fs::create_dir_all(&parent).with_context(|| format!("--out: cannot create {}", parent.display()))?;
-        let stamp = format!("{}-{}", std::process::id(), std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map_or(0, |d| d.as_nanos()));
+        std::fs::create_dir_all(&parent)
+            .with_context(|| format!("--out: cannot create {}", parent.display()))?;
+        let stamp = format!(
+            "{}-{}",
+            std::process::id(),
+            std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .map_or(0, |d| d.as_nanos())
+        );
         let tmp = parent.join(format!(".{name}.tmp-{stamp}"));
-        std::fs::create_dir(&tmp).with_context(|| format!("--out: cannot create {}", tmp.display()))?;
+        std::fs::create_dir(&tmp)
+            .with_context(|| format!("--out: cannot create {}", tmp.display()))?;
         let write_all = || -> Result<()> {
             for (f, data) in &self.files {
-                std::fs::write(tmp.join(f), data).with_context(|| format!("--out: cannot write {f}"))?;
+                std::fs::write(tmp.join(f), data)
+                    .with_context(|| format!("--out: cannot write {f}"))?;
             }
             Ok(())
         };
@@ -93,12 +108,14 @@ impl OutFiles {
             for (f, _) in &self.files {
                 if let Err(e) = std::fs::rename(tmp.join(f), dir.join(f)) {
                     let _ = std::fs::remove_dir_all(&tmp);
-                    return Err(e).with_context(|| format!("--out: cannot move {f} into {}", dir.display()));
+                    return Err(e)
+                        .with_context(|| format!("--out: cannot move {f} into {}", dir.display()));
                 }
             }
             let _ = std::fs::remove_dir_all(&tmp);
         } else {
-            std::fs::rename(&tmp, dir).with_context(|| format!("--out: cannot rename into {}", dir.display()))?;
+            std::fs::rename(&tmp, dir)
+                .with_context(|| format!("--out: cannot rename into {}", dir.display()))?;
         }
         Ok(())
     }
@@ -110,8 +127,20 @@ pub fn bom_csv(problem: &Problem, bank: &[(usize, u32)]) -> Vec<u8> {
     let cat = &problem.catalog;
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut head: Vec<String> = [
-        "part", "count", "technology", "capacitance", "rated_voltage", "dielectric", "case", "esr", "esl", "unit_cost", "line_total_cost",
-        "manufacturer", "mpn", "description",
+        "part",
+        "count",
+        "technology",
+        "capacitance",
+        "rated_voltage",
+        "dielectric",
+        "case",
+        "esr",
+        "esl",
+        "unit_cost",
+        "line_total_cost",
+        "manufacturer",
+        "mpn",
+        "description",
     ]
     .iter()
     .map(|s| s.to_string())
@@ -137,7 +166,12 @@ pub fn bom_csv(problem: &Problem, bank: &[(usize, u32)]) -> Vec<u8> {
             p.description.clone().unwrap_or_default(),
         ];
         for c in &cat.extra_columns {
-            row.push(p.extra.iter().find(|(h, _)| h == c).map_or(String::new(), |(_, v)| v.clone()));
+            row.push(
+                p.extra
+                    .iter()
+                    .find(|(h, _)| h == c)
+                    .map_or(String::new(), |(_, v)| v.clone()),
+            );
         }
         w.write_record(&row).expect("in memory");
     }

@@ -14,12 +14,12 @@ use crate::problem::Problem;
 use crate::units::format_si;
 use anyhow::{anyhow, bail, Result};
 use num_complex::Complex64;
+use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint};
 use plotters::coord::Shift;
 use plotters::prelude::*;
-use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint};
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use std::ops::Range;
 use std::f64::consts::PI;
+use std::ops::Range;
 
 /// One point of a trade-off sweep, as the `tradeoff` command found it.
 #[derive(Debug, Clone, PartialEq)]
@@ -68,7 +68,12 @@ fn prep(problem: &Problem, bank: &[(usize, u32)]) -> Result<Prep> {
             vin_corner = c;
         }
     }
-    Ok(Prep { ev, local, bank, vin_corner })
+    Ok(Prep {
+        ev,
+        local,
+        bank,
+        vin_corner,
+    })
 }
 
 fn peak_to_peak(v: &[f64]) -> f64 {
@@ -77,7 +82,9 @@ fn peak_to_peak(v: &[f64]) -> f64 {
 }
 
 fn min_max(v: impl Iterator<Item = f64>) -> (f64, f64) {
-    v.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), x| (lo.min(x), hi.max(x)))
+    v.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), x| {
+        (lo.min(x), hi.max(x))
+    })
 }
 
 fn vin_text(problem: &Problem, corner: usize) -> String {
@@ -123,12 +130,18 @@ fn transfer(problem: &Problem, yb: Complex64, f: f64) -> Complex64 {
 
 /// |Z| of the whole bank (worst capacitance) at arbitrary frequencies.
 pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -> Vec<f64> {
-    let models: Vec<(crate::bank::PartModel, f64)> =
-        bank.iter().filter(|b| b.1 > 0).map(|&(i, n)| (problem.part_model(i), n as f64)).collect();
+    let models: Vec<(crate::bank::PartModel, f64)> = bank
+        .iter()
+        .filter(|b| b.1 > 0)
+        .map(|&(i, n)| (problem.part_model(i), n as f64))
+        .collect();
     freqs
         .iter()
         .map(|&f| {
-            let yb: Complex64 = models.iter().map(|(m, n)| admittance(m.esr, m.esl, m.c_worst, f) * *n).sum();
+            let yb: Complex64 = models
+                .iter()
+                .map(|(m, n)| admittance(m.esr, m.esl, m.c_worst, f) * *n)
+                .sum();
             transfer(problem, yb, f).norm()
         })
         .collect()
@@ -138,7 +151,9 @@ pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -
 fn log_sweep(lo: f64, hi: f64, per_decade: usize) -> Vec<f64> {
     let decades = (hi / lo).log10().max(0.0);
     let n = ((decades * per_decade as f64).ceil() as usize).max(2);
-    (0..=n).map(|i| lo * 10f64.powf(decades * i as f64 / n as f64)).collect()
+    (0..=n)
+        .map(|i| lo * 10f64.powf(decades * i as f64 / n as f64))
+        .collect()
 }
 
 fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
@@ -153,13 +168,27 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
         .iter()
         .map(|&(i, n)| {
             let m = problem.part_model(i);
-            let z: Vec<f64> = freqs.iter().map(|&f| (admittance(m.esr, m.esl, m.c_worst, f) * n as f64).inv().norm()).collect();
+            let z: Vec<f64> = freqs
+                .iter()
+                .map(|&f| {
+                    (admittance(m.esr, m.esl, m.c_worst, f) * n as f64)
+                        .inv()
+                        .norm()
+                })
+                .collect();
             (format!("{n} × {}", cat.parts[i].id), z)
         })
         .collect();
     let c = &problem.scenario.converter;
     let internal = c.internal_capacitance.map(|ci| {
-        freqs.iter().map(|&f| admittance(c.internal_esr.0, c.internal_esl.0, ci.0, f).inv().norm()).collect()
+        freqs
+            .iter()
+            .map(|&f| {
+                admittance(c.internal_esr.0, c.internal_esl.0, ci.0, f)
+                    .inv()
+                    .norm()
+            })
+            .collect()
     });
     let bank = bank_impedance(problem, &p.bank, &freqs);
     let target = problem.scenario.target.ripple_pp.0;
@@ -171,7 +200,15 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
             (drive > 0.0 && drive.is_finite()).then(|| (ev.freqs[k], target / (2.0 * drive)))
         })
         .collect();
-    ImpedanceData { freqs, groups, internal, bank, harmonics, needed, vin_corner: p.vin_corner }
+    ImpedanceData {
+        freqs,
+        groups,
+        internal,
+        bank,
+        harmonics,
+        needed,
+        vin_corner: p.vin_corner,
+    }
 }
 
 /// The data of `impedance.svg`.
@@ -196,8 +233,10 @@ pub struct RippleData {
 }
 
 fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
-    let limited = p.ev.waveform(&p.local, Corner::Worst, Band::Limited, p.vin_corner);
-    let full = p.ev.waveform(&p.local, Corner::Worst, Band::Full, p.vin_corner);
+    let limited =
+        p.ev.waveform(&p.local, Corner::Worst, Band::Limited, p.vin_corner);
+    let full =
+        p.ev.waveform(&p.local, Corner::Worst, Band::Full, p.vin_corner);
     let (lo, hi) = min_max(limited.iter().copied());
     RippleData {
         period: 1.0 / p.ev.f_ripple,
@@ -228,7 +267,8 @@ pub struct SpectrumData {
 }
 
 fn spectrum_of(p: &mut Prep, problem: &Problem) -> SpectrumData {
-    let v = p.ev.harmonic_voltages(&p.local, Corner::Worst, p.vin_corner);
+    let v =
+        p.ev.harmonic_voltages(&p.local, Corner::Worst, p.vin_corner);
     SpectrumData {
         freqs: p.ev.freqs[..v.len()].to_vec(),
         amplitude: v.iter().map(|x| x.norm()).collect(),
@@ -290,7 +330,11 @@ struct Entry {
 }
 
 fn entry(label: impl Into<String>, color: RGBColor, mark: Mark) -> Entry {
-    Entry { label: label.into(), color, mark }
+    Entry {
+        label: label.into(),
+        color,
+        mark,
+    }
 }
 
 const LEGEND_ROW: i32 = 22;
@@ -302,23 +346,54 @@ fn legend_height(n: usize, cols: usize) -> u32 {
 
 fn draw_mark(area: &Area, mark: Mark, color: RGBColor, x: i32, y: i32) -> Result<()> {
     match mark {
-        Mark::Line(w) => area.draw(&PathElement::new(vec![(x, y), (x + 30, y)], color.stroke_width(w))).map_err(pe)?,
+        Mark::Line(w) => area
+            .draw(&PathElement::new(
+                vec![(x, y), (x + 30, y)],
+                color.stroke_width(w),
+            ))
+            .map_err(pe)?,
         Mark::Dashed => {
             for s in [0, 12, 24] {
-                area.draw(&PathElement::new(vec![(x + s, y), (x + s + 7, y)], color.stroke_width(2))).map_err(pe)?;
+                area.draw(&PathElement::new(
+                    vec![(x + s, y), (x + s + 7, y)],
+                    color.stroke_width(2),
+                ))
+                .map_err(pe)?;
             }
         }
         Mark::Dotted => {
             for s in [0, 7, 14, 21, 28] {
-                area.draw(&PathElement::new(vec![(x + s, y), (x + s + 3, y)], color.stroke_width(2))).map_err(pe)?;
+                area.draw(&PathElement::new(
+                    vec![(x + s, y), (x + s + 3, y)],
+                    color.stroke_width(2),
+                ))
+                .map_err(pe)?;
             }
         }
-        Mark::Dot => area.draw(&Circle::new((x + 15, y), 3, color.filled())).map_err(pe)?,
-        Mark::FilledDot => area.draw(&Circle::new((x + 15, y), 5, color.filled())).map_err(pe)?,
-        Mark::HollowDot => area.draw(&Circle::new((x + 15, y), 4, color.stroke_width(2))).map_err(pe)?,
-        Mark::Bar => area.draw(&PathElement::new(vec![(x + 9, y), (x + 21, y)], color.stroke_width(3))).map_err(pe)?,
-        Mark::Cross => area.draw(&Cross::new((x + 15, y), 5, color.stroke_width(2))).map_err(pe)?,
-        Mark::Square => area.draw(&Rectangle::new([(x + 11, y - 4), (x + 19, y + 4)], color.stroke_width(1))).map_err(pe)?,
+        Mark::Dot => area
+            .draw(&Circle::new((x + 15, y), 3, color.filled()))
+            .map_err(pe)?,
+        Mark::FilledDot => area
+            .draw(&Circle::new((x + 15, y), 5, color.filled()))
+            .map_err(pe)?,
+        Mark::HollowDot => area
+            .draw(&Circle::new((x + 15, y), 4, color.stroke_width(2)))
+            .map_err(pe)?,
+        Mark::Bar => area
+            .draw(&PathElement::new(
+                vec![(x + 9, y), (x + 21, y)],
+                color.stroke_width(3),
+            ))
+            .map_err(pe)?,
+        Mark::Cross => area
+            .draw(&Cross::new((x + 15, y), 5, color.stroke_width(2)))
+            .map_err(pe)?,
+        Mark::Square => area
+            .draw(&Rectangle::new(
+                [(x + 11, y - 4), (x + 19, y + 4)],
+                color.stroke_width(1),
+            ))
+            .map_err(pe)?,
     }
     Ok(())
 }
@@ -326,13 +401,16 @@ fn draw_mark(area: &Area, mark: Mark, color: RGBColor, x: i32, y: i32) -> Result
 fn draw_legend(area: &Area, entries: &[Entry], cols: usize, left: i32) -> Result<()> {
     let (w, _) = area.dim_in_pixel();
     let col_w = (w as i32 - left - 20) / cols.max(1) as i32;
-    let style = TextStyle::from((FONT, 15).into_font()).color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
+    let style = TextStyle::from((FONT, 15).into_font())
+        .color(&INK)
+        .pos(Pos::new(HPos::Left, VPos::Center));
     for (i, e) in entries.iter().enumerate() {
         let (r, c) = (i / cols, i % cols);
         let x = left + c as i32 * col_w;
         let y = 12 + r as i32 * LEGEND_ROW;
         draw_mark(area, e.mark, e.color, x, y)?;
-        area.draw(&Text::new(e.label.clone(), (x + 38, y), style.clone())).map_err(pe)?;
+        area.draw(&Text::new(e.label.clone(), (x + 38, y), style.clone()))
+            .map_err(pe)?;
     }
     Ok(())
 }
@@ -341,9 +419,11 @@ fn draw_legend(area: &Area, entries: &[Entry], cols: usize, left: i32) -> Result
 fn titled<'a>(root: &Area<'a>, title: &str, subtitle: &str) -> Result<Area<'a>> {
     let (top, rest) = root.split_vertically(62);
     let t = TextStyle::from((FONT, 24).into_font().style(FontStyle::Bold)).color(&INK);
-    top.draw(&Text::new(title.to_string(), (20, 10), t)).map_err(pe)?;
+    top.draw(&Text::new(title.to_string(), (20, 10), t))
+        .map_err(pe)?;
     let s = TextStyle::from((FONT, 16).into_font()).color(&MUTED);
-    top.draw(&Text::new(subtitle.to_string(), (20, 38), s)).map_err(pe)?;
+    top.draw(&Text::new(subtitle.to_string(), (20, 38), s))
+        .map_err(pe)?;
     Ok(rest)
 }
 
@@ -418,7 +498,12 @@ struct LogAxis {
 /// The axis for values from `lo` to `hi` (not logarithms).
 fn log_axis(lo: f64, hi: f64) -> LogAxis {
     let (bold, light) = log_ticks(lo, hi);
-    LogAxis { lo: lo.log10(), hi: hi.log10(), bold, light }
+    LogAxis {
+        lo: lo.log10(),
+        hi: hi.log10(),
+        bold,
+        light,
+    }
 }
 
 impl Ranged for LogAxis {
@@ -454,7 +539,13 @@ fn log_label(v: f64, unit: &str) -> String {
 
 /// A log range [lo, hi] padded by `pad` (a factor) on both sides.
 fn padded(lo: f64, hi: f64, pad: f64) -> (f64, f64) {
-    let (lo, hi) = if lo > 0.0 && hi > lo { (lo, hi) } else if lo > 0.0 { (lo / 2.0, lo * 2.0) } else { (1e-3, 1.0) };
+    let (lo, hi) = if lo > 0.0 && hi > lo {
+        (lo, hi)
+    } else if lo > 0.0 {
+        (lo / 2.0, lo * 2.0)
+    } else {
+        (1e-3, 1.0)
+    };
     (lo / pad, hi * pad)
 }
 
@@ -493,7 +584,11 @@ fn decimate(pts: &[(f64, f64)], max: usize) -> Vec<(f64, f64)> {
                 imax = i;
             }
         }
-        let (a, b) = if imin <= imax { (imin, imax) } else { (imax, imin) };
+        let (a, b) = if imin <= imax {
+            (imin, imax)
+        } else {
+            (imax, imin)
+        };
         out.push(ch[a]);
         if b != a {
             out.push(ch[b]);
@@ -513,7 +608,11 @@ fn band_text(problem: &Problem) -> String {
 // ---------------------------------------------------------------- bank plots
 
 /// `impedance.svg`, `ripple.svg` and `spectrum.svg` for one bank: (file name, SVG text).
-pub fn bank_plots(problem: &Problem, bank: &[(usize, u32)], a: &Assessment) -> Result<Vec<(String, String)>> {
+pub fn bank_plots(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    a: &Assessment,
+) -> Result<Vec<(String, String)>> {
     let mut p = prep(problem, bank)?;
     let imp = impedance_of(&mut p, problem);
     let rip = ripple_of(&mut p, problem);
@@ -531,16 +630,33 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         curves.push(z);
     }
     curves.push(&d.bank);
-    let (clo, chi) = min_max(curves.iter().flat_map(|c| c.iter().copied()).filter(|x| x.is_finite() && *x > 0.0));
-    let bank_hi = d.bank.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max);
+    let (clo, chi) = min_max(
+        curves
+            .iter()
+            .flat_map(|c| c.iter().copied())
+            .filter(|x| x.is_finite() && *x > 0.0),
+    );
+    let bank_hi = d
+        .bank
+        .iter()
+        .copied()
+        .filter(|x| x.is_finite())
+        .fold(0.0, f64::max);
     let need_lo = d.needed.iter().map(|n| n.1).fold(f64::INFINITY, f64::min);
     // Keep the view on the bank: parts far above it (tiny capacitors at low
     // frequency) are cut at 1000 × the bank's highest impedance.
     // The needed impedances rise fast with the harmonic number: show them
     // up to 10 × the top of the curves, enough to see the margins.
     let curves_hi = chi.min(bank_hi * 1e3);
-    let need_hi = d.needed.iter().map(|n| n.1).fold(0.0, f64::max).min(curves_hi * 10.0);
-    let hi = curves_hi.max(need_hi).max(if need_lo.is_finite() { need_lo } else { 0.0 });
+    let need_hi = d
+        .needed
+        .iter()
+        .map(|n| n.1)
+        .fold(0.0, f64::max)
+        .min(curves_hi * 10.0);
+    let hi = curves_hi
+        .max(need_hi)
+        .max(if need_lo.is_finite() { need_lo } else { 0.0 });
     let lo = clo.min(need_lo);
     let (ylo, yhi) = padded(lo, hi, 1.6);
     let off_scale = d.needed.iter().any(|n| n.1 > yhi);
@@ -548,13 +664,29 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
 
     let mut entries = Vec::new();
     for (j, g) in d.groups.iter().enumerate() {
-        entries.push(entry(format!("{} (one line)", g.0), PALETTE[j % PALETTE.len()], Mark::Line(2)));
+        entries.push(entry(
+            format!("{} (one line)", g.0),
+            PALETTE[j % PALETTE.len()],
+            Mark::Line(2),
+        ));
     }
     if d.internal.is_some() {
-        entries.push(entry("converter's internal capacitance", MUTED, Mark::Dashed));
+        entries.push(entry(
+            "converter's internal capacitance",
+            MUTED,
+            Mark::Dashed,
+        ));
     }
-    entries.push(entry("whole bank, as the converter's current sees it", INK, Mark::Line(4)));
-    entries.push(entry("the bank at each harmonic of the ripple current", INK, Mark::Dot));
+    entries.push(entry(
+        "whole bank, as the converter's current sees it",
+        INK,
+        Mark::Line(4),
+    ));
+    entries.push(entry(
+        "the bank at each harmonic of the ripple current",
+        INK,
+        Mark::Dot,
+    ));
     entries.push(entry(
         if off_scale {
             "impedance at which that harmonic alone would use the whole budget (higher harmonics: above the scale)"
@@ -582,10 +714,7 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
             .margin_top(10)
             .x_label_area_size(56)
             .y_label_area_size(96)
-            .build_cartesian_2d(
-                log_axis(xlo, xhi),
-                log_axis(ylo, yhi),
-            )
+            .build_cartesian_2d(log_axis(xlo, xhi), log_axis(ylo, yhi))
             .map_err(pe)?;
         let fx = |v: &f64| log_label(*v, "Hz");
         let fy = |v: &f64| log_label(*v, "Ω");
@@ -605,30 +734,40 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         // The bank first and thick, the lines on top and thin: a bank of
         // one line shows both curves, one inside the other.
         for run in log_runs(&d.freqs, &d.bank, ylo, yhi) {
-            chart.draw_series(LineSeries::new(run, INK.stroke_width(4))).map_err(pe)?;
+            chart
+                .draw_series(LineSeries::new(run, INK.stroke_width(4)))
+                .map_err(pe)?;
         }
         for (j, g) in d.groups.iter().enumerate() {
             let col = PALETTE[j % PALETTE.len()];
             for run in log_runs(&d.freqs, &g.1, ylo, yhi) {
-                chart.draw_series(LineSeries::new(run, col.stroke_width(2))).map_err(pe)?;
+                chart
+                    .draw_series(LineSeries::new(run, col.stroke_width(2)))
+                    .map_err(pe)?;
             }
         }
         if let Some(z) = &d.internal {
             for run in log_runs(&d.freqs, z, ylo, yhi) {
-                chart.draw_series(DashedLineSeries::new(run, 7, 5, MUTED.stroke_width(2))).map_err(pe)?;
+                chart
+                    .draw_series(DashedLineSeries::new(run, 7, 5, MUTED.stroke_width(2)))
+                    .map_err(pe)?;
             }
         }
-        let in_view = |&(f, z): &(f64, f64)| f >= xlo && f <= xhi && z >= ylo && z <= yhi && z.is_finite();
+        let in_view =
+            |&(f, z): &(f64, f64)| f >= xlo && f <= xhi && z >= ylo && z <= yhi && z.is_finite();
         chart
-            .draw_series(
-                d.needed
-                    .iter()
-                    .filter(|p| in_view(p))
-                    .map(|&(f, z)| EmptyElement::at((f.log10(), z.log10())) + PathElement::new(vec![(-6, 0), (6, 0)], ALERT.stroke_width(3))),
-            )
+            .draw_series(d.needed.iter().filter(|p| in_view(p)).map(|&(f, z)| {
+                EmptyElement::at((f.log10(), z.log10()))
+                    + PathElement::new(vec![(-6, 0), (6, 0)], ALERT.stroke_width(3))
+            }))
             .map_err(pe)?;
         chart
-            .draw_series(d.harmonics.iter().filter(|p| in_view(p)).map(|&(f, z)| Circle::new((f.log10(), z.log10()), 3, INK.filled())))
+            .draw_series(
+                d.harmonics
+                    .iter()
+                    .filter(|p| in_view(p))
+                    .map(|&(f, z)| Circle::new((f.log10(), z.log10()), 3, INK.filled())),
+            )
             .map_err(pe)?;
         draw_legend(&legend, &entries, cols, 110)
     })
@@ -639,7 +778,9 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
     let us = d.period * 1e6;
     let trace = |v: &[f64]| -> Vec<(f64, f64)> {
         let m = v.len().max(1);
-        let mut pts: Vec<(f64, f64)> = (0..periods * m + 1).map(|i| (i as f64 * us / m as f64, v[i % m] * 1e3)).collect();
+        let mut pts: Vec<(f64, f64)> = (0..periods * m + 1)
+            .map(|i| (i as f64 * us / m as f64, v[i % m] * 1e3))
+            .collect();
         pts = decimate(&pts, 2400);
         pts
     };
@@ -647,15 +788,38 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
     let full = trace(&d.full);
     let band_lo = (d.mid - d.target / 2.0) * 1e3;
     let band_hi = (d.mid + d.target / 2.0) * 1e3;
-    let (vlo, vhi) = min_max(lim.iter().chain(&full).map(|p| p.1).chain([band_lo, band_hi]));
+    let (vlo, vhi) = min_max(
+        lim.iter()
+            .chain(&full)
+            .map(|p| p.1)
+            .chain([band_lo, band_hi]),
+    );
     let pad = (vhi - vlo).max(1e-9) * 0.08;
     let (ylo, yhi) = (vlo - pad, vhi + pad);
     let xhi = periods as f64 * us;
     let bw = band_text(problem);
     let entries = vec![
-        entry(format!("full bandwidth: {} p-p", format_si(peak_to_peak(&d.full), "V")), PALETTE[4], Mark::Line(1)),
-        entry(format!("{bw}: {} p-p", format_si(peak_to_peak(&d.limited), "V")), PALETTE[0], Mark::Line(3)),
-        entry(format!("target band: {} p-p around the middle of the {bw} trace", format_si(d.target, "V")), ALERT, Mark::Dashed),
+        entry(
+            format!(
+                "full bandwidth: {} p-p",
+                format_si(peak_to_peak(&d.full), "V")
+            ),
+            PALETTE[4],
+            Mark::Line(1),
+        ),
+        entry(
+            format!("{bw}: {} p-p", format_si(peak_to_peak(&d.limited), "V")),
+            PALETTE[0],
+            Mark::Line(3),
+        ),
+        entry(
+            format!(
+                "target band: {} p-p around the middle of the {bw} trace",
+                format_si(d.target, "V")
+            ),
+            ALERT,
+            Mark::Dashed,
+        ),
     ];
     let cols = 1;
     let lh = legend_height(entries.len(), cols);
@@ -665,7 +829,11 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
         vin_text(problem, d.vin_corner),
         periods,
         format_si(d.period, "s"),
-        if a.meets_target { "meets the target" } else { "MISSES the target" }
+        if a.meets_target {
+            "meets the target"
+        } else {
+            "MISSES the target"
+        }
     );
     svg(560 + lh, title, |root| {
         let rest = titled(root, title, &subtitle)?;
@@ -696,10 +864,21 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
             .axis_style(INK.stroke_width(1))
             .draw()
             .map_err(pe)?;
-        chart.draw_series(LineSeries::new(full, PALETTE[4].stroke_width(1))).map_err(pe)?;
-        chart.draw_series(LineSeries::new(lim, PALETTE[0].stroke_width(3))).map_err(pe)?;
+        chart
+            .draw_series(LineSeries::new(full, PALETTE[4].stroke_width(1)))
+            .map_err(pe)?;
+        chart
+            .draw_series(LineSeries::new(lim, PALETTE[0].stroke_width(3)))
+            .map_err(pe)?;
         for y in [band_lo, band_hi] {
-            chart.draw_series(DashedLineSeries::new(vec![(0.0, y), (xhi, y)], 9, 6, ALERT.stroke_width(2))).map_err(pe)?;
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(0.0, y), (xhi, y)],
+                    9,
+                    6,
+                    ALERT.stroke_width(2),
+                ))
+                .map_err(pe)?;
         }
         draw_legend(&legend, &entries, cols, 110)
     })
@@ -723,15 +902,34 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
     let peak = vpp.iter().copied().fold(0.0, f64::max);
     let top = peak.max(d.target);
     let (ylo, yhi) = padded(top * 1e-5, top, 2.0);
-    let (xlo, xhi) = (d.freqs[0] / 1.5, d.freqs.last().copied().unwrap_or(d.freqs[0]) * 1.5);
+    let (xlo, xhi) = (
+        d.freqs[0] / 1.5,
+        d.freqs.last().copied().unwrap_or(d.freqs[0]) * 1.5,
+    );
     let bw = band_text(problem);
     let bandwidth = problem.scenario.target.bandwidth.map(|b| b.0);
     let mut entries = vec![
-        entry(format!("peak-to-peak of each harmonic, 2|V_k| ({bw})"), PALETTE[0], Mark::Dot),
-        entry(format!("budget: target {} p-p", format_si(d.target, "V")), ALERT, Mark::Dashed),
+        entry(
+            format!("peak-to-peak of each harmonic, 2|V_k| ({bw})"),
+            PALETTE[0],
+            Mark::Dot,
+        ),
+        entry(
+            format!("budget: target {} p-p", format_si(d.target, "V")),
+            ALERT,
+            Mark::Dashed,
+        ),
     ];
     if bandwidth.is_some() {
-        entries.push(entry(format!("measurement bandwidth, {} (order {})", format_si(bandwidth.unwrap_or(0.0), "Hz"), problem.scenario.target.bandwidth_order), MUTED, Mark::Dotted));
+        entries.push(entry(
+            format!(
+                "measurement bandwidth, {} (order {})",
+                format_si(bandwidth.unwrap_or(0.0), "Hz"),
+                problem.scenario.target.bandwidth_order
+            ),
+            MUTED,
+            Mark::Dotted,
+        ));
     }
     let cols = 1;
     let lh = legend_height(entries.len(), cols);
@@ -750,10 +948,7 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
             .margin_top(10)
             .x_label_area_size(56)
             .y_label_area_size(96)
-            .build_cartesian_2d(
-                log_axis(xlo, xhi),
-                log_axis(ylo, yhi),
-            )
+            .build_cartesian_2d(log_axis(xlo, xhi), log_axis(ylo, yhi))
             .map_err(pe)?;
         let fx = |v: &f64| log_label(*v, "Hz");
         let fy = |v: &f64| log_label(*v, "V");
@@ -770,18 +965,47 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
             .axis_style(INK.stroke_width(1))
             .draw()
             .map_err(pe)?;
-        let shown: Vec<(f64, f64)> =
-            d.freqs.iter().zip(&vpp).filter(|(_, &v)| v >= ylo && v <= yhi).map(|(&f, &v)| (f.log10(), v.log10())).collect();
+        let shown: Vec<(f64, f64)> = d
+            .freqs
+            .iter()
+            .zip(&vpp)
+            .filter(|(_, &v)| v >= ylo && v <= yhi)
+            .map(|(&f, &v)| (f.log10(), v.log10()))
+            .collect();
         chart
-            .draw_series(shown.iter().map(|&(x, y)| PathElement::new(vec![(x, ylo.log10()), (x, y)], PALETTE[0].mix(0.45).stroke_width(1))))
+            .draw_series(shown.iter().map(|&(x, y)| {
+                PathElement::new(
+                    vec![(x, ylo.log10()), (x, y)],
+                    PALETTE[0].mix(0.45).stroke_width(1),
+                )
+            }))
             .map_err(pe)?;
-        chart.draw_series(shown.iter().map(|&p| Circle::new(p, 3, PALETTE[0].filled()))).map_err(pe)?;
         chart
-            .draw_series(DashedLineSeries::new(vec![(xlo.log10(), d.target.log10()), (xhi.log10(), d.target.log10())], 9, 6, ALERT.stroke_width(2)))
+            .draw_series(
+                shown
+                    .iter()
+                    .map(|&p| Circle::new(p, 3, PALETTE[0].filled())),
+            )
+            .map_err(pe)?;
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![
+                    (xlo.log10(), d.target.log10()),
+                    (xhi.log10(), d.target.log10()),
+                ],
+                9,
+                6,
+                ALERT.stroke_width(2),
+            ))
             .map_err(pe)?;
         if let Some(b) = bandwidth.filter(|b| *b > xlo && *b < xhi) {
             chart
-                .draw_series(DashedLineSeries::new(vec![(b.log10(), ylo.log10()), (b.log10(), yhi.log10())], 3, 4, MUTED.stroke_width(2)))
+                .draw_series(DashedLineSeries::new(
+                    vec![(b.log10(), ylo.log10()), (b.log10(), yhi.log10())],
+                    3,
+                    4,
+                    MUTED.stroke_width(2),
+                ))
                 .map_err(pe)?;
         }
         draw_legend(&legend, &entries, cols, 110)
@@ -792,7 +1016,10 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
 
 /// `cost.svg` and `area.svg` of a trade-off sweep: (file name, SVG text).
 pub fn tradeoff_plots(points: &[TradeoffPoint]) -> Result<Vec<(String, String)>> {
-    let mut pts: Vec<&TradeoffPoint> = points.iter().filter(|p| p.target.is_finite() && p.target > 0.0).collect();
+    let mut pts: Vec<&TradeoffPoint> = points
+        .iter()
+        .filter(|p| p.target.is_finite() && p.target > 0.0)
+        .collect();
     pts.sort_by(|a, b| a.target.total_cmp(&b.target));
     // Number each distinct bank in the order it first appears (loosest target last).
     let mut keys: Vec<String> = Vec::new();
@@ -819,10 +1046,23 @@ pub fn tradeoff_plots(points: &[TradeoffPoint]) -> Result<Vec<(String, String)>>
     }
     let mut out = Vec::new();
     for (file, what, axis, title) in [
-        ("cost.svg", Quantity::Cost, "cost (catalog currency)", "Cost against ripple target"),
-        ("area.svg", Quantity::Area, "board area (mm²)", "Board area against ripple target"),
+        (
+            "cost.svg",
+            Quantity::Cost,
+            "cost (catalog currency)",
+            "Cost against ripple target",
+        ),
+        (
+            "area.svg",
+            Quantity::Area,
+            "board area (mm²)",
+            "Board area against ripple target",
+        ),
     ] {
-        out.push((file.to_string(), tradeoff_svg(&pts, &number, &changed, &keys, what, axis, title)?));
+        out.push((
+            file.to_string(),
+            tradeoff_svg(&pts, &number, &changed, &keys, what, axis, title)?,
+        ));
     }
     Ok(out)
 }
@@ -842,12 +1082,18 @@ fn tradeoff_svg(
     axis: &str,
     title: &str,
 ) -> Result<String> {
-    let val = |p: &TradeoffPoint| match what {
-        Quantity::Cost => p.cost,
-        Quantity::Area => p.area,
-    }
-    .filter(|v| v.is_finite());
-    let xs = pts.iter().map(|p| p.target).chain(pts.iter().filter_map(|p| p.ripple_pp).filter(|r| r.is_finite() && *r > 0.0));
+    let val = |p: &TradeoffPoint| {
+        match what {
+            Quantity::Cost => p.cost,
+            Quantity::Area => p.area,
+        }
+        .filter(|v| v.is_finite())
+    };
+    let xs = pts.iter().map(|p| p.target).chain(
+        pts.iter()
+            .filter_map(|p| p.ripple_pp)
+            .filter(|r| r.is_finite() && *r > 0.0),
+    );
     let (xmin, xmax) = min_max(xs.map(|x| x * 1e3));
     let (xlo, xhi) = padded(xmin, xmax, 1.25);
     let ymax = pts.iter().filter_map(|p| val(p)).fold(0.0, f64::max);
@@ -855,17 +1101,35 @@ fn tradeoff_svg(
     let any_infeasible = pts.iter().any(|p| p.cost.is_none() && p.area.is_none());
     let mut entries = vec![
         entry("chosen bank at each target", PALETTE[0], Mark::HollowDot),
-        entry("the chosen bank changes here (number: key below)", PALETTE[0], Mark::FilledDot),
-        entry("the same bank at the ripple it reaches", MUTED, Mark::Square),
+        entry(
+            "the chosen bank changes here (number: key below)",
+            PALETTE[0],
+            Mark::FilledDot,
+        ),
+        entry(
+            "the same bank at the ripple it reaches",
+            MUTED,
+            Mark::Square,
+        ),
     ];
     if any_infeasible {
         entries.push(entry("no bank meets this target", ALERT, Mark::Cross));
     }
-    let key_lines: Vec<String> = keys.iter().enumerate().map(|(i, k)| format!("{}: {}", i + 1, k)).collect();
-    let lh = legend_height(entries.len(), 1) + (key_lines.len() as u32) * 20 + if key_lines.is_empty() { 0 } else { 14 };
+    let key_lines: Vec<String> = keys
+        .iter()
+        .enumerate()
+        .map(|(i, k)| format!("{}: {}", i + 1, k))
+        .collect();
+    let lh = legend_height(entries.len(), 1)
+        + (key_lines.len() as u32) * 20
+        + if key_lines.is_empty() { 0 } else { 14 };
     let subtitle = match what {
-        Quantity::Cost => "each point is the bank chosen for that target; tighter targets to the left",
-        Quantity::Area => "footprint of the bank chosen for each target; tighter targets to the left",
+        Quantity::Cost => {
+            "each point is the bank chosen for that target; tighter targets to the left"
+        }
+        Quantity::Area => {
+            "footprint of the bank chosen for each target; tighter targets to the left"
+        }
     };
     svg(540 + lh, title, |root| {
         let rest = titled(root, title, subtitle)?;
@@ -895,53 +1159,104 @@ fn tradeoff_svg(
             .axis_style(INK.stroke_width(1))
             .draw()
             .map_err(pe)?;
-        let line: Vec<(f64, f64)> = pts.iter().filter_map(|p| val(p).map(|v| ((p.target * 1e3).log10(), v))).collect();
-        chart.draw_series(LineSeries::new(line, PALETTE[0].stroke_width(2))).map_err(pe)?;
+        let line: Vec<(f64, f64)> = pts
+            .iter()
+            .filter_map(|p| val(p).map(|v| ((p.target * 1e3).log10(), v)))
+            .collect();
+        chart
+            .draw_series(LineSeries::new(line, PALETTE[0].stroke_width(2)))
+            .map_err(pe)?;
         // The chosen bank at the ripple it reaches, joined to its target point.
         for p in pts {
-            if let (Some(v), Some(r)) = (val(p), p.ripple_pp.filter(|r| r.is_finite() && *r > 0.0)) {
+            if let (Some(v), Some(r)) = (val(p), p.ripple_pp.filter(|r| r.is_finite() && *r > 0.0))
+            {
                 let (xr, xt) = ((r * 1e3).log10(), (p.target * 1e3).log10());
-                chart.draw_series(std::iter::once(PathElement::new(vec![(xr, v), (xt, v)], MUTED.mix(0.5).stroke_width(1)))).map_err(pe)?;
                 chart
-                    .draw_series(std::iter::once(EmptyElement::at((xr, v)) + Rectangle::new([(-4, -4), (4, 4)], MUTED.stroke_width(1))))
+                    .draw_series(std::iter::once(PathElement::new(
+                        vec![(xr, v), (xt, v)],
+                        MUTED.mix(0.5).stroke_width(1),
+                    )))
+                    .map_err(pe)?;
+                chart
+                    .draw_series(std::iter::once(
+                        EmptyElement::at((xr, v))
+                            + Rectangle::new([(-4, -4), (4, 4)], MUTED.stroke_width(1)),
+                    ))
                     .map_err(pe)?;
             }
         }
-        let label_style = TextStyle::from((FONT, 15).into_font().style(FontStyle::Bold)).color(&INK).pos(Pos::new(HPos::Center, VPos::Bottom));
+        let label_style = TextStyle::from((FONT, 15).into_font().style(FontStyle::Bold))
+            .color(&INK)
+            .pos(Pos::new(HPos::Center, VPos::Bottom));
         for (i, p) in pts.iter().enumerate() {
             let x = (p.target * 1e3).log10();
             match val(p) {
                 Some(v) if changed[i] => {
-                    chart.draw_series(std::iter::once(Circle::new((x, v), 6, PALETTE[0].filled()))).map_err(pe)?;
+                    chart
+                        .draw_series(std::iter::once(Circle::new((x, v), 6, PALETTE[0].filled())))
+                        .map_err(pe)?;
                     if let Some(n) = number[i] {
                         chart
-                            .draw_series(std::iter::once(EmptyElement::at((x, v)) + Text::new(n.to_string(), (0, -9), label_style.clone())))
+                            .draw_series(std::iter::once(
+                                EmptyElement::at((x, v))
+                                    + Text::new(n.to_string(), (0, -9), label_style.clone()),
+                            ))
                             .map_err(pe)?;
                     }
                 }
                 Some(v) => {
-                    chart.draw_series(std::iter::once(Circle::new((x, v), 4, WHITE.filled()))).map_err(pe)?;
-                    chart.draw_series(std::iter::once(Circle::new((x, v), 4, PALETTE[0].stroke_width(2)))).map_err(pe)?;
+                    chart
+                        .draw_series(std::iter::once(Circle::new((x, v), 4, WHITE.filled())))
+                        .map_err(pe)?;
+                    chart
+                        .draw_series(std::iter::once(Circle::new(
+                            (x, v),
+                            4,
+                            PALETTE[0].stroke_width(2),
+                        )))
+                        .map_err(pe)?;
                 }
                 None if p.cost.is_none() && p.area.is_none() => {
-                    chart.draw_series(std::iter::once(Cross::new((x, yhi * 0.03), 6, ALERT.stroke_width(2)))).map_err(pe)?;
+                    chart
+                        .draw_series(std::iter::once(Cross::new(
+                            (x, yhi * 0.03),
+                            6,
+                            ALERT.stroke_width(2),
+                        )))
+                        .map_err(pe)?;
                 }
                 None => {}
             }
         }
         if pts.iter().all(|p| val(p).is_none()) {
-            let st = TextStyle::from((FONT, 18).into_font()).color(&MUTED).pos(Pos::new(HPos::Center, VPos::Center));
+            let st = TextStyle::from((FONT, 18).into_font())
+                .color(&MUTED)
+                .pos(Pos::new(HPos::Center, VPos::Center));
             let xm = (xlo.log10() + xhi.log10()) / 2.0;
-            chart.draw_series(std::iter::once(Text::new("no bank meets any of these targets", (xm, yhi / 2.0), st))).map_err(pe)?;
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    "no bank meets any of these targets",
+                    (xm, yhi / 2.0),
+                    st,
+                )))
+                .map_err(pe)?;
         }
         draw_legend(&legend, &entries, 1, 110)?;
         if !key_lines.is_empty() {
             let y0 = legend_height(entries.len(), 1) as i32;
-            let head = TextStyle::from((FONT, 15).into_font().style(FontStyle::Bold)).color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
-            let st = TextStyle::from((FONT, 14).into_font()).color(&INK).pos(Pos::new(HPos::Left, VPos::Center));
-            legend.draw(&Text::new("banks:", (110, y0), head)).map_err(pe)?;
+            let head = TextStyle::from((FONT, 15).into_font().style(FontStyle::Bold))
+                .color(&INK)
+                .pos(Pos::new(HPos::Left, VPos::Center));
+            let st = TextStyle::from((FONT, 14).into_font())
+                .color(&INK)
+                .pos(Pos::new(HPos::Left, VPos::Center));
+            legend
+                .draw(&Text::new("banks:", (110, y0), head))
+                .map_err(pe)?;
             for (i, k) in key_lines.iter().enumerate() {
-                legend.draw(&Text::new(k.clone(), (180, y0 + i as i32 * 20), st.clone())).map_err(pe)?;
+                legend
+                    .draw(&Text::new(k.clone(), (180, y0 + i as i32 * 20), st.clone()))
+                    .map_err(pe)?;
             }
         }
         Ok(())
@@ -964,7 +1279,9 @@ mod tests {
 
     #[test]
     fn decimation_keeps_extremes() {
-        let pts: Vec<(f64, f64)> = (0..10_000).map(|i| (i as f64, ((i * 7919) % 1013) as f64)).collect();
+        let pts: Vec<(f64, f64)> = (0..10_000)
+            .map(|i| (i as f64, ((i * 7919) % 1013) as f64))
+            .collect();
         let d = decimate(&pts, 500);
         assert!(d.len() <= 520);
         let (lo, hi) = min_max(pts.iter().map(|p| p.1));
@@ -977,7 +1294,9 @@ mod tests {
     fn log_ticks_cover_the_range() {
         let (b, g) = log_ticks(6e4, 2e8);
         assert_eq!(b.len(), 4); // 100k, 1M, 10M, 100M
-        assert!(g.iter().all(|&v| v >= 6e4f64.log10() - 1e-9 && v <= 2e8f64.log10() + 1e-9));
+        assert!(g
+            .iter()
+            .all(|&v| v >= 6e4f64.log10() - 1e-9 && v <= 2e8f64.log10() + 1e-9));
         let (b, _) = log_ticks(3e-3, 2e-2);
         assert!(b.len() >= 3, "{b:?}");
     }

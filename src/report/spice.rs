@@ -38,9 +38,17 @@ const FILTER_R: f64 = 1e3;
 #[derive(Debug, Clone, Copy)]
 pub enum Sweep {
     /// `points` frequencies evenly spaced from `start` to `stop` (Hz), both included.
-    Linear { points: usize, start: f64, stop: f64 },
+    Linear {
+        points: usize,
+        start: f64,
+        stop: f64,
+    },
     /// `per_decade` frequencies per decade from `start` to `stop` (Hz).
-    Decade { per_decade: usize, start: f64, stop: f64 },
+    Decade {
+        per_decade: usize,
+        start: f64,
+        stop: f64,
+    },
 }
 
 /// One series R-L-C branch as written to the netlist.
@@ -105,7 +113,11 @@ fn circuit(problem: &Problem, bank: &[(usize, u32)]) -> Result<Circuit> {
     if lines.is_empty() && internal.is_none() {
         bail!("bank.cir: the bank is empty and the converter has no internal capacitance");
     }
-    Ok(Circuit { bank: lines, internal, lc: s.board.connection_inductance.0 })
+    Ok(Circuit {
+        bank: lines,
+        internal,
+        lc: s.board.connection_inductance.0,
+    })
 }
 
 impl Circuit {
@@ -146,7 +158,9 @@ impl Circuit {
                 c * (r + disc.sqrt()) / 2.0
             }
         };
-        let series = |a: (f64, f64, f64), b: (f64, f64, f64)| (a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2));
+        let series = |a: (f64, f64, f64), b: (f64, f64, f64)| {
+            (a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2))
+        };
         let mut tau: f64 = 0.0;
         let n = br.len();
         for i in 0..n {
@@ -176,10 +190,23 @@ impl Circuit {
     /// Elements of the circuit between the converter's node `conv` and the
     /// bank's node `bank` (the same node without connection inductance).
     fn write(&self, o: &mut String) -> (&'static str, &'static str) {
-        let (conv, bank) = if self.lc > 0.0 { ("conv", "bank") } else { ("bank", "bank") };
-        let _ = writeln!(o, "* Each bank line is one series R-L-C branch: n identical parts in parallel are");
-        let _ = writeln!(o, "* exactly one branch with ESR/n, ESL/n and C*n. ESL includes the board's mounting");
-        let _ = writeln!(o, "* inductance. Elements of zero value are left out (their nodes joined).");
+        let (conv, bank) = if self.lc > 0.0 {
+            ("conv", "bank")
+        } else {
+            ("bank", "bank")
+        };
+        let _ = writeln!(
+            o,
+            "* Each bank line is one series R-L-C branch: n identical parts in parallel are"
+        );
+        let _ = writeln!(
+            o,
+            "* exactly one branch with ESR/n, ESL/n and C*n. ESL includes the board's mounting"
+        );
+        let _ = writeln!(
+            o,
+            "* inductance. Elements of zero value are left out (their nodes joined)."
+        );
         for (j, b) in self.bank.iter().enumerate() {
             let _ = writeln!(o, "* line {}: {}", j + 1, b.label);
             series_rlc(o, &format!("{}", j + 1), bank, b);
@@ -189,10 +216,16 @@ impl Circuit {
             series_rlc(o, "int", conv, b);
         }
         if self.lc > 0.0 {
-            let _ = writeln!(o, "* connection inductance between the converter's output and the bank");
+            let _ = writeln!(
+                o,
+                "* connection inductance between the converter's output and the bank"
+            );
             let _ = writeln!(o, "Lconn conv bank {}", num(self.lc));
         } else {
-            let _ = writeln!(o, "* no connection inductance: the converter drives the bank's node directly");
+            let _ = writeln!(
+                o,
+                "* no connection inductance: the converter drives the bank's node directly"
+            );
         }
         (conv, bank)
     }
@@ -219,8 +252,16 @@ fn series_rlc(o: &mut String, tag: &str, node: &str, b: &Branch) {
 /// so that H = (1 + j f / bandwidth)^-order exactly. Returns the output node.
 fn write_filter(o: &mut String, bank: &str, bw: f64, order: u32) -> String {
     let cf = 1.0 / (2.0 * PI * FILTER_R * bw);
-    let _ = writeln!(o, "* measurement bandwidth {} Hz, order {order}: first-order RC sections", num(bw));
-    let _ = writeln!(o, "* (R = {} ohm, C = 1/(2 pi R bandwidth)) between unity-gain buffers", num(FILTER_R));
+    let _ = writeln!(
+        o,
+        "* measurement bandwidth {} Hz, order {order}: first-order RC sections",
+        num(bw)
+    );
+    let _ = writeln!(
+        o,
+        "* (R = {} ohm, C = 1/(2 pi R bandwidth)) between unity-gain buffers",
+        num(FILTER_R)
+    );
     let _ = writeln!(o, "Ebuf0 f0 0 {bank} 0 1");
     let mut prev = "f0".to_string();
     for k in 1..=order {
@@ -234,11 +275,26 @@ fn write_filter(o: &mut String, bank: &str, bw: f64, order: u32) -> String {
 
 fn header(o: &mut String, problem: &Problem, what: &str) {
     let s = &problem.scenario;
-    let name = if s.name.is_empty() { s.source.as_str() } else { s.name.as_str() };
-    let _ = writeln!(o, "* {what} - scenario: {}", name.replace(['\n', '\r'], " "));
-    let _ = writeln!(o, "* Written by ripplebank {}. Run: ngspice -b bank.cir", env!("CARGO_PKG_VERSION"));
+    let name = if s.name.is_empty() {
+        s.source.as_str()
+    } else {
+        s.name.as_str()
+    };
+    let _ = writeln!(
+        o,
+        "* {what} - scenario: {}",
+        name.replace(['\n', '\r'], " ")
+    );
+    let _ = writeln!(
+        o,
+        "* Written by ripplebank {}. Run: ngspice -b bank.cir",
+        env!("CARGO_PKG_VERSION")
+    );
     let _ = writeln!(o, "* Units: SI base units (F, ohm, H, A, V, s, Hz).");
-    let _ = writeln!(o, "* Capacitances: worst corner C = C_nom (1 - tol) k_bias(vout) (1 - drop_T).");
+    let _ = writeln!(
+        o,
+        "* Capacitances: worst corner C = C_nom (1 - tol) k_bias(vout) (1 - drop_T)."
+    );
 }
 
 /// The converter's current of one corner prepared for the netlist: jumps
@@ -247,9 +303,17 @@ fn header(o: &mut String, problem: &Problem, what: &str) {
 fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
     let t = w.period;
     let has_jump = w.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0);
-    let w = if has_jump { w.with_edges(min_ramp) } else { w.clone() };
+    let w = if has_jump {
+        w.with_edges(min_ramp)
+    } else {
+        w.clone()
+    };
     let mean = w.mean();
-    let pts: Vec<(f64, f64)> = w.points.iter().map(|&(ti, v)| (ti, (v - mean) * scale)).collect();
+    let pts: Vec<(f64, f64)> = w
+        .points
+        .iter()
+        .map(|&(ti, v)| (ti, (v - mean) * scale))
+        .collect();
     // Unrolled over [t0, t0 + T] with the closing vertex.
     let n = pts.len();
     let mut un: Vec<(f64, f64)> = pts.clone();
@@ -263,7 +327,11 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
             break;
         }
         if (va < 0.0 && vb >= 0.0) || (va > 0.0 && vb <= 0.0) {
-            start = Some(if tb > ta { ta + (tb - ta) * (-va) / (vb - va) } else { tb });
+            start = Some(if tb > ta {
+                ta + (tb - ta) * (-va) / (vb - va)
+            } else {
+                tb
+            });
             break;
         }
     }
@@ -313,7 +381,10 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     let mut best = f64::NEG_INFINITY;
     let mut per_corner = Vec::new();
     for c in 0..ev.vin_corners() {
-        let pp = |w: Vec<f64>| w.iter().cloned().fold(f64::NEG_INFINITY, f64::max) - w.iter().cloned().fold(f64::INFINITY, f64::min);
+        let pp = |w: Vec<f64>| {
+            w.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+                - w.iter().cloned().fold(f64::INFINITY, f64::min)
+        };
         let lim = pp(ev.waveform(&local, Corner::Worst, Band::Limited, c));
         let full = pp(ev.waveform(&local, Corner::Worst, Band::Full, c));
         per_corner.push((lim, full));
@@ -340,7 +411,11 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     let (pts, mean) = source_points(&op.waveform, scale, min_ramp);
 
     let mut o = String::new();
-    header(&mut o, problem, "Output ripple of a capacitor bank (transient)");
+    header(
+        &mut o,
+        problem,
+        "Output ripple of a capacitor bank (transient)",
+    );
     match op.vin {
         Some(v) => {
             let _ = writeln!(o, "* vin corner: {} V (corner {} of {}, the one with the largest ripple per the evaluator)", v, corner + 1, ev.vin_corners());
@@ -355,7 +430,11 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         s.converter.topology.name(),
         num(op.f_ripple),
         op.duty,
-        if op.mode.is_empty() { String::new() } else { format!(", {}", op.mode) }
+        if op.mode.is_empty() {
+            String::new()
+        } else {
+            format!(", {}", op.mode)
+        }
     );
     let (lim, full) = per_corner[corner];
     let _ = writeln!(o, "* evaluator at this corner (worst-corner capacitances): ripple_pp {} V at the target bandwidth, {} V at full bandwidth", num(lim), num(full));
@@ -369,24 +448,49 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     // drifts by < 1e-5 of the ripple per period.
     let y1 = ckt.y_total(op.f_ripple).norm();
     let rdc = (1e6_f64).max(1e6 / y1);
-    let _ = writeln!(o, "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|");
+    let _ = writeln!(
+        o,
+        "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|"
+    );
     let _ = writeln!(o, "Rdc {bnode} 0 {}", num(rdc));
 
     // Run length.
     let tau = ckt.slowest_decay();
-    let settle = if tau.is_finite() { (SETTLE_TAUS * tau / period).ceil() as usize } else { MAX_PERIODS };
+    let settle = if tau.is_finite() {
+        (SETTLE_TAUS * tau / period).ceil() as usize
+    } else {
+        MAX_PERIODS
+    };
     let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, MAX_PERIODS);
 
     // Source.
     let _ = writeln!(o);
-    let _ = writeln!(o, "* Capacitor current of the converter (into the bank > 0), {total} periods written out");
-    let _ = writeln!(o, "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on).");
+    let _ = writeln!(
+        o,
+        "* Capacitor current of the converter (into the bank > 0), {total} periods written out"
+    );
+    let _ = writeln!(
+        o,
+        "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on)."
+    );
     if scale != 1.0 {
         let _ = writeln!(o, "* module: the unit triangle is scaled by {} (standalone ripple), as the evaluator does", num(scale));
     }
-    let _ = writeln!(o, "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.", num(mean));
-    if op.waveform.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0) {
-        let _ = writeln!(o, "* current jumps are ramps of {} s (a tenth of the highest harmonic's period).", num(min_ramp));
+    let _ = writeln!(
+        o,
+        "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.",
+        num(mean)
+    );
+    if op
+        .waveform
+        .segments()
+        .any(|((ta, _), (tb, _))| tb - ta <= 0.0)
+    {
+        let _ = writeln!(
+            o,
+            "* current jumps are ramps of {} s (a tenth of the highest harmonic's period).",
+            num(min_ramp)
+        );
     }
     let _ = write!(o, "Idrive 0 {conv} PWL(");
     let mut k = 0usize;
@@ -395,7 +499,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
             if p > 0 && j == 0 {
                 continue;
             }
-            if k % 4 == 0 {
+            if k.is_multiple_of(4) {
                 let _ = write!(o, "\n+ ");
             }
             k += 1;
@@ -430,16 +534,50 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
         num(tau),
         total,
-        if settle + 2 * MEASURE_PERIODS > MAX_PERIODS { format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)") } else { String::new() }
+        if settle + 2 * MEASURE_PERIODS > MAX_PERIODS {
+            format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)")
+        } else {
+            String::new()
+        }
     );
-    let _ = writeln!(o, "* Gear integration: the trapezoidal rule rings point to point after the current's corners");
+    let _ = writeln!(
+        o,
+        "* Gear integration: the trapezoidal rule rings point to point after the current's corners"
+    );
     let _ = writeln!(o, ".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9");
-    let _ = writeln!(o, ".tran {} {} {} {}", num(tmax), num(t_stop), num(t_prev), num(tmax));
+    let _ = writeln!(
+        o,
+        ".tran {} {} {} {}",
+        num(tmax),
+        num(t_stop),
+        num(t_prev),
+        num(tmax)
+    );
     let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
-    let _ = writeln!(o, ".meas tran pp_full PP v({bnode}) from={} to={}", num(t_meas), num(t_stop));
-    let _ = writeln!(o, ".meas tran pp_limited PP v({filtered}) from={} to={}", num(t_meas), num(t_stop));
-    let _ = writeln!(o, ".meas tran pp_full_prev PP v({bnode}) from={} to={}", num(t_prev), num(t_meas));
-    let _ = writeln!(o, ".meas tran pp_limited_prev PP v({filtered}) from={} to={}", num(t_prev), num(t_meas));
+    let _ = writeln!(
+        o,
+        ".meas tran pp_full PP v({bnode}) from={} to={}",
+        num(t_meas),
+        num(t_stop)
+    );
+    let _ = writeln!(
+        o,
+        ".meas tran pp_limited PP v({filtered}) from={} to={}",
+        num(t_meas),
+        num(t_stop)
+    );
+    let _ = writeln!(
+        o,
+        ".meas tran pp_full_prev PP v({bnode}) from={} to={}",
+        num(t_prev),
+        num(t_meas)
+    );
+    let _ = writeln!(
+        o,
+        ".meas tran pp_limited_prev PP v({filtered}) from={} to={}",
+        num(t_prev),
+        num(t_meas)
+    );
     let _ = writeln!(o, ".end");
     Ok(o)
 }
@@ -450,14 +588,26 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
 pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep) -> Result<String> {
     let ckt = circuit(problem, bank)?;
     let mut o = String::new();
-    header(&mut o, problem, "Transfer impedance of a capacitor bank (AC)");
+    header(
+        &mut o,
+        problem,
+        "Transfer impedance of a capacitor bank (AC)",
+    );
     let _ = writeln!(o);
     let (conv, bnode) = ckt.write(&mut o);
     let _ = writeln!(o, "Idrive 0 {conv} DC 0 AC 1");
     let _ = writeln!(o, "Rdc {bnode} 0 {}", num(1e12));
     let line = match sweep {
-        Sweep::Linear { points, start, stop } => format!(".ac lin {} {} {}", points.max(1), num(start), num(stop)),
-        Sweep::Decade { per_decade, start, stop } => format!(".ac dec {} {} {}", per_decade.max(1), num(start), num(stop)),
+        Sweep::Linear {
+            points,
+            start,
+            stop,
+        } => format!(".ac lin {} {} {}", points.max(1), num(start), num(stop)),
+        Sweep::Decade {
+            per_decade,
+            start,
+            stop,
+        } => format!(".ac dec {} {} {}", per_decade.max(1), num(start), num(stop)),
     };
     let _ = writeln!(o, "{line}");
     let _ = writeln!(o, ".options numdgt=10");

@@ -54,11 +54,19 @@ pub fn header(problem: &Problem) -> String {
         o,
         "Converter: {} {} → {} V, {} A, fsw {}{}",
         c.topology.name(),
-        if vins.is_empty() { "(vin not given)".to_string() } else { vins.join(" / ") },
+        if vins.is_empty() {
+            "(vin not given)".to_string()
+        } else {
+            vins.join(" / ")
+        },
         c.vout.0,
         c.iout.0,
         format_si(c.fsw.0, "Hz"),
-        if c.phases > 1 { format!(", {} phases", c.phases) } else { String::new() }
+        if c.phases > 1 {
+            format!(", {} phases", c.phases)
+        } else {
+            String::new()
+        }
     );
     for op in &problem.ops {
         let _ = writeln!(
@@ -66,7 +74,11 @@ pub fn header(problem: &Problem) -> String {
             "  corner vin {}: duty {:.3}{}, current into the bank {} p-p at {}",
             op.vin.map_or("—".into(), |v| format!("{v} V")),
             op.duty,
-            if op.mode.is_empty() { String::new() } else { format!(" ({})", op.mode) },
+            if op.mode.is_empty() {
+                String::new()
+            } else {
+                format!(" ({})", op.mode)
+            },
             format_si(op.current_pp, "A"),
             format_si(op.f_ripple, "Hz")
         );
@@ -77,7 +89,11 @@ pub fn header(problem: &Problem) -> String {
         "Target: {} p-p at the worst corner, {}",
         mv(t.ripple_pp.0),
         match t.bandwidth {
-            Some(b) => format!("{} bandwidth (order {})", format_si(b.0, "Hz"), t.bandwidth_order),
+            Some(b) => format!(
+                "{} bandwidth (order {})",
+                format_si(b.0, "Hz"),
+                t.bandwidth_order
+            ),
             None => "full bandwidth".into(),
         }
     );
@@ -103,17 +119,32 @@ pub fn assessment(a: &Assessment) -> String {
                 format!(
                     "{}{}",
                     format_si(l.ripple_current_rms, "A"),
-                    l.ripple_current_rating.map_or(String::new(), |r| format!(" / {}", format_si(r, "A")))
+                    l.ripple_current_rating
+                        .map_or(String::new(), |r| format!(" / {}", format_si(r, "A")))
                 ),
                 format!("{:.3}", l.unit_cost),
                 format!("{:.3}", l.line_total_cost),
-                l.unit_area.map_or("—".into(), |x| format!("{:.2}", x * l.count as f64)),
+                l.unit_area
+                    .map_or("—".into(), |x| format!("{:.2}", x * l.count as f64)),
             ]
         })
         .collect();
     let _ = writeln!(o, "\nBank");
     o.push_str(&table(
-        &["part", "n", "technology", "case", "C nominal", "C worst", "ESR", "ESL", "I rms / rating", "unit", "line", "mm²"],
+        &[
+            "part",
+            "n",
+            "technology",
+            "case",
+            "C nominal",
+            "C worst",
+            "ESR",
+            "ESL",
+            "I rms / rating",
+            "unit",
+            "line",
+            "mm²",
+        ],
         &rows,
     ));
     let _ = writeln!(
@@ -131,11 +162,19 @@ pub fn assessment(a: &Assessment) -> String {
         o,
         "  worst corner      {:>10}   {} (target {})",
         mv(a.ripple_pp),
-        if a.meets_target { "meets the target" } else { "MISSES the target" },
+        if a.meets_target {
+            "meets the target"
+        } else {
+            "MISSES the target"
+        },
         mv(a.target_ripple_pp)
     );
     let _ = writeln!(o, "  typical corner    {:>10}", mv(a.ripple_pp_typical));
-    let _ = writeln!(o, "  full bandwidth    {:>10}   (worst corner, no bandwidth limit)", mv(a.ripple_pp_full_bandwidth));
+    let _ = writeln!(
+        o,
+        "  full bandwidth    {:>10}   (worst corner, no bandwidth limit)",
+        mv(a.ripple_pp_full_bandwidth)
+    );
     let _ = writeln!(o, "\nLimits");
     let rows: Vec<Vec<String>> = a
         .checks
@@ -146,7 +185,12 @@ pub fn assessment(a: &Assessment) -> String {
                 "" => format!("{x}"),
                 u => format!("{x:.2} {u}"),
             };
-            vec![c.name.clone(), f(c.value), f(c.limit), if c.ok { "ok".into() } else { "FAIL".into() }]
+            vec![
+                c.name.clone(),
+                f(c.value),
+                f(c.limit),
+                if c.ok { "ok".into() } else { "FAIL".into() },
+            ]
         })
         .collect();
     o.push_str(&table(&["check", "value", "limit", ""], &rows));
@@ -164,7 +208,12 @@ pub fn excluded(problem: &Problem) -> String {
     if problem.excluded.is_empty() {
         return o;
     }
-    let _ = writeln!(o, "\nParts not used ({} of {})", problem.excluded.len(), problem.catalog.parts.len());
+    let _ = writeln!(
+        o,
+        "\nParts not used ({} of {})",
+        problem.excluded.len(),
+        problem.catalog.parts.len()
+    );
     for e in &problem.excluded {
         let _ = writeln!(o, "  {:<28} {}", e.part, e.reason);
     }

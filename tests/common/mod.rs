@@ -115,4 +115,3 @@ pub fn all_banks(n: usize) -> Vec<Vec<(usize, u32)>> {
     }
     out
 }
-
