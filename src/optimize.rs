@@ -1301,7 +1301,8 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         }
     }
     if out.is_empty() {
-        out.push("ripple_pp (no single limit's removal makes the target reachable: the catalog's parts cannot reach it)".into());
+        // No single limit stops it: the parts themselves cannot reach the target.
+        out.push("catalog".into());
     }
     out
 }
