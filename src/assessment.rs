@@ -250,6 +250,7 @@ pub fn assess_with(
     let ripple_pp_typical = ev.ripple_pp(local, Corner::Typical, Band::Limited);
     let ripple_pp_full = ev.ripple_pp(local, Corner::Worst, Band::Full);
     let currents = ev.part_currents(local);
+    let half = ev.ripple_pp_first(local, ev.n_limited / 2);
     let vout = s.converter.vout.0;
     let mut lines = Vec::new();
     let mut warnings = problem.warnings.clone();
@@ -361,6 +362,21 @@ pub fn assess_with(
                 unit: "".into(),
                 ok: false,
             });
+        }
+    }
+    // Convergence of the truncated series (common practice, no source: a
+    // figure that still moves by over 2 % when the harmonics are halved has
+    // not converged).
+    if ev.n_limited >= 8 && ripple_pp.is_finite() && ripple_pp > 0.0 {
+        let moved = (ripple_pp - half).abs() / ripple_pp;
+        if moved > 0.02 {
+            warnings.push(format!(
+                "the ripple changes by {:.1} % between {} and {} harmonics: the series has not converged \
+                 (fast edges through ESL); raise target.harmonics (up to 20000) to check",
+                moved * 100.0,
+                ev.n_limited / 2,
+                ev.n_limited
+            ));
         }
     }
     let nlines = bank.len() as u32;

@@ -332,6 +332,24 @@ impl Evaluator {
         worst
     }
 
+    /// The target figure (worst corner) from only the first `n` harmonics,
+    /// to judge how well the series has converged.
+    pub fn ripple_pp_first(&mut self, bank: &Bank, n: usize) -> f64 {
+        if self.is_empty(bank) {
+            return f64::INFINITY;
+        }
+        let n = n.min(self.n_limited);
+        self.fill_transfer(bank, Corner::Worst, n);
+        let mut worst: f64 = 0.0;
+        for c in 0..self.currents.len() {
+            for k in 0..n {
+                self.buf[k + 1] = self.drive_limited[c][k] * self.zt[k];
+            }
+            worst = worst.max(self.pp_from_buf(n, false));
+        }
+        worst
+    }
+
     /// Worst-corner ripple of the target figure, stopping early once it is
     /// known to exceed `limit`: then the value returned is a lower bound
     /// above `limit` (the largest harmonic, or the first corner over it).
