@@ -583,8 +583,16 @@ impl Evaluator {
     /// and both capacitance corners (full bandwidth: a physical current).
     pub fn part_currents(&mut self, bank: &Bank) -> Vec<f64> {
         let mut out = vec![0.0_f64; bank.len()];
+        self.part_currents_into(bank, &mut out);
+        out
+    }
+
+    /// As [`Evaluator::part_currents`], into `out` (one value per bank line),
+    /// allocating nothing.
+    pub fn part_currents_into(&mut self, bank: &Bank, out: &mut [f64]) {
+        out.iter_mut().for_each(|x| *x = 0.0);
         if self.is_empty(bank) {
-            return out;
+            return;
         }
         let n = self.n_full;
         for corner in [Corner::Worst, Corner::Typical] {
@@ -600,7 +608,6 @@ impl Evaluator {
                 }
             }
         }
-        out
     }
 
     /// RMS of the converter's current into the output node (all harmonics).

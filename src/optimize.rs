@@ -182,6 +182,7 @@ struct Search {
     sets_solved: usize,
     bank_buf: Vec<(usize, u32)>,
     yb_buf: Vec<Complex64>,
+    cur_buf: Vec<f64>,
     /// Exact evaluations allowed; past it the search stops (result `feasible`).
     budget: usize,
     stopped: bool,
@@ -276,6 +277,7 @@ impl Search {
             sets_solved: 0,
             bank_buf: Vec::new(),
             yb_buf: vec![Complex64::default(); n],
+            cur_buf: Vec::new(),
             budget: usize::MAX,
             stopped: false,
         }
@@ -415,10 +417,11 @@ impl Search {
                 .iter()
                 .any(|&(i, _)| self.parts[i].rating.is_some())
         {
-            let cur = self.ev.part_currents(&self.bank_buf);
+            self.cur_buf.resize(self.bank_buf.len(), 0.0);
+            self.ev.part_currents_into(&self.bank_buf, &mut self.cur_buf);
             for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
                 if let Some(r) = self.parts[i].rating {
-                    if cur[j] > r {
+                    if self.cur_buf[j] > r {
                         return false;
                     }
                 }

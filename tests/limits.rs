@@ -193,3 +193,35 @@ fn status_obsolete_and_nrnd() {
     let a = a.unwrap();
     assert!((a.cost - b.cost).abs() < 1e-12);
 }
+
+#[test]
+fn line_cost_favours_fewer_lines() {
+    // A per-line cost (feeder set-up) is paid once per distinct part
+    // (SPEC §3): with a large one, the design uses fewer lines, and the
+    // reported cost includes it.
+    let b = baseline();
+    let (mut s, c) = demo();
+    s.selection.line_cost = Plain(1.0);
+    let (_, a) = solve(s, c);
+    let a = a.unwrap();
+    assert!(a.lines < b.lines, "{} lines, baseline {}", a.lines, b.lines);
+    assert!((a.cost - a.parts_cost - a.lines as f64).abs() < 1e-9);
+}
+
+#[test]
+fn objectives_area_and_count() {
+    // Each objective minimises its own quantity: the area design has no more
+    // area, and the count design no more parts, than the cost design.
+    use ripplebank::scenario::Objective;
+    let b = baseline();
+    let (mut s, c) = demo();
+    s.selection.objective = Objective::Area;
+    let (_, a) = solve(s, c);
+    let a = a.unwrap();
+    assert!(a.area <= b.area + 1e-9, "area {} vs {}", a.area, b.area);
+    let (mut s, c) = demo();
+    s.selection.objective = Objective::Count;
+    let (_, n) = solve(s, c);
+    let n = n.unwrap();
+    assert!(n.count <= b.count && n.count <= a.count, "count {} vs {} / {}", n.count, b.count, a.count);
+}
