@@ -418,7 +418,8 @@ impl Search {
                 .any(|&(i, _)| self.parts[i].rating.is_some())
         {
             self.cur_buf.resize(self.bank_buf.len(), 0.0);
-            self.ev.part_currents_into(&self.bank_buf, &mut self.cur_buf);
+            self.ev
+                .part_currents_into(&self.bank_buf, &mut self.cur_buf);
             for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
                 if let Some(r) = self.parts[i].rating {
                     if self.cur_buf[j] > r {
@@ -1165,8 +1166,9 @@ fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
         s.bank_buf
             .extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
         s.evals += 1;
-        s.ev.ripple_pp(
-            &s.bank_buf.clone(),
+        let Search { ev, bank_buf, .. } = s;
+        ev.ripple_pp(
+            bank_buf,
             crate::bank::Corner::Worst,
             crate::bank::Band::Limited,
         )

@@ -5,12 +5,33 @@ use assert_cmd::Command;
 use serde_json::Value;
 
 const BANK_KEYS: &[&str] = &[
-    "status", "bank", "ripple_pp", "ripple_pp_typical", "ripple_pp_full_bandwidth", "cost", "area", "count", "lines",
-    "capacitance_nominal_total", "capacitance_max_total", "capacitance_effective_total", "ripple_current", "excluded", "warnings",
+    "status",
+    "bank",
+    "ripple_pp",
+    "ripple_pp_typical",
+    "ripple_pp_full_bandwidth",
+    "cost",
+    "area",
+    "count",
+    "lines",
+    "capacitance_nominal_total",
+    "capacitance_max_total",
+    "capacitance_effective_total",
+    "ripple_current",
+    "excluded",
+    "warnings",
 ];
 
 fn run(args: &[&str], code: i32) -> Value {
-    let out = Command::cargo_bin("ripplebank").unwrap().args(args).arg("--json").assert().code(code).get_output().stdout.clone();
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(args)
+        .arg("--json")
+        .assert()
+        .code(code)
+        .get_output()
+        .stdout
+        .clone();
     serde_json::from_slice(&out).expect("exactly one JSON document on stdout")
 }
 
@@ -34,7 +55,12 @@ fn design_assess_rework_tradeoff_keys() {
     for e in d["excluded"].as_array().unwrap() {
         assert!(e["part"].is_string() && e["reason"].is_string());
     }
-    let bank: Vec<String> = d["bank"].as_array().unwrap().iter().map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"])).collect();
+    let bank: Vec<String> = d["bank"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"]))
+        .collect();
     let a = run(&["assess", "--bank", &bank.join(",")], 0);
     has_all(&a, BANK_KEYS, "assess");
     assert_eq!(a["status"], "pass");
@@ -51,18 +77,38 @@ fn design_assess_rework_tradeoff_keys() {
     has_all(&r, BANK_KEYS, "rework");
     has_all(&r, &["kept", "removed", "added"], "rework");
 
-    let t = run(&["tradeoff", "--points", "3", "--from", "5m", "--to", "20m"], 0);
+    let t = run(
+        &["tradeoff", "--points", "3", "--from", "5m", "--to", "20m"],
+        0,
+    );
     let pts = t["points"].as_array().unwrap();
     assert_eq!(pts.len(), 3);
     for p in pts {
-        has_all(p, &["target", "status", "ripple_pp", "cost", "area", "count", "bank"], "tradeoff point");
+        has_all(
+            p,
+            &[
+                "target",
+                "status",
+                "ripple_pp",
+                "cost",
+                "area",
+                "count",
+                "bank",
+            ],
+            "tradeoff point",
+        );
     }
 }
 
 #[test]
 fn infeasible_design_keys() {
     let dir = tempfile::tempdir().unwrap();
-    let text = ripplebank::load::DEMO_SCENARIO.replace("ripple_pp = \"8m\"", "ripple_pp = \"1m\"").replace("../catalogs/demo-parts.csv", concat!(env!("CARGO_MANIFEST_DIR"), "/catalogs/demo-parts.csv"));
+    let text = ripplebank::load::DEMO_SCENARIO
+        .replace("ripple_pp = \"8m\"", "ripple_pp = \"1m\"")
+        .replace(
+            "../catalogs/demo-parts.csv",
+            concat!(env!("CARGO_MANIFEST_DIR"), "/catalogs/demo-parts.csv"),
+        );
     let f = dir.path().join("s.toml");
     std::fs::write(&f, text).unwrap();
     let d = run(&["design", "--scenario", f.to_str().unwrap()], 1);

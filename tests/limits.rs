@@ -223,5 +223,11 @@ fn objectives_area_and_count() {
     s.selection.objective = Objective::Count;
     let (_, n) = solve(s, c);
     let n = n.unwrap();
-    assert!(n.count <= b.count && n.count <= a.count, "count {} vs {} / {}", n.count, b.count, a.count);
+    assert!(
+        n.count <= b.count && n.count <= a.count,
+        "count {} vs {} / {}",
+        n.count,
+        b.count,
+        a.count
+    );
 }
