@@ -540,8 +540,10 @@ pub fn tradeoff(
         }
         files.commit(dir)?;
     }
+    // No target in the range can be met: the answer is no.
+    let code = if results.iter().any(|(_, o)| o.found.is_some()) { 0 } else { 1 };
     let stdout = if c.json { report::json_text(doc) } else { body };
-    Ok(Outcome { stdout, code: 0 })
+    Ok(Outcome { stdout, code })
 }
 
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
