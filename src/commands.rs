@@ -541,7 +541,11 @@ pub fn tradeoff(
         files.commit(dir)?;
     }
     // No target in the range can be met: the answer is no.
-    let code = if results.iter().any(|(_, o)| o.found.is_some()) { 0 } else { 1 };
+    let code = if results.iter().any(|(_, o)| o.found.is_some()) {
+        0
+    } else {
+        1
+    };
     let stdout = if c.json { report::json_text(doc) } else { body };
     Ok(Outcome { stdout, code })
 }
@@ -730,8 +734,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
                 status.name().to_uppercase(),
                 if status == optimize::Status::Optimal {
                     " (the fewest possible; cheapest among those)"
+                } else if changes == removed_forced.len() {
+                    " (the fewest possible; parts to add came from a pool, so a cheaper change may exist)"
                 } else {
-                    " (the search was limited; fewer may exist)"
+                    " (parts to add came from a pool: fewer or cheaper changes may exist)"
                 }
             );
         }
