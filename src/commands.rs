@@ -658,7 +658,8 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         (
             r.status,
             r.found.map(|f| f.bank).unwrap_or_default(),
-            r.changes,
+            // Lines missing from the catalog are removed too.
+            r.changes + removed_forced.len() - forced.len(),
         )
     };
     let id = |i: usize| p.catalog.parts[i].id.clone();

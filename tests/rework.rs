@@ -210,3 +210,30 @@ fn obsolete_part_is_replaced_with_one_change() {
         .iter()
         .any(|b| b["part"] == "RB-C0805-X5R-22U-10V"));
 }
+
+#[test]
+fn part_missing_from_the_catalog_is_replaced() {
+    // A line whose part is not in the catalog any more must go (counted as
+    // one removed line item); the demo's 47 µF part alone can carry the
+    // target with more of it, so one change is the fewest possible.
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(&bom, "part,count\nNO-SUCH-PART,2\nRB-C1206-X5R-47U-6V3,2\n").unwrap();
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--bom"])
+        .arg(&bom)
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert_eq!(v["changes"], 1);
+    assert!(v["removed"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|r| r["part"] == "NO-SUCH-PART" && r["reason"] == "not in the catalog"));
+    assert_eq!(v["before"]["complete"], false);
+}
