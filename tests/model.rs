@@ -209,3 +209,64 @@ mod plausibility {
         );
     }
 }
+
+/// Ripple of an ideal capacitor fed by a triangular pulse Ipk → 0 over t_d
+/// once per period and loaded by Iout: the capacitor gains charge while the
+/// pulse exceeds Iout, ΔQ = (Ipk − Iout)² · t_d / (2 Ipk), so Δv = ΔQ / C
+/// (charge balance, as in Erickson & Maksimović, ch. 5, discontinuous
+/// conduction mode).
+fn dcm_ripple(ipk: f64, iout: f64, t_d: f64, c: f64) -> f64 {
+    (ipk - iout).powi(2) * t_d / (2.0 * ipk * c)
+}
+
+#[test]
+fn flyback_dcm_charge_balance() {
+    // Light load: DCM. Ipk,primary = sqrt(2·vout·iout/(L f)) (energy per
+    // cycle, SPEC §5), Ipk = Ipk,primary / n, t_d = Ipk·Ls/vout.
+    let (vin, vout, iout, f, l, n, c): (f64, f64, f64, f64, f64, f64, f64) =
+        (48.0, 12.0, 0.3, 250e3, 60e-6, 0.5, 100e-6);
+    let conv = format!("topology = \"flyback\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"\nturns_ratio = {n}");
+    let p = problem(
+        &conv,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "C,film,100u,50,0,0,1,0%,,,\n",
+    );
+    let a = ripple(&p, &[("C", 1)]);
+    assert_eq!(a.corners[0].mode, "DCM");
+    let ipk_p = (2.0 * vout * iout / (l * f)).sqrt();
+    let ipk = ipk_p / n;
+    let t_d = ipk * l * n * n / vout;
+    let want = dcm_ripple(ipk, iout, t_d, c);
+    let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
+    assert!(
+        err < 0.01,
+        "model {} vs charge balance {want}: {:.2} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
+}
+
+#[test]
+fn boost_dcm_charge_balance() {
+    // Ipk = sqrt(2·iout·(vout − vin)/(L f)) (SPEC §5), t_d = Ipk·L/(vout − vin).
+    let (vin, vout, iout, f, l, c): (f64, f64, f64, f64, f64, f64) =
+        (5.0, 12.0, 0.05, 500e3, 4.7e-6, 47e-6);
+    let conv = format!("topology = \"boost\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"");
+    let p = problem(
+        &conv,
+        "ripple_pp = \"1\"\nharmonics = 4000",
+        "C,film,47u,50,0,0,1,0%,,,\n",
+    );
+    let a = ripple(&p, &[("C", 1)]);
+    assert_eq!(a.corners[0].mode, "DCM");
+    let ipk = (2.0 * iout * (vout - vin) / (l * f)).sqrt();
+    let t_d = ipk * l / (vout - vin);
+    let want = dcm_ripple(ipk, iout, t_d, c);
+    let err = (a.ripple_pp_full_bandwidth - want).abs() / want;
+    assert!(
+        err < 0.01,
+        "model {} vs charge balance {want}: {:.2} %",
+        a.ripple_pp_full_bandwidth,
+        err * 100.0
+    );
+}
