@@ -147,6 +147,13 @@ impl Problem {
                 ));
             }
         }
+        if scenario.converter.max_capacitance.is_none() {
+            warnings.push(
+                "converter.max_capacitance not given: the converter maker's limit on added output \
+                 capacitance is not checked (too much capacitance can destabilise the converter)"
+                    .into(),
+            );
+        }
         if matches!(
             scenario.converter.topology,
             Topology::Flyback | Topology::Boost
