@@ -384,12 +384,33 @@ pub fn tradeoff(
         max_evaluations: 1_000_000,
         ..Default::default()
     };
-    let mut results: Vec<(f64, optimize::Outcome)> = Vec::new();
-    for &t in &targets {
-        results.push((t, optimize::design_for(&p, t, &settings)));
-        pb.inc(1);
-    }
+    // The targets are independent searches: spread them over the cores.
+    let workers = std::thread::available_parallelism()
+        .map_or(1, |n| n.get())
+        .min(targets.len());
+    // Each worker takes the next unsolved target, so tight (slow) and loose
+    // (fast) targets share the cores evenly.
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let slots: std::sync::Mutex<Vec<Option<optimize::Outcome>>> =
+        std::sync::Mutex::new(vec![None; targets.len()]);
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| loop {
+                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some(&t) = targets.get(j) else { break };
+                let out = optimize::design_for(&p, t, &settings);
+                slots.lock().expect("no worker panics")[j] = Some(out);
+                pb.inc(1);
+            });
+        }
+    });
     pb.finish_and_clear();
+    let slots = slots.into_inner().expect("no worker panics");
+    let mut results: Vec<(f64, optimize::Outcome)> = targets
+        .iter()
+        .copied()
+        .zip(slots.into_iter().map(|o| o.expect("every target solved")))
+        .collect();
     // A bank that meets a tighter target meets every looser one: keep the
     // front monotone when the search could not prove a point optimal.
     for j in 1..results.len() {
