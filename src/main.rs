@@ -6,7 +6,17 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Parser)]
-#[command(name = "ripplebank", version, about = "Choose and verify output capacitor banks for DC-DC converters against a ripple limit", long_about = None)]
+#[command(
+    name = "ripplebank",
+    version,
+    about = "Choose and verify output capacitor banks for DC-DC converters against a ripple limit",
+    long_about = None,
+    after_help = "Without --scenario the bundled demo (invented data) is used.\n\
+        Exit status: 0 done; 1 the answer is no (no design meets every limit, the bank fails);\n\
+        2 invalid input or usage.\n\
+        Results are a model: check voltage ratings, polarity and surge rules, the converter maker's\n\
+        capacitance limit and loop stability, and verify on hardware."
+)]
 struct Cli {
     #[command(subcommand)]
     command: Cmd,
@@ -24,7 +34,8 @@ struct Input {
 
 #[derive(clap::Args, Clone)]
 struct Output {
-    /// Write bom.csv, report.json, report.html, plots and bank.cir into DIR
+    /// Write the output files into DIR (bom.csv, report.json, report.html, SVG plots,
+    /// bank.cir; tradeoff: tradeoff.csv, cost.svg, area.svg); other files there are kept
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
     /// Write one JSON document to stdout
@@ -67,7 +78,7 @@ enum Cmd {
         /// Tightest ripple target, V (default: the lowest reachable)
         #[arg(long, value_name = "V")]
         from: Option<String>,
-        /// Loosest ripple target, V (default: the smallest allowed bank's ripple)
+        /// Loosest ripple target, V (default: the smallest allowed bank's ripple, at most 10x the target)
         #[arg(long, value_name = "V")]
         to: Option<String>,
         /// Number of targets
