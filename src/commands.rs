@@ -185,6 +185,12 @@ pub fn design_report(
                     "a verified bank; the catalog was too large to prove it the best".to_string()
                 }
             );
+            if f.bank.is_empty() {
+                let _ = writeln!(
+                    body,
+                    "The converter's own output capacitance already meets the target: no capacitors need to be added."
+                );
+            }
             body.push_str(&text::assessment(&a));
             let mut doc = report::assessment_json(out.status.name(), &a, p);
             doc["search"] = serde_json::to_value(st)?;
