@@ -97,6 +97,16 @@ pub struct Evaluator {
     fft_scratch: Vec<Complex64>,
 }
 
+/// Peak-to-peak of the sampled ripple over the largest harmonic amplitude,
+/// at least. With c the mid-range value, |V_k| = |(2/M) Σ_m (v_m − c)
+/// e^{−j2πkm/M}| ≤ pp · max_φ (1/M) Σ_m |cos(2πkm/M + φ)|. With M a power of
+/// two and k ≤ M/8, the samples cover each cycle of harmonic k in L ≥ 8
+/// equally spaced points (L a power of two), where that maximum is largest
+/// at L = 8: 0.65328, computed (0.64073 at L = 16, 2/π = 0.63662 as L → ∞;
+/// the square wave attains 2/π, the classic bound). So
+/// pp ≥ |V_k| / 0.65328 = 1.53073·|V_k|; rounded down to 1.53.
+pub const HARMONIC_FLOOR: f64 = 1.53;
+
 /// Samples per period of the coarse pass in [`Evaluator::ripple_check`].
 const SUB: usize = 512;
 /// Samples per period of the first, cheapest pass.
@@ -380,15 +390,22 @@ impl Evaluator {
     /// is a lower bound of the next, so a stage above `limit` ends it.
     fn check_filled(&mut self, limit: f64) -> f64 {
         let n = self.n_limited;
-        // max_k |V_k| <= peak-to-peak: |V_k| = |(2/M) Σ_m (v_m - c) e^{-j2πkm/M}|
-        // <= 2 max|v_m - c| = pp with c the mid-range value.
+        // Two bounds from the harmonics alone, per vin corner (module docs of
+        // HARMONIC_FLOOR): pp ≥ HARMONIC_FLOOR·max_k |V_k| and, since the
+        // samples' RMS about their mean is at most half their range,
+        // pp ≥ 2·rms = sqrt(2·Σ|V_k|²) (discrete Parseval, N < M/2).
         let mut floor: f64 = 0.0;
         for d in &self.drive_limited {
+            let (mut peak, mut sum) = (0.0_f64, 0.0);
             for k in 0..n {
-                floor = floor.max((d[k] * self.zt[k]).norm_sqr());
+                let v = (d[k] * self.zt[k]).norm_sqr();
+                peak = peak.max(v);
+                sum += v;
             }
+            floor = floor
+                .max(HARMONIC_FLOOR * peak.sqrt())
+                .max((2.0 * sum).sqrt());
         }
-        let floor = floor.sqrt();
         if floor > limit {
             return floor;
         }
@@ -445,7 +462,7 @@ impl Evaluator {
                     .map(|d| d[k].norm())
                     .fold(0.0, f64::max);
                 let (g, yi) = self.internal_terms(k);
-                ((d / target - yi) / g).max(0.0)
+                ((HARMONIC_FLOOR * d / target - yi) / g).max(0.0)
             })
             .collect()
     }
@@ -462,7 +479,11 @@ impl Evaluator {
                 .fold(0.0, f64::max);
             let (g, yi) = self.internal_terms(k);
             let y = sum_a[k] * g + yi;
-            best = best.max(if y > 0.0 { d / y } else { f64::INFINITY });
+            best = best.max(if y > 0.0 {
+                HARMONIC_FLOOR * d / y
+            } else {
+                f64::INFINITY
+            });
         }
         best
     }
@@ -481,7 +502,7 @@ impl Evaluator {
                 let w = 2.0 * PI * self.freqs[k];
                 let yi = self.y_int[k];
                 (
-                    d / target,
+                    HARMONIC_FLOOR * d / target,
                     Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi,
                     yi,
                 )
