@@ -451,7 +451,7 @@ impl Evaluator {
 
     /// Linear necessary condition for the target (used by the optimizer's
     /// bounds): any bank meeting `target` has Σ n_i |Y_ik| ≥ q_k at every
-    /// harmonic k of the target figure. From pp ≥ |V_k| = |D_k| / |Y_tot,k|
+    /// harmonic k of the target figure. From pp ≥ 1.53·|V_k| ([`HARMONIC_FLOOR`]), |V_k| = |D_k| / |Y_tot,k|
     /// and |Y_tot| ≤ |Y_b|·|1 + jωLc·Y_int| + |Y_int|, |Y_b| ≤ Σ n_i |Y_ik|.
     pub fn required_admittance(&self, target: f64) -> Vec<f64> {
         (0..self.n_limited)
