@@ -645,6 +645,76 @@ mod tests {
     use super::*;
 
     #[test]
+    fn harmonic_floor_holds_on_sampled_signals() {
+        // Brute force: the two lower bounds of `check_filled` on many
+        // signals summed directly (no FFT) at M = 8N samples, including the
+        // square-wave-like worst cases for one harmonic.
+        let n = 8usize;
+        let m = 8 * n;
+        let mut seed = 0x1234_5678_u64;
+        let mut rnd = || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        for case in 0..4000 {
+            let v: Vec<Complex64> = (1..=n)
+                .map(|k| {
+                    if case % 2 == 0 {
+                        Complex64::new(rnd(), rnd())
+                    } else if k % 2 == 1 {
+                        // Square-wave harmonics with a random phase step.
+                        Complex64::from_polar(4.0 / (PI * k as f64), rnd() * 0.01 * k as f64)
+                    } else {
+                        Complex64::default()
+                    }
+                })
+                .collect();
+            let samples: Vec<f64> = (0..m)
+                .map(|j| {
+                    (1..=n)
+                        .map(|k| {
+                            (v[k - 1]
+                                * Complex64::from_polar(1.0, 2.0 * PI * (k * j) as f64 / m as f64))
+                            .re
+                        })
+                        .sum()
+                })
+                .collect();
+            let pp = samples.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+                - samples.iter().cloned().fold(f64::INFINITY, f64::min);
+            let peak = v.iter().map(|x| x.norm()).fold(0.0, f64::max);
+            let energy: f64 = v.iter().map(|x| x.norm_sqr()).sum();
+            assert!(
+                pp >= HARMONIC_FLOOR * peak * (1.0 - 1e-12),
+                "case {case}: pp {pp} < 1.53·{peak}"
+            );
+            assert!(
+                pp >= (2.0 * energy).sqrt() * (1.0 - 1e-12),
+                "case {case}: rms bound"
+            );
+        }
+    }
+
+    #[test]
+    fn harmonic_floor_constant_at_eight_samples_per_cycle() {
+        // max over φ of (1/8) Σ_l |cos(2πl/8 + φ)| = 0.65328 (brute force over φ),
+        // so 1/0.65328 = 1.5307 ≥ HARMONIC_FLOOR.
+        let best = (0..100_000)
+            .map(|i| {
+                let phi = i as f64 / 100_000.0 * PI / 4.0;
+                (0..8)
+                    .map(|l| (2.0 * PI * l as f64 / 8.0 + phi).cos().abs())
+                    .sum::<f64>()
+                    / 8.0
+            })
+            .fold(0.0, f64::max);
+        assert!((best - 0.653281).abs() < 1e-5, "{best}");
+        assert!(1.0 / best >= HARMONIC_FLOOR);
+    }
+
+    #[test]
     fn series_rlc_minimum_is_esr_at_resonance() {
         // Series RLC: |Z| is smallest, and equals R, at f0 = 1/(2π√(LC))
         // (any circuits text, e.g. Hayt & Kemmerly, Engineering Circuit
