@@ -292,6 +292,18 @@ pub fn assess_with(
             status: p.status.name().into(),
         });
         // Per-part rules (the same as eligibility, as checks and warnings).
+        if p.technology.polarised() {
+            warnings.push(format!(
+                "{} is a polarised {} capacitor: mind its orientation, never reverse-bias it{}",
+                p.id,
+                p.technology.name(),
+                if p.technology == crate::catalog::Technology::Tantalum {
+                    ", and follow the maker's surge-current and voltage-derating rules"
+                } else {
+                    ""
+                }
+            ));
+        }
         let der = s.derating(p.technology);
         checks.push(Check {
             name: format!("voltage {}", p.id),
