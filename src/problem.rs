@@ -137,6 +137,20 @@ impl Problem {
             }
         }
         let mut warnings = catalog.warnings.clone();
+        let no_temp: Vec<&str> = eligible
+            .iter()
+            .map(|&i| &catalog.parts[i])
+            .filter(|p| p.temperature_range() == (None, None))
+            .map(|p| p.id.as_str())
+            .collect();
+        if !no_temp.is_empty() {
+            warnings.push(format!(
+                "{} usable part(s) give no temperature range (no EIA code, no temp_min/temp_max) and are assumed to \
+                 cover the environment: {}",
+                no_temp.len(),
+                no_temp.iter().take(5).copied().collect::<Vec<_>>().join(", ") + if no_temp.len() > 5 { ", …" } else { "" }
+            ));
+        }
         let ops = converter::operating_points(&scenario);
         for op in &ops {
             if op.mode == "DCM" {
