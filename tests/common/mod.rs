@@ -89,6 +89,7 @@ pub fn random_converter(rng: &mut StdRng) -> String {
 }
 
 /// Every count vector with at most three lines, each count 1..=MAX_COUNT.
+#[allow(dead_code)] // not every test uses it
 pub fn all_banks(n: usize) -> Vec<Vec<(usize, u32)>> {
     let mut out = Vec::new();
     for mask in 1u32..(1 << n) {

@@ -1,0 +1,847 @@
+//! The exact search: line sets, their bounds, and count enumeration.
+
+use super::{better, milp, tol, Key, Settings};
+use crate::bank::{Evaluator, PartModel};
+use crate::problem::Problem;
+use crate::scenario::Objective;
+use indicatif::{ProgressBar, ProgressStyle};
+use num_complex::Complex64;
+
+/// Limits that are linear in the counts.
+#[derive(Debug, Clone)]
+pub(super) struct Limits {
+    pub(super) max_cap: f64,
+    pub(super) min_cap: f64,
+    pub(super) max_count: f64,
+    pub(super) max_area: f64,
+    pub(super) max_lines: usize,
+}
+
+/// The search over one candidate list.
+pub(super) struct Search {
+    pub(super) ev: Evaluator,
+    /// Catalog index of each local part.
+    pub(super) catalog_index: Vec<usize>,
+    pub(super) parts: Vec<PartModel>,
+    /// Objective weights per part: w[j][i].
+    pub(super) w: [Vec<f64>; 3],
+    pub(super) line_w: Key,
+    pub(super) lb: Vec<u32>,
+    pub(super) ub: Vec<u32>,
+    /// |Y_ik| of each part, n harmonics each.
+    pub(super) a: Vec<f64>,
+    pub(super) q: Vec<f64>,
+    /// Complex admittance Y_ik per part (worst corner), n harmonics each.
+    pub(super) y: Vec<Complex64>,
+    /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
+    pub(super) phase: Vec<(f64, Complex64, Complex64)>,
+    pub(super) n: usize,
+    pub(super) target: f64,
+    pub(super) lim: Limits,
+    pub(super) required: Vec<usize>,
+    pub(super) check_currents: bool,
+    pub(super) inc: Option<(Key, Vec<(usize, u32)>, f64)>,
+    pub(super) evals: usize,
+    pub(super) sets_solved: usize,
+    pub(super) bank_buf: Vec<(usize, u32)>,
+    pub(super) yb_buf: Vec<Complex64>,
+    pub(super) cur_buf: Vec<f64>,
+    /// Exact evaluations allowed; past it the search stops (result `feasible`).
+    pub(super) budget: usize,
+    pub(super) stopped: bool,
+}
+
+pub(super) fn weights(obj: Objective, p: &PartModel) -> Key {
+    match obj {
+        Objective::Cost => [p.cost, p.area, 1.0],
+        Objective::Area => [p.area, p.cost, 1.0],
+        Objective::Count => [1.0, p.cost, p.area],
+    }
+}
+
+impl Search {
+    pub(super) fn new(problem: &Problem, candidates: &[usize], target: f64) -> Search {
+        let s = &problem.scenario;
+        let ev = problem.evaluator(candidates);
+        let parts = ev.parts.clone();
+        let obj = s.selection.objective;
+        let mut w: [Vec<f64>; 3] = [vec![], vec![], vec![]];
+        for p in &parts {
+            let k = weights(obj, p);
+            for j in 0..3 {
+                w[j].push(k[j]);
+            }
+        }
+        let lc = s.selection.line_cost.0;
+        let line_w = match obj {
+            Objective::Cost => [lc, 0.0, 0.0],
+            _ => [0.0, lc, 0.0],
+        };
+        let lim = Limits {
+            max_cap: s.converter.max_capacitance.map_or(f64::INFINITY, |c| c.0),
+            min_cap: s.converter.min_capacitance.0,
+            max_count: s.board.max_count.map_or(f64::INFINITY, |c| c as f64),
+            max_area: s.board.max_area.map_or(f64::INFINITY, |a| a.0),
+            max_lines: s.max_lines() as usize,
+        };
+        let mut lb = Vec::new();
+        let mut ub = Vec::new();
+        let mut required = Vec::new();
+        for (j, p) in parts.iter().enumerate() {
+            let id = &problem.catalog.parts[p.index].id;
+            let req = s.selection.require.get(id).copied().unwrap_or(0);
+            if req > 0 {
+                required.push(j);
+            }
+            lb.push(req.max(1));
+            let mut u = s.selection.max_per_part as f64;
+            if p.c_limit > 0.0 {
+                u = u.min((lim.max_cap / p.c_limit * (1.0 + 1e-12)).floor());
+            }
+            u = u.min(lim.max_count);
+            if p.area > 0.0 {
+                u = u.min((lim.max_area / p.area * (1.0 + 1e-12)).floor());
+            }
+            ub.push(u.max(0.0) as u32);
+        }
+        let q = ev.required_admittance(target);
+        let n = q.len();
+        let mut a = Vec::with_capacity(parts.len() * n);
+        for j in 0..parts.len() {
+            a.extend(ev.admittance_magnitudes(j));
+        }
+        let check_currents = parts.iter().any(|p| p.rating.is_some());
+        let mut y = Vec::with_capacity(parts.len() * n);
+        for j in 0..parts.len() {
+            for k in 0..n {
+                y.push(ev.y(j, k, crate::bank::Corner::Worst));
+            }
+        }
+        let phase = ev.phase_terms(target);
+        Search {
+            y,
+            phase,
+            catalog_index: candidates.to_vec(),
+            ev,
+            parts,
+            w,
+            line_w,
+            lb,
+            ub,
+            a,
+            q,
+            n,
+            target,
+            lim,
+            required,
+            check_currents,
+            inc: None,
+            evals: 0,
+            sets_solved: 0,
+            bank_buf: Vec::new(),
+            yb_buf: vec![Complex64::default(); n],
+            cur_buf: Vec::new(),
+            budget: usize::MAX,
+            stopped: false,
+        }
+    }
+
+    /// Valid lower bound on the primary objective of line set `set`, or
+    /// `None` if the set cannot meet the necessary condition or the limits.
+    pub(super) fn set_bound(&self, set: &[usize]) -> Option<f64> {
+        if set.iter().any(|&i| self.ub[i] < self.lb[i]) {
+            return None;
+        }
+        let (mut cap, mut cnt, mut area, mut base) =
+            (0.0, 0.0, 0.0, set.len() as f64 * self.line_w[0]);
+        let mut cmin_max = 0.0;
+        for &i in set {
+            let l = self.lb[i] as f64;
+            cap += l * self.parts[i].c_limit;
+            cnt += l;
+            area += l * self.parts[i].area;
+            base += l * self.w[0][i];
+            cmin_max += self.ub[i] as f64 * self.parts[i].c_worst;
+        }
+        if cap > self.lim.max_cap * (1.0 + 1e-12)
+            || cnt > self.lim.max_count
+            || area > self.lim.max_area * (1.0 + 1e-12)
+        {
+            return None;
+        }
+        if cmin_max < self.lim.min_cap {
+            return None;
+        }
+        let mut extra: f64 = 0.0;
+        let left = [
+            self.lim.max_count - cnt,
+            self.lim.max_cap - cap,
+            self.lim.max_area - area,
+        ];
+        let items: Vec<(usize, f64)> = set
+            .iter()
+            .map(|&i| (i, (self.ub[i] - self.lb[i]) as f64))
+            .collect();
+        for k in 0..self.n {
+            let (mut at_lb, mut best_ratio) = (0.0, f64::INFINITY);
+            for &i in set {
+                let ai = self.a[i * self.n + k];
+                at_lb += self.lb[i] as f64 * ai;
+                if ai > 0.0 {
+                    best_ratio = best_ratio.min(self.w[0][i] / ai);
+                }
+            }
+            let need = self.q[k];
+            if need > at_lb && at_lb + self.capacity(&items, &left, k) < need * (1.0 - 1e-9) {
+                return None;
+            }
+            if need > at_lb {
+                extra = extra.max((need - at_lb) * best_ratio);
+            }
+        }
+        Some(base + extra)
+    }
+
+    /// Upper bound on Σ a_ik·x_i over 0 ≤ x_i ≤ room_i under each of the
+    /// remaining count, capacitance-limit and area budgets `left`: the
+    /// smallest of the fractional-knapsack optima, one budget at a time
+    /// (each drops the other budgets, so each is a valid upper bound).
+    pub(super) fn capacity(&self, items: &[(usize, f64)], left: &[f64; 3], k: usize) -> f64 {
+        let mut best = items
+            .iter()
+            .map(|&(i, room)| room * self.a[i * self.n + k])
+            .sum::<f64>();
+        for (r, &budget) in left.iter().enumerate() {
+            if !budget.is_finite() {
+                continue;
+            }
+            let weight = |i: usize| match r {
+                0 => 1.0,
+                1 => self.parts[i].c_limit,
+                _ => self.parts[i].area,
+            };
+            // Items in order of value per unit of this resource.
+            let mut order: [(f64, usize, f64); 8] = [(0.0, 0, 0.0); 8];
+            let m = items.len().min(8);
+            if items.len() > 8 {
+                continue;
+            }
+            for (j, &(i, room)) in items.iter().enumerate() {
+                let w = weight(i);
+                let v = self.a[i * self.n + k];
+                order[j] = (if w > 0.0 { v / w } else { f64::INFINITY }, i, room);
+            }
+            order[..m].sort_by(|x, y| y.0.partial_cmp(&x.0).unwrap());
+            let (mut b, mut total) = (budget.max(0.0), 0.0);
+            for &(_, i, room) in &order[..m] {
+                let w = weight(i);
+                let v = self.a[i * self.n + k];
+                let take = if w > 0.0 { room.min(b / w) } else { room };
+                total += take * v;
+                b -= take * w;
+                if b <= 0.0 && w > 0.0 {
+                    break;
+                }
+            }
+            best = best.min(total);
+        }
+        best
+    }
+
+    pub(super) fn inc_primary(&self) -> f64 {
+        self.inc.as_ref().map_or(f64::INFINITY, |i| i.0[0])
+    }
+
+    /// Exact check of the bank in `bank_buf` whose admittance is in
+    /// `yb_buf`: ripple and ripple currents.
+    pub(super) fn exact_from_admittance(&mut self) -> Option<f64> {
+        self.evals += 1;
+        let r = self.ev.ripple_check_admittance(&self.yb_buf, self.target);
+        if !(r <= self.target) {
+            return None;
+        }
+        self.currents_ok().then_some(r)
+    }
+
+    /// Exact check of the bank in `bank_buf`: ripple and ripple currents.
+    pub(super) fn exact(&mut self) -> Option<f64> {
+        self.evals += 1;
+        let r = self.ev.ripple_check(&self.bank_buf, self.target);
+        if !(r <= self.target) {
+            return None;
+        }
+        self.currents_ok().then_some(r)
+    }
+
+    pub(super) fn currents_ok(&mut self) -> bool {
+        if self.check_currents
+            && self
+                .bank_buf
+                .iter()
+                .any(|&(i, _)| self.parts[i].rating.is_some())
+        {
+            self.cur_buf.resize(self.bank_buf.len(), 0.0);
+            self.ev
+                .part_currents_into(&self.bank_buf, &mut self.cur_buf);
+            for (j, &(i, _)) in self.bank_buf.iter().enumerate() {
+                if let Some(r) = self.parts[i].rating {
+                    if self.cur_buf[j] > r {
+                        return false;
+                    }
+                }
+            }
+        }
+        true
+    }
+
+    pub(super) fn key_of(&self, set: &[usize], counts: &[u32]) -> Key {
+        let mut k = [0.0; 3];
+        for j in 0..3 {
+            k[j] = set.len() as f64 * self.line_w[j]
+                + set
+                    .iter()
+                    .zip(counts)
+                    .map(|(&i, &n)| n as f64 * self.w[j][i])
+                    .sum::<f64>();
+        }
+        k
+    }
+
+    /// Cheapest counts for `set` that beat the incumbent (updates it).
+    pub(super) fn solve_set(&mut self, set: &[usize]) {
+        self.sets_solved += 1;
+        let m = set.len();
+        // rest_ub[d][k] = Σ_{j>d} ub_j a_jk
+        let n = self.n;
+        let mut rest_ub = vec![vec![0.0; n]; m];
+        for d in (0..m.saturating_sub(1)).rev() {
+            let i = set[d + 1];
+            for k in 0..n {
+                rest_ub[d][k] = rest_ub[d + 1][k] + self.ub[i] as f64 * self.a[i * n + k];
+            }
+        }
+        let mut stack = vec![vec![0.0; n]; m + 1];
+        let mut cstack = vec![vec![Complex64::default(); n]; m + 1];
+        let mut counts = vec![0u32; m];
+        let start = Partial {
+            key0: m as f64 * self.line_w[0],
+            cap: 0.0,
+            cnt: 0.0,
+            area: 0.0,
+            cmin: 0.0,
+        };
+        self.rec(
+            set,
+            0,
+            start,
+            &mut stack,
+            &mut cstack,
+            &mut counts,
+            &rest_ub,
+        );
+    }
+
+    /// Smallest count c ≥ lo of part i such that, with the other parts'
+    /// admittance `sum` fixed, every harmonic meets |Y_tot,k| ≥ r_k exactly
+    /// (phases kept): |A + c·B|² ≥ r² is a quadratic in c whose failing set
+    /// is one open interval. `None` if no count up to `hi` does.
+    pub(super) fn phase_need(&self, i: usize, sum: &[Complex64], lo: f64, hi: f64) -> Option<f64> {
+        let n = self.n;
+        let row = &self.y[i * n..(i + 1) * n];
+        let mut c = lo;
+        loop {
+            let mut moved = false;
+            for k in 0..n {
+                let (r, g, yi) = self.phase[k];
+                let a_ = sum[k] * g + yi;
+                let b_ = row[k] * g;
+                let qa = b_.norm_sqr();
+                let qb = 2.0 * (a_ * b_.conj()).re;
+                let qc = a_.norm_sqr() - r * r;
+                let val = (qa * c + qb) * c + qc;
+                if val >= -1e-9 * r * r {
+                    continue;
+                }
+                if qa <= 0.0 {
+                    return None;
+                }
+                let disc = qb * qb - 4.0 * qa * qc;
+                if disc <= 0.0 {
+                    continue;
+                }
+                let x2 = (-qb + disc.sqrt()) / (2.0 * qa);
+                let next = (x2 - 1e-9 * x2.abs().max(1.0)).ceil().max(c + 1.0);
+                if next > hi {
+                    return None;
+                }
+                c = next;
+                moved = true;
+            }
+            if !moved {
+                return Some(c);
+            }
+        }
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn rec(
+        &mut self,
+        set: &[usize],
+        d: usize,
+        p: Partial,
+        stack: &mut [Vec<f64>],
+        cstack: &mut [Vec<Complex64>],
+        counts: &mut [u32],
+        rest_ub: &[Vec<f64>],
+    ) {
+        let m = set.len();
+        let i = set[d];
+        let pm = &self.parts[i];
+        let (c_limit, c_worst, area_i, w0) = (pm.c_limit, pm.c_worst, pm.area, self.w[0][i]);
+        // The later parts at their lower bounds.
+        let (mut rest_key, mut rest_cap, mut rest_cnt, mut rest_area) = (0.0, 0.0, 0.0, 0.0);
+        for &j in &set[d + 1..] {
+            let l = self.lb[j] as f64;
+            rest_key += l * self.w[0][j];
+            rest_cap += l * self.parts[j].c_limit;
+            rest_cnt += l;
+            rest_area += l * self.parts[j].area;
+        }
+        let mut hi = self.ub[i] as f64;
+        if c_limit > 0.0 {
+            hi = hi.min(
+                ((self.lim.max_cap - p.cap - rest_cap) / c_limit * (1.0 + 1e-12) + 1e-9).floor(),
+            );
+        }
+        hi = hi.min(self.lim.max_count - p.cnt - rest_cnt);
+        if area_i > 0.0 {
+            hi = hi.min(
+                ((self.lim.max_area - p.area - rest_area) / area_i * (1.0 + 1e-12) + 1e-9).floor(),
+            );
+        }
+        let lo = self.lb[i] as f64;
+        if hi < lo {
+            return;
+        }
+        let hi = hi as u32;
+        if d + 1 == m {
+            let cur = &stack[d];
+            // Smallest count the necessary condition allows.
+            let mut need = lo;
+            let row = &self.a[i * self.n..(i + 1) * self.n];
+            for k in 0..self.n {
+                let deficit = self.q[k] - cur[k];
+                if deficit > 0.0 {
+                    if row[k] <= 0.0 {
+                        return;
+                    }
+                    need = need.max(deficit / row[k] - 1e-9);
+                }
+            }
+            if self.lim.min_cap > p.cmin && c_worst > 0.0 {
+                need = need.max((self.lim.min_cap - p.cmin) / c_worst - 1e-9);
+            }
+            let need = need.ceil().max(lo);
+            if need > hi as f64 {
+                return;
+            }
+            // Jump over the counts that fail a harmonic outright.
+            let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else {
+                return;
+            };
+            for c in next_ok as u32..=hi {
+                if (c as f64) < next_ok {
+                    continue;
+                }
+                let key0 = p.key0 + c as f64 * w0;
+                let inc0 = self.inc_primary();
+                if key0 > inc0 + tol(key0, inc0) {
+                    break;
+                }
+                counts[d] = c;
+                self.bank_buf.clear();
+                self.bank_buf
+                    .extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
+                {
+                    let cf = c as f64;
+                    let row = &self.y[i * self.n..(i + 1) * self.n];
+                    for ((yb, s0), y) in self.yb_buf.iter_mut().zip(&cstack[d]).zip(row) {
+                        *yb = s0 + y * cf;
+                    }
+                }
+                if let Some(r) = self.exact_from_admittance() {
+                    let key = self.key_of(set, counts);
+                    if self.inc.as_ref().is_none_or(|inc| better(&key, &inc.0)) {
+                        self.inc = Some((key, self.bank_buf.clone(), r));
+                    }
+                    break;
+                }
+                if self.evals >= self.budget {
+                    self.stopped = true;
+                    return;
+                }
+                match self.phase_need(i, &cstack[d], c as f64 + 1.0, hi as f64) {
+                    Some(x) => next_ok = x,
+                    None => return,
+                }
+            }
+            return;
+        }
+        let row_start = i * self.n;
+        'outer: for c in lo as u32..=hi {
+            let key0 = p.key0 + c as f64 * w0 + rest_key;
+            let inc0 = self.inc_primary();
+            if key0 > inc0 + tol(key0, inc0) {
+                break;
+            }
+            let cf = c as f64;
+            let mut ok = true;
+            let (head, tail) = stack.split_at_mut(d + 1);
+            let (cur, next) = (&head[d], &mut tail[0]);
+            {
+                let (ch, ct) = cstack.split_at_mut(d + 1);
+                let yrow = &self.y[row_start..row_start + self.n];
+                for ((nx, cu), y) in ct[0].iter_mut().zip(&ch[d]).zip(yrow) {
+                    *nx = cu + y * cf;
+                }
+            }
+            for k in 0..self.n {
+                let v = cur[k] + cf * self.a[row_start + k];
+                next[k] = v;
+                if v + rest_ub[d][k] < self.q[k] * (1.0 - 1e-9) {
+                    ok = false;
+                }
+            }
+            if !ok {
+                continue 'outer;
+            }
+            counts[d] = c;
+            let np = Partial {
+                key0: p.key0 + cf * w0,
+                cap: p.cap + cf * c_limit,
+                cnt: p.cnt + cf,
+                area: p.area + cf * area_i,
+                cmin: p.cmin + cf * c_worst,
+            };
+            self.rec(set, d + 1, np, stack, cstack, counts, rest_ub);
+        }
+    }
+}
+
+#[derive(Clone, Copy)]
+pub(super) struct Partial {
+    pub(super) key0: f64,
+    pub(super) cap: f64,
+    pub(super) cnt: f64,
+    pub(super) area: f64,
+    pub(super) cmin: f64,
+}
+
+/// Drop parts that another candidate dominates.
+pub(super) fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>, usize) {
+    let models: Vec<PartModel> = cands.iter().map(|&i| problem.part_model(i)).collect();
+    let req = &problem.scenario.selection.require;
+    let mut keep = vec![true; cands.len()];
+    let mut order: Vec<usize> = (0..cands.len()).collect();
+    // Group electrically identical parts.
+    order.sort_by(|&x, &y| {
+        let (a, b) = (&models[x], &models[y]);
+        (a.c_worst, a.c_typical, a.esr, a.esl)
+            .partial_cmp(&(b.c_worst, b.c_typical, b.esr, b.esl))
+            .unwrap()
+            .then(x.cmp(&y))
+    });
+    let same = |a: &PartModel, b: &PartModel| {
+        a.c_worst == b.c_worst && a.c_typical == b.c_typical && a.esr == b.esr && a.esl == b.esl
+    };
+    let mut g = 0;
+    while g < order.len() {
+        let mut h = g + 1;
+        while h < order.len() && same(&models[order[g]], &models[order[h]]) {
+            h += 1;
+        }
+        for x in g..h {
+            for y in g..h {
+                if x == y || !keep[order[y]] {
+                    continue;
+                }
+                let (a, b) = (&models[order[x]], &models[order[y]]);
+                if req.contains_key(&problem.catalog.parts[b.index].id) {
+                    continue;
+                }
+                let rating_ok = match (a.rating, b.rating) {
+                    (None, _) => true,
+                    (Some(_), None) => false,
+                    (Some(ra), Some(rb)) => ra >= rb,
+                };
+                let no_worse =
+                    a.cost <= b.cost && a.area <= b.area && a.c_limit <= b.c_limit && rating_ok;
+                let strictly = a.cost < b.cost
+                    || a.area < b.area
+                    || a.c_limit < b.c_limit
+                    || a.rating != b.rating
+                    || order[x] < order[y];
+                if no_worse && strictly && keep[order[x]] {
+                    keep[order[y]] = false;
+                }
+            }
+        }
+        g = h;
+    }
+    let kept: Vec<usize> = cands
+        .iter()
+        .zip(&keep)
+        .filter(|(_, &k)| k)
+        .map(|(&c, _)| c)
+        .collect();
+    let n = cands.len() - kept.len();
+    (kept, n)
+}
+
+pub(super) fn binomial_sum(n: usize, k: usize) -> usize {
+    let mut total: usize = 0;
+    let mut c: usize = 1;
+    for j in 1..=k.min(n) {
+        c = c.saturating_mul(n + 1 - j) / j;
+        total = total.saturating_add(c);
+    }
+    total
+}
+
+/// Visit every line set: the required parts plus up to `free` others from
+/// `pool`, without storing them.
+pub(super) fn each_line_set(
+    required: &[usize],
+    pool: &[usize],
+    free: usize,
+    f: &mut dyn FnMut(&[usize]),
+) {
+    let others: Vec<usize> = pool
+        .iter()
+        .copied()
+        .filter(|i| !required.contains(i))
+        .collect();
+    let mut cur: Vec<usize> = required.to_vec();
+    if !required.is_empty() {
+        f(&cur);
+    }
+    pub(super) fn go(
+        others: &[usize],
+        start: usize,
+        left: usize,
+        cur: &mut Vec<usize>,
+        f: &mut dyn FnMut(&[usize]),
+    ) {
+        for j in start..others.len() {
+            cur.push(others[j]);
+            f(cur);
+            if left > 1 {
+                go(others, j + 1, left - 1, cur, f);
+            }
+            cur.pop();
+        }
+    }
+    if free > 0 {
+        go(&others, 0, free, &mut cur, f);
+    }
+}
+
+/// All line sets: the required parts plus up to `free` others from `pool`.
+pub(super) fn line_sets(required: &[usize], pool: &[usize], free: usize) -> Vec<Vec<usize>> {
+    let others: Vec<usize> = pool
+        .iter()
+        .copied()
+        .filter(|i| !required.contains(i))
+        .collect();
+    let mut out = Vec::new();
+    if !required.is_empty() {
+        out.push(required.to_vec());
+    }
+    let mut cur: Vec<usize> = Vec::new();
+    pub(super) fn go(
+        others: &[usize],
+        start: usize,
+        left: usize,
+        cur: &mut Vec<usize>,
+        req: &[usize],
+        out: &mut Vec<Vec<usize>>,
+    ) {
+        for j in start..others.len() {
+            cur.push(others[j]);
+            let mut s: Vec<usize> = req.to_vec();
+            s.extend_from_slice(cur);
+            out.push(s);
+            if left > 1 {
+                go(others, j + 1, left - 1, cur, req, out);
+            }
+            cur.pop();
+        }
+    }
+    if free > 0 {
+        go(&others, 0, free, &mut cur, required, &mut out);
+    }
+    out
+}
+
+pub(super) fn bar(show: bool, len: usize, msg: &str) -> ProgressBar {
+    if !show {
+        return ProgressBar::hidden();
+    }
+    let pb = ProgressBar::new(len as u64);
+    pb.set_style(
+        ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} line sets ({elapsed})")
+            .expect("template")
+            .progress_chars("=> "),
+    );
+    pb.set_message(msg.to_string());
+    pb
+}
+
+pub(super) fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Settings, msg: &str) {
+    let bounded: Vec<(f64, Vec<usize>)> = sets
+        .into_iter()
+        .filter_map(|set| s.set_bound(&set).map(|b| (b, set)))
+        .collect();
+    solve_bounded(s, bounded, settings, msg);
+}
+
+/// As [`run_sets`] over every line set of the required parts plus up to
+/// `free` parts of `pool`; only the sets that pass their bound are stored.
+pub(super) fn run_all_sets(
+    s: &mut Search,
+    pool: &[usize],
+    free: usize,
+    settings: &Settings,
+    msg: &str,
+) {
+    let mut bounded: Vec<(f64, Vec<usize>)> = Vec::new();
+    let required = s.required.clone();
+    let inc0 = s.inc_primary();
+    each_line_set(&required, pool, free, &mut |set| {
+        if let Some(b) = s.set_bound(set) {
+            if b <= inc0 + tol(b, inc0) {
+                bounded.push((b, set.to_vec()));
+            }
+        }
+    });
+    solve_bounded(s, bounded, settings, msg);
+}
+
+pub(super) fn solve_bounded(
+    s: &mut Search,
+    mut bounded: Vec<(f64, Vec<usize>)>,
+    settings: &Settings,
+    msg: &str,
+) {
+    bounded.sort_by(|x, y| {
+        x.0.partial_cmp(&y.0)
+            .unwrap()
+            .then(x.1.len().cmp(&y.1.len()))
+    });
+    let pb = bar(settings.progress, bounded.len(), msg);
+    for (j, (b, set)) in bounded.iter().enumerate() {
+        if s.stopped {
+            break;
+        }
+        let inc0 = s.inc_primary();
+        if *b > inc0 + tol(*b, inc0) {
+            break;
+        }
+        s.solve_set(set);
+        if j % 64 == 0 {
+            pb.set_position(j as u64);
+        }
+    }
+    pb.finish_and_clear();
+}
+
+/// The most promising parts for a large catalog: for each of the hardest
+/// harmonics, the parts with the most admittance per unit of objective, and
+/// the parts that meet the necessary condition alone most cheaply.
+pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
+    let p = s.parts.len();
+    let all: Vec<usize> = (0..p).collect();
+    let mut score = vec![0.0_f64; p];
+    let ks = milp::hard_harmonics(s, &all, 12);
+    let mut idx: Vec<usize> = all.clone();
+    for &k in &ks {
+        let eff = |x: usize| s.a[x * s.n + k] / s.w[0][x].max(1e-12);
+        idx.sort_by(|&x, &y| eff(y).partial_cmp(&eff(x)).unwrap());
+        for (rank, &i) in idx.iter().take(size).enumerate() {
+            score[i] += 1.0 / (1.0 + rank as f64);
+        }
+    }
+    // Cost for one part alone to meet the condition at every harmonic.
+    let alone = |i: usize| -> f64 {
+        let mut need: f64 = s.lb[i] as f64;
+        for k in 0..s.n {
+            if s.q[k] > 0.0 {
+                need = need.max((s.q[k] / s.a[i * s.n + k].max(1e-300)).ceil());
+            }
+        }
+        if need > s.ub[i] as f64 {
+            f64::INFINITY
+        } else {
+            need * s.w[0][i]
+        }
+    };
+    let costs: Vec<f64> = all.iter().map(|&i| alone(i)).collect();
+    idx.sort_by(|&x, &y| costs[x].partial_cmp(&costs[y]).unwrap());
+    for (rank, &i) in idx.iter().take(size).enumerate() {
+        if costs[i].is_finite() {
+            score[i] += 2.0 / (1.0 + rank as f64);
+        }
+    }
+    let mut order: Vec<usize> = all;
+    order.sort_by(|&x, &y| score[y].partial_cmp(&score[x]).unwrap());
+    let mut out: Vec<usize> = order.into_iter().take(size).collect();
+    for &r in &s.required {
+        if !out.contains(&r) {
+            out.push(r);
+        }
+    }
+    out
+}
+
+/// Swap, add or remove one part of the incumbent's line set while that improves.
+pub(super) fn neighbourhood(s: &mut Search, settings: &Settings) {
+    loop {
+        let Some((key, bank, _)) = s.inc.clone() else {
+            return;
+        };
+        let cur: Vec<usize> = bank.iter().map(|b| b.0).collect();
+        let mut sets: Vec<Vec<usize>> = Vec::new();
+        let p = s.parts.len();
+        for (j, &i) in cur.iter().enumerate() {
+            if s.required.contains(&i) {
+                continue;
+            }
+            let mut r = cur.clone();
+            r.remove(j);
+            if !r.is_empty() {
+                sets.push(r.clone());
+            }
+            for x in 0..p {
+                if !cur.contains(&x) {
+                    let mut t = r.clone();
+                    t.push(x);
+                    sets.push(t);
+                }
+            }
+        }
+        if cur.len() < s.lim.max_lines {
+            for x in 0..p {
+                if !cur.contains(&x) {
+                    let mut t = cur.clone();
+                    t.push(x);
+                    sets.push(t);
+                }
+            }
+        }
+        run_sets(s, sets, settings, "design (neighbourhood)");
+        match &s.inc {
+            Some((k2, _, _)) if better(k2, &key) => continue,
+            _ => return,
+        }
+    }
+}
