@@ -161,6 +161,23 @@ fn objective_arg(o: Option<&str>) -> Result<Option<Objective>> {
     }
 }
 
+/// Plain words for the limits that stop a design.
+fn binding_text(b: &optimize::Binding) -> String {
+    if b.limits == ["catalog"] {
+        "  Binding: no limit — even with every limit relaxed the eligible parts do not reach the target.\n".into()
+    } else if b.together {
+        format!(
+            "  Binding: no single limit, but these together (relaxing them all reaches the target): {}\n",
+            b.limits.join(", ")
+        )
+    } else {
+        format!(
+            "  Binding (relaxing any one of these alone makes the target reachable): {}\n",
+            b.limits.join(", ")
+        )
+    }
+}
+
 /// Text and JSON for a design outcome.
 pub fn design_report(
     p: &Problem,
@@ -214,11 +231,7 @@ pub fn design_report(
                     let _ = writeln!(body, "  No part may be used, so no bank can be built.");
                 }
             }
-            let _ = writeln!(
-                body,
-                "  Binding (relaxing any one of these alone makes the target reachable): {}",
-                out.binding.join(", ")
-            );
+            body.push_str(&binding_text(&out.binding));
             let mut doc = json!({
                 "status": "infeasible",
                 "bank": [],
@@ -229,7 +242,8 @@ pub fn design_report(
                 "excluded": p.excluded,
                 "warnings": p.warnings,
                 "best_ripple_pp": out.best_ripple_pp,
-                "binding": out.binding,
+                "binding": out.binding.limits,
+                "binding_together": out.binding.together,
                 "target_ripple_pp": p.scenario.target.ripple_pp.0,
                 "scenario": p.scenario.name,
                 "objective": p.scenario.selection.objective.name(),
@@ -732,13 +746,16 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
                 text::mv(r)
             );
         }
+        let binding = optimize::binding(&p, p.scenario.target.ripple_pp.0);
+        body.push_str(&binding_text(&binding));
         doc = json!({
             "status": "infeasible", "bank": [], "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
             "cost": null, "area": null, "count": 0, "lines": 0,
             "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
             "ripple_current": [], "excluded": p.excluded, "warnings": p.warnings,
             "best_ripple_pp": r.is_finite().then_some(r),
-            "binding": optimize::binding(&p, p.scenario.target.ripple_pp.0),
+            "binding": binding.limits,
+            "binding_together": binding.together,
             "kept": [], "removed": [], "added": [],
         });
         if let Some(b) = closest {

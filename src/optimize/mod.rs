@@ -86,7 +86,7 @@ pub struct Outcome {
     pub found: Option<Found>,
     pub best_ripple_pp: Option<f64>,
     pub best_ripple_bank: Option<Vec<(usize, u32)>>,
-    pub binding: Vec<String>,
+    pub binding: Binding,
     pub stats: Stats,
 }
 
@@ -245,7 +245,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         found,
         best_ripple_pp: None,
         best_ripple_bank: None,
-        binding: Vec::new(),
+        binding: Binding::default(),
         stats,
     };
     if status == Status::Infeasible && settings.explain {
@@ -259,7 +259,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
 }
 
 /// Relax each limit in turn; those whose removal lets the target be met bind.
-pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
+pub fn binding(problem: &Problem, target: f64) -> Binding {
     use crate::scenario::{Plain, Scenario};
     let base = &problem.scenario;
     type Relax = Box<dyn Fn(&mut Scenario)>;
@@ -333,7 +333,7 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         max_evaluations: 150_000,
         ..Settings::default()
     };
-    for (name, relax) in tries {
+    for (name, relax) in &tries {
         let mut sc = base.clone();
         relax(&mut sc);
         let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
@@ -343,6 +343,7 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
             out.push(name.to_string());
         }
     }
+    let all_relax = tries;
     // Ripple-current ratings: ignore them.
     let mut p = Problem {
         scenario: base.clone(),
@@ -364,10 +365,74 @@ pub fn binding(problem: &Problem, target: f64) -> Vec<String> {
         }
     }
     if out.is_empty() {
-        // No single limit stops it: the parts themselves cannot reach the target.
-        out.push("catalog".into());
+        // No single limit: relax them all at once. If that reaches the
+        // target, the limits its bank breaks bind together; if not, the
+        // eligible parts themselves cannot reach it.
+        let mut sc = base.clone();
+        for (_, relax) in &all_relax {
+            relax(&mut sc);
+        }
+        let mut cat = problem.catalog.clone();
+        for part in cat.parts.iter_mut() {
+            part.ripple_current = None;
+        }
+        let found = Problem::new(sc, cat)
+            .ok()
+            .and_then(|p| design_for(&p, target, &quick).found);
+        match found.and_then(|f| {
+            crate::assessment::assess(problem, &f.bank)
+                .ok()
+                .map(|a| (f, a))
+        }) {
+            Some((f, a)) => {
+                let mut names: Vec<String> = Vec::new();
+                let mut add = |n: &str| {
+                    if !names.iter().any(|x| x == n) {
+                        names.push(n.to_string());
+                    }
+                };
+                for c in a.checks.iter().filter(|c| !c.ok) {
+                    let n = c.name.split(' ').next().unwrap_or("");
+                    match n {
+                        "height" => add("max_height"),
+                        "ripple_pp" | "voltage" | "temperature_min" | "temperature_max" => {}
+                        other => add(other),
+                    }
+                }
+                for &(i, _) in &f.bank {
+                    let part = &problem.catalog.parts[i];
+                    if let Some(r) =
+                        crate::problem::ineligibility(base, part, base.selection.objective)
+                    {
+                        if r.contains("excluded") {
+                            add("exclude");
+                        } else if r.contains("nrnd") {
+                            add("status nrnd");
+                        }
+                    }
+                }
+                return Binding {
+                    limits: names,
+                    together: true,
+                };
+            }
+            None => out.push("catalog".into()),
+        }
     }
-    out
+    Binding {
+        limits: out,
+        together: false,
+    }
+}
+
+/// The limits that stop a design.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Binding {
+    /// Limit names; `["catalog"]` when even relaxing every limit does not
+    /// reach the target.
+    pub limits: Vec<String>,
+    /// No single limit binds: relaxing these together reaches the target.
+    pub together: bool,
 }
 
 /// The cheapest bank the other limits allow, whatever its ripple (the
