@@ -376,6 +376,24 @@ pub fn assess_with(
             });
         }
     }
+    // The worst corner is the low-capacitance one (SPEC §4); a bank whose
+    // ripple grows with capacitance (ESL- and ESR-dominated) is flagged.
+    if ripple_pp_typical > s.target.ripple_pp.0 {
+        warnings.push(format!(
+            "at the typical corner (nominal capacitance with DC bias) the ripple is {:.3} mV, ABOVE the target \
+             of {:.3} mV: this bank's ripple rises with capacitance (ESL/ESR-dominated); pass/fail is judged at \
+             the worst corner, but check it on hardware or choose a bank with margin",
+            ripple_pp_typical * 1e3,
+            s.target.ripple_pp.0 * 1e3
+        ));
+    } else if ripple_pp_typical > ripple_pp * 1.005 {
+        warnings.push(format!(
+            "the typical corner ripples more than the worst corner ({:.3} mV against {:.3} mV): the ripple \
+             is set mostly by ESL and ESR here, so more capacitance does not lower it",
+            ripple_pp_typical * 1e3,
+            ripple_pp * 1e3
+        ));
+    }
     // Convergence of the truncated series (common practice, no source: a
     // figure that still moves by over 2 % when the harmonics are halved has
     // not converged).
