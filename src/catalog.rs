@@ -354,6 +354,22 @@ const REQUIRED: &[&str] = &[
     "cost",
 ];
 
+/// Levenshtein distance between two short names.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, &cb) in b.iter().enumerate() {
+            cur[j + 1] = (prev[j] + usize::from(ca != cb))
+                .min(prev[j + 1] + 1)
+                .min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
 fn normalise_header(h: &str) -> String {
     h.trim()
         .trim_start_matches('\u{feff}')
@@ -438,6 +454,21 @@ impl Catalog {
             extra_columns: extra.iter().map(|(_, h)| h.clone()).collect(),
             ..Default::default()
         };
+        // An extra column whose name is close to a known one is most likely a
+        // typo that would silently drop data (a misspelled `status` makes an
+        // obsolete part usable): say so.
+        for (i, h) in &extra {
+            if let Some(k) = KNOWN
+                .iter()
+                .find(|k| edit_distance(h, k) <= 2 && h.len() >= 3)
+            {
+                cat.warnings.push(format!(
+                    "{source}: line 1, column {} `{h}` is not a known column; did you mean `{k}`? \
+                     It is only carried to the bill of materials",
+                    i + 1
+                ));
+            }
+        }
         let mut warned_tol = 0usize;
         let mut lines = LineCounter::new(text.as_bytes());
         for rec in rdr.records() {
@@ -851,6 +882,22 @@ mod tests {
             vec![("vendor_code".to_string(), "x1".to_string())]
         );
         assert_eq!(c.parts[0].tolerance, 0.2);
+    }
+
+    #[test]
+    fn misspelled_column_is_warned_about() {
+        let csv = "part,technology,capacitance,rated_voltage,esr,esl,cost,statu,vendor_code\n\
+                   A,ceramic,22u,6.3,3m,0.4n,0.05,obsolete,x1\n";
+        let c = Catalog::from_bytes(csv.as_bytes(), "t.csv").unwrap();
+        assert!(
+            c.warnings
+                .iter()
+                .any(|w| w.contains("did you mean `status`")),
+            "{:?}",
+            c.warnings
+        );
+        assert!(!c.warnings.iter().any(|w| w.contains("vendor_code")));
+        assert_eq!(edit_distance("ripple_curent", "ripple_current"), 1);
     }
 
     #[test]
