@@ -358,18 +358,19 @@ pub fn tradeoff(
     let hi = match to {
         Some(v) => v,
         None => {
-            let r = optimize::smallest_bank(&p)
-                .map(|f| f.ripple_pp)
-                .filter(|r| r.is_finite())
+            let smallest = optimize::smallest_bank(&p)
+                .filter(|f| f.ripple_pp.is_finite())
                 .ok_or_else(|| {
                     anyhow::anyhow!(
                         "no bank satisfies the limits other than ripple; see `ripplebank validate`"
                     )
                 })?;
+            let r = smallest.ripple_pp;
             let cap = TRADEOFF_SPAN * p.scenario.target.ripple_pp.0;
             if r > cap && cap > lo {
                 note = format!(
-                    "The smallest allowed bank gives {}; the range stops at {} ({}× the target). Use --to to extend it.",
+                    "The smallest allowed bank ({}) ripples {}; the range stops at {} ({}× the target). Use --to to extend it.",
+                    if smallest.bank.is_empty() { "no added part".to_string() } else { bank_key(&p, &smallest.bank) },
                     text::mv(r),
                     text::mv(cap),
                     TRADEOFF_SPAN
@@ -380,6 +381,26 @@ pub fn tradeoff(
             }
         }
     };
+    if hi <= lo * (1.0 + 1e-6) {
+        match (from.is_some(), to.is_some()) {
+            (true, true) => anyhow::bail!(
+                "--to ({}) must be above --from ({})",
+                text::mv(hi),
+                text::mv(lo)
+            ),
+            (true, false) => anyhow::bail!(
+                "--from ({}) is above the default upper end ({}); give --to as well",
+                text::mv(lo),
+                text::mv(hi)
+            ),
+            (false, true) => anyhow::bail!(
+                "--to ({}) is below the lowest ripple found ({}); no target in that range can be met",
+                text::mv(hi),
+                text::mv(lo)
+            ),
+            (false, false) => {}
+        }
+    }
     let (lo, hi) = if hi > lo * (1.0 + 1e-6) {
         (lo, hi)
     } else {
@@ -562,7 +583,7 @@ pub fn tradeoff(
         "from": lo, "to": hi,
         "points": json_points,
         "excluded": p.excluded,
-        "warnings": p.warnings,
+        "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
     if let Some(dir) = &c.out {
         let plots = report::plots::tradeoff_plots(&plot_points)?;
