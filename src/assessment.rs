@@ -68,6 +68,10 @@ pub struct Assessment {
     pub cost: f64,
     pub parts_cost: f64,
     pub area: f64,
+    /// False when a part has no area: `area` is then a lower bound and the
+    /// JSON reports null.
+    #[serde(skip)]
+    pub area_known: bool,
     pub count: u32,
     pub lines: u32,
     pub capacitance_nominal_total: f64,
@@ -232,7 +236,7 @@ pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
     let mut ev = problem.evaluator(&parts);
     let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, &(_, n))| (j, n)).collect();
     if ev.is_empty(&local) {
-        bail!("the bank is empty and the converter has no internal capacitance: the ripple is unbounded");
+        bail!("the bank is empty (no part with a count above zero) and the converter has no internal capacitance: the ripple is unbounded");
     }
     Ok(assess_with(problem, &mut ev, &bank, &local))
 }
@@ -507,6 +511,7 @@ pub fn assess_with(
         cost,
         parts_cost,
         area,
+        area_known,
         count,
         lines: nlines,
         capacitance_nominal_total: cn,

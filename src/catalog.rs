@@ -149,7 +149,32 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
 
 /// Footprint (body length × width, mm²) of an imperial EIA case code.
 pub fn eia_case_area(case: &str) -> Option<f64> {
-    let (l, w) = match case.trim() {
+    if let Some(a) = imperial_case_area(case.trim()) {
+        return Some(a);
+    }
+    // Extension: metric EIA codes (length and width in tenths of a mm), as
+    // tantalum and polymer chips are named, with an optional height suffix
+    // ("7343-31"). None of them collides with an imperial code.
+    let code = case.trim().split('-').next().unwrap_or("");
+    let (l, w) = match code {
+        "1005" => (1.0, 0.5),
+        "1608" => (1.6, 0.8),
+        "2012" => (2.0, 1.25),
+        "3216" => (3.2, 1.6),
+        "3225" => (3.2, 2.5),
+        "3528" => (3.5, 2.8),
+        "4532" => (4.5, 3.2),
+        "5750" => (5.7, 5.0),
+        "6032" => (6.0, 3.2),
+        "7343" => (7.3, 4.3),
+        "7360" => (7.3, 6.0),
+        _ => return None,
+    };
+    Some(l * w)
+}
+
+fn imperial_case_area(case: &str) -> Option<f64> {
+    let (l, w) = match case {
         "01005" => (0.4, 0.2),
         "0201" => (0.6, 0.3),
         "0402" => (1.0, 0.5),
@@ -850,6 +875,9 @@ mod tests {
         assert!((eia_case_area("0603").unwrap() - 1.28).abs() < 1e-12);
         assert!((eia_case_area("1210").unwrap() - 8.0).abs() < 1e-12);
         assert!(eia_case_area("D6.3x5.8").is_none());
+        // Metric codes: 7343 = 7.3 x 4.3 mm (tantalum "D" case), with a height suffix.
+        assert!((eia_case_area("7343-31").unwrap() - 31.39).abs() < 1e-9);
+        assert!((eia_case_area("3528").unwrap() - 9.8).abs() < 1e-9);
     }
 
     #[test]

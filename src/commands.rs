@@ -115,6 +115,15 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
         }
         (None, None) => anyhow::bail!("assess needs --bank PART=N,... or --bom FILE"),
     };
+    if bank.iter().all(|b| b.1 == 0) {
+        match bom {
+            Some(f) => anyhow::bail!(
+                "{}: every count is zero: there is no bank to assess",
+                f.display()
+            ),
+            None => anyhow::bail!("--bank: every count is zero: there is no bank to assess"),
+        }
+    }
     let a = assessment::assess(&p, &bank)?;
     let status = if a.all_ok { "pass" } else { "fail" };
     let doc = report::assessment_json(status, &a, &p);

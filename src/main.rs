@@ -100,7 +100,7 @@ enum Cmd {
         #[command(flatten)]
         output: Output,
     },
-    /// Check a scenario and a catalog; list the parts that may not be used and why
+    /// Check a scenario and a catalog; list the usable parts, and every other part with its reason
     Validate {
         #[command(flatten)]
         input: Input,

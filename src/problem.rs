@@ -161,6 +161,31 @@ impl Problem {
                 ));
             }
         }
+        let conv = &scenario.converter;
+        if conv.topology == Topology::Buck {
+            if conv.edge_time.0 > 0.0 || conv.turns_ratio.is_some() {
+                warnings.push(
+                    "converter.edge_time and turns_ratio do not apply to a buck and are ignored"
+                        .into(),
+                );
+            }
+            for op in &ops {
+                // Each phase's inductor current dips below zero when its ripple
+                // exceeds twice its share of the load (common practice, no source).
+                let per_phase = conv.iout.0 / conv.phases as f64;
+                let vin = op.vin.unwrap_or(0.0);
+                let d = conv.vout.0 / vin;
+                let di = conv.vout.0 * (1.0 - d)
+                    / (conv.inductance.map_or(f64::INFINITY, |l| l.0) * conv.fsw.0);
+                if di / 2.0 > per_phase {
+                    warnings.push(format!(
+                        "at vin = {vin} V the inductor ripple ({di:.3} A p-p) exceeds twice the load per phase: a real \
+                         buck would enter discontinuous conduction or run forced-continuous; the model assumes \
+                         forced-continuous conduction"
+                    ));
+                }
+            }
+        }
         if scenario.converter.max_capacitance.is_none() {
             warnings.push(
                 "converter.max_capacitance not given: the converter maker's limit on added output \

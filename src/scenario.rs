@@ -553,6 +553,12 @@ impl Scenario {
         if b.max_lines == Some(0) {
             return Err(self.err("board.max_lines", "must be at least 1"));
         }
+        if b.max_count == Some(0) {
+            return Err(self.err(
+                "board.max_count",
+                "must be at least 1 (no bank could be placed)",
+            ));
+        }
         let s = &self.selection;
         nonneg("selection.line_cost", s.line_cost.0)?;
         if s.max_per_part == 0 || s.max_per_part > 10000 {

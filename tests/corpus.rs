@@ -706,7 +706,8 @@ fn semicolon_export_with_decimal_commas() {
     assert_eq!(b.technology, Technology::PolymerTantalum);
     close(b.capacitance, 330e-6);
     close(b.cost, 1.25);
-    assert_eq!(b.area, None); // 7343 is not an imperial EIA chip code
+    // Metric EIA code 7343 (7.3 x 4.3 mm), an extension beyond SPEC §2's imperial codes.
+    close(b.area.unwrap(), 7.3 * 4.3);
 }
 
 #[test]
@@ -847,6 +848,7 @@ const OPTIONAL: &[&str] = &[
     "rating",
     "ripple_current_rating",
     "unit_area",
+    "area", // null when a part gives no area (README: unknown, not zero)
     "height",
     "case",
     "bandwidth",

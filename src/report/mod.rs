@@ -28,6 +28,9 @@ pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value
     let mut v = serde_json::to_value(a).expect("serialisable");
     let o = v.as_object_mut().expect("object");
     o.insert("status".into(), json!(status));
+    if !a.area_known {
+        o.insert("area".into(), serde_json::Value::Null);
+    }
     o.insert(
         "excluded".into(),
         serde_json::to_value(&problem.excluded).expect("serialisable"),

@@ -68,6 +68,13 @@ pub fn header(problem: &Problem) -> String {
             String::new()
         }
     );
+    if c.phases > 1 {
+        let _ = writeln!(
+            o,
+            "  {} interleaved phases: only harmonics at multiples of {}× fsw remain in the summed current",
+            c.phases, c.phases
+        );
+    }
     for op in &problem.ops {
         let _ = writeln!(
             o,
@@ -149,11 +156,17 @@ pub fn assessment(a: &Assessment) -> String {
     ));
     let _ = writeln!(
         o,
-        "  total: {} parts on {} lines, cost {:.3}, area {:.2} mm², C nominal {}, C worst-corner {}",
+        "  total: {} part{} on {} line{}, cost {:.3}, area {}, C nominal {}, C worst-corner {}",
         a.count,
+        if a.count == 1 { "" } else { "s" },
         a.lines,
+        if a.lines == 1 { "" } else { "s" },
         a.cost,
-        a.area,
+        if a.area_known {
+            format!("{:.2} mm²", a.area)
+        } else {
+            "unknown (some parts give none)".into()
+        },
         format_si(a.capacitance_nominal_total, "F"),
         format_si(a.capacitance_effective_total, "F")
     );
