@@ -114,7 +114,7 @@ fn failed_runs_leave_the_folder_as_it_was_and_a_good_run_replaces_it() {
         // Fails after the inputs are read: a bank of nothing.
         (
             &["assess", "--bank", "RB-C1206-X5R-47U-6V3=0", "--out", d],
-            "empty",
+            "every count is zero",
         ),
         (
             &[
