@@ -595,7 +595,8 @@ pub fn tradeoff(
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
     if let Some(dir) = &c.out {
-        let plots = report::plots::tradeoff_plots(&plot_points)?;
+        let plots =
+            report::plots::tradeoff_plots(&plot_points, Some(p.scenario.target.ripple_pp.0))?;
         let mut files = OutFiles::default();
         files.add(
             "tradeoff.csv",

@@ -468,11 +468,16 @@ fn tradeoff_plots_mark_where_the_bank_changes() {
         point(4.0, "A=2,B=1", Some(0.5)),
         point(3.0, "A=3,B=2", Some(0.9)),
     ];
-    let out = plots::tradeoff_plots(&pts).unwrap();
+    let out = plots::tradeoff_plots(&pts, Some(2.0e-3)).unwrap();
     assert_eq!(
         out.iter().map(|x| x.0.as_str()).collect::<Vec<_>>(),
         ["cost.svg", "area.svg"]
     );
+    // The scenario's own target (2 mV, inside the plotted range) is marked.
+    assert!(out
+        .iter()
+        .all(|(_, svg)| svg.contains("the scenario&apos;s own target")
+            || svg.contains("the scenario's own target")));
     for ((_, svg), y) in out
         .iter()
         .zip(["cost (catalog currency)", "board area (mm²)"])
@@ -497,7 +502,7 @@ fn tradeoff_plots_mark_where_the_bank_changes() {
         assert!(t.iter().any(|s| s == "no bank meets this target"));
     }
     // Nothing feasible still draws a plot that says so.
-    let out = plots::tradeoff_plots(&[point(1.0, "", None), point(2.0, "", None)]).unwrap();
+    let out = plots::tradeoff_plots(&[point(1.0, "", None), point(2.0, "", None)], None).unwrap();
     let t = texts(&parse(&out[0].1));
     assert!(t.iter().any(|s| s.contains("no bank meets any")), "{t:?}");
 }

@@ -1015,7 +1015,11 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
 // ---------------------------------------------------------------- trade-off plots
 
 /// `cost.svg` and `area.svg` of a trade-off sweep: (file name, SVG text).
-pub fn tradeoff_plots(points: &[TradeoffPoint]) -> Result<Vec<(String, String)>> {
+/// `scenario_target` (V), when given, is marked as a vertical line.
+pub fn tradeoff_plots(
+    points: &[TradeoffPoint],
+    scenario_target: Option<f64>,
+) -> Result<Vec<(String, String)>> {
     let mut pts: Vec<&TradeoffPoint> = points
         .iter()
         .filter(|p| p.target.is_finite() && p.target > 0.0)
@@ -1061,7 +1065,16 @@ pub fn tradeoff_plots(points: &[TradeoffPoint]) -> Result<Vec<(String, String)>>
     ] {
         out.push((
             file.to_string(),
-            tradeoff_svg(&pts, &number, &changed, &keys, what, axis, title)?,
+            tradeoff_svg(
+                &pts,
+                &number,
+                &changed,
+                &keys,
+                what,
+                axis,
+                title,
+                scenario_target,
+            )?,
         ));
     }
     Ok(out)
@@ -1081,6 +1094,7 @@ fn tradeoff_svg(
     what: Quantity,
     axis: &str,
     title: &str,
+    scenario_target: Option<f64>,
 ) -> Result<String> {
     let val = |p: &TradeoffPoint| {
         match what {
@@ -1114,6 +1128,12 @@ fn tradeoff_svg(
     ];
     if any_infeasible {
         entries.push(entry("no bank meets this target", ALERT, Mark::Cross));
+    }
+    let marked_target = scenario_target
+        .map(|t| (t * 1e3).log10())
+        .filter(|x| x.is_finite() && (xlo.log10()..=xhi.log10()).contains(x));
+    if marked_target.is_some() {
+        entries.push(entry("the scenario's own target", ALERT, Mark::Dashed));
     }
     let key_lines: Vec<String> = keys
         .iter()
@@ -1166,6 +1186,16 @@ fn tradeoff_svg(
         chart
             .draw_series(LineSeries::new(line, PALETTE[0].stroke_width(2)))
             .map_err(pe)?;
+        if let Some(x) = marked_target {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(x, 0.0), (x, yhi)],
+                    7,
+                    5,
+                    ALERT.stroke_width(2),
+                ))
+                .map_err(pe)?;
+        }
         // The chosen bank at the ripple it reaches, joined to its target point.
         for p in pts {
             if let (Some(v), Some(r)) = (val(p), p.ripple_pp.filter(|r| r.is_finite() && *r > 0.0))
