@@ -426,6 +426,15 @@ pub fn assess_with(
             ok: ripple_pp <= s.target.ripple_pp.0,
         },
     );
+    if s.selection.check_typical {
+        checks.push(Check {
+            name: "ripple_pp_typical".into(),
+            value: ripple_pp_typical,
+            limit: s.target.ripple_pp.0,
+            unit: "V".into(),
+            ok: ripple_pp_typical <= s.target.ripple_pp.0,
+        });
+    }
     if let Some(m) = s.converter.max_capacitance {
         checks.push(Check {
             name: "max_capacitance".into(),

@@ -220,6 +220,10 @@ pub struct Selection {
     pub max_capacitance_basis: CapBasis,
     #[serde(default)]
     pub voltage_derating: BTreeMap<String, Fraction>,
+    /// Extension: require the typical corner to meet the target too (for
+    /// banks whose ripple rises with capacitance).
+    #[serde(default)]
+    pub check_typical: bool,
 }
 
 fn twenty() -> u32 {
@@ -237,6 +241,7 @@ impl Default for Selection {
             require: BTreeMap::new(),
             max_capacitance_basis: CapBasis::Nominal,
             voltage_derating: BTreeMap::new(),
+            check_typical: false,
         }
     }
 }

@@ -231,3 +231,32 @@ fn objectives_area_and_count() {
         a.count
     );
 }
+
+#[test]
+fn check_typical_holds_the_typical_corner_to_the_target() {
+    // With selection.check_typical the typical corner must meet the target
+    // as well (recomputed here); on the two-phase core rail the default
+    // design's typical corner ripples above its worst corner, so a target
+    // just above the worst corner shows the difference.
+    let s0 = Scenario::from_path(std::path::Path::new(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/scenarios/core-2phase.toml"
+    )))
+    .unwrap();
+    let c = Catalog::from_path(&s0.catalog_path().unwrap()).unwrap();
+    let (_, plain) = solve(s0.clone(), c.clone());
+    let plain = plain.unwrap();
+    let mut s = s0;
+    s.target.ripple_pp.0 = (plain.ripple_pp + plain.ripple_pp_typical) / 2.0;
+    let (_, loose) = solve(s.clone(), c.clone());
+    let loose = loose.unwrap();
+    s.selection.check_typical = true;
+    let (_, strict) = solve(s.clone(), c);
+    let strict = strict.unwrap();
+    assert!(
+        strict.ripple_pp_typical <= s.target.ripple_pp.0,
+        "{}",
+        strict.ripple_pp_typical
+    );
+    assert!(strict.cost >= loose.cost - 1e-12);
+}

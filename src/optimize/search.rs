@@ -40,6 +40,8 @@ pub(super) struct Search {
     pub(super) lim: Limits,
     pub(super) required: Vec<usize>,
     pub(super) check_currents: bool,
+    /// Also require the typical corner to pass (`selection.check_typical`).
+    pub(super) check_typical: bool,
     pub(super) inc: Option<(Key, Vec<(usize, u32)>, f64)>,
     pub(super) evals: usize,
     pub(super) sets_solved: usize,
@@ -135,6 +137,7 @@ impl Search {
             lim,
             required,
             check_currents,
+            check_typical: s.selection.check_typical,
             inc: None,
             evals: 0,
             sets_solved: 0,
@@ -274,6 +277,17 @@ impl Search {
     }
 
     pub(super) fn currents_ok(&mut self) -> bool {
+        if self.check_typical {
+            let Search { ev, bank_buf, .. } = self;
+            let r = ev.ripple_pp(
+                bank_buf,
+                crate::bank::Corner::Typical,
+                crate::bank::Band::Limited,
+            );
+            if !(r <= self.target) {
+                return false;
+            }
+        }
         if self.check_currents
             && self
                 .bank_buf
