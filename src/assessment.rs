@@ -386,7 +386,7 @@ pub fn assess_with(
         warnings.push(format!(
             "at the typical corner (nominal capacitance with DC bias) the ripple is {:.3} mV, ABOVE the target \
              of {:.3} mV: this bank's ripple rises with capacitance (ESL/ESR-dominated); pass/fail is judged at \
-             the worst corner, but check it on hardware or choose a bank with margin",
+             the worst corner; set selection.check_typical = true to require both",
             ripple_pp_typical * 1e3,
             s.target.ripple_pp.0 * 1e3
         ));
