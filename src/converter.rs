@@ -183,6 +183,53 @@ pub fn operating_points(s: &Scenario) -> Vec<OperatingPoint> {
         .collect()
 }
 
+/// The rectifier current of a flyback or boost: zero while the switch is
+/// on, then a jump to `ipk` and a linear ramp down (SPEC §5).
+enum Pulse {
+    /// Ramps down to `imin` at the end of the period.
+    Continuous { t_on: f64, ipk: f64, imin: f64 },
+    /// Ramps down to zero after `t_d`, then stays at zero.
+    Discontinuous { t_on: f64, ipk: f64, t_d: f64 },
+}
+
+impl Pulse {
+    /// The capacitor current (rectifier current − iout) over one period `t`.
+    fn operating_point(&self, vin: f64, t: f64, iout: f64) -> OperatingPoint {
+        let (points, mode, ipk, t_on) = match *self {
+            Pulse::Continuous { t_on, ipk, imin } => (
+                vec![
+                    (0.0, -iout),
+                    (t_on, -iout),
+                    (t_on, ipk - iout),
+                    (t, imin - iout),
+                ],
+                "CCM",
+                ipk,
+                t_on,
+            ),
+            Pulse::Discontinuous { t_on, ipk, t_d } => (
+                vec![
+                    (0.0, -iout),
+                    (t_on, -iout),
+                    (t_on, ipk - iout),
+                    (t_on + t_d, -iout),
+                ],
+                "DCM",
+                ipk,
+                t_on,
+            ),
+        };
+        OperatingPoint {
+            vin: Some(vin),
+            duty: t_on / t,
+            f_ripple: 1.0 / t,
+            current_pp: ipk,
+            mode,
+            waveform: Waveform { period: t, points },
+        }
+    }
+}
+
 fn triangle(period: f64, duty: f64, pp: f64) -> Waveform {
     Waveform {
         period,
@@ -226,43 +273,23 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let d = vout / (vout + n * vin);
             let dis = vout * (1.0 - d) * t / ls;
             let mid = iout / (1.0 - d);
-            let (points, mode, ipk) = if mid > dis / 2.0 {
-                let (ipk, imin) = (mid + dis / 2.0, mid - dis / 2.0);
-                (
-                    vec![
-                        (0.0, -iout),
-                        (d * t, -iout),
-                        (d * t, ipk - iout),
-                        (t, imin - iout),
-                    ],
-                    "CCM",
-                    ipk,
-                )
+            let pulse = if mid > dis / 2.0 {
+                Pulse::Continuous {
+                    t_on: d * t,
+                    ipk: mid + dis / 2.0,
+                    imin: mid - dis / 2.0,
+                }
             } else {
                 let ipk_p = (2.0 * vout * iout / (l * fsw)).sqrt();
                 let t_on = ipk_p * l / vin;
                 let ipk = ipk_p / n;
-                let t_d = (ipk * ls / vout).min(t - t_on);
-                (
-                    vec![
-                        (0.0, -iout),
-                        (t_on, -iout),
-                        (t_on, ipk - iout),
-                        (t_on + t_d, -iout),
-                    ],
-                    "DCM",
+                Pulse::Discontinuous {
+                    t_on,
                     ipk,
-                )
+                    t_d: (ipk * ls / vout).min(t - t_on),
+                }
             };
-            let duty = if mode == "CCM" { d } else { points[1].0 / t };
-            OperatingPoint {
-                vin: Some(vin),
-                duty,
-                f_ripple: fsw,
-                current_pp: ipk,
-                mode,
-                waveform: Waveform { period: t, points },
-            }
+            pulse.operating_point(vin, t, iout)
         }
         Topology::Boost => {
             let vin = vin.expect("checked: vin present");
@@ -270,43 +297,22 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let d = 1.0 - vin / vout;
             let di = vin * d / (l * fsw);
             let mid = iout / (1.0 - d);
-            let (points, mode, ipk, duty) = if mid >= di / 2.0 {
-                let (ipk, imin) = (mid + di / 2.0, mid - di / 2.0);
-                (
-                    vec![
-                        (0.0, -iout),
-                        (d * t, -iout),
-                        (d * t, ipk - iout),
-                        (t, imin - iout),
-                    ],
-                    "CCM",
-                    ipk,
-                    d,
-                )
+            let pulse = if mid >= di / 2.0 {
+                Pulse::Continuous {
+                    t_on: d * t,
+                    ipk: mid + di / 2.0,
+                    imin: mid - di / 2.0,
+                }
             } else {
                 let ipk = (2.0 * iout * (vout - vin) / (l * fsw)).sqrt();
                 let t_on = ipk * l / vin;
-                let t_d = (ipk * l / (vout - vin)).min(t - t_on);
-                (
-                    vec![
-                        (0.0, -iout),
-                        (t_on, -iout),
-                        (t_on, ipk - iout),
-                        (t_on + t_d, -iout),
-                    ],
-                    "DCM",
+                Pulse::Discontinuous {
+                    t_on,
                     ipk,
-                    t_on / t,
-                )
+                    t_d: (ipk * l / (vout - vin)).min(t - t_on),
+                }
             };
-            OperatingPoint {
-                vin: Some(vin),
-                duty,
-                f_ripple: fsw,
-                current_pp: ipk,
-                mode,
-                waveform: Waveform { period: t, points },
-            }
+            pulse.operating_point(vin, t, iout)
         }
         Topology::Module => {
             let d = vin.map_or(0.5, |v| vout / v);
