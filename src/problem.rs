@@ -84,9 +84,6 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
             _ => {}
         }
     }
-    if p.area.is_none() && (s.board.max_area.is_some() || objective == Objective::Area) {
-        return Some("no area and no imperial EIA case code to derive it from".into());
-    }
     if s.selection.exclude.iter().any(|e| e == &p.id) {
         return Some("excluded by the scenario or the command line".into());
     }
@@ -99,8 +96,16 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
             ));
         }
     }
+    // Last, so that it only speaks for parts otherwise allowed (with
+    // objective `area` it is an input error, SPEC §2).
+    if p.area.is_none() && (s.board.max_area.is_some() || objective == Objective::Area) {
+        return Some(NO_AREA.into());
+    }
     None
 }
+
+/// Reason for a part with no footprint where one is needed.
+pub const NO_AREA: &str = "no area and no EIA case code to derive it from";
 
 /// A part's contribution to the added-capacitance limit on the scenario's basis.
 pub fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
@@ -117,7 +122,17 @@ impl Problem {
         let mut eligible = Vec::new();
         let mut excluded = Vec::new();
         for (i, p) in catalog.parts.iter().enumerate() {
-            match ineligibility(&scenario, p, objective) {
+            let why = ineligibility(&scenario, p, objective);
+            if objective == Objective::Area && why.as_deref() == Some(NO_AREA) {
+                bail!(
+                    "{}: line {}, column `area`: part `{}` has no area and no EIA case code to derive it from, \
+                     which objective `area` needs (SPEC §2); give its area or exclude it",
+                    catalog.source,
+                    p.line,
+                    p.id
+                );
+            }
+            match why {
                 None => eligible.push(i),
                 Some(reason) => excluded.push(Excluded {
                     part: p.id.clone(),

@@ -260,3 +260,36 @@ fn check_typical_holds_the_typical_corner_to_the_target() {
     );
     assert!(strict.cost >= loose.cost - 1e-12);
 }
+
+#[test]
+fn objective_area_needs_every_usable_part_to_have_an_area() {
+    // SPEC §2: "when absent it comes from the imperial EIA case code …, else
+    // it is an error for objective `area`" — exit 2 naming file, line, column.
+    let dir = tempfile::tempdir().unwrap();
+    let cat = dir.path().join("c.csv");
+    std::fs::write(
+        &cat,
+        "part,technology,capacitance,rated_voltage,esr,esl,cost,case,height\n\
+         A,ceramic,22u,25,3m,0.4n,0.05,0805,1\n\
+         B,polymer-aluminum,100u,16,10m,1n,0.3,D6.3x2,2\n",
+    )
+    .unwrap();
+    let out = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["design", "--objective", "area", "--catalog"])
+        .arg(&cat)
+        .assert()
+        .code(2)
+        .get_output()
+        .stderr
+        .clone();
+    let err = String::from_utf8(out).unwrap();
+    assert!(err.contains("c.csv: line 3, column `area`"), "{err}");
+    // With objective cost the same catalog is fine.
+    assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["validate", "--catalog"])
+        .arg(&cat)
+        .assert()
+        .code(0);
+}
