@@ -804,7 +804,7 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
                 "full bandwidth: {} p-p",
                 format_si(peak_to_peak(&d.full), "V")
             ),
-            PALETTE[4],
+            PALETTE[5],
             Mark::Line(1),
         ),
         entry(
@@ -864,11 +864,13 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
             .axis_style(INK.stroke_width(1))
             .draw()
             .map_err(pe)?;
-        chart
-            .draw_series(LineSeries::new(full, PALETTE[4].stroke_width(1)))
-            .map_err(pe)?;
+        // The thick bandwidth-limited trace first, the thin full-band one on
+        // top in a contrasting colour so that both stay visible.
         chart
             .draw_series(LineSeries::new(lim, PALETTE[0].stroke_width(3)))
+            .map_err(pe)?;
+        chart
+            .draw_series(LineSeries::new(full, PALETTE[5].stroke_width(1)))
             .map_err(pe)?;
         for y in [band_lo, band_hi] {
             chart
