@@ -59,9 +59,10 @@ enum Cmd {
         output: Output,
     },
     /// Evaluate a given bank against the target and every limit
+    #[command(group(clap::ArgGroup::new("which_bank").required(true).args(["bank", "bom"])))]
     Assess {
         /// The bank as PART=N,PART=N
-        #[arg(long, conflicts_with = "bom", required_unless_present = "bom")]
+        #[arg(long)]
         bank: Option<String>,
         /// The bank as a bill of materials CSV (columns part, count)
         #[arg(long, value_name = "F")]
