@@ -252,6 +252,12 @@ pub fn format_si(value: f64, symbol: &str) -> String {
     format!("{t} {p}{symbol}")
 }
 
+/// A value with an SI prefix and no space or unit, as the catalog reader
+/// accepts it back (`4.7u`, `450p`, `3m`): for bills of materials.
+pub fn format_compact(value: f64) -> String {
+    format_si(value, "").replace(' ', "").replace('µ', "u")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -300,6 +306,24 @@ mod tests {
         // Finite number, infinite value once scaled.
         assert!(parse("1e300G", Unit::Hertz).is_err());
         assert!(parse("-inf", Unit::Volt).unwrap_err().0.contains("finite"));
+    }
+
+    #[test]
+    fn compact_round_trip() {
+        for v in [
+            9.999999999999999e-6,
+            4.5000000000000005e-10,
+            3e-3,
+            22e-6,
+            1.0,
+            0.0,
+        ] {
+            let t = format_compact(v);
+            let back = parse(&t, Unit::Farad).unwrap();
+            assert!((back - v).abs() <= 1e-3 * v.abs(), "{v} -> {t} -> {back}");
+        }
+        assert_eq!(format_compact(10e-6), "10u");
+        assert_eq!(format_compact(4.5e-10), "450p");
     }
 
     #[test]
