@@ -90,7 +90,7 @@ impl Waveform {
                 times.push((t + p as f64 * shift).rem_euclid(self.period));
             }
         }
-        times.sort_by(|a, b| a.partial_cmp(b).unwrap());
+        times.sort_by(|a, b| a.total_cmp(b));
         times.dedup_by(|a, b| (*a - *b).abs() < 1e-15 * self.period);
         let points = times
             .iter()
@@ -153,7 +153,7 @@ impl Waveform {
             .into_iter()
             .map(|(t, v)| (t.rem_euclid(self.period), v))
             .collect();
-        pts.sort_by(|a, b| a.0.partial_cmp(&b.0).unwrap());
+        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
         Waveform {
             period: self.period,
             points: pts,

@@ -319,7 +319,7 @@ impl Scenario {
             .flatten()
             .map(|x| x.0)
             .collect();
-        v.sort_by(|a, b| a.partial_cmp(b).unwrap());
+        v.sort_by(|a, b| a.total_cmp(b));
         v.dedup();
         v
     }

@@ -19,12 +19,10 @@ pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize
         // Rank parts by their admittance at the most demanding harmonic.
         let mut order = all.clone();
         let k = (0..s.n)
-            .max_by(|&x, &y| s.q[x].partial_cmp(&s.q[y]).unwrap())
+            .max_by(|&x, &y| s.q[x].total_cmp(&s.q[y]))
             .unwrap_or(0);
         order.sort_by(|&x, &y| {
-            (s.ub[y] as f64 * s.a[y * s.n + k])
-                .partial_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
-                .unwrap()
+            (s.ub[y] as f64 * s.a[y * s.n + k]).total_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
         });
         order.truncate(24);
         line_sets(&s.required.clone(), &order, free)
@@ -43,7 +41,7 @@ pub fn min_ripple(problem: &Problem, cands: &[usize]) -> (f64, Option<Vec<(usize
             (s.ev.ripple_floor_for(&sum), set)
         })
         .collect();
-    floored.sort_by(|x, y| x.0.partial_cmp(&y.0).unwrap());
+    floored.sort_by(|x, y| x.0.total_cmp(&y.0));
     let mut best = f64::INFINITY;
     let mut best_bank = None;
     for (floor, set) in floored.iter().take(MIN_RIPPLE_SETS) {

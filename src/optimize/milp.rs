@@ -29,7 +29,7 @@ pub fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
             (s.q[k] / best.max(1e-300), k)
         })
         .collect();
-    d.sort_by(|x, y| y.0.partial_cmp(&x.0).unwrap());
+    d.sort_by(|x, y| y.0.total_cmp(&x.0));
     let mut ks: Vec<usize> = d.iter().take(count).map(|x| x.1).collect();
     if s.q.first().is_some_and(|&q| q > 0.0) && !ks.contains(&0) {
         ks.push(0);

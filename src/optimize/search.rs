@@ -234,7 +234,7 @@ impl Search {
                 let v = self.a[i * self.n + k];
                 order[j] = (if w > 0.0 { v / w } else { f64::INFINITY }, i, room);
             }
-            order[..m].sort_by(|x, y| y.0.partial_cmp(&x.0).unwrap());
+            order[..m].sort_by(|x, y| y.0.total_cmp(&x.0));
             let (mut b, mut total) = (budget.max(0.0), 0.0);
             for &(_, i, room) in &order[..m] {
                 let w = weight(i);
@@ -560,9 +560,11 @@ pub(super) fn prune_dominated(problem: &Problem, cands: &[usize]) -> (Vec<usize>
     // Group electrically identical parts.
     order.sort_by(|&x, &y| {
         let (a, b) = (&models[x], &models[y]);
-        (a.c_worst, a.c_typical, a.esr, a.esl)
-            .partial_cmp(&(b.c_worst, b.c_typical, b.esr, b.esl))
-            .unwrap()
+        a.c_worst
+            .total_cmp(&b.c_worst)
+            .then(a.c_typical.total_cmp(&b.c_typical))
+            .then(a.esr.total_cmp(&b.esr))
+            .then(a.esl.total_cmp(&b.esl))
             .then(x.cmp(&y))
     });
     let same = |a: &PartModel, b: &PartModel| {
@@ -747,11 +749,7 @@ pub(super) fn solve_bounded(
     settings: &Settings,
     msg: &str,
 ) {
-    bounded.sort_by(|x, y| {
-        x.0.partial_cmp(&y.0)
-            .unwrap()
-            .then(x.1.len().cmp(&y.1.len()))
-    });
+    bounded.sort_by(|x, y| x.0.total_cmp(&y.0).then(x.1.len().cmp(&y.1.len())));
     let pb = bar(settings.progress, bounded.len(), msg);
     for (j, (b, set)) in bounded.iter().enumerate() {
         if s.stopped {
@@ -780,7 +778,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
     let mut idx: Vec<usize> = all.clone();
     for &k in &ks {
         let eff = |x: usize| s.a[x * s.n + k] / s.w[0][x].max(1e-12);
-        idx.sort_by(|&x, &y| eff(y).partial_cmp(&eff(x)).unwrap());
+        idx.sort_by(|&x, &y| eff(y).total_cmp(&eff(x)));
         for (rank, &i) in idx.iter().take(size).enumerate() {
             score[i] += 1.0 / (1.0 + rank as f64);
         }
@@ -800,14 +798,14 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
         }
     };
     let costs: Vec<f64> = all.iter().map(|&i| alone(i)).collect();
-    idx.sort_by(|&x, &y| costs[x].partial_cmp(&costs[y]).unwrap());
+    idx.sort_by(|&x, &y| costs[x].total_cmp(&costs[y]));
     for (rank, &i) in idx.iter().take(size).enumerate() {
         if costs[i].is_finite() {
             score[i] += 2.0 / (1.0 + rank as f64);
         }
     }
     let mut order: Vec<usize> = all;
-    order.sort_by(|&x, &y| score[y].partial_cmp(&score[x]).unwrap());
+    order.sort_by(|&x, &y| score[y].total_cmp(&score[x]));
     let mut out: Vec<usize> = order.into_iter().take(size).collect();
     for &r in &s.required {
         if !out.contains(&r) {

@@ -357,7 +357,7 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
             }
         }
     }
-    out.sort_by(|a, b| a.0.partial_cmp(&b.0).unwrap());
+    out.sort_by(|a, b| a.0.total_cmp(&b.0));
     out.push((t, v0));
     // Strictly increasing times (a safety net; ramps already separate jumps).
     for i in 1..out.len() {
