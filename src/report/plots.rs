@@ -1088,6 +1088,7 @@ enum Quantity {
     Area,
 }
 
+#[allow(clippy::too_many_arguments)]
 fn tradeoff_svg(
     pts: &[&TradeoffPoint],
     number: &[Option<usize>],

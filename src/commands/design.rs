@@ -1,0 +1,160 @@
+//! `design`: the best bank for the scenario's target.
+
+use super::{bank_files, load, show_progress, Common, Outcome};
+use crate::assessment::{self, Assessment};
+use crate::load::Overrides;
+use crate::optimize;
+use crate::problem::Problem;
+use crate::report::{self, text, OutFiles};
+use crate::scenario::Objective;
+use anyhow::Result;
+use serde_json::json;
+use std::fmt::Write;
+
+fn objective_arg(o: Option<&str>) -> Result<Option<Objective>> {
+    match o {
+        None => Ok(None),
+        Some(t) => Objective::parse(t)
+            .map(Some)
+            .ok_or_else(|| anyhow::anyhow!("--objective: `{t}` is not one of cost, area, count")),
+    }
+}
+
+/// Plain words for the limits that stop a design.
+pub(super) fn binding_text(b: &optimize::Binding) -> String {
+    if b.limits == ["catalog"] {
+        "  Binding: no limit — even with every limit relaxed the eligible parts do not reach the target.\n".into()
+    } else if b.together {
+        format!(
+            "  Binding: no single limit, but these together (relaxing them all reaches the target): {}\n",
+            b.limits.join(", ")
+        )
+    } else {
+        format!(
+            "  Binding (relaxing any one of these alone makes the target reachable): {}\n",
+            b.limits.join(", ")
+        )
+    }
+}
+
+/// Text and JSON for a design outcome.
+pub fn design_report(
+    p: &Problem,
+    out: &optimize::Outcome,
+    what: &str,
+) -> Result<(String, serde_json::Value, Option<Assessment>)> {
+    let mut body = text::header(p);
+    let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
+    let st = &out.stats;
+    let (doc, a) = match &out.found {
+        Some(f) => {
+            let a = assessment::assess(p, &f.bank)?;
+            let _ = writeln!(
+                body,
+                "\n{what}: {} — {}",
+                out.status.name().to_uppercase(),
+                if out.status == optimize::Status::Optimal {
+                    "the best bank under the model (every line set examined or bounded)".to_string()
+                } else if st.stopped {
+                    format!("a verified bank; the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
+                } else {
+                    "a verified bank; the catalog was too large to prove it the best".to_string()
+                }
+            );
+            if f.bank.is_empty() {
+                let _ = writeln!(
+                    body,
+                    "The converter's own output capacitance already meets the target: no capacitors need to be added."
+                );
+            }
+            body.push_str(&text::assessment(&a));
+            let mut doc = report::assessment_json(out.status.name(), &a, p);
+            doc["search"] = serde_json::to_value(st)?;
+            (doc, Some(a))
+        }
+        None => {
+            let _ = writeln!(
+                body,
+                "\n{what}: INFEASIBLE — no bank meets the target under every limit."
+            );
+            match out.best_ripple_pp {
+                Some(r) => {
+                    let _ = writeln!(
+                        body,
+                        "  The lowest worst-corner ripple any allowed bank reached is {} against a target of {}.",
+                        text::mv(r),
+                        text::mv(p.scenario.target.ripple_pp.0)
+                    );
+                }
+                None => {
+                    let _ = writeln!(body, "  No part may be used, so no bank can be built.");
+                }
+            }
+            body.push_str(&binding_text(&out.binding));
+            let mut doc = json!({
+                "status": "infeasible",
+                "bank": [],
+                "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
+                "cost": null, "area": null, "count": 0, "lines": 0,
+                "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
+                "ripple_current": [],
+                "excluded": p.excluded,
+                "warnings": p.warnings,
+                "best_ripple_pp": out.best_ripple_pp,
+                "binding": out.binding.limits,
+                "binding_together": out.binding.together,
+                "target_ripple_pp": p.scenario.target.ripple_pp.0,
+                "scenario": p.scenario.name,
+                "objective": p.scenario.selection.objective.name(),
+                "search": st,
+            });
+            if let Some(b) = &out.best_ripple_bank {
+                let a = assessment::assess(p, b)?;
+                let _ = writeln!(body, "\nClosest bank (lowest ripple found)");
+                body.push_str(&text::assessment(&a));
+                doc["closest"] = report::assessment_json("closest", &a, p);
+            }
+            (doc, None)
+        }
+    };
+    let _ = writeln!(
+        body,
+        "\nSearch: {} candidate parts ({} dominated dropped), {} of {} line sets solved, {} exact evaluations, {:.2} s",
+        st.candidates, st.dominated, st.line_sets_solved, st.line_sets_total, st.evaluations, st.seconds
+    );
+    body.push_str(&text::excluded(p));
+    body.push_str(&text::cautions());
+    Ok((body, doc, a))
+}
+
+pub fn design(c: &Common, objective: Option<&str>, exclude: &[String]) -> Result<Outcome> {
+    let o = Overrides {
+        objective: objective_arg(objective)?,
+        exclude: exclude.to_vec(),
+    };
+    let p = load(c, &o)?;
+    let settings = optimize::Settings {
+        progress: show_progress(c),
+        ..Default::default()
+    };
+    let out = optimize::design(&p, &settings);
+    let (body, doc, a) = design_report(&p, &out, "Design")?;
+    if let Some(dir) = &c.out {
+        let files = match (&out.found, &a) {
+            (Some(f), Some(a)) => bank_files(&p, &f.bank, a, &doc, "Bank design", &body)?,
+            _ => {
+                let mut files = OutFiles::default();
+                files.add("report.json", report::json_text(doc.clone()));
+                files.add(
+                    "report.html",
+                    report::html::page("Bank design (infeasible)", &body, &[]),
+                );
+                files
+            }
+        };
+        files.commit(dir)?;
+    }
+    let code = if out.found.is_some() { 0 } else { 1 };
+    let stdout = if c.json { report::json_text(doc) } else { body };
+    Ok(Outcome { stdout, code })
+}

@@ -1,0 +1,168 @@
+//! The commands: each takes parsed options and returns the text for stdout
+//! and the exit status (0 yes, 1 a well-formed question answered no).
+//! Errors (exit 2) are returned as `Err`.
+
+mod design;
+mod rework;
+mod tradeoff;
+
+pub use design::{design, design_report};
+pub use rework::rework;
+pub use tradeoff::{bank_key, tradeoff, TRADEOFF_SPAN};
+
+use crate::assessment::{self, Assessment};
+use crate::load::{self, Overrides};
+use crate::problem::Problem;
+use crate::report::{self, text, OutFiles};
+use anyhow::Result;
+use serde_json::json;
+use std::fmt::Write;
+use std::path::{Path, PathBuf};
+
+/// Options every command shares.
+#[derive(Debug, Clone, Default)]
+pub struct Common {
+    pub scenario: Option<PathBuf>,
+    pub catalog: Option<PathBuf>,
+    pub out: Option<PathBuf>,
+    pub json: bool,
+}
+
+/// What a command prints and its exit status.
+pub struct Outcome {
+    pub stdout: String,
+    pub code: u8,
+}
+
+pub(crate) fn load(c: &Common, o: &Overrides) -> Result<Problem> {
+    load::problem(c.scenario.as_deref(), c.catalog.as_deref(), o)
+}
+
+/// The standard output files for one bank.
+pub fn bank_files(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    a: &Assessment,
+    doc: &serde_json::Value,
+    title: &str,
+    body: &str,
+) -> Result<OutFiles> {
+    let mut files = OutFiles::default();
+    files.add("bom.csv", report::bom_csv(problem, bank));
+    files.add("report.json", report::json_text(doc.clone()));
+    files.add("bank.cir", report::spice::netlist(problem, bank)?);
+    let plots = report::plots::bank_plots(problem, bank, a)?;
+    files.add("report.html", report::html::page(title, body, &plots));
+    for (name, svg) in plots {
+        files.add(&name, svg);
+    }
+    Ok(files)
+}
+
+pub fn validate(c: &Common) -> Result<Outcome> {
+    let p = load(c, &Overrides::default())?;
+    if c.json {
+        let doc = json!({
+            "status": "valid",
+            "scenario": p.scenario.name,
+            "catalog": p.catalog.source,
+            "parts": p.catalog.parts.len(),
+            "eligible": p.eligible.iter().map(|&i| p.catalog.parts[i].id.clone()).collect::<Vec<_>>(),
+            "excluded": p.excluded,
+            "warnings": p.warnings,
+        });
+        return Ok(Outcome {
+            stdout: report::json_text(doc),
+            code: 0,
+        });
+    }
+    let mut o = String::new();
+    let _ = writeln!(o, "Scenario {} is valid.", p.scenario.source);
+    let _ = writeln!(
+        o,
+        "Catalog {} is valid: {} parts.",
+        p.catalog.source,
+        p.catalog.parts.len()
+    );
+    o.push_str(&text::header(&p));
+    let _ = writeln!(o, "\nParts that may be used: {}", p.eligible.len());
+    for &i in &p.eligible {
+        let q = &p.catalog.parts[i];
+        let _ = writeln!(
+            o,
+            "  {:<28} {:<22} {:>9} at {} V: {:>9} worst-corner",
+            q.id,
+            q.technology.name(),
+            crate::units::format_si(q.capacitance, "F"),
+            p.scenario.converter.vout.0,
+            crate::units::format_si(q.c_worst(p.scenario.converter.vout.0), "F")
+        );
+    }
+    o.push_str(&text::excluded(&p));
+    if !p.warnings.is_empty() {
+        let _ = writeln!(o, "\nWarnings");
+        for w in &p.warnings {
+            let _ = writeln!(o, "  - {w}");
+        }
+    }
+    if p.eligible.is_empty() {
+        let _ = writeln!(o, "\nNo part may be used: a design is impossible until the catalog or the scenario changes.");
+    }
+    Ok(Outcome { stdout: o, code: 0 })
+}
+
+pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<Outcome> {
+    let p = load(c, &Overrides::default())?;
+    let bank = match (bank_arg, bom) {
+        (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
+        (None, Some(f)) => {
+            let rows = assessment::read_bom(f)?;
+            assessment::bom_to_bank(&p, &rows, &f.display().to_string())?
+        }
+        (None, None) => anyhow::bail!("assess needs --bank PART=N,... or --bom FILE"),
+    };
+    if bank.iter().all(|b| b.1 == 0) {
+        match bom {
+            Some(f) => anyhow::bail!(
+                "{}: every count is zero: there is no bank to assess",
+                f.display()
+            ),
+            None => anyhow::bail!("--bank: every count is zero: there is no bank to assess"),
+        }
+    }
+    let a = assessment::assess(&p, &bank)?;
+    let status = if a.all_ok { "pass" } else { "fail" };
+    let doc = report::assessment_json(status, &a, &p);
+    let mut body = text::header(&p);
+    body.push_str(&text::assessment(&a));
+    let _ = writeln!(
+        body,
+        "\nVerdict: {}",
+        if a.all_ok {
+            "PASS — the bank meets the target and every limit at the worst corner.".to_string()
+        } else {
+            let failed: Vec<&str> = a
+                .checks
+                .iter()
+                .filter(|c| !c.ok)
+                .map(|c| c.name.as_str())
+                .collect();
+            format!("FAIL — {}", failed.join(", "))
+        }
+    );
+    body.push_str(&text::cautions());
+    if let Some(dir) = &c.out {
+        bank_files(&p, &bank, &a, &doc, "Bank assessment", &body)?.commit(dir)?;
+    }
+    let stdout = if c.json { report::json_text(doc) } else { body };
+    Ok(Outcome {
+        stdout,
+        code: if a.all_ok { 0 } else { 1 },
+    })
+}
+
+/// Show progress only on a terminal and never with --json.
+pub fn show_progress(c: &Common) -> bool {
+    use std::io::IsTerminal;
+    !c.json && std::io::stderr().is_terminal()
+}

@@ -1,0 +1,312 @@
+//! `rework`: the fewest changed line items when parts go.
+
+use super::design::binding_text;
+use super::{bank_files, bank_key, load, show_progress, Common, Outcome};
+use crate::assessment::{self};
+use crate::load::Overrides;
+use crate::optimize;
+use crate::problem::Problem;
+use crate::report::{self, text, OutFiles};
+use anyhow::Result;
+use serde_json::json;
+use std::fmt::Write;
+use std::path::Path;
+
+pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
+    use crate::catalog::Status as Life;
+    let p = load(c, &Overrides::default())?;
+    let src = bom.display().to_string();
+    let rows = assessment::read_bom(bom)?;
+    for d in drop {
+        if !rows.iter().any(|r| &r.0 == d) {
+            anyhow::bail!("--drop: part `{d}` is not on the bill of materials {src}");
+        }
+    }
+    // Which lines must go, and why.
+    let mut current: Vec<(usize, u32)> = Vec::new();
+    let mut removed_forced: Vec<(String, u32, String)> = Vec::new();
+    let mut forced: Vec<usize> = Vec::new();
+    for (id, n, _) in &rows {
+        let Some(i) = p.catalog.position(id) else {
+            removed_forced.push((id.clone(), *n, "not in the catalog".into()));
+            continue;
+        };
+        current.push((i, *n));
+        let part = &p.catalog.parts[i];
+        let reason = if drop.contains(id) {
+            Some("dropped (--drop)".to_string())
+        } else if part.status == Life::Obsolete {
+            Some("obsolete".to_string())
+        } else if part.status == Life::Nrnd && !p.scenario.selection.allow_nrnd {
+            Some("nrnd (not recommended for new designs)".to_string())
+        } else {
+            // A kept part must still be allowed for reasons other than status.
+            crate::problem::ineligibility(&p.scenario, part, p.scenario.selection.objective)
+                .map(|r| format!("no longer allowed: {r}"))
+        };
+        if let Some(r) = reason {
+            removed_forced.push((id.clone(), *n, r));
+            forced.push(i);
+        }
+    }
+    // The current bank with today's catalog data.
+    let before = if current.is_empty() {
+        None
+    } else {
+        Some(assessment::assess(&p, &current)?)
+    };
+    let complete = removed_forced.iter().all(|r| r.2 != "not in the catalog");
+    let still_good = removed_forced.is_empty() && before.as_ref().is_some_and(|a| a.all_ok);
+    let settings = optimize::Settings {
+        progress: show_progress(c),
+        ..Default::default()
+    };
+    // The fresh optimum for comparison, without the parts that must go.
+    let fresh = {
+        let mut sc = p.scenario.clone();
+        for &i in &forced {
+            sc.selection.exclude.push(p.catalog.parts[i].id.clone());
+        }
+        let fp = Problem::new(sc, p.catalog.clone())?;
+        let out = optimize::design(
+            &fp,
+            &optimize::Settings {
+                explain: false,
+                ..settings.clone()
+            },
+        );
+        out.found.map(|f| (out.status, f))
+    };
+    let mut body = text::header(&p);
+    let _ = writeln!(
+        body,
+        "Objective: fewest changed line items, then {}",
+        p.scenario.selection.objective.name()
+    );
+    let _ = writeln!(body, "\nCurrent bill of materials ({src})");
+    match &before {
+        Some(a) => {
+            let _ = writeln!(
+                body,
+                "  with today's catalog data{}: worst-corner ripple {} against {} — {}",
+                if complete {
+                    ""
+                } else {
+                    " (parts missing from the catalog left out)"
+                },
+                text::mv(a.ripple_pp),
+                text::mv(a.target_ripple_pp),
+                if a.all_ok {
+                    "meets the target and every limit"
+                } else {
+                    "does NOT meet the target and every limit"
+                }
+            );
+        }
+        None => {
+            let _ = writeln!(
+                body,
+                "  none of its parts is in the catalog; it cannot be assessed"
+            );
+        }
+    }
+    for (id, n, why) in &removed_forced {
+        let _ = writeln!(body, "  must replace {id} ×{n}: {why}");
+    }
+    let (status, new_bank, changes) = if still_good {
+        (optimize::Status::Optimal, current.clone(), 0)
+    } else {
+        let r = optimize::rework(&p, &current, &forced, &settings);
+        (
+            r.status,
+            r.found.map(|f| f.bank).unwrap_or_default(),
+            // Lines missing from the catalog are removed too.
+            r.changes + removed_forced.len() - forced.len(),
+        )
+    };
+    let id = |i: usize| p.catalog.parts[i].id.clone();
+    let mut kept = Vec::new();
+    let mut removed = Vec::new();
+    let mut added = Vec::new();
+    if status != optimize::Status::Infeasible {
+        for &(i, n) in &current {
+            match new_bank.iter().find(|b| b.0 == i) {
+                Some(&(_, m)) => {
+                    kept.push(json!({"part": id(i), "count_before": n, "count_after": m}))
+                }
+                None => {
+                    let why = removed_forced
+                        .iter()
+                        .find(|r| r.0 == id(i))
+                        .map_or("replaced".to_string(), |r| r.2.clone());
+                    removed.push(json!({"part": id(i), "count": n, "reason": why}));
+                }
+            }
+        }
+        for (pid, n, why) in removed_forced
+            .iter()
+            .filter(|r| r.2 == "not in the catalog")
+        {
+            removed.push(json!({"part": pid, "count": n, "reason": why}));
+        }
+        for &(i, m) in &new_bank {
+            if !current.iter().any(|b| b.0 == i) {
+                added.push(json!({"part": id(i), "count": m}));
+            }
+        }
+    }
+    let mut doc;
+    let code;
+    if status == optimize::Status::Infeasible {
+        let _ = writeln!(body, "\nRework: INFEASIBLE — no bank reachable by changing line items meets the target under every limit.");
+        let (r, closest) = optimize::lowest_ripple(&p);
+        if r.is_finite() {
+            let _ = writeln!(
+                body,
+                "  The lowest worst-corner ripple any allowed bank reached is {}.",
+                text::mv(r)
+            );
+        }
+        let binding = optimize::binding(&p, p.scenario.target.ripple_pp.0);
+        body.push_str(&binding_text(&binding));
+        doc = json!({
+            "status": "infeasible", "bank": [], "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
+            "cost": null, "area": null, "count": 0, "lines": 0,
+            "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
+            "ripple_current": [], "excluded": p.excluded, "warnings": p.warnings,
+            "best_ripple_pp": r.is_finite().then_some(r),
+            "binding": binding.limits,
+            "binding_together": binding.together,
+            "kept": [], "removed": [], "added": [],
+        });
+        if let Some(b) = closest {
+            let a = assessment::assess(&p, &b)?;
+            body.push_str("\nClosest bank (lowest ripple found)");
+            body.push_str(&text::assessment(&a));
+            doc["closest"] = report::assessment_json("closest", &a, &p);
+        }
+        code = 1;
+    } else {
+        let a = assessment::assess(&p, &new_bank)?;
+        if still_good {
+            let _ = writeln!(
+                body,
+                "\nRework: nothing to change — the bank is still good."
+            );
+        } else {
+            let _ = writeln!(
+                body,
+                "\nRework: {} — {changes} changed line item(s){}",
+                status.name().to_uppercase(),
+                if status == optimize::Status::Optimal {
+                    " (the fewest possible; cheapest among those)"
+                } else if changes == removed_forced.len() {
+                    " (the fewest possible; parts to add came from a pool, so a cheaper change may exist)"
+                } else {
+                    " (parts to add came from a pool: fewer or cheaper changes may exist)"
+                }
+            );
+        }
+        let row = |v: &serde_json::Value, what: &str| -> Vec<String> {
+            vec![
+                what.to_string(),
+                v["part"].as_str().unwrap_or("").to_string(),
+                v.get("count_before")
+                    .or(v.get("count"))
+                    .map_or(String::new(), |x| x.to_string()),
+                v.get("count_after").map_or(
+                    if what == "removed" {
+                        "0".into()
+                    } else {
+                        v["count"].to_string()
+                    },
+                    |x| x.to_string(),
+                ),
+                v.get("reason")
+                    .and_then(|r| r.as_str())
+                    .unwrap_or("")
+                    .to_string(),
+            ]
+        };
+        let mut rows: Vec<Vec<String>> = Vec::new();
+        for k in &kept {
+            rows.push(row(
+                k,
+                if k["count_before"] == k["count_after"] {
+                    "kept"
+                } else {
+                    "kept, count changed"
+                },
+            ));
+        }
+        rows.extend(removed.iter().map(|r| row(r, "removed")));
+        rows.extend(added.iter().map(|r| {
+            let mut v = row(r, "added");
+            v[2] = "0".into();
+            v
+        }));
+        body.push_str(&text::table(
+            &["change", "part", "before", "after", "reason"],
+            &rows,
+        ));
+        body.push_str(&text::assessment(&a));
+        let before_cost = before.as_ref().map(|b| b.cost);
+        let _ = writeln!(
+            body,
+            "\nCost before {} → after {:.3}; ripple before {} → after {}",
+            before_cost.map_or("—".into(), |c| format!("{c:.3}")),
+            a.cost,
+            before
+                .as_ref()
+                .map_or("—".into(), |b| text::mv(b.ripple_pp)),
+            text::mv(a.ripple_pp)
+        );
+        if let Some((st, f)) = &fresh {
+            let fa = assessment::assess(&p, &f.bank)?;
+            let _ = writeln!(
+                body,
+                "A fresh design without the replaced parts ({}) would cost {:.3}: {}",
+                st.name(),
+                fa.cost,
+                bank_key(&p, &f.bank)
+            );
+        }
+        doc = report::assessment_json(status.name(), &a, &p);
+        doc["kept"] = json!(kept);
+        doc["removed"] = json!(removed);
+        doc["added"] = json!(added);
+        doc["changes"] = json!(changes);
+        code = 0;
+    }
+    doc["still_good"] = json!(still_good);
+    doc["before"] = match &before {
+        Some(b) => {
+            json!({"ripple_pp": b.ripple_pp, "cost": b.cost, "meets_target": b.meets_target, "all_ok": b.all_ok, "complete": complete})
+        }
+        None => serde_json::Value::Null,
+    };
+    doc["fresh_optimum"] = match &fresh {
+        Some((st, f)) => {
+            json!({"status": st.name(), "cost": assessment::assess(&p, &f.bank)?.cost, "bank": bank_key(&p, &f.bank)})
+        }
+        None => serde_json::Value::Null,
+    };
+    body.push_str(&text::excluded(&p));
+    body.push_str(&text::cautions());
+    if let Some(dir) = &c.out {
+        if code == 0 {
+            let a = assessment::assess(&p, &new_bank)?;
+            bank_files(&p, &new_bank, &a, &doc, "Bank rework", &body)?.commit(dir)?;
+        } else {
+            let mut files = OutFiles::default();
+            files.add("report.json", report::json_text(doc.clone()));
+            files.add(
+                "report.html",
+                report::html::page("Bank rework (infeasible)", &body, &[]),
+            );
+            files.commit(dir)?;
+        }
+    }
+    let stdout = if c.json { report::json_text(doc) } else { body };
+    Ok(Outcome { stdout, code })
+}

@@ -1,0 +1,324 @@
+//! `tradeoff`: cost, area and count against the ripple target.
+
+use super::{load, show_progress, Common, Outcome};
+use crate::assessment::{self};
+use crate::load::Overrides;
+use crate::optimize;
+use crate::problem::Problem;
+use crate::report::{self, text, OutFiles};
+use anyhow::Result;
+use serde_json::json;
+use std::fmt::Write;
+
+fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
+    match v {
+        None => Ok(None),
+        Some(t) => {
+            let x = crate::units::parse(t, crate::units::Unit::Volt)
+                .map_err(|e| anyhow::anyhow!("--{name}: {e}"))?;
+            if !(x > 0.0) {
+                anyhow::bail!("--{name}: {x} V must be above zero");
+            }
+            Ok(Some(x))
+        }
+    }
+}
+
+/// Default loose end of a trade-off, as a multiple of the scenario's target,
+/// when the smallest allowed bank ripples far more than that.
+pub const TRADEOFF_SPAN: f64 = 10.0;
+
+/// `PART=N,PART=N` in catalog order: equal strings mean the same bank.
+pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
+    let mut b: Vec<(usize, u32)> = bank.iter().copied().filter(|x| x.1 > 0).collect();
+    b.sort();
+    b.iter()
+        .map(|&(i, n)| format!("{}={n}", p.catalog.parts[i].id))
+        .collect::<Vec<_>>()
+        .join(",")
+}
+
+pub fn tradeoff(
+    c: &Common,
+    from: Option<&str>,
+    to: Option<&str>,
+    points: usize,
+) -> Result<Outcome> {
+    use indicatif::{ProgressBar, ProgressStyle};
+    let p = load(c, &Overrides::default())?;
+    if !(2..=200).contains(&points) {
+        anyhow::bail!("--points: {points} must be from 2 to 200");
+    }
+    let from = volts_arg("from", from)?;
+    let to = volts_arg("to", to)?;
+    let show = show_progress(c);
+    let lo = match from {
+        Some(v) => v,
+        None => {
+            let (r, _) = optimize::lowest_ripple(&p);
+            if !r.is_finite() {
+                anyhow::bail!(
+                    "no bank can be built from the eligible parts; see `ripplebank validate`"
+                );
+            }
+            r
+        }
+    };
+    let mut note = String::new();
+    let hi = match to {
+        Some(v) => v,
+        None => {
+            let smallest = optimize::smallest_bank(&p)
+                .filter(|f| f.ripple_pp.is_finite())
+                .ok_or_else(|| {
+                    anyhow::anyhow!(
+                        "no bank satisfies the limits other than ripple; see `ripplebank validate`"
+                    )
+                })?;
+            let r = smallest.ripple_pp;
+            let cap = TRADEOFF_SPAN * p.scenario.target.ripple_pp.0;
+            if r > cap && cap > lo {
+                note = format!(
+                    "The smallest allowed bank ({}) ripples {}; the range stops at {} ({}× the target). Use --to to extend it.",
+                    if smallest.bank.is_empty() { "no added part".to_string() } else { bank_key(&p, &smallest.bank) },
+                    text::mv(r),
+                    text::mv(cap),
+                    TRADEOFF_SPAN
+                );
+                cap
+            } else {
+                r
+            }
+        }
+    };
+    if hi <= lo * (1.0 + 1e-6) {
+        match (from.is_some(), to.is_some()) {
+            (true, true) => anyhow::bail!(
+                "--to ({}) must be above --from ({})",
+                text::mv(hi),
+                text::mv(lo)
+            ),
+            (true, false) => anyhow::bail!(
+                "--from ({}) is above the default upper end ({}); give --to as well",
+                text::mv(lo),
+                text::mv(hi)
+            ),
+            (false, true) => anyhow::bail!(
+                "--to ({}) is below the lowest ripple found ({}); no target in that range can be met",
+                text::mv(hi),
+                text::mv(lo)
+            ),
+            (false, false) => {}
+        }
+    }
+    let (lo, hi) = if hi > lo * (1.0 + 1e-6) {
+        (lo, hi)
+    } else {
+        (lo, lo * 2.0)
+    };
+    let targets: Vec<f64> = (0..points)
+        .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
+        .collect();
+    let pb = if show {
+        ProgressBar::new(points as u64)
+    } else {
+        ProgressBar::hidden()
+    };
+    pb.set_style(
+        ProgressStyle::with_template("tradeoff [{bar:30}] {pos}/{len} targets ({elapsed})")
+            .expect("template")
+            .progress_chars("=> "),
+    );
+    // Each point gets a share of the work a single design may take.
+    let settings = optimize::Settings {
+        explain: false,
+        max_evaluations: 1_000_000,
+        ..Default::default()
+    };
+    // The targets are independent searches: spread them over the cores.
+    let workers = std::thread::available_parallelism()
+        .map_or(1, |n| n.get())
+        .min(targets.len());
+    // Each worker takes the next unsolved target, so tight (slow) and loose
+    // (fast) targets share the cores evenly.
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let slots: std::sync::Mutex<Vec<Option<optimize::Outcome>>> =
+        std::sync::Mutex::new(vec![None; targets.len()]);
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| loop {
+                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some(&t) = targets.get(j) else { break };
+                let out = optimize::design_for(&p, t, &settings);
+                slots.lock().expect("no worker panics")[j] = Some(out);
+                pb.inc(1);
+            });
+        }
+    });
+    pb.finish_and_clear();
+    let slots = slots.into_inner().expect("no worker panics");
+    let mut results: Vec<(f64, optimize::Outcome)> = targets
+        .iter()
+        .copied()
+        .zip(slots.into_iter().map(|o| o.expect("every target solved")))
+        .collect();
+    // A bank that meets a tighter target meets every looser one: keep the
+    // front monotone when the search could not prove a point optimal.
+    for j in 1..results.len() {
+        let prev = results[j - 1].1.found.clone();
+        if let (Some(pf), Some(cf)) = (prev, &results[j].1.found) {
+            if optimize::better(&pf.key, &cf.key) {
+                results[j].1.found = Some(pf);
+                results[j].1.status = optimize::Status::Feasible;
+            }
+        } else if let (Some(pf), None) = (results[j - 1].1.found.clone(), &results[j].1.found) {
+            results[j].1.found = Some(pf);
+            results[j].1.status = optimize::Status::Feasible;
+        }
+    }
+    let mut json_points = Vec::new();
+    let mut plot_points = Vec::new();
+    let mut rows = Vec::new();
+    let mut csv = csv::Writer::from_writer(Vec::new());
+    csv.write_record([
+        "target",
+        "status",
+        "ripple_pp",
+        "cost",
+        "area",
+        "count",
+        "lines",
+        "bank",
+    ])?;
+    let mut prev_cost: Option<(f64, f64)> = None;
+    for (t, out) in &results {
+        let (bank_json, ripple, cost, area, count, key) = match &out.found {
+            Some(f) => {
+                let a = assessment::assess(&p, &f.bank)?;
+                (
+                    serde_json::to_value(&a.bank)?,
+                    Some(a.ripple_pp),
+                    Some(a.cost),
+                    Some(a.area),
+                    Some(a.count),
+                    bank_key(&p, &f.bank),
+                )
+            }
+            None => (json!([]), None, None, None, None, String::new()),
+        };
+        json_points.push(json!({
+            "target": t, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
+            "count": count, "bank": bank_json,
+        }));
+        csv.write_record([
+            format!("{t:e}"),
+            out.status.name().to_string(),
+            ripple.map_or(String::new(), |r| format!("{r:e}")),
+            cost.map_or(String::new(), |x| format!("{x:.4}")),
+            area.map_or(String::new(), |x| format!("{x:.3}")),
+            count.map_or(String::new(), |x| x.to_string()),
+            out.found
+                .as_ref()
+                .map_or(String::new(), |f| f.bank.len().to_string()),
+            key.clone(),
+        ])?;
+        let per_mv = match (prev_cost, cost) {
+            (Some((pt, pc)), Some(cc)) if (t - pt) > 0.0 => {
+                format!("{:.4}", (pc - cc) / ((t - pt) * 1e3))
+            }
+            _ => "—".into(),
+        };
+        if let Some(cc) = cost {
+            prev_cost = Some((*t, cc));
+        }
+        rows.push(vec![
+            text::mv(*t),
+            out.status.name().to_string(),
+            ripple.map_or("—".into(), text::mv),
+            cost.map_or("—".into(), |x| format!("{x:.3}")),
+            per_mv,
+            area.map_or("—".into(), |x| format!("{x:.1}")),
+            count.map_or("—".into(), |x| x.to_string()),
+            if key.is_empty() {
+                "no bank meets this target".into()
+            } else {
+                key.clone()
+            },
+        ]);
+        plot_points.push(report::plots::TradeoffPoint {
+            target: *t,
+            status: out.status.name().to_string(),
+            ripple_pp: ripple,
+            cost,
+            area,
+            count,
+            bank_key: key,
+        });
+    }
+    let mut body = text::header(&p);
+    let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
+    let _ = writeln!(
+        body,
+        "\nTrade-off: {} ripple targets from {} to {} (geometric)",
+        points,
+        text::mv(lo),
+        text::mv(hi)
+    );
+    body.push_str(&text::table(
+        &[
+            "target",
+            "status",
+            "ripple",
+            "cost",
+            "cost per mV",
+            "mm²",
+            "n",
+            "bank",
+        ],
+        &rows,
+    ));
+    let _ = writeln!(
+        body,
+        "\n'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
+         tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target."
+    );
+    if !note.is_empty() {
+        let _ = writeln!(body, "{note}");
+    }
+    body.push_str(&text::cautions());
+    let doc = json!({
+        "status": "done",
+        "scenario": p.scenario.name,
+        "objective": p.scenario.selection.objective.name(),
+        "from": lo, "to": hi,
+        "points": json_points,
+        "excluded": p.excluded,
+        "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
+    });
+    if let Some(dir) = &c.out {
+        let plots =
+            report::plots::tradeoff_plots(&plot_points, Some(p.scenario.target.ripple_pp.0))?;
+        let mut files = OutFiles::default();
+        files.add(
+            "tradeoff.csv",
+            csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?,
+        );
+        files.add("report.json", report::json_text(doc.clone()));
+        files.add(
+            "report.html",
+            report::html::page("Ripple trade-off", &body, &plots),
+        );
+        for (name, svg) in plots {
+            files.add(&name, svg);
+        }
+        files.commit(dir)?;
+    }
+    // No target in the range can be met: the answer is no.
+    let code = if results.iter().any(|(_, o)| o.found.is_some()) {
+        0
+    } else {
+        1
+    };
+    let stdout = if c.json { report::json_text(doc) } else { body };
+    Ok(Outcome { stdout, code })
+}
