@@ -426,6 +426,15 @@ pub fn assess_with(
             ok: ripple_pp <= s.target.ripple_pp.0,
         },
     );
+    if s.selection.margin.0 > 0.0 {
+        checks.push(Check {
+            name: "ripple_pp with margin".into(),
+            value: ripple_pp,
+            limit: s.design_target(),
+            unit: "V".into(),
+            ok: ripple_pp <= s.design_target(),
+        });
+    }
     if s.selection.check_typical {
         checks.push(Check {
             name: "ripple_pp_typical".into(),

@@ -224,6 +224,10 @@ pub struct Selection {
     /// banks whose ripple rises with capacitance).
     #[serde(default)]
     pub check_typical: bool,
+    /// Extension: design to the target reduced by this fraction (`"10%"`),
+    /// leaving margin for what the model leaves out.
+    #[serde(default)]
+    pub margin: Fraction,
 }
 
 fn twenty() -> u32 {
@@ -242,6 +246,7 @@ impl Default for Selection {
             max_capacitance_basis: CapBasis::Nominal,
             voltage_derating: BTreeMap::new(),
             check_typical: false,
+            margin: Fraction(0.0),
         }
     }
 }
@@ -322,6 +327,11 @@ impl Scenario {
         v.sort_by(|a, b| a.total_cmp(b));
         v.dedup();
         v
+    }
+
+    /// The ripple the search designs to: the target less the margin.
+    pub fn design_target(&self) -> f64 {
+        self.target.ripple_pp.0 * (1.0 - self.selection.margin.0)
     }
 
     pub fn max_lines(&self) -> u32 {
@@ -568,6 +578,12 @@ impl Scenario {
         nonneg("selection.line_cost", s.line_cost.0)?;
         if s.max_per_part == 0 || s.max_per_part > 10000 {
             return Err(self.err("selection.max_per_part", "must be from 1 to 10000"));
+        }
+        if !(0.0..0.9).contains(&s.margin.0) {
+            return Err(self.err(
+                "selection.margin",
+                format!("{} must be at least 0 and below 0.9 (90 %)", s.margin.0),
+            ));
         }
         for (k, v) in &s.voltage_derating {
             if Technology::parse(k).is_none() {

@@ -293,3 +293,22 @@ fn objective_area_needs_every_usable_part_to_have_an_area() {
         .assert()
         .code(0);
 }
+
+#[test]
+fn margin_designs_below_the_target() {
+    // selection.margin (extension): the design meets the target less the
+    // margin, recomputed here; it cannot be cheaper than without margin.
+    use ripplebank::scenario::Fraction;
+    let b = baseline();
+    let (mut s, c) = demo();
+    s.selection.margin = Fraction(0.10);
+    let limit = s.target.ripple_pp.0 * 0.9;
+    let (_, a) = solve(s, c);
+    let a = a.unwrap();
+    assert!(a.ripple_pp <= limit, "{} > {limit}", a.ripple_pp);
+    assert!(a.cost >= b.cost - 1e-12);
+    assert!(a
+        .checks
+        .iter()
+        .any(|c| c.name == "ripple_pp with margin" && c.ok));
+}

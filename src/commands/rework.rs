@@ -167,7 +167,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
                 text::mv(r)
             );
         }
-        let binding = optimize::binding(&p, p.scenario.target.ripple_pp.0);
+        let binding = optimize::binding(&p, p.scenario.design_target());
         body.push_str(&binding_text(&binding));
         doc = json!({
             "status": "infeasible", "bank": [], "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,

@@ -151,7 +151,7 @@ use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, S
 
 /// Find the best bank for the scenario's target.
 pub fn design(problem: &Problem, settings: &Settings) -> Outcome {
-    design_for(problem, problem.scenario.target.ripple_pp.0, settings)
+    design_for(problem, problem.scenario.design_target(), settings)
 }
 
 /// Find the best bank for a given ripple target.

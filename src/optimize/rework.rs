@@ -26,7 +26,7 @@ pub fn rework(
     settings: &Settings,
 ) -> Rework {
     let t0 = Instant::now();
-    let target = problem.scenario.target.ripple_pp.0;
+    let target = problem.scenario.design_target();
     let kept_cat: Vec<usize> = current
         .iter()
         .map(|b| b.0)

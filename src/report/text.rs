@@ -104,6 +104,14 @@ pub fn header(problem: &Problem) -> String {
             None => "full bandwidth".into(),
         }
     );
+    if s.selection.margin.0 > 0.0 {
+        let _ = writeln!(
+            o,
+            "  designed to {} (selection.margin {:.0} %)",
+            mv(s.design_target()),
+            s.selection.margin.0 * 100.0
+        );
+    }
     o
 }
 
