@@ -449,6 +449,14 @@ impl Evaluator {
         worst
     }
 
+    /// |I_k·H_k| at harmonic k, the largest over the vin corners.
+    fn peak_drive(&self, k: usize) -> f64 {
+        self.drive_limited
+            .iter()
+            .map(|d| d[k].norm())
+            .fold(0.0, f64::max)
+    }
+
     /// Linear necessary condition for the target (used by the optimizer's
     /// bounds): any bank meeting `target` has Σ n_i |Y_ik| ≥ q_k at every
     /// harmonic k of the target figure. From pp ≥ 1.53·|V_k| ([`HARMONIC_FLOOR`]), |V_k| = |D_k| / |Y_tot,k|
@@ -456,11 +464,7 @@ impl Evaluator {
     pub fn required_admittance(&self, target: f64) -> Vec<f64> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self
-                    .drive_limited
-                    .iter()
-                    .map(|d| d[k].norm())
-                    .fold(0.0, f64::max);
+                let d = self.peak_drive(k);
                 let (g, yi) = self.internal_terms(k);
                 ((HARMONIC_FLOOR * d / target - yi) / g).max(0.0)
             })
@@ -472,11 +476,7 @@ impl Evaluator {
     pub fn ripple_floor_for(&self, sum_a: &[f64]) -> f64 {
         let mut best: f64 = 0.0;
         for k in 0..self.n_limited {
-            let d = self
-                .drive_limited
-                .iter()
-                .map(|d| d[k].norm())
-                .fold(0.0, f64::max);
+            let d = self.peak_drive(k);
             let (g, yi) = self.internal_terms(k);
             let y = sum_a[k] * g + yi;
             best = best.max(if y > 0.0 {
@@ -494,11 +494,7 @@ impl Evaluator {
     pub fn phase_terms(&self, target: f64) -> Vec<(f64, Complex64, Complex64)> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self
-                    .drive_limited
-                    .iter()
-                    .map(|d| d[k].norm())
-                    .fold(0.0, f64::max);
+                let d = self.peak_drive(k);
                 let w = 2.0 * PI * self.freqs[k];
                 let yi = self.y_int[k];
                 (

@@ -8,7 +8,6 @@ use crate::problem::Problem;
 use crate::report::{self, text, OutFiles};
 use crate::scenario::Objective;
 use anyhow::Result;
-use serde_json::json;
 use std::fmt::Write;
 
 fn objective_arg(o: Option<&str>) -> Result<Option<Objective>> {
@@ -91,23 +90,8 @@ pub fn design_report(
                 }
             }
             body.push_str(&binding_text(&out.binding));
-            let mut doc = json!({
-                "status": "infeasible",
-                "bank": [],
-                "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
-                "cost": null, "area": null, "count": 0, "lines": 0,
-                "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
-                "ripple_current": [],
-                "excluded": p.excluded,
-                "warnings": p.warnings,
-                "best_ripple_pp": out.best_ripple_pp,
-                "binding": out.binding.limits,
-                "binding_together": out.binding.together,
-                "target_ripple_pp": p.scenario.target.ripple_pp.0,
-                "scenario": p.scenario.name,
-                "objective": p.scenario.selection.objective.name(),
-                "search": st,
-            });
+            let mut doc = super::infeasible_doc(p, out.best_ripple_pp, &out.binding);
+            doc["search"] = serde_json::to_value(st)?;
             if let Some(b) = &out.best_ripple_bank {
                 let a = assessment::assess(p, b)?;
                 let _ = writeln!(body, "\nClosest bank (lowest ripple found)");

@@ -38,6 +38,31 @@ pub(crate) fn load(c: &Common, o: &Overrides) -> Result<Problem> {
     load::problem(c.scenario.as_deref(), c.catalog.as_deref(), o)
 }
 
+/// The SPEC §8 document of a run with no bank: every key present, the bank
+/// figures null or zero, plus the lowest ripple found and the binding limits.
+pub(crate) fn infeasible_doc(
+    p: &Problem,
+    best_ripple_pp: Option<f64>,
+    binding: &crate::optimize::Binding,
+) -> serde_json::Value {
+    json!({
+        "status": "infeasible",
+        "bank": [],
+        "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
+        "cost": null, "area": null, "count": 0, "lines": 0,
+        "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
+        "ripple_current": [],
+        "excluded": p.excluded,
+        "warnings": p.warnings,
+        "best_ripple_pp": best_ripple_pp,
+        "binding": binding.limits,
+        "binding_together": binding.together,
+        "target_ripple_pp": p.scenario.target.ripple_pp.0,
+        "scenario": p.scenario.name,
+        "objective": p.scenario.selection.objective.name(),
+    })
+}
+
 /// The standard output files for one bank.
 pub fn bank_files(
     problem: &Problem,

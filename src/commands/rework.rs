@@ -169,19 +169,13 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         }
         let binding = optimize::binding(&p, p.scenario.design_target());
         body.push_str(&binding_text(&binding));
-        doc = json!({
-            "status": "infeasible", "bank": [], "ripple_pp": null, "ripple_pp_typical": null, "ripple_pp_full_bandwidth": null,
-            "cost": null, "area": null, "count": 0, "lines": 0,
-            "capacitance_nominal_total": 0.0, "capacitance_max_total": 0.0, "capacitance_effective_total": 0.0,
-            "ripple_current": [], "excluded": p.excluded, "warnings": p.warnings,
-            "best_ripple_pp": r.is_finite().then_some(r),
-            "binding": binding.limits,
-            "binding_together": binding.together,
-            "kept": [], "removed": [], "added": [],
-        });
+        doc = super::infeasible_doc(&p, r.is_finite().then_some(r), &binding);
+        for k in ["kept", "removed", "added"] {
+            doc[k] = json!([]);
+        }
         if let Some(b) = closest {
             let a = assessment::assess(&p, &b)?;
-            body.push_str("\nClosest bank (lowest ripple found)");
+            body.push_str("\nClosest bank (lowest ripple found)\n");
             body.push_str(&text::assessment(&a));
             doc["closest"] = report::assessment_json("closest", &a, &p);
         }
