@@ -7,8 +7,9 @@
 //! nothing.
 
 use crate::converter::OperatingPoint;
-use crate::scenario::{Scenario, Topology};
+use crate::scenario::Scenario;
 use crate::spectrum;
+use crate::timedomain::{self, Closed};
 use num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 use std::f64::consts::PI;
@@ -86,6 +87,17 @@ pub struct Evaluator {
     lc: f64,
     y_worst: Vec<Complex64>,
     y_typical: Vec<Complex64>,
+    /// Per part: admittance at [`OMEGA_ASYMPTOTE`], worst and typical corner.
+    y_big_worst: Vec<Complex64>,
+    y_big_typical: Vec<Complex64>,
+    /// Internal admittance at [`OMEGA_ASYMPTOTE`].
+    y_int_big: Complex64,
+    /// Per vin corner: the closed-form part of the target figure's waveform
+    /// (on `plan_limited`'s grid) and of the full-bandwidth one (`plan_full`).
+    closed_limited: Vec<Closed>,
+    closed_full: Vec<Closed>,
+    /// High-frequency asymptote `a0 + jω·a1` of the last transfer filled.
+    asym: (f64, f64),
     plan_limited: Plan,
     plan_full: Plan,
     /// Coarse inverse FFT: every `m / SUB` th sample of the target figure.
@@ -106,6 +118,11 @@ pub struct Evaluator {
 /// the square wave attains 2/π, the classic bound). So
 /// pp ≥ |V_k| / 0.65328 = 1.53073·|V_k|; rounded down to 1.53.
 pub const HARMONIC_FLOOR: f64 = 1.53;
+
+/// Angular frequency, rad/s, at which the network's transfer impedance is
+/// taken as its high-frequency asymptote `a0 + jω·a1` (far above every
+/// self-resonance: the next term is smaller by (ω_res/Ω)²).
+pub const OMEGA_ASYMPTOTE: f64 = 2.0 * PI * 1e13;
 
 /// Samples per period of the coarse pass in [`Evaluator::ripple_check`].
 const SUB: usize = 512;
@@ -145,7 +162,7 @@ impl Evaluator {
             })
             .collect();
         let lc = s.board.connection_inductance.0;
-        let mut currents: Vec<Vec<Complex64>> = ops
+        let currents: Vec<Vec<Complex64>> = ops
             .iter()
             .map(|op| spectrum::harmonics(&op.waveform, n_full))
             .collect();
@@ -168,6 +185,25 @@ impl Evaluator {
             .max(plan_full.fft.get_inplace_scratch_len())
             .max(plan_sub.get_inplace_scratch_len())
             .max(plan_first.get_inplace_scratch_len());
+        let tau = bw.map_or(0.0, |b| 1.0 / (2.0 * PI * b));
+        let order_lim = if bw.is_some() { order as u32 } else { 0 };
+        let closed_limited: Vec<Closed> = ops
+            .iter()
+            .map(|op| timedomain::closed(&op.waveform, order_lim, tau, plan_limited.m))
+            .collect();
+        let closed_full: Vec<Closed> = ops
+            .iter()
+            .map(|op| timedomain::closed(&op.waveform, 0, 1.0, plan_full.m))
+            .collect();
+        let y_int_big = match c.internal_capacitance {
+            Some(ci) => admittance(
+                c.internal_esr.0,
+                c.internal_esl.0,
+                ci.0,
+                OMEGA_ASYMPTOTE / (2.0 * PI),
+            ),
+            None => Complex64::new(0.0, 0.0),
+        };
         let mut ev = Evaluator {
             parts: Vec::new(),
             f_ripple,
@@ -182,6 +218,12 @@ impl Evaluator {
             lc,
             y_worst: Vec::new(),
             y_typical: Vec::new(),
+            y_big_worst: Vec::new(),
+            y_big_typical: Vec::new(),
+            y_int_big,
+            closed_limited,
+            closed_full,
+            asym: (0.0, 0.0),
             zt: vec![Complex64::default(); n_full],
             buf: vec![Complex64::default(); plan_full.m.max(plan_limited.m)],
             fft_scratch: vec![Complex64::default(); scratch_len],
@@ -190,22 +232,6 @@ impl Evaluator {
             plan_sub,
             plan_first,
         };
-        if c.topology == Topology::Module {
-            // Scale each corner's unit triangle so that the internal bank
-            // alone shows the measured standalone ripple (typical corner).
-            let sb = c.standalone_bandwidth.map(|b| b.0).or(bw);
-            let target = c.standalone_ripple_pp.map_or(1.0, |v| v.0);
-            for cur in currents.iter_mut() {
-                let n = ev.n_full;
-                for k in 0..n {
-                    let zt = ev.transfer_of(Complex64::default(), k);
-                    ev.buf[k + 1] = cur[k] * zt * filt(ev.freqs[k], sb);
-                }
-                let pp = ev.pp_from_buf(n, true);
-                let scale = if pp > 0.0 { target / pp } else { 0.0 };
-                cur.iter_mut().for_each(|x| *x *= scale);
-            }
-        }
         ev.drive_limited = currents
             .iter()
             .map(|cur| {
@@ -226,6 +252,15 @@ impl Evaluator {
         let n = self.n_full;
         self.y_worst = Vec::with_capacity(parts.len() * n);
         self.y_typical = Vec::with_capacity(parts.len() * n);
+        let f_big = OMEGA_ASYMPTOTE / (2.0 * PI);
+        self.y_big_worst = parts
+            .iter()
+            .map(|p| admittance(p.esr, p.esl, p.c_worst, f_big))
+            .collect();
+        self.y_big_typical = parts
+            .iter()
+            .map(|p| admittance(p.esr, p.esl, p.c_typical, f_big))
+            .collect();
         for p in &parts {
             for &f in &self.freqs {
                 self.y_worst.push(admittance(p.esr, p.esl, p.c_worst, f));
@@ -246,23 +281,34 @@ impl Evaluator {
         t[i * self.n_full + k]
     }
 
-    /// Admittance of the converter's internal capacitance at harmonic k.
-    pub fn y_internal(&self, k: usize) -> Complex64 {
-        self.y_int[k]
-    }
-
+    /// Number of input-voltage corners.
     pub fn vin_corners(&self) -> usize {
         self.currents.len()
     }
 
     /// Transfer impedance from the converter's current to the bank's node,
-    /// given the added bank's admittance: 1 / (Y_b + Y_int + jωLc·Y_int·Y_b).
+    /// given the added bank's admittance `yb` and the internal admittance
+    /// `yi` at angular frequency `w`: 1 / (Y_b + Y_int + jωLc·Y_int·Y_b).
     #[inline]
-    fn transfer_of(&self, yb: Complex64, k: usize) -> Complex64 {
-        let yi = self.y_int[k];
-        let w = 2.0 * PI * self.freqs[k];
+    fn transfer(&self, yb: Complex64, yi: Complex64, w: f64) -> Complex64 {
         let d = yb + yi + Complex64::new(0.0, w * self.lc) * yi * yb;
         d.inv()
+    }
+
+    #[inline]
+    fn transfer_of(&self, yb: Complex64, k: usize) -> Complex64 {
+        self.transfer(yb, self.y_int[k], 2.0 * PI * self.freqs[k])
+    }
+
+    /// Record the high-frequency asymptote `a0 + jω·a1` of the transfer
+    /// impedance for the bank admittance `yb_big` at [`OMEGA_ASYMPTOTE`].
+    fn set_asymptote(&mut self, yb_big: Complex64) {
+        let z = self.transfer(yb_big, self.y_int_big, OMEGA_ASYMPTOTE);
+        self.asym = if z.is_finite() {
+            (z.re, z.im / OMEGA_ASYMPTOTE)
+        } else {
+            (0.0, 0.0)
+        };
     }
 
     /// Whether the bank has any capacitance at all (added or internal).
@@ -272,18 +318,20 @@ impl Evaluator {
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {
         let nf = self.n_full;
-        let table = match corner {
-            Corner::Worst => &self.y_worst,
-            Corner::Typical => &self.y_typical,
+        let (table, big) = match corner {
+            Corner::Worst => (&self.y_worst, &self.y_big_worst),
+            Corner::Typical => (&self.y_typical, &self.y_big_typical),
         };
         for k in 0..n {
             self.zt[k] = Complex64::default();
         }
+        let mut yb_big = Complex64::default();
         for &(i, cnt) in bank {
             if cnt == 0 {
                 continue;
             }
             let c = cnt as f64;
+            yb_big += big[i] * c;
             let row = &table[i * nf..i * nf + n];
             for (z, y) in self.zt[..n].iter_mut().zip(row) {
                 *z += y * c;
@@ -292,27 +340,69 @@ impl Evaluator {
         for k in 0..n {
             self.zt[k] = self.transfer_of(self.zt[k], k);
         }
+        self.set_asymptote(yb_big);
     }
 
-    fn pp_from_buf(&mut self, n: usize, full: bool) -> f64 {
+    /// Write the remaining series `D_k · (Z_k − a0 − jω_k·a1)` of vin
+    /// corner `c` into `buf[1..=n]` (the asymptote's share is in the
+    /// closed-form tables).
+    fn load_remainder(&mut self, c: usize, band: Band, n: usize) {
+        let (a0, a1) = self.asym;
+        for k in 0..n {
+            let drive = match band {
+                Band::Limited => self.drive_limited[c][k],
+                Band::Full => self.currents[c][k],
+            };
+            let w = 2.0 * PI * self.freqs[k];
+            self.buf[k + 1] = drive * (self.zt[k] - Complex64::new(a0, w * a1));
+        }
+    }
+
+    /// Peak-to-peak of the exact waveform of vin corner `c` whose remaining
+    /// series is in `buf[1..=n]`: inverse FFT of the series plus the
+    /// closed-form part, on the grid and on both sides of every breakpoint.
+    fn pp_from_buf(&mut self, n: usize, band: Band, c: usize) -> f64 {
+        let full = band == Band::Full;
         let plan = if full {
             &self.plan_full
         } else {
             &self.plan_limited
         };
         let m = plan.m;
-        debug_assert!(n <= plan.n.max(n) && n < m / 2);
+        debug_assert!(n < m / 2);
+        let (a0, a1) = self.asym;
+        let closed = if full {
+            &self.closed_full[c]
+        } else {
+            &self.closed_limited[c]
+        };
+        if full && closed.impulsive && a1 != 0.0 {
+            // A current step through ESL: an impulse of voltage.
+            return f64::INFINITY;
+        }
         let buf = &mut self.buf[..m];
         buf[0] = Complex64::default();
         for x in buf[n + 1..].iter_mut() {
             *x = Complex64::default();
         }
-        // buf[1..=n] hold V_k; the inverse FFT sums V_k e^{+j2πkm/M}.
+        // buf[1..=n] hold the series; the inverse FFT sums them times e^{+j2πkm/M}.
         plan.fft.process_with_scratch(buf, &mut self.fft_scratch);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-        for x in buf.iter() {
-            lo = lo.min(x.re);
-            hi = hi.max(x.re);
+        for ((x, g0), g1) in buf.iter().zip(&closed.g0).zip(&closed.g1) {
+            let v = x.re + a0 * g0 + a1 * g1;
+            lo = lo.min(v);
+            hi = hi.max(v);
+        }
+        for b in &closed.breaks {
+            // The series is smooth: interpolate it between grid samples.
+            let j = b.pos.floor() as usize % m;
+            let f = b.pos - b.pos.floor();
+            let r = buf[j].re * (1.0 - f) + buf[(j + 1) % m].re * f;
+            for side in 0..2 {
+                let v = r + a0 * b.g0[side] + a1 * b.g1[side];
+                lo = lo.min(v);
+                hi = hi.max(v);
+            }
         }
         hi - lo
     }
@@ -330,20 +420,14 @@ impl Evaluator {
         self.fill_transfer(bank, corner, n);
         let mut worst: f64 = 0.0;
         for c in 0..self.currents.len() {
-            for k in 0..n {
-                let drive = match band {
-                    Band::Limited => self.drive_limited[c][k],
-                    Band::Full => self.currents[c][k],
-                };
-                self.buf[k + 1] = drive * self.zt[k];
-            }
-            worst = worst.max(self.pp_from_buf(n, band == Band::Full));
+            self.load_remainder(c, band, n);
+            worst = worst.max(self.pp_from_buf(n, band, c));
         }
         worst
     }
 
-    /// The target figure (worst corner) from only the first `n` harmonics,
-    /// to judge how well the series has converged.
+    /// The target figure (worst corner) from only the first `n` harmonics
+    /// of the remaining series, to judge how well it has converged.
     pub fn ripple_pp_first(&mut self, bank: &Bank, n: usize) -> f64 {
         if self.is_empty(bank) {
             return f64::INFINITY;
@@ -352,10 +436,8 @@ impl Evaluator {
         self.fill_transfer(bank, Corner::Worst, n);
         let mut worst: f64 = 0.0;
         for c in 0..self.currents.len() {
-            for k in 0..n {
-                self.buf[k + 1] = self.drive_limited[c][k] * self.zt[k];
-            }
-            worst = worst.max(self.pp_from_buf(n, false));
+            self.load_remainder(c, Band::Limited, n);
+            worst = worst.max(self.pp_from_buf(n, Band::Limited, c));
         }
         worst
     }
@@ -374,15 +456,21 @@ impl Evaluator {
     }
 
     /// As [`Evaluator::ripple_check`], from the added bank's admittance per
-    /// harmonic (worst corner, `n_limited` values) instead of a bank.
-    pub fn ripple_check_admittance(&mut self, yb: &[Complex64], limit: f64) -> f64 {
+    /// harmonic (worst corner, `n_limited` values) instead of a bank; `bank`
+    /// is the same bank, for its high-frequency asymptote.
+    pub fn ripple_check_admittance(&mut self, yb: &[Complex64], bank: &Bank, limit: f64) -> f64 {
         let n = self.n_limited;
-        if !self.has_int && yb.iter().all(|y| *y == Complex64::default()) {
+        if self.is_empty(bank) {
             return f64::INFINITY;
         }
         for k in 0..n {
             self.zt[k] = self.transfer_of(yb[k], k);
         }
+        let mut yb_big = Complex64::default();
+        for &(i, cnt) in bank {
+            yb_big += self.y_big_worst[i] * cnt as f64;
+        }
+        self.set_asymptote(yb_big);
         self.check_filled(limit)
     }
 
@@ -392,8 +480,8 @@ impl Evaluator {
         let n = self.n_limited;
         // Two bounds from the harmonics alone, per vin corner (module docs of
         // HARMONIC_FLOOR): pp ≥ HARMONIC_FLOOR·max_k |V_k| and, since the
-        // samples' RMS about their mean is at most half their range,
-        // pp ≥ 2·rms = sqrt(2·Σ|V_k|²) (discrete Parseval, N < M/2).
+        // waveform's RMS about its mean is at most half its range,
+        // pp ≥ 2·rms ≥ sqrt(2·Σ|V_k|²) (Parseval).
         let mut floor: f64 = 0.0;
         for d in &self.drive_limited {
             let (mut peak, mut sum) = (0.0_f64, 0.0);
@@ -410,8 +498,11 @@ impl Evaluator {
             return floor;
         }
         // Coarse passes: the samples at every (M/S)-th instant are the inverse
-        // FFT of size S of the spectrum folded modulo S, and a subset of the
-        // samples has a peak-to-peak no larger than all of them.
+        // FFT of size S of the series folded modulo S (plus the closed-form
+        // part there), and a subset of the samples has a peak-to-peak no
+        // larger than all of them.
+        let (a0, a1) = self.asym;
+        let m = self.plan_limited.m;
         let mut worst: f64 = floor;
         for pass in 0..2 {
             for c in 0..self.currents.len() {
@@ -423,13 +514,18 @@ impl Evaluator {
                 let sub = &mut self.buf[..size];
                 sub.iter_mut().for_each(|x| *x = Complex64::default());
                 for k in 0..n {
-                    sub[(k + 1) % size] += self.drive_limited[c][k] * self.zt[k];
+                    let w = 2.0 * PI * self.freqs[k];
+                    sub[(k + 1) % size] +=
+                        self.drive_limited[c][k] * (self.zt[k] - Complex64::new(a0, w * a1));
                 }
                 plan.process_with_scratch(sub, &mut self.fft_scratch);
+                let closed = &self.closed_limited[c];
+                let stride = m / size;
                 let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-                for x in sub.iter() {
-                    lo = lo.min(x.re);
-                    hi = hi.max(x.re);
+                for (j, x) in sub.iter().enumerate() {
+                    let v = x.re + a0 * closed.g0[j * stride] + a1 * closed.g1[j * stride];
+                    lo = lo.min(v);
+                    hi = hi.max(v);
                 }
                 worst = worst.max(hi - lo);
                 if worst > limit {
@@ -438,10 +534,8 @@ impl Evaluator {
             }
         }
         for c in 0..self.currents.len() {
-            for k in 0..n {
-                self.buf[k + 1] = self.drive_limited[c][k] * self.zt[k];
-            }
-            worst = worst.max(self.pp_from_buf(n, false));
+            self.load_remainder(c, Band::Limited, n);
+            worst = worst.max(self.pp_from_buf(n, Band::Limited, c));
             if worst > limit {
                 return worst;
             }
@@ -522,24 +616,9 @@ impl Evaluator {
             .collect()
     }
 
-    /// Largest single harmonic amplitude max_k |V_k| of the target figure:
-    /// a lower bound on the peak-to-peak ripple that needs no FFT.
-    pub fn harmonic_floor(&mut self, bank: &Bank, corner: Corner) -> f64 {
-        if self.is_empty(bank) {
-            return f64::INFINITY;
-        }
-        let n = self.n_limited;
-        self.fill_transfer(bank, corner, n);
-        let mut worst: f64 = 0.0;
-        for d in &self.drive_limited {
-            for k in 0..n {
-                worst = worst.max((d[k] * self.zt[k]).norm());
-            }
-        }
-        worst
-    }
-
-    /// Samples of one period of the ripple at one vin corner.
+    /// Samples of one period of the exact ripple at one vin corner, on the
+    /// inverse FFT's grid (empty for an empty bank; not finite for a current
+    /// step through ESL at full bandwidth).
     pub fn waveform(
         &mut self,
         bank: &Bank,
@@ -555,20 +634,22 @@ impl Evaluator {
             Band::Full => self.n_full,
         };
         self.fill_transfer(bank, corner, n);
-        for k in 0..n {
-            let drive = match band {
-                Band::Limited => self.drive_limited[vin_corner][k],
-                Band::Full => self.currents[vin_corner][k],
-            };
-            self.buf[k + 1] = drive * self.zt[k];
+        self.load_remainder(vin_corner, band, n);
+        if !self.pp_from_buf(n, band, vin_corner).is_finite() {
+            return Vec::new();
         }
-        self.pp_from_buf(n, band == Band::Full);
-        let m = if band == Band::Full {
-            self.plan_full.m
+        let (m, closed) = if band == Band::Full {
+            (self.plan_full.m, &self.closed_full[vin_corner])
         } else {
-            self.plan_limited.m
+            (self.plan_limited.m, &self.closed_limited[vin_corner])
         };
-        self.buf[..m].iter().map(|x| x.re).collect()
+        let (a0, a1) = self.asym;
+        self.buf[..m]
+            .iter()
+            .zip(&closed.g0)
+            .zip(&closed.g1)
+            .map(|((x, g0), g1)| x.re + a0 * g0 + a1 * g1)
+            .collect()
     }
 
     /// Harmonic voltage phasors V_k of the target figure at one vin corner.
@@ -625,14 +706,6 @@ impl Evaluator {
                 }
             }
         }
-    }
-
-    /// RMS of the converter's current into the output node (all harmonics).
-    pub fn source_rms(&self) -> f64 {
-        self.currents
-            .iter()
-            .map(|cur| (cur.iter().map(|x| x.norm_sqr()).sum::<f64>() / 2.0).sqrt())
-            .fold(0.0, f64::max)
     }
 }
 

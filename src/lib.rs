@@ -19,4 +19,5 @@ pub mod problem;
 pub mod report;
 pub mod scenario;
 pub mod spectrum;
+pub mod timedomain;
 pub mod units;

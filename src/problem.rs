@@ -2,7 +2,7 @@
 //! which parts may be used (and why the others may not), the operating
 //! corners and the current spectra.
 
-use crate::bank::{Evaluator, PartModel};
+use crate::bank::{Band, Corner, Evaluator, PartModel};
 use crate::catalog::{Catalog, Part, Status, Technology};
 use crate::converter::{self, OperatingPoint};
 use crate::scenario::{CapBasis, Objective, Scenario, Topology};
@@ -115,6 +115,29 @@ pub fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
     }
 }
 
+/// Scale a module's unit-amplitude current so that its internal bank alone
+/// shows the measured `standalone_ripple_pp` at the standalone bandwidth
+/// (typical corner), one input-voltage corner at a time.
+fn calibrate_module(s: &Scenario, ops: &mut [OperatingPoint]) {
+    let c = &s.converter;
+    let Some(target) = c.standalone_ripple_pp else {
+        return;
+    };
+    let mut alone = s.clone();
+    alone.target.bandwidth = c.standalone_bandwidth.or(s.target.bandwidth);
+    for op in ops.iter_mut() {
+        let mut ev = Evaluator::new(&alone, std::slice::from_ref(op), Vec::new());
+        let pp = ev.ripple_pp(&[], Corner::Typical, Band::Limited);
+        let scale = if pp > 0.0 && pp.is_finite() {
+            target.0 / pp
+        } else {
+            0.0
+        };
+        op.waveform.points.iter_mut().for_each(|p| p.1 *= scale);
+        op.current_pp *= scale;
+    }
+}
+
 impl Problem {
     pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
         scenario.check_against(&catalog)?;
@@ -166,7 +189,10 @@ impl Problem {
                 no_temp.iter().take(5).copied().collect::<Vec<_>>().join(", ") + if no_temp.len() > 5 { ", …" } else { "" }
             ));
         }
-        let ops = converter::operating_points(&scenario);
+        let mut ops = converter::operating_points(&scenario);
+        if scenario.converter.topology == Topology::Module {
+            calibrate_module(&scenario, &mut ops);
+        }
         for op in &ops {
             if op.mode == "DCM" {
                 warnings.push(format!(
