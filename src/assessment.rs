@@ -1,7 +1,8 @@
 //! Everything the reports say about one bank: the ripple at every corner,
 //! the currents, the totals and every limit, computed by the evaluator.
 
-use crate::bank::{Band, Corner, Evaluator};
+use crate::bank::{Band, Evaluator};
+use crate::region::{self, Named};
 use crate::catalog::Status;
 use crate::problem::{cap_limit_value, Problem};
 use anyhow::{bail, Result};
@@ -56,9 +57,47 @@ pub struct CornerInfo {
     pub current_pp: f64,
 }
 
+/// One line at the worst point of the corner region.
+#[derive(Debug, Clone, Serialize)]
+pub struct WorstLine {
+    /// Part id.
+    pub part: String,
+    /// Capacitance of each part of the line there, F.
+    pub capacitance: f64,
+    /// ESR of each part of the line there, Ω.
+    pub esr: f64,
+}
+
+/// Where in the corner region the largest ripple occurs.
+#[derive(Debug, Clone, Serialize)]
+pub struct WorstCorner {
+    /// Input voltage, V.
+    pub vin: Option<f64>,
+    /// Converter inductance, H.
+    pub inductance: Option<f64>,
+    /// Each line's capacitance and ESR.
+    pub lines: Vec<WorstLine>,
+}
+
+/// The target figure at the named corners, each the largest over the
+/// input-voltage range at nominal inductance.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct CornerFigures {
+    /// Every line at its lowest capacitance and highest ESR.
+    pub low: f64,
+    /// Every line at its highest capacitance and lowest ESR.
+    pub high: f64,
+    /// Nominal capacitance under DC bias, catalog ESR.
+    pub typical: f64,
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct Assessment {
     pub bank: Vec<BankLine>,
+    /// Where the largest ripple of the corner region occurs.
+    pub worst_corner: WorstCorner,
+    /// The named corners' figures.
+    pub ripple_pp_corners: CornerFigures,
     pub ripple_pp: f64,
     pub ripple_pp_typical: f64,
     pub ripple_pp_full_bandwidth: f64,
@@ -229,6 +268,11 @@ pub fn bom_to_bank(
     Ok(out)
 }
 
+/// A voltage in millivolts with sensible digits.
+fn text_mv(v: f64) -> String {
+    crate::units::format_si(v, "V")
+}
+
 /// Evaluate a bank (catalog indices and counts) completely.
 pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
     let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|&(_, n)| n > 0).collect();
@@ -250,11 +294,36 @@ pub fn assess_with(
 ) -> Assessment {
     let s = &problem.scenario;
     let cat = &problem.catalog;
-    let ripple_pp = ev.ripple_pp(local, Corner::Worst, Band::Limited);
-    let ripple_pp_typical = ev.ripple_pp(local, Corner::Typical, Band::Limited);
-    let ripple_pp_full = ev.ripple_pp(local, Corner::Worst, Band::Full);
-    let currents = ev.part_currents(local);
-    let half = ev.ripple_pp_first(local, ev.n_limited / 2);
+    let worst = region::worst(problem, ev, local, Band::Limited);
+    let ripple_pp = worst.value;
+    let ripple_pp_full = region::worst(problem, ev, local, Band::Full).value;
+    let named = |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
+    let corners_pp = CornerFigures {
+        low: named(ev, Named::Low),
+        high: named(ev, Named::High),
+        typical: named(ev, Named::Typical),
+    };
+    let ripple_pp_typical = corners_pp.typical;
+    let currents = region::currents(ev, local, Some(&worst));
+    let half = if worst.states.len() == local.len() {
+        ev.fill_states(local, &worst.states, ev.n_limited);
+        ev.pp_filled_n(worst.op, Band::Limited, ev.n_limited / 2)
+    } else {
+        ripple_pp
+    };
+    let worst_corner = WorstCorner {
+        vin: ev.ops.get(worst.op).and_then(|o| o.vin),
+        inductance: ev.ops.get(worst.op).and_then(|o| o.inductance),
+        lines: local
+            .iter()
+            .zip(&worst.states)
+            .map(|(&(j, _), st)| WorstLine {
+                part: problem.catalog.parts[bank[j].0].id.clone(),
+                capacitance: st.c,
+                esr: st.esr,
+            })
+            .collect(),
+    };
     let vout = s.converter.vout.0;
     let mut lines = Vec::new();
     let mut warnings = problem.warnings.clone();
@@ -380,33 +449,47 @@ pub fn assess_with(
             });
         }
     }
-    // The worst corner is the low-capacitance one (SPEC §4); a bank whose
-    // ripple grows with capacitance (ESL- and ESR-dominated) is flagged.
-    if ripple_pp_typical > s.target.ripple_pp.0 {
+    // Where the worst point lies, in words an engineer can act on.
+    let at_high = worst
+        .states
+        .iter()
+        .zip(local)
+        .filter(|(st, &(j, _))| {
+            let p = &ev.parts[j];
+            p.c_high > p.c_worst && st.c > 0.5 * (p.c_worst + p.c_high)
+        })
+        .count();
+    if ripple_pp.is_finite() && !worst.states.is_empty() && at_high > 0 {
+        let what = if at_high == worst.states.len() {
+            "at the high-capacitance corner".to_string()
+        } else {
+            format!("with {at_high} of {} lines near their highest capacitance", worst.states.len())
+        };
         warnings.push(format!(
-            "at the typical corner (nominal capacitance with DC bias) the ripple is {:.3} mV, ABOVE the target \
-             of {:.3} mV: this bank's ripple rises with capacitance (ESL/ESR-dominated); pass/fail is judged at \
-             the worst corner; set selection.check_typical = true to require both",
-            ripple_pp_typical * 1e3,
-            s.target.ripple_pp.0 * 1e3
-        ));
-    } else if ripple_pp_typical > ripple_pp * 1.005 {
-        warnings.push(format!(
-            "the typical corner ripples more than the worst corner ({:.3} mV against {:.3} mV): the ripple \
-             is set mostly by ESL and ESR here, so more capacitance does not lower it",
-            ripple_pp_typical * 1e3,
-            ripple_pp * 1e3
+            "the worst ripple ({}) occurs {what}: this bank is ESL-dominated or anti-resonant near a harmonic, \
+             so more capacitance does not lower its ripple (low corner {}, high corner {})",
+            text_mv(ripple_pp),
+            text_mv(corners_pp.low),
+            text_mv(corners_pp.high)
         ));
     }
-    // Convergence of the truncated series (common practice, no source: a
+    if ripple_pp_typical > s.target.ripple_pp.0 && ripple_pp_typical < ripple_pp {
+        warnings.push(format!(
+            "the typical corner ({}) is above the target ({}) as well as the worst ({})",
+            text_mv(ripple_pp_typical),
+            text_mv(s.target.ripple_pp.0),
+            text_mv(ripple_pp)
+        ));
+    }
+    // Convergence of the remaining series (common practice, no source: a
     // figure that still moves by over 2 % when the harmonics are halved has
     // not converged).
     if ev.n_limited >= 8 && ripple_pp.is_finite() && ripple_pp > 0.0 {
         let moved = (ripple_pp - half).abs() / ripple_pp;
         if moved > 0.02 {
             warnings.push(format!(
-                "the ripple changes by {:.1} % between {} and {} harmonics: the series has not converged \
-                 (fast edges through ESL); raise target.harmonics (up to 20000) to check",
+                "the ripple changes by {:.1} % between {} and {} harmonics: the series has not converged; \
+                 raise target.harmonics (up to 4000) to check",
                 moved * 100.0,
                 ev.n_limited / 2,
                 ev.n_limited
@@ -520,6 +603,8 @@ pub fn assess_with(
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
         bank: lines,
+        worst_corner,
+        ripple_pp_corners: corners_pp,
         ripple_pp,
         ripple_pp_typical,
         ripple_pp_full_bandwidth: ripple_pp_full,

@@ -24,9 +24,16 @@ pub struct PartModel {
     pub c_worst: f64,
     /// Typical-corner capacitance, F.
     pub c_typical: f64,
+    /// Highest capacitance of the corner region, F.
+    pub c_high: f64,
+    /// Lowest ESR of the corner region (hot), Ω.
+    pub esr_min: f64,
+    /// Highest ESR of the corner region (cold), Ω; the `low` corner's.
+    pub esr_max: f64,
     pub c_nominal: f64,
     /// Contribution to the added-capacitance limit, F.
     pub c_limit: f64,
+    /// ESR as the catalog gives it (the typical corner's), Ω.
     pub esr: f64,
     /// ESL plus the board's mounting inductance, H.
     pub esl: f64,
@@ -56,6 +63,15 @@ pub enum Band {
 pub fn admittance(esr: f64, esl: f64, c: f64, f: f64) -> Complex64 {
     let w = 2.0 * PI * f;
     Complex64::new(esr, w * esl - 1.0 / (w * c)).inv()
+}
+
+/// One bank line's capacitance and ESR at a point of the corner region.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LineState {
+    /// Capacitance of each part of the line, F.
+    pub c: f64,
+    /// ESR of each part of the line, Ω.
+    pub esr: f64,
 }
 
 /// A bank: (local part index, count) pairs.
@@ -96,6 +112,15 @@ pub struct Evaluator {
     /// (on `plan_limited`'s grid) and of the full-bandwidth one (`plan_full`).
     closed_limited: Vec<Closed>,
     closed_full: Vec<Closed>,
+    /// Operating points of the named corners (nominal inductance).
+    pub ops_named: Vec<usize>,
+    /// Operating points the region search starts from (and the optimizer's
+    /// pass/fail cascade runs over).
+    pub ops_region: Vec<usize>,
+    /// Every operating point, in the order of the tables.
+    pub ops: Vec<OperatingPoint>,
+    order_lim: u32,
+    tau: f64,
     /// High-frequency asymptote `a0 + jω·a1` of the last transfer filled.
     asym: (f64, f64),
     plan_limited: Plan,
@@ -223,6 +248,11 @@ impl Evaluator {
             y_int_big,
             closed_limited,
             closed_full,
+            ops_named: (0..ops.len()).collect(),
+            ops_region: (0..ops.len()).collect(),
+            ops: ops.to_vec(),
+            order_lim,
+            tau,
             asym: (0.0, 0.0),
             zt: vec![Complex64::default(); n_full],
             buf: vec![Complex64::default(); plan_full.m.max(plan_limited.m)],
@@ -255,7 +285,7 @@ impl Evaluator {
         let f_big = OMEGA_ASYMPTOTE / (2.0 * PI);
         self.y_big_worst = parts
             .iter()
-            .map(|p| admittance(p.esr, p.esl, p.c_worst, f_big))
+            .map(|p| admittance(p.esr_max, p.esl, p.c_worst, f_big))
             .collect();
         self.y_big_typical = parts
             .iter()
@@ -263,7 +293,7 @@ impl Evaluator {
             .collect();
         for p in &parts {
             for &f in &self.freqs {
-                self.y_worst.push(admittance(p.esr, p.esl, p.c_worst, f));
+                self.y_worst.push(admittance(p.esr_max, p.esl, p.c_worst, f));
                 self.y_typical
                     .push(admittance(p.esr, p.esl, p.c_typical, f));
             }
@@ -419,7 +449,8 @@ impl Evaluator {
         };
         self.fill_transfer(bank, corner, n);
         let mut worst: f64 = 0.0;
-        for c in 0..self.currents.len() {
+        for j in 0..self.ops_named.len() {
+            let c = self.ops_named[j];
             self.load_remainder(c, band, n);
             worst = worst.max(self.pp_from_buf(n, band, c));
         }
@@ -435,7 +466,8 @@ impl Evaluator {
         let n = n.min(self.n_limited);
         self.fill_transfer(bank, Corner::Worst, n);
         let mut worst: f64 = 0.0;
-        for c in 0..self.currents.len() {
+        for j in 0..self.ops_named.len() {
+            let c = self.ops_named[j];
             self.load_remainder(c, Band::Limited, n);
             worst = worst.max(self.pp_from_buf(n, Band::Limited, c));
         }
@@ -483,7 +515,8 @@ impl Evaluator {
         // waveform's RMS about its mean is at most half its range,
         // pp ≥ 2·rms ≥ sqrt(2·Σ|V_k|²) (Parseval).
         let mut floor: f64 = 0.0;
-        for d in &self.drive_limited {
+        for &c in &self.ops_region {
+            let d = &self.drive_limited[c];
             let (mut peak, mut sum) = (0.0_f64, 0.0);
             for k in 0..n {
                 let v = (d[k] * self.zt[k]).norm_sqr();
@@ -505,7 +538,8 @@ impl Evaluator {
         let m = self.plan_limited.m;
         let mut worst: f64 = floor;
         for pass in 0..2 {
-            for c in 0..self.currents.len() {
+            for j in 0..self.ops_region.len() {
+                let c = self.ops_region[j];
                 let (size, plan) = if pass == 0 {
                     (SUB_FIRST, &self.plan_first)
                 } else {
@@ -533,7 +567,8 @@ impl Evaluator {
                 }
             }
         }
-        for c in 0..self.currents.len() {
+        for j in 0..self.ops_region.len() {
+            let c = self.ops_region[j];
             self.load_remainder(c, Band::Limited, n);
             worst = worst.max(self.pp_from_buf(n, Band::Limited, c));
             if worst > limit {
@@ -545,9 +580,9 @@ impl Evaluator {
 
     /// |I_k·H_k| at harmonic k, the largest over the vin corners.
     fn peak_drive(&self, k: usize) -> f64 {
-        self.drive_limited
+        self.ops_region
             .iter()
-            .map(|d| d[k].norm())
+            .map(|&c| self.drive_limited[c][k].norm())
             .fold(0.0, f64::max)
     }
 
@@ -695,7 +730,8 @@ impl Evaluator {
         let n = self.n_full;
         for corner in [Corner::Worst, Corner::Typical] {
             self.fill_transfer(bank, corner, n);
-            for c in 0..self.currents.len() {
+            for oi in 0..self.ops_region.len() {
+                let c = self.ops_region[oi];
                 for (j, &(i, _)) in bank.iter().enumerate() {
                     let mut sum = 0.0;
                     for k in 0..n {
@@ -705,6 +741,97 @@ impl Evaluator {
                     out[j] = out[j].max((sum / 2.0).sqrt());
                 }
             }
+        }
+    }
+
+    /// Add an operating point (another input voltage or inductance of the
+    /// corner region); returns its index. Allocates: not for the hot path.
+    pub fn add_op(&mut self, op: &OperatingPoint) -> usize {
+        let cur = spectrum::harmonics(&op.waveform, self.n_full);
+        let drive: Vec<Complex64> = cur[..self.n_limited]
+            .iter()
+            .zip(&self.filter)
+            .map(|(i, h)| i * h)
+            .collect();
+        self.closed_limited.push(timedomain::closed(
+            &op.waveform,
+            self.order_lim,
+            self.tau,
+            self.plan_limited.m,
+        ));
+        self.closed_full
+            .push(timedomain::closed(&op.waveform, 0, 1.0, self.plan_full.m));
+        self.currents.push(cur);
+        self.drive_limited.push(drive);
+        self.ops.push(op.clone());
+        self.ops.len() - 1
+    }
+
+    /// Fill the transfer impedance (first `n` harmonics) and its asymptote
+    /// for the bank with each line at its own capacitance and ESR.
+    pub fn fill_states(&mut self, bank: &Bank, states: &[LineState], n: usize) {
+        for z in self.zt[..n].iter_mut() {
+            *z = Complex64::default();
+        }
+        let mut yb_big = Complex64::default();
+        let f_big = OMEGA_ASYMPTOTE / (2.0 * PI);
+        for (&(i, cnt), st) in bank.iter().zip(states) {
+            if cnt == 0 {
+                continue;
+            }
+            let c = cnt as f64;
+            let esl = self.parts[i].esl;
+            yb_big += admittance(st.esr, esl, st.c, f_big) * c;
+            for (z, &f) in self.zt[..n].iter_mut().zip(&self.freqs) {
+                *z += admittance(st.esr, esl, st.c, f) * c;
+            }
+        }
+        for k in 0..n {
+            self.zt[k] = self.transfer_of(self.zt[k], k);
+        }
+        self.set_asymptote(yb_big);
+    }
+
+    /// Peak-to-peak at operating point `op` of the transfer last filled by
+    /// [`Evaluator::fill_states`] (with at least the band's harmonics).
+    pub fn pp_filled(&mut self, op: usize, band: Band) -> f64 {
+        let n = match band {
+            Band::Limited => self.n_limited,
+            Band::Full => self.n_full,
+        };
+        self.load_remainder(op, band, n);
+        self.pp_from_buf(n, band, op)
+    }
+
+    /// As [`Evaluator::pp_filled`] from only the first `n` harmonics of the
+    /// remaining series (to judge its convergence).
+    pub fn pp_filled_n(&mut self, op: usize, band: Band, n: usize) -> f64 {
+        let n = n.min(self.harmonics_of(band));
+        self.load_remainder(op, band, n);
+        self.pp_from_buf(n, band, op)
+    }
+
+    /// Harmonic count of a band.
+    pub fn harmonics_of(&self, band: Band) -> usize {
+        match band {
+            Band::Limited => self.n_limited,
+            Band::Full => self.n_full,
+        }
+    }
+
+    /// RMS ripple current of one capacitor of each line at operating point
+    /// `op` for the transfer last filled by [`Evaluator::fill_states`] with
+    /// the full harmonic set; `out[j]` is raised to it where larger.
+    pub fn currents_filled(&self, bank: &Bank, states: &[LineState], op: usize, out: &mut [f64]) {
+        let n = self.n_full;
+        for (j, (&(i, _), st)) in bank.iter().zip(states).enumerate() {
+            let esl = self.parts[i].esl;
+            let mut sum = 0.0;
+            for k in 0..n {
+                let v = self.currents[op][k] * self.zt[k];
+                sum += (v * admittance(st.esr, esl, st.c, self.freqs[k])).norm_sqr();
+            }
+            out[j] = out[j].max((sum / 2.0).sqrt());
         }
     }
 }

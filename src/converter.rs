@@ -20,6 +20,8 @@ pub struct Waveform {
 #[derive(Debug, Clone, PartialEq)]
 pub struct OperatingPoint {
     pub vin: Option<f64>,
+    /// The converter inductance of this point, H (`None` for a module).
+    pub inductance: Option<f64>,
     pub duty: f64,
     /// Ripple frequency (fsw, or 2·fsw for a bridge), Hz.
     pub f_ripple: f64,
@@ -161,26 +163,73 @@ impl Waveform {
     }
 }
 
-/// Capacitor current for each input-voltage corner of the scenario.
+/// Capacitor current for each input-voltage corner of the scenario, at the
+/// nominal inductance (the named corners of the reports).
 ///
 /// For a module the triangle has unit peak-to-peak amplitude; the caller
 /// scales it to the measured standalone ripple.
 pub fn operating_points(s: &Scenario) -> Vec<OperatingPoint> {
-    let c = &s.converter;
     let mut corners: Vec<Option<f64>> = s.vin_corners().into_iter().map(Some).collect();
     if corners.is_empty() {
         corners.push(None);
     }
+    let l = s.converter.inductance.map(|l| l.0);
     corners
         .into_iter()
-        .map(|vin| operating_point(s, vin))
-        .collect::<Vec<_>>()
-        .into_iter()
-        .map(|mut op| {
-            op.waveform = op.waveform.with_edges(c.edge_time.0);
-            op
-        })
+        .map(|vin| operating_point_at(s, vin, l))
         .collect()
+}
+
+/// The converter inductances the corner region needs: for the buck family
+/// the current scales exactly as 1/L, so the lowest inductance is the worst
+/// for every figure; a flyback or boost changes shape (CCM/DCM) with L, so
+/// the low end, the nominal and the high end are all searched.
+pub fn region_inductances(s: &Scenario) -> Vec<Option<f64>> {
+    let c = &s.converter;
+    let Some(l) = c.inductance.map(|l| l.0) else {
+        return vec![None];
+    };
+    let tol = s.converter.inductance_tolerance.0;
+    let mut v = match c.topology {
+        Topology::Flyback | Topology::Boost => vec![l * (1.0 - tol), l, l * (1.0 + tol)],
+        _ => vec![l * (1.0 - tol)],
+    };
+    v.dedup();
+    v.into_iter().map(Some).collect()
+}
+
+/// The input voltages the corner region's search starts from: the ends and
+/// the nominal, and for interleaved phases a fine sweep (their ripple
+/// peaks inside the range, where the phases cancel least).
+pub fn region_vins(s: &Scenario) -> Vec<Option<f64>> {
+    let v = s.vin_corners();
+    if v.is_empty() {
+        return vec![None];
+    }
+    let (lo, hi) = (v[0], v[v.len() - 1]);
+    let mut out = v.clone();
+    if hi > lo {
+        let n = if s.converter.phases > 1 {
+            8 * s.converter.phases as usize
+        } else {
+            4
+        };
+        for j in 1..n {
+            out.push(lo + (hi - lo) * j as f64 / n as f64);
+        }
+    }
+    out.sort_by(|a, b| a.total_cmp(b));
+    out.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * b.abs());
+    out.into_iter().map(Some).collect()
+}
+
+/// The operating point at one input voltage and one converter inductance,
+/// with the scenario's edge time applied.
+pub fn operating_point_at(s: &Scenario, vin: Option<f64>, l: Option<f64>) -> OperatingPoint {
+    let mut op = operating_point(s, vin, l.unwrap_or(0.0));
+    op.inductance = l;
+    op.waveform = op.waveform.with_edges(s.converter.edge_time.0);
+    op
 }
 
 /// The rectifier current of a flyback or boost: zero while the switch is
@@ -221,6 +270,7 @@ impl Pulse {
         };
         OperatingPoint {
             vin: Some(vin),
+            inductance: None,
             duty: t_on / t,
             f_ripple: 1.0 / t,
             current_pp: ipk,
@@ -237,12 +287,11 @@ fn triangle(period: f64, duty: f64, pp: f64) -> Waveform {
     }
 }
 
-fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
+fn operating_point(s: &Scenario, vin: Option<f64>, l: f64) -> OperatingPoint {
     let c = &s.converter;
     let fsw = c.fsw.0;
     let vout = c.vout.0;
     let iout = c.iout.0;
-    let l = c.inductance.map_or(0.0, |l| l.0);
     let n = c.turns_ratio.map_or(1.0, |n| n.0);
     match c.topology {
         Topology::Buck | Topology::Forward | Topology::Bridge => {
@@ -259,6 +308,7 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let (lo, hi) = w.min_max();
             OperatingPoint {
                 vin: Some(vin),
+                inductance: None,
                 duty: d,
                 f_ripple: f,
                 current_pp: hi - lo,
@@ -319,6 +369,7 @@ fn operating_point(s: &Scenario, vin: Option<f64>) -> OperatingPoint {
             let w = triangle(1.0 / fsw, d, 1.0);
             OperatingPoint {
                 vin,
+                inductance: None,
                 duty: d,
                 f_ripple: fsw,
                 current_pp: 1.0,

@@ -16,6 +16,7 @@ pub mod converter;
 pub mod load;
 pub mod optimize;
 pub mod problem;
+pub mod region;
 pub mod report;
 pub mod scenario;
 pub mod spectrum;

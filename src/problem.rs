@@ -24,6 +24,9 @@ pub struct Problem {
     pub eligible: Vec<usize>,
     pub excluded: Vec<Excluded>,
     pub ops: Vec<OperatingPoint>,
+    /// The operating points the corner region's search starts from: the
+    /// input-voltage sweep at each region inductance.
+    pub region_ops: Vec<OperatingPoint>,
     pub warnings: Vec<String>,
 }
 
@@ -175,6 +178,7 @@ impl Problem {
             }
         }
         let mut warnings = catalog.warnings.clone();
+        let mut warnings_pre: Vec<String> = Vec::new();
         let no_temp: Vec<&str> = eligible
             .iter()
             .map(|&i| &catalog.parts[i])
@@ -190,8 +194,25 @@ impl Problem {
             ));
         }
         let mut ops = converter::operating_points(&scenario);
+        let mut region_ops: Vec<OperatingPoint> = Vec::new();
+        for l in converter::region_inductances(&scenario) {
+            for vin in converter::region_vins(&scenario) {
+                region_ops.push(converter::operating_point_at(&scenario, vin, l));
+            }
+        }
         if scenario.converter.topology == Topology::Module {
             calibrate_module(&scenario, &mut ops);
+            calibrate_module(&scenario, &mut region_ops);
+        }
+        if scenario.converter.inductance.is_some()
+            && scenario.converter.inductance_tolerance.0 == 0.0
+            && scenario.converter.topology != Topology::Module
+        {
+            warnings_pre.push(
+                "converter.inductance_tolerance not given: the inductance is taken as exact (power inductors are \
+                 commonly ±20 %, and a low inductance raises the ripple)"
+                    .into(),
+            );
         }
         for op in &ops {
             if op.mode == "DCM" {
@@ -251,12 +272,14 @@ impl Problem {
         {
             warnings.push("converter.standalone_bandwidth not given: the standalone ripple is taken at the target's bandwidth".into());
         }
+        warnings.extend(warnings_pre);
         Ok(Problem {
             scenario,
             catalog,
             eligible,
             excluded,
             ops,
+            region_ops,
             warnings,
         })
     }
@@ -270,6 +293,9 @@ impl Problem {
             index: i,
             c_worst: p.c_worst(vout),
             c_typical: p.c_typical(vout),
+            c_high: p.capacitance * (1.0 + p.tolerance) * p.bias_factor(vout),
+            esr_min: p.esr,
+            esr_max: p.esr,
             c_nominal: p.capacitance,
             c_limit: cap_limit_value(s, p),
             esr: p.esr,
@@ -283,7 +309,22 @@ impl Problem {
     /// An evaluator over the given catalog indices (its local part order).
     pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
         let models: Vec<PartModel> = parts.iter().map(|&i| self.part_model(i)).collect();
-        Evaluator::new(&self.scenario, &self.ops, models)
+        let mut all = self.ops.clone();
+        all.extend(self.region_ops.iter().cloned());
+        let mut ev = Evaluator::new(&self.scenario, &all, models);
+        ev.ops_named = (0..self.ops.len()).collect();
+        ev.ops_region = (self.ops.len()..all.len()).collect();
+        ev
+    }
+
+    /// The operating point at one input voltage and converter inductance
+    /// (a module's current calibrated like the others).
+    pub fn operating_point(&self, vin: Option<f64>, l: Option<f64>) -> OperatingPoint {
+        let mut op = vec![converter::operating_point_at(&self.scenario, vin, l)];
+        if self.scenario.converter.topology == Topology::Module {
+            calibrate_module(&self.scenario, &mut op);
+        }
+        op.remove(0)
     }
 
     pub fn technology(&self, i: usize) -> Technology {

@@ -99,6 +99,9 @@ pub struct Converter {
     pub iout: Amperes,
     pub fsw: Hertz,
     pub inductance: Option<Henries>,
+    /// Tolerance of `inductance` (fraction; the region spans L·(1 ± tol)).
+    #[serde(default)]
+    pub inductance_tolerance: Fraction,
     pub turns_ratio: Option<Plain>,
     #[serde(default = "one")]
     pub phases: u32,

@@ -27,7 +27,11 @@
 //!    (`best_ripple_pp`), and each limit is relaxed in turn to find the
 //!    ones that bind.
 
+use crate::bank::{Band, LineState};
 use crate::problem::Problem;
+
+/// Most searches the cutting-plane loop of [`design_for`] runs.
+const MAX_REGION_ROUNDS: usize = 12;
 use serde::Serialize;
 use std::time::Instant;
 
@@ -101,6 +105,9 @@ pub struct Stats {
     /// The search reached its evaluation budget before it finished.
     pub stopped: bool,
     pub lower_bound: Option<f64>,
+    /// Searches run by the cutting-plane loop (1 when the first bank found
+    /// held over the whole corner region).
+    pub region_rounds: usize,
     pub seconds: f64,
 }
 
@@ -166,8 +173,21 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
     let mut found: Option<Found> = None;
     let mut exhaustive = false;
     let mut stopped = false;
-    if !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
+    // Cutting planes (Blankenship & Falk 1976): search against a finite set
+    // of region points, verify the best bank over the whole region, add the
+    // point that breaks it and search again.
+    let mut actives: Vec<(crate::converter::OperatingPoint, Vec<LineState>)> = Vec::new();
+    let mut round = 0;
+    while !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
+        round += 1;
         let mut s = Search::new(problem, &cands, target);
+        for (op, st) in &actives {
+            let idx = s.ev.add_op(op);
+            s.active.push(crate::region::Active {
+                op: idx,
+                states: st.clone(),
+            });
+        }
         s.budget = settings.max_evaluations;
         // The converter alone (no added parts), when it has capacitance of its own.
         if s.required.is_empty()
@@ -221,16 +241,41 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
                 }
             }
         }
-        stats.evaluations = s.evals;
+        stats.evaluations += s.evals;
         stopped = s.stopped;
-        stats.line_sets_solved = s.sets_solved;
-        if let Some((key, bank, r)) = s.inc.take() {
-            found = Some(Found {
-                bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(),
-                key,
-                ripple_pp: r,
-            });
+        stats.line_sets_solved += s.sets_solved;
+        stats.region_rounds = round;
+        if let Some((key, bank, _)) = s.inc.take() {
+            let w = crate::region::worst(problem, &mut s.ev, &bank, Band::Limited);
+            if w.value > target * (1.0 + 1e-9) {
+                if round < MAX_REGION_ROUNDS {
+                    let mut st: Vec<LineState> = s
+                        .parts
+                        .iter()
+                        .map(|p| LineState {
+                            c: p.c_worst,
+                            esr: p.esr_max,
+                        })
+                        .collect();
+                    for (j, &(i, _)) in bank.iter().enumerate() {
+                        st[i] = w.states[j];
+                    }
+                    actives.push((s.ev.ops[w.op].clone(), st));
+                    found = None;
+                    exhaustive = false;
+                    continue;
+                }
+                // Out of rounds: no verified bank.
+                stopped = true;
+            } else {
+                found = Some(Found {
+                    bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(),
+                    key,
+                    ripple_pp: w.value,
+                });
+            }
         }
+        break;
     }
     stats.stopped = stopped;
     stats.exhaustive = exhaustive && !stopped;
@@ -351,6 +396,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         eligible: problem.eligible.clone(),
         excluded: vec![],
         ops: problem.ops.clone(),
+        region_ops: problem.region_ops.clone(),
         warnings: vec![],
     };
     if p.eligible

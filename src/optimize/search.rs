@@ -48,6 +48,11 @@ pub(super) struct Search {
     pub(super) bank_buf: Vec<(usize, u32)>,
     pub(super) yb_buf: Vec<Complex64>,
     pub(super) cur_buf: Vec<f64>,
+    /// Points of the corner region every candidate is also checked at (the
+    /// cutting planes added by [`super::design_for`]).
+    pub(super) active: Vec<crate::region::Active>,
+    /// Ripple-current rating of each local part.
+    pub(super) ratings: Vec<Option<f64>>,
     /// Exact evaluations allowed; past it the search stops (result `feasible`).
     pub(super) budget: usize,
     pub(super) stopped: bool,
@@ -120,7 +125,10 @@ impl Search {
             }
         }
         let phase = ev.phase_terms(target);
+        let ratings = parts.iter().map(|p| p.rating).collect();
         Search {
+            active: Vec::new(),
+            ratings,
             y,
             phase,
             catalog_index: candidates.to_vec(),
@@ -303,6 +311,20 @@ impl Search {
                         return false;
                     }
                 }
+            }
+        }
+        // The rest of the corner region: the active points and the box's vertices.
+        if self.target.is_finite() {
+            let Search {
+                ev,
+                bank_buf,
+                active,
+                ratings,
+                target,
+                ..
+            } = self;
+            if !crate::region::screen(ev, bank_buf, *target, active, ratings) {
+                return false;
             }
         }
         true
