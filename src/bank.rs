@@ -335,7 +335,10 @@ impl Evaluator {
     fn set_asymptote(&mut self, yb_big: Complex64) {
         let z = self.transfer(yb_big, self.y_int_big, OMEGA_ASYMPTOTE);
         self.asym = if z.is_finite() {
-            (z.re, z.im / OMEGA_ASYMPTOTE)
+            let a1 = z.im / OMEGA_ASYMPTOTE;
+            // Below a femtohenry the slope is a capacitor's −1/(Ω²C) tail,
+            // not an inductance: no ESL at all.
+            (z.re, if a1.abs() < 1e-15 { 0.0 } else { a1 })
         } else {
             (0.0, 0.0)
         };
@@ -434,7 +437,13 @@ impl Evaluator {
                 hi = hi.max(v);
             }
         }
-        hi - lo
+        let pp = hi - lo;
+        // Overflowing values (absurd inputs) fail rather than pass.
+        if pp.is_nan() || pp < 0.0 {
+            f64::INFINITY
+        } else {
+            pp
+        }
     }
 
     /// Peak-to-peak ripple, the worst over the vin corners. Infinite for an
@@ -809,6 +818,33 @@ impl Evaluator {
         let n = n.min(self.harmonics_of(band));
         self.load_remainder(op, band, n);
         self.pp_from_buf(n, band, op)
+    }
+
+    /// Samples of one period of the exact ripple with each line at its own
+    /// state, at operating point `op` (empty for an empty bank or a
+    /// non-finite figure).
+    pub fn waveform_states(&mut self, bank: &Bank, states: &[LineState], band: Band, op: usize) -> Vec<f64> {
+        if self.is_empty(bank) {
+            return Vec::new();
+        }
+        let n = self.harmonics_of(band);
+        self.fill_states(bank, states, n);
+        self.load_remainder(op, band, n);
+        if !self.pp_from_buf(n, band, op).is_finite() {
+            return Vec::new();
+        }
+        let (m, closed) = if band == Band::Full {
+            (self.plan_full.m, &self.closed_full[op])
+        } else {
+            (self.plan_limited.m, &self.closed_limited[op])
+        };
+        let (a0, a1) = self.asym;
+        self.buf[..m]
+            .iter()
+            .zip(&closed.g0)
+            .zip(&closed.g1)
+            .map(|((x, g0), g1)| x.re + a0 * g0 + a1 * g1)
+            .collect()
     }
 
     /// Harmonic count of a band.

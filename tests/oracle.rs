@@ -1,11 +1,13 @@
 //! The optimizer against brute-force enumeration (the oracle), written
 //! independently of the optimizer: it walks every count vector of a small
 //! catalog (≤ 6 parts, ≤ 3 lines, counts ≤ 8) in cost order and takes the
-//! first one the evaluator passes. Source: brute-force enumeration.
+//! first one that passes over the corner region, judged by an independent
+//! dense search of the region (`common::dense_region`), not the tool's own
+//! worst-point search. Source: brute-force enumeration.
 
 use rand::rngs::StdRng;
 use rand::{Rng, SeedableRng};
-use ripplebank::bank::{Band, Corner};
+use ripplebank::bank::Band;
 use ripplebank::catalog::Catalog;
 use ripplebank::optimize::{self, Settings, Status};
 use ripplebank::problem::Problem;
@@ -53,11 +55,14 @@ fn oracle(p: &Problem) -> Oracle {
         if cap > max_cap || count > max_count || area > max_area {
             continue;
         }
-        let r = ev.ripple_pp(&b, Corner::Worst, Band::Limited);
+        // The low corner is one point of the region: a quick necessary test.
+        if ev.ripple_check(&b, target) > target {
+            continue;
+        }
+        let (r, cur) = common::dense_region(p, &mut ev, &b);
         if r > target {
             continue;
         }
-        let cur = ev.part_currents(&b);
         let ok = b
             .iter()
             .zip(&cur)
@@ -82,7 +87,7 @@ fn oracle(p: &Problem) -> Oracle {
 fn optimizer_matches_brute_force_on_random_cases() {
     let mut rng = StdRng::seed_from_u64(0x5eed_2026);
     let cases = 200;
-    let (mut exact, mut within1, mut worst_excess, mut both_infeasible, mut feasible_cases) =
+    let (mut exact, mut stricter, mut worst_excess, mut both_infeasible, mut feasible_cases) =
         (0, 0, 0.0f64, 0, 0);
     for case in 0..cases {
         let nparts = rng.gen_range(2..=6);
@@ -120,27 +125,43 @@ fn optimizer_matches_brute_force_on_random_cases() {
                     f.bank
                 );
             }
-            (Some((oc, _)), Some(f)) => {
+            (Some((oc, ob)), Some(f)) => {
                 feasible_cases += 1;
-                // Every reported bank verifies with the evaluator.
-                let a = ripplebank::assessment::assess(&p, &f.bank).unwrap();
+                // Every reported bank holds over the region by the dense search
+                // (the tool's figure may not fall more than 1 % below it).
+                let idx: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
+                let local: Vec<(usize, u32)> =
+                    f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+                let mut ev = p.evaluator(&idx);
+                let (dense, _) = common::dense_region(&p, &mut ev, &local);
+                let target = p.scenario.target.ripple_pp.0;
                 assert!(
-                    a.ripple_pp <= p.scenario.target.ripple_pp.0 * (1.0 + 1e-9),
-                    "case {case}: bank does not verify"
+                    dense <= target * 1.01,
+                    "case {case}: the tool's bank ripples {dense} V over the dense region search, target {target}"
                 );
                 let tool = f.key[0];
                 let excess = if *oc > 0.0 { (tool - oc) / oc } else { tool };
-                assert!(
-                    excess < 0.05,
-                    "case {case}: tool cost {tool} is {:.1} % above the oracle's {oc}",
-                    excess * 100.0
-                );
-                assert!(tool >= oc * (1.0 - 1e-9), "case {case}: tool cost {tool} below the oracle's {oc}: the oracle or the limits disagree");
-                if excess <= 1e-9 {
+                if excess > 1e-9 {
+                    // Only legitimate when the tool's own search found a point of
+                    // the region where the oracle's bank fails (a real point the
+                    // dense grid stepped over).
+                    let oidx: Vec<usize> = ob.iter().map(|b| p.eligible[b.0]).collect();
+                    let ol: Vec<(usize, u32)> = ob.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+                    let mut oev = p.evaluator(&oidx);
+                    let w = ripplebank::region::worst(&p, &mut oev, &ol, Band::Limited);
+                    assert!(
+                        w.value > target,
+                        "case {case}: tool cost {tool} above the oracle's {oc}, whose bank holds ({} V)\n{scen}\n{cat_text}",
+                        w.value
+                    );
+                    stricter += 1;
+                } else if tool < oc * (1.0 - 1e-9) {
+                    // Cheaper than the oracle: only within the 1 % the region
+                    // search may miss.
+                    assert!(dense > target, "case {case}: tool cost {tool} below the oracle's {oc}");
+                    stricter += 1;
+                } else {
                     exact += 1;
-                }
-                if excess <= 0.01 {
-                    within1 += 1;
                 }
                 worst_excess = worst_excess.max(excess);
                 assert_eq!(d.status, Status::Optimal);
@@ -148,12 +169,13 @@ fn optimizer_matches_brute_force_on_random_cases() {
         }
     }
     eprintln!(
-        "oracle: {cases} cases, {feasible_cases} feasible, {both_infeasible} infeasible for both; optimum reached in {exact}, within 1 % in {within1}, worst excess {:.2} %",
+        "oracle: {cases} cases, {feasible_cases} feasible, {both_infeasible} infeasible for both; same optimum in {exact}, \
+         differing only where the region searches differ in {stricter}, worst excess {:.2} %",
         worst_excess * 100.0
     );
     assert!(
         feasible_cases >= 60,
         "too few feasible cases to mean anything: {feasible_cases}"
     );
-    assert!(within1 as f64 >= 0.95 * feasible_cases as f64);
+    assert!(exact as f64 >= 0.95 * feasible_cases as f64, "{exact} of {feasible_cases}");
 }

@@ -49,6 +49,7 @@ struct Prep {
     /// Bank in catalog indices (zero counts dropped).
     bank: Vec<(usize, u32)>,
     vin_corner: usize,
+    states: Vec<crate::bank::LineState>,
 }
 
 fn prep(problem: &Problem, bank: &[(usize, u32)]) -> Result<Prep> {
@@ -59,20 +60,15 @@ fn prep(problem: &Problem, bank: &[(usize, u32)]) -> Result<Prep> {
     if ev.is_empty(&local) {
         bail!("the bank is empty and the converter has no internal capacitance: nothing to plot");
     }
-    let mut vin_corner = 0;
-    let mut worst = f64::NEG_INFINITY;
-    for c in 0..ev.vin_corners() {
-        let pp = peak_to_peak(&ev.waveform(&local, Corner::Worst, Band::Limited, c));
-        if pp > worst {
-            worst = pp;
-            vin_corner = c;
-        }
-    }
+    // The worst point of the corner region: its operating point and states.
+    let w = crate::region::worst(problem, &mut ev, &local, Band::Limited);
+    let vin_corner = w.op;
     Ok(Prep {
         ev,
         local,
         bank,
         vin_corner,
+        states: w.states,
     })
 }
 
@@ -87,8 +83,8 @@ fn min_max(v: impl Iterator<Item = f64>) -> (f64, f64) {
     })
 }
 
-fn vin_text(problem: &Problem, corner: usize) -> String {
-    match problem.ops.get(corner).and_then(|op| op.vin) {
+fn vin_text(vin: Option<f64>) -> String {
+    match vin {
         Some(v) => format!("vin {v} V"),
         None => "the converter's only corner".into(),
     }
@@ -112,6 +108,8 @@ pub struct ImpedanceData {
     /// Harmonics with no current are left out.
     pub needed: Vec<(f64, f64)>,
     pub vin_corner: usize,
+    /// Input voltage of that operating point, V.
+    pub vin: Option<f64>,
 }
 
 /// Transfer impedance from the converter's current to the measured node
@@ -208,6 +206,7 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
         harmonics,
         needed,
         vin_corner: p.vin_corner,
+        vin: p.ev.ops[p.vin_corner].vin,
     }
 }
 
@@ -230,13 +229,17 @@ pub struct RippleData {
     /// Middle of the bandwidth-limited waveform: (max + min) / 2, V.
     pub mid: f64,
     pub vin_corner: usize,
+    /// Input voltage of that operating point, V.
+    pub vin: Option<f64>,
 }
 
 fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
-    let limited =
-        p.ev.waveform(&p.local, Corner::Worst, Band::Limited, p.vin_corner);
-    let full =
-        p.ev.waveform(&p.local, Corner::Worst, Band::Full, p.vin_corner);
+    let limited = p
+        .ev
+        .waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner);
+    let full = p
+        .ev
+        .waveform_states(&p.local, &p.states, Band::Full, p.vin_corner);
     let (lo, hi) = min_max(limited.iter().copied());
     RippleData {
         period: 1.0 / p.ev.f_ripple,
@@ -245,6 +248,7 @@ fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
         target: problem.scenario.target.ripple_pp.0,
         mid: (lo + hi) / 2.0,
         vin_corner: p.vin_corner,
+        vin: p.ev.ops[p.vin_corner].vin,
     }
 }
 
@@ -264,6 +268,8 @@ pub struct SpectrumData {
     /// Target peak-to-peak, V.
     pub target: f64,
     pub vin_corner: usize,
+    /// Input voltage of that operating point, V.
+    pub vin: Option<f64>,
 }
 
 fn spectrum_of(p: &mut Prep, problem: &Problem) -> SpectrumData {
@@ -274,6 +280,7 @@ fn spectrum_of(p: &mut Prep, problem: &Problem) -> SpectrumData {
         amplitude: v.iter().map(|x| x.norm()).collect(),
         target: problem.scenario.target.ripple_pp.0,
         vin_corner: p.vin_corner,
+        vin: p.ev.ops[p.vin_corner].vin,
     }
 }
 
@@ -701,7 +708,7 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
     let title = "Impedance of the bank and its parts";
     let subtitle = format!(
         "worst-case capacitance, harmonics of the worst corner ({}), budget {} p-p at {}",
-        vin_text(problem, d.vin_corner),
+        vin_text(d.vin),
         format_si(a.target_ripple_pp, "V"),
         band_text(problem)
     );
@@ -826,7 +833,7 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
     let title = "Output ripple at the worst corner";
     let subtitle = format!(
         "{}, worst-case capacitance, {} periods of {} — {}",
-        vin_text(problem, d.vin_corner),
+        vin_text(d.vin),
         periods,
         format_si(d.period, "s"),
         if a.meets_target {
@@ -938,7 +945,7 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
     let title = "Harmonic voltage against the budget";
     let subtitle = format!(
         "worst corner ({}), worst-case capacitance; all harmonics together: {} p-p",
-        vin_text(problem, d.vin_corner),
+        vin_text(d.vin),
         format_si(a.ripple_pp, "V")
     );
     svg(560 + lh, title, |root| {

@@ -14,10 +14,9 @@
 //! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
 //! periods just before, so that a reader can see that the run has settled.
 
-use crate::bank::{admittance, Band, Corner};
+use crate::bank::{admittance, Band, LineState};
 use crate::converter::Waveform;
 use crate::problem::Problem;
-use crate::spectrum;
 use anyhow::{bail, Result};
 use num_complex::Complex64;
 use std::f64::consts::PI;
@@ -73,20 +72,27 @@ fn num(x: f64) -> String {
     format!("{x:.10e}")
 }
 
-fn circuit(problem: &Problem, bank: &[(usize, u32)]) -> Result<Circuit> {
+/// The circuit with every line at the `low` corner, or at the given states
+/// (one per line with a count above zero, in order).
+fn circuit(problem: &Problem, bank: &[(usize, u32)], states: Option<&[LineState]>) -> Result<Circuit> {
     let s = &problem.scenario;
     let c = &s.converter;
     let mut lines = Vec::new();
-    for &(i, n) in bank.iter().filter(|b| b.1 > 0) {
+    for (j, &(i, n)) in bank.iter().filter(|b| b.1 > 0).enumerate() {
         if i >= problem.catalog.parts.len() {
             bail!("bank.cir: catalog index {i} is out of range");
         }
-        let m = problem.part_model(i);
+        let mut m = problem.part_model(i);
+        m.esr = m.esr_max;
+        if let Some(st) = states.and_then(|s| s.get(j)) {
+            m.c_worst = st.c;
+            m.esr = st.esr;
+        }
         let p = &problem.catalog.parts[i];
         let nf = n as f64;
         lines.push(Branch {
             label: format!(
-                "{} x {} ({}): per part C = {} F (worst corner), ESR = {} ohm, ESL + mounting = {} H",
+                "{} x {} ({}): per part C = {} F, ESR = {} ohm (worst point of the corner region found), ESL + mounting = {} H",
                 p.id,
                 n,
                 p.technology.name(),
@@ -371,40 +377,19 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
 /// The transient netlist `bank.cir` for a bank (catalog indices and counts).
 pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     let s = &problem.scenario;
-    let ckt = circuit(problem, bank)?;
     let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|b| b.1 > 0).collect();
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
     let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
     let mut ev = problem.evaluator(&parts);
-    // The vin corner whose worst-corner ripple (target bandwidth) is largest.
-    let mut corner = 0;
-    let mut best = f64::NEG_INFINITY;
-    let mut per_corner = Vec::new();
-    for c in 0..ev.vin_corners() {
-        let pp = |w: Vec<f64>| {
-            w.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
-                - w.iter().cloned().fold(f64::INFINITY, f64::min)
-        };
-        let lim = pp(ev.waveform(&local, Corner::Worst, Band::Limited, c));
-        let full = pp(ev.waveform(&local, Corner::Worst, Band::Full, c));
-        per_corner.push((lim, full));
-        if lim > best {
-            best = lim;
-            corner = c;
-        }
-    }
-    let op = &problem.ops[corner];
-    // The evaluator scales a module's unit triangle to the standalone
-    // ripple; take the same factor from its spectra.
-    let scale = {
-        let h = spectrum::harmonics(&op.waveform, 1)[0].norm();
-        let e = ev.currents[corner][0].norm();
-        if s.converter.topology == crate::scenario::Topology::Module && h > 0.0 {
-            e / h
-        } else {
-            1.0
-        }
-    };
+    // The worst point of the corner region (target bandwidth): its input
+    // voltage, inductance and each line's capacitance and ESR.
+    let w = crate::region::worst(problem, &mut ev, &local, Band::Limited);
+    let ckt = circuit(problem, &bank, Some(&w.states))?;
+    let corner = w.op;
+    let full_here = crate::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
+    let per_corner = vec![(w.value, full_here)];
+    let op = &ev.ops[corner].clone();
+    let scale = 1.0;
     let period = op.waveform.period;
     let f_top = ev.n_full as f64 * ev.f_ripple;
     let min_ramp = (0.1 / f_top).min(1e-3 * period);
@@ -418,7 +403,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     );
     match op.vin {
         Some(v) => {
-            let _ = writeln!(o, "* vin corner: {} V (corner {} of {}, the one with the largest ripple per the evaluator)", v, corner + 1, ev.vin_corners());
+            let _ = writeln!(o, "* vin: {} V, inductance {} H (the worst point of the corner region per the evaluator)", v, op.inductance.map_or("-".to_string(), num));
         }
         None => {
             let _ = writeln!(o, "* vin: not given (one corner)");
@@ -436,8 +421,8 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
             format!(", {}", op.mode)
         }
     );
-    let (lim, full) = per_corner[corner];
-    let _ = writeln!(o, "* evaluator at this corner (worst-corner capacitances): ripple_pp {} V at the target bandwidth, {} V at full bandwidth", num(lim), num(full));
+    let (lim, full) = per_corner[0];
+    let _ = writeln!(o, "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth", num(lim), num(full));
     let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
     let _ = writeln!(o);
 
@@ -586,7 +571,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
 /// printing `vm(bank)`, the magnitude of the transfer impedance to the bank's
 /// node in ohms (what the evaluator calls the transfer impedance).
 pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep) -> Result<String> {
-    let ckt = circuit(problem, bank)?;
+    let ckt = circuit(problem, bank, None)?;
     let mut o = String::new();
     header(
         &mut o,

@@ -116,3 +116,71 @@ pub fn all_banks(n: usize) -> Vec<Vec<(usize, u32)>> {
     }
     out
 }
+
+/// An independent dense search of the corner region (brute force, not the
+/// tool's own search): every line's capacitance at five points of
+/// `[C_low, C_high]` and its ESR at both ends, at the region's starting
+/// input voltages plus eight more evenly spaced, at each region
+/// inductance. Returns the largest target-bandwidth ripple and the largest
+/// RMS current of each line (one capacitor) seen.
+#[allow(dead_code)]
+pub fn dense_region(
+    p: &ripplebank::problem::Problem,
+    ev: &mut ripplebank::bank::Evaluator,
+    bank: &[(usize, u32)],
+) -> (f64, Vec<f64>) {
+    use ripplebank::bank::{Band, LineState};
+    let mut vins: Vec<Option<f64>> = p.region_ops.iter().map(|o| o.vin).collect();
+    let v: Vec<f64> = p.scenario.vin_corners();
+    if v.len() > 1 {
+        for j in 1..9 {
+            vins.push(Some(v[0] + (v[v.len() - 1] - v[0]) * j as f64 / 9.0));
+        }
+    }
+    vins.dedup();
+    let ls = ripplebank::converter::region_inductances(&p.scenario);
+    let mut ops = Vec::new();
+    for l in &ls {
+        for vin in &vins {
+            ops.push(ev.add_op(&p.operating_point(*vin, *l)));
+        }
+    }
+    let opts: Vec<Vec<LineState>> = bank
+        .iter()
+        .map(|&(i, _)| {
+            let m = &ev.parts[i];
+            let mut o = Vec::new();
+            for c in 0..5 {
+                let cap = m.c_worst + (m.c_high - m.c_worst) * c as f64 / 4.0;
+                for esr in [m.esr_min, m.esr_max] {
+                    o.push(LineState { c: cap, esr });
+                }
+            }
+            o
+        })
+        .collect();
+    let mut worst = 0.0_f64;
+    let mut cur = vec![0.0; bank.len()];
+    let mut idx = vec![0usize; bank.len()];
+    loop {
+        let st: Vec<LineState> = idx.iter().zip(&opts).map(|(&j, o)| o[j]).collect();
+        ev.fill_states(bank, &st, ev.n_full);
+        for &op in &ops {
+            worst = worst.max(ev.pp_filled(op, Band::Limited));
+            ev.currents_filled(bank, &st, op, &mut cur);
+        }
+        let mut d = 0;
+        while d < idx.len() {
+            idx[d] += 1;
+            if idx[d] < opts[d].len() {
+                break;
+            }
+            idx[d] = 0;
+            d += 1;
+        }
+        if d == idx.len() {
+            break;
+        }
+    }
+    (worst, cur)
+}
