@@ -2,9 +2,9 @@
 //! the currents, the totals and every limit, computed by the evaluator.
 
 use crate::bank::{Band, Evaluator};
-use crate::region::{self, Named};
 use crate::catalog::Status;
 use crate::problem::{cap_limit_value, Problem};
+use crate::region::{self, Named};
 use anyhow::{bail, Result};
 use serde::Serialize;
 use std::path::Path;
@@ -297,7 +297,8 @@ pub fn assess_with(
     let worst = region::worst(problem, ev, local, Band::Limited);
     let ripple_pp = worst.value;
     let ripple_pp_full = region::worst(problem, ev, local, Band::Full).value;
-    let named = |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
+    let named =
+        |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
     let corners_pp = CornerFigures {
         low: named(ev, Named::Low),
         high: named(ev, Named::High),
@@ -463,7 +464,10 @@ pub fn assess_with(
         let what = if at_high == worst.states.len() {
             "at the high-capacitance corner".to_string()
         } else {
-            format!("with {at_high} of {} lines near their highest capacitance", worst.states.len())
+            format!(
+                "with {at_high} of {} lines near their highest capacitance",
+                worst.states.len()
+            )
         };
         warnings.push(format!(
             "the worst ripple ({}) occurs {what}: this bank is ESL-dominated or anti-resonant near a harmonic, \

@@ -78,7 +78,6 @@ pub struct LineState {
 pub type Bank = [(usize, u32)];
 
 struct Plan {
-    n: usize,
     m: usize,
     fft: Arc<dyn Fft<f64>>,
 }
@@ -195,7 +194,6 @@ impl Evaluator {
         let mk = |n: usize, planner: &mut FftPlanner<f64>| {
             let m = samples_for(n);
             Plan {
-                n,
                 m,
                 fft: planner.plan_fft_inverse(m),
             }
@@ -293,7 +291,8 @@ impl Evaluator {
             .collect();
         for p in &parts {
             for &f in &self.freqs {
-                self.y_worst.push(admittance(p.esr_max, p.esl, p.c_worst, f));
+                self.y_worst
+                    .push(admittance(p.esr_max, p.esl, p.c_worst, f));
                 self.y_typical
                     .push(admittance(p.esr, p.esl, p.c_typical, f));
             }
@@ -823,7 +822,13 @@ impl Evaluator {
     /// Samples of one period of the exact ripple with each line at its own
     /// state, at operating point `op` (empty for an empty bank or a
     /// non-finite figure).
-    pub fn waveform_states(&mut self, bank: &Bank, states: &[LineState], band: Band, op: usize) -> Vec<f64> {
+    pub fn waveform_states(
+        &mut self,
+        bank: &Bank,
+        states: &[LineState],
+        band: Band,
+        op: usize,
+    ) -> Vec<f64> {
         if self.is_empty(bank) {
             return Vec::new();
         }
@@ -844,6 +849,24 @@ impl Evaluator {
             .zip(&closed.g0)
             .zip(&closed.g1)
             .map(|((x, g0), g1)| x.re + a0 * g0 + a1 * g1)
+            .collect()
+    }
+
+    /// Harmonic voltage phasors V_k of the target figure with each line at
+    /// its own state, at operating point `op`.
+    pub fn harmonic_voltages_states(
+        &mut self,
+        bank: &Bank,
+        states: &[LineState],
+        op: usize,
+    ) -> Vec<Complex64> {
+        let n = self.n_limited;
+        if self.is_empty(bank) {
+            return vec![Complex64::default(); n];
+        }
+        self.fill_states(bank, states, n);
+        (0..n)
+            .map(|k| self.drive_limited[op][k] * self.zt[k])
             .collect()
     }
 

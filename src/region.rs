@@ -84,7 +84,13 @@ pub struct Worst {
 }
 
 /// The figure at one point.
-pub fn value_at(ev: &mut Evaluator, bank: &Bank, states: &[LineState], op: usize, band: Band) -> f64 {
+pub fn value_at(
+    ev: &mut Evaluator,
+    bank: &Bank,
+    states: &[LineState],
+    op: usize,
+    band: Band,
+) -> f64 {
     let n = ev.harmonics_of(band);
     ev.fill_states(bank, states, n);
     ev.pp_filled(op, band)
@@ -92,7 +98,13 @@ pub fn value_at(ev: &mut Evaluator, bank: &Bank, states: &[LineState], op: usize
 
 /// The largest figure over the named corner's input-voltage range
 /// (nominal inductance), refined between the sweep's points.
-pub fn named_value(problem: &Problem, ev: &mut Evaluator, bank: &Bank, which: Named, band: Band) -> f64 {
+pub fn named_value(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    bank: &Bank,
+    which: Named,
+    band: Band,
+) -> f64 {
     if ev.is_empty(bank) {
         return f64::INFINITY;
     }
@@ -291,7 +303,10 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         }
     }
     if seen.iter().any(|w| !w.value.is_finite()) {
-        return seen.into_iter().find(|w| !w.value.is_finite()).unwrap_or(empty);
+        return seen
+            .into_iter()
+            .find(|w| !w.value.is_finite())
+            .unwrap_or(empty);
     }
     seen.sort_by(|a, b| b.value.total_cmp(&a.value));
     // 2. Vertices at the two worst operating points.
@@ -422,7 +437,13 @@ pub struct Active {
 /// points, then every vertex of the bank's box at every starting point,
 /// stopping at the first figure above `limit`; ripple currents against the
 /// ratings at the same points. True when all pass.
-pub fn screen(ev: &mut Evaluator, bank: &Bank, limit: f64, active: &[Active], ratings: &[Option<f64>]) -> bool {
+pub fn screen(
+    ev: &mut Evaluator,
+    bank: &Bank,
+    limit: f64,
+    active: &[Active],
+    ratings: &[Option<f64>],
+) -> bool {
     if ev.is_empty(bank) {
         return false;
     }

@@ -363,11 +363,7 @@ pub fn closed(w: &Waveform, order: u32, tau: f64, m: usize) -> Closed {
             *l -= p;
         }
         let x0 = solve(lhs, forced);
-        let g = if which == 0 {
-            &mut out.g0
-        } else {
-            &mut out.g1
-        };
+        let g = if which == 0 { &mut out.g0 } else { &mut out.g1 };
         run(&x0, &mut |ev, before, after| match ev {
             Event::Grid(j) => g[j] = after[n - 1],
             Event::Vertex(v) => {
@@ -440,9 +436,17 @@ mod tests {
                 let f1 = (fourier(&w, order, tau, 0, t + dt, 20_000)
                     - fourier(&w, order, tau, 0, t - dt, 20_000))
                     / (2.0 * dt);
-                assert!((c.g0[j] - f0).abs() < 1e-5, "order {order} j {j}: {} vs {f0}", c.g0[j]);
+                assert!(
+                    (c.g0[j] - f0).abs() < 1e-5,
+                    "order {order} j {j}: {} vs {f0}",
+                    c.g0[j]
+                );
                 // i' swings ±1/(0.3 µs) and ±1/(0.7 µs): about 3.3e6 A/s.
-                assert!((c.g1[j] - f1).abs() < 1e-4 * 3.3e6, "order {order} j {j}: {} vs {f1}", c.g1[j]);
+                assert!(
+                    (c.g1[j] - f1).abs() < 1e-4 * 3.3e6,
+                    "order {order} j {j}: {} vs {f1}",
+                    c.g1[j]
+                );
             }
         }
     }
@@ -474,10 +478,18 @@ mod tests {
         assert!(c.impulsive);
         // Just after the jump up at t = 0: y = (2/τ)/(1 + e^{−T/2τ}).
         let want = 2.0 / tau / (1.0 + (-0.5 / tau).exp());
-        assert!((c.g1[0] - want).abs() < 1e-9 * want, "{} vs {want}", c.g1[0]);
+        assert!(
+            (c.g1[0] - want).abs() < 1e-9 * want,
+            "{} vs {want}",
+            c.g1[0]
+        );
         // The response to i itself: periodic charging, at t = T/2⁻:
         // 1 − 2e^{−T/2τ}/(1 + e^{−T/2τ}).
-        let b = c.breaks.iter().find(|b| (b.pos - 50.0).abs() < 1e-9).unwrap();
+        let b = c
+            .breaks
+            .iter()
+            .find(|b| (b.pos - 50.0).abs() < 1e-9)
+            .unwrap();
         let e = (-0.5 / tau).exp();
         let want0 = 1.0 - 2.0 * e / (1.0 + e);
         assert!((b.g0[0] - want0).abs() < 1e-9, "{} vs {want0}", b.g0[0]);

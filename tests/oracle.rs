@@ -146,7 +146,8 @@ fn optimizer_matches_brute_force_on_random_cases() {
                     // the region where the oracle's bank fails (a real point the
                     // dense grid stepped over).
                     let oidx: Vec<usize> = ob.iter().map(|b| p.eligible[b.0]).collect();
-                    let ol: Vec<(usize, u32)> = ob.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+                    let ol: Vec<(usize, u32)> =
+                        ob.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
                     let mut oev = p.evaluator(&oidx);
                     let w = ripplebank::region::worst(&p, &mut oev, &ol, Band::Limited);
                     assert!(
@@ -158,7 +159,10 @@ fn optimizer_matches_brute_force_on_random_cases() {
                 } else if tool < oc * (1.0 - 1e-9) {
                     // Cheaper than the oracle: only within the 1 % the region
                     // search may miss.
-                    assert!(dense > target, "case {case}: tool cost {tool} below the oracle's {oc}");
+                    assert!(
+                        dense > target,
+                        "case {case}: tool cost {tool} below the oracle's {oc}"
+                    );
                     stricter += 1;
                 } else {
                     exact += 1;
@@ -177,5 +181,8 @@ fn optimizer_matches_brute_force_on_random_cases() {
         feasible_cases >= 60,
         "too few feasible cases to mean anything: {feasible_cases}"
     );
-    assert!(exact as f64 >= 0.95 * feasible_cases as f64, "{exact} of {feasible_cases}");
+    assert!(
+        exact as f64 >= 0.95 * feasible_cases as f64,
+        "{exact} of {feasible_cases}"
+    );
 }

@@ -297,8 +297,10 @@ fn ripple_and_spectrum_show_the_worst_corner() {
         v.iter().copied().fold(f64::NEG_INFINITY, f64::max)
             - v.iter().copied().fold(f64::INFINITY, f64::min)
     };
+    // The grid samples of the plot, against the figure (which also takes
+    // both sides of every breakpoint): the same point of the region.
     assert!(
-        (pp(&r.limited) / a.ripple_pp - 1.0).abs() < 1e-9,
+        (pp(&r.limited) / a.ripple_pp - 1.0).abs() < 2e-3,
         "{} vs {}",
         pp(&r.limited),
         a.ripple_pp
@@ -314,7 +316,7 @@ fn ripple_and_spectrum_show_the_worst_corner() {
     assert_eq!(inside, a.meets_target);
     // Buck at higher vin has more inductor ripple: ΔI = vout(1 − vout/vin)/(L f)
     // grows with vin (Erickson & Maksimović, ch. 2), so the worst corner is vin_max.
-    assert_eq!(p.ops[r.vin_corner].vin, Some(20.0));
+    assert_eq!(r.vin, Some(20.0));
 
     // Fourier bounds on a periodic signal with harmonic peak amplitudes |V_k|:
     // |V_k| = |(2/T)∫(v − m)e^{−jkωt}dt| ≤ 2·max|v − m| = p-p (m the

@@ -9,7 +9,6 @@ use assert_cmd::Command;
 use common::{all_banks, random_catalog, random_converter, MAX_COUNT};
 use rand::rngs::StdRng;
 use rand::{Rng, SeedableRng};
-use ripplebank::bank::{Band, Corner};
 use ripplebank::catalog::Catalog;
 use ripplebank::optimize::{self, Settings};
 use ripplebank::problem::Problem;
@@ -61,10 +60,15 @@ fn rework_matches_brute_force() {
             if cap > max_cap || count > 16 {
                 continue;
             }
-            if ev.ripple_pp(&b, Corner::Worst, Band::Limited) > target {
+            // The low corner first (a quick necessary test), then the
+            // independent dense search of the corner region.
+            if ev.ripple_check(&b, target) > target {
                 continue;
             }
-            let cur = ev.part_currents(&b);
+            let (r, cur) = common::dense_region(&p, &mut ev, &b);
+            if r > target {
+                continue;
+            }
             if !b
                 .iter()
                 .zip(&cur)

@@ -156,6 +156,52 @@ pub use lowest::min_ripple;
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
+/// A point of the corner region to check every candidate at: an operating
+/// point and the state of every candidate part there.
+pub(crate) type Cut = (crate::converter::OperatingPoint, Vec<LineState>);
+
+/// A search over `cands` that also checks every cut.
+fn search_with(problem: &Problem, cands: &[usize], target: f64, cuts: &[Cut]) -> Search {
+    let mut s = Search::new(problem, cands, target);
+    for (op, st) in cuts {
+        let idx = s.ev.add_op(op);
+        s.active.push(crate::region::Active {
+            op: idx,
+            states: st.clone(),
+        });
+    }
+    s
+}
+
+/// Verify a bank (local indices of `s`) over the whole corner region: its
+/// worst figure when it holds, else the cut at the point that breaks it
+/// (the bank's lines at their states there, every other part at `low`).
+fn region_cut(
+    problem: &Problem,
+    s: &mut Search,
+    bank: &[(usize, u32)],
+    target: f64,
+) -> Result<f64, Cut> {
+    let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
+    if w.value <= target * (1.0 + 1e-9) {
+        return Ok(w.value);
+    }
+    let mut st: Vec<LineState> = s
+        .parts
+        .iter()
+        .map(|p| LineState {
+            c: p.c_worst,
+            esr: p.esr_max,
+        })
+        .collect();
+    for (j, &(i, _)) in bank.iter().enumerate() {
+        if let Some(x) = w.states.get(j) {
+            st[i] = *x;
+        }
+    }
+    Err((s.ev.ops[w.op].clone(), st))
+}
+
 /// Find the best bank for the scenario's target.
 pub fn design(problem: &Problem, settings: &Settings) -> Outcome {
     design_for(problem, problem.scenario.design_target(), settings)
@@ -180,14 +226,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
     let mut round = 0;
     while !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
         round += 1;
-        let mut s = Search::new(problem, &cands, target);
-        for (op, st) in &actives {
-            let idx = s.ev.add_op(op);
-            s.active.push(crate::region::Active {
-                op: idx,
-                states: st.clone(),
-            });
-        }
+        let mut s = search_with(problem, &cands, target, &actives);
         s.budget = settings.max_evaluations;
         // The converter alone (no added parts), when it has capacitance of its own.
         if s.required.is_empty()
@@ -246,32 +285,21 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
         if let Some((key, bank, _)) = s.inc.take() {
-            let w = crate::region::worst(problem, &mut s.ev, &bank, Band::Limited);
-            if w.value > target * (1.0 + 1e-9) {
+            let verdict = region_cut(problem, &mut s, &bank, target);
+            if let Err(cut) = verdict {
                 if round < MAX_REGION_ROUNDS {
-                    let mut st: Vec<LineState> = s
-                        .parts
-                        .iter()
-                        .map(|p| LineState {
-                            c: p.c_worst,
-                            esr: p.esr_max,
-                        })
-                        .collect();
-                    for (j, &(i, _)) in bank.iter().enumerate() {
-                        st[i] = w.states[j];
-                    }
-                    actives.push((s.ev.ops[w.op].clone(), st));
+                    actives.push(cut);
                     found = None;
                     exhaustive = false;
                     continue;
                 }
                 // Out of rounds: no verified bank.
                 stopped = true;
-            } else {
+            } else if let Ok(value) = verdict {
                 found = Some(Found {
                     bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(),
                     key,
-                    ripple_pp: w.value,
+                    ripple_pp: value,
                 });
             }
         }

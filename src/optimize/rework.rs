@@ -1,6 +1,6 @@
 //! Rework: the fewest changed line items, then the objective.
 
-use super::search::{pool, prune_dominated, run_sets, Search};
+use super::search::{pool, prune_dominated, run_sets};
 use super::{Found, Settings, Stats, Status};
 use crate::problem::Problem;
 use std::time::Instant;
@@ -50,56 +50,77 @@ pub fn rework(
         dominated,
         ..Default::default()
     };
-    let mut s = Search::new(problem, &cands, target);
-    s.budget = settings.max_evaluations;
-    let local = |cat: usize| cands.iter().position(|&c| c == cat).expect("candidate");
-    let kept: Vec<usize> = kept_cat.iter().map(|&i| local(i)).collect();
-    let mut adds: Vec<usize> = (0..s.parts.len()).filter(|i| !kept.contains(i)).collect();
-    let mut exhaustive = true;
-    if adds.len() > settings.pool * 2 {
-        let keep: Vec<usize> = pool(&s, settings.pool * 2);
-        adds.retain(|i| keep.contains(i));
-        exhaustive = false;
-    }
-    let base = forced_out.len();
-    let max_lines = s.lim.max_lines;
-    let mut found_at = None;
-    for extra in 0..=(kept.len() + max_lines) {
-        let mut sets: Vec<Vec<usize>> = Vec::new();
-        for r in 0..=extra.min(kept.len()) {
-            let a = extra - r;
-            if a > adds.len() {
-                continue;
-            }
-            for removed in combinations(&kept, r) {
-                let stay: Vec<usize> = kept
-                    .iter()
-                    .copied()
-                    .filter(|i| !removed.contains(i))
-                    .collect();
-                if stay.len() + a > max_lines {
+    let mut cuts: Vec<super::Cut> = Vec::new();
+    let mut verified: Option<f64> = None;
+    let mut round = 0;
+    let (mut s, found_at, exhaustive) = loop {
+        round += 1;
+        let mut s = super::search_with(problem, &cands, target, &cuts);
+        s.budget = settings.max_evaluations;
+        let local = |cat: usize| cands.iter().position(|&c| c == cat).expect("candidate");
+        let kept: Vec<usize> = kept_cat.iter().map(|&i| local(i)).collect();
+        let mut adds: Vec<usize> = (0..s.parts.len()).filter(|i| !kept.contains(i)).collect();
+        let mut exhaustive = true;
+        if adds.len() > settings.pool * 2 {
+            let keep: Vec<usize> = pool(&s, settings.pool * 2);
+            adds.retain(|i| keep.contains(i));
+            exhaustive = false;
+        }
+        let base = forced_out.len();
+        let max_lines = s.lim.max_lines;
+        let mut found_at = None;
+        for extra in 0..=(kept.len() + max_lines) {
+            let mut sets: Vec<Vec<usize>> = Vec::new();
+            for r in 0..=extra.min(kept.len()) {
+                let a = extra - r;
+                if a > adds.len() {
                     continue;
                 }
-                for added in combinations(&adds, a) {
-                    let mut set = stay.clone();
-                    set.extend(added);
-                    if set.is_empty() || !s.required.iter().all(|q| set.contains(q)) {
+                for removed in combinations(&kept, r) {
+                    let stay: Vec<usize> = kept
+                        .iter()
+                        .copied()
+                        .filter(|i| !removed.contains(i))
+                        .collect();
+                    if stay.len() + a > max_lines {
                         continue;
                     }
-                    sets.push(set);
+                    for added in combinations(&adds, a) {
+                        let mut set = stay.clone();
+                        set.extend(added);
+                        if set.is_empty() || !s.required.iter().all(|q| set.contains(q)) {
+                            continue;
+                        }
+                        sets.push(set);
+                    }
+                }
+            }
+            if sets.is_empty() {
+                continue;
+            }
+            stats.line_sets_total += sets.len();
+            run_sets(&mut s, sets, settings, "rework");
+            if s.inc.is_some() {
+                found_at = Some(base + extra);
+                break;
+            }
+        }
+        // The bank found must hold over the whole corner region (cutting planes).
+        if let Some((_, bank, _)) = s.inc.clone() {
+            match super::region_cut(problem, &mut s, &bank, target) {
+                Ok(v) => verified = Some(v),
+                Err(cut) if round < super::MAX_REGION_ROUNDS => {
+                    cuts.push(cut);
+                    continue;
+                }
+                Err(_) => {
+                    s.inc = None;
+                    found_at = None;
                 }
             }
         }
-        if sets.is_empty() {
-            continue;
-        }
-        stats.line_sets_total += sets.len();
-        run_sets(&mut s, sets, settings, "rework");
-        if s.inc.is_some() {
-            found_at = Some(base + extra);
-            break;
-        }
-    }
+        break (s, found_at, exhaustive);
+    };
     stats.evaluations = s.evals;
     stats.line_sets_solved = s.sets_solved;
     stats.stopped = s.stopped;
@@ -108,7 +129,7 @@ pub fn rework(
     let found = s.inc.take().map(|(key, bank, r)| Found {
         bank: bank.iter().map(|&(i, n)| (cands[i], n)).collect(),
         key,
-        ripple_pp: r,
+        ripple_pp: verified.unwrap_or(r),
     });
     let status = match (&found, stats.exhaustive) {
         (Some(_), true) => Status::Optimal,

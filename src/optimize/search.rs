@@ -267,7 +267,9 @@ impl Search {
     /// `yb_buf`: ripple and ripple currents.
     pub(super) fn exact_from_admittance(&mut self) -> Option<f64> {
         self.evals += 1;
-        let r = self.ev.ripple_check_admittance(&self.yb_buf, &self.bank_buf, self.target);
+        let r = self
+            .ev
+            .ripple_check_admittance(&self.yb_buf, &self.bank_buf, self.target);
         if !(r <= self.target) {
             return None;
         }

@@ -234,12 +234,10 @@ pub struct RippleData {
 }
 
 fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
-    let limited = p
-        .ev
-        .waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner);
-    let full = p
-        .ev
-        .waveform_states(&p.local, &p.states, Band::Full, p.vin_corner);
+    let limited =
+        p.ev.waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner);
+    let full =
+        p.ev.waveform_states(&p.local, &p.states, Band::Full, p.vin_corner);
     let (lo, hi) = min_max(limited.iter().copied());
     RippleData {
         period: 1.0 / p.ev.f_ripple,
@@ -274,7 +272,7 @@ pub struct SpectrumData {
 
 fn spectrum_of(p: &mut Prep, problem: &Problem) -> SpectrumData {
     let v =
-        p.ev.harmonic_voltages(&p.local, Corner::Worst, p.vin_corner);
+        p.ev.harmonic_voltages_states(&p.local, &p.states, p.vin_corner);
     SpectrumData {
         freqs: p.ev.freqs[..v.len()].to_vec(),
         amplitude: v.iter().map(|x| x.norm()).collect(),

@@ -74,7 +74,11 @@ fn num(x: f64) -> String {
 
 /// The circuit with every line at the `low` corner, or at the given states
 /// (one per line with a count above zero, in order).
-fn circuit(problem: &Problem, bank: &[(usize, u32)], states: Option<&[LineState]>) -> Result<Circuit> {
+fn circuit(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    states: Option<&[LineState]>,
+) -> Result<Circuit> {
     let s = &problem.scenario;
     let c = &s.converter;
     let mut lines = Vec::new();
@@ -422,7 +426,12 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         }
     );
     let (lim, full) = per_corner[0];
-    let _ = writeln!(o, "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth", num(lim), num(full));
+    let _ = writeln!(
+        o,
+        "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth",
+        num(lim),
+        num(full)
+    );
     let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
     let _ = writeln!(o);
 
