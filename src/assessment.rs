@@ -40,11 +40,53 @@ pub struct PartCurrent {
 /// A limit and whether the bank keeps it.
 #[derive(Debug, Clone, Serialize)]
 pub struct Check {
+    /// What is checked, e.g. `ripple_pp` or `voltage PART`.
     pub name: String,
+    /// The bank's figure.
     pub value: f64,
+    /// The limit it is held to.
     pub limit: f64,
+    /// Unit of `value` and `limit` (`V`, `F`, `A`, `mm²`, `°C` or empty).
     pub unit: String,
+    /// True when the bank keeps the limit.
     pub ok: bool,
+    /// The part a per-part check belongs to; `None` for checks of the whole bank.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub part: Option<String>,
+}
+
+/// A named corner for `assess --corner` (`worst` is the whole corner region).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum NamedCorner {
+    /// The largest ripple over the whole corner region (the default).
+    #[default]
+    Worst,
+    /// Every line at its lowest capacitance and highest ESR, nominal inductance.
+    Low,
+    /// Every line at its highest capacitance and lowest ESR, nominal inductance.
+    High,
+    /// Nominal capacitance with DC bias, the catalog ESR, nominal inductance.
+    Typical,
+}
+
+impl NamedCorner {
+    /// The name as written on the command line and in JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            NamedCorner::Worst => "worst",
+            NamedCorner::Low => "low",
+            NamedCorner::High => "high",
+            NamedCorner::Typical => "typical",
+        }
+    }
+}
+
+/// How a bank is assessed.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct AssessOptions {
+    /// Which corner pass/fail is judged at.
+    pub corner: NamedCorner,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -58,6 +100,8 @@ pub struct CornerInfo {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct Assessment {
+    /// The corner pass/fail was judged at (`assess --corner`; default `worst`).
+    pub corner: NamedCorner,
     pub bank: Vec<BankLine>,
     pub ripple_pp: f64,
     pub ripple_pp_typical: f64,
@@ -229,8 +273,18 @@ pub fn bom_to_bank(
     Ok(out)
 }
 
-/// Evaluate a bank (catalog indices and counts) completely.
+/// Evaluate a bank (catalog indices and counts) completely, over the whole
+/// corner region.
 pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
+    assess_opts(problem, bank, &AssessOptions::default())
+}
+
+/// As [`assess`], with options (the corner to judge at).
+pub fn assess_opts(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    opts: &AssessOptions,
+) -> Result<Assessment> {
     let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|&(_, n)| n > 0).collect();
     let parts: Vec<usize> = bank.iter().map(|&(i, _)| i).collect();
     let mut ev = problem.evaluator(&parts);
@@ -238,7 +292,7 @@ pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
     if ev.is_empty(&local) {
         bail!("the bank is empty (no part with a count above zero) and the converter has no internal capacitance: the ripple is unbounded");
     }
-    Ok(assess_with(problem, &mut ev, &bank, &local))
+    Ok(assess_with(problem, &mut ev, &bank, &local, opts))
 }
 
 /// As [`assess`], with an evaluator already built over (at least) the bank's parts.
@@ -247,17 +301,31 @@ pub fn assess_with(
     ev: &mut Evaluator,
     bank: &[(usize, u32)],
     local: &[(usize, u32)],
+    opts: &AssessOptions,
 ) -> Assessment {
     let s = &problem.scenario;
     let cat = &problem.catalog;
-    let ripple_pp = ev.ripple_pp(local, Corner::Worst, Band::Limited);
+    // corner: implemented by the evaluator. Every named corner is judged as
+    // `worst` (today's evaluator corner) until the evaluator evaluates it.
+    let judged = match opts.corner {
+        NamedCorner::Worst | NamedCorner::Low | NamedCorner::High | NamedCorner::Typical => {
+            Corner::Worst
+        }
+    };
+    let ripple_pp = ev.ripple_pp(local, judged, Band::Limited);
     let ripple_pp_typical = ev.ripple_pp(local, Corner::Typical, Band::Limited);
-    let ripple_pp_full = ev.ripple_pp(local, Corner::Worst, Band::Full);
+    let ripple_pp_full = ev.ripple_pp(local, judged, Band::Full);
     let currents = ev.part_currents(local);
     let half = ev.ripple_pp_first(local, ev.n_limited / 2);
     let vout = s.converter.vout.0;
     let mut lines = Vec::new();
     let mut warnings = problem.warnings.clone();
+    if opts.corner != NamedCorner::Worst {
+        warnings.push(format!(
+            "--corner {}: this version evaluates every named corner as the worst corner; the figures are the worst corner's",
+            opts.corner.name()
+        ));
+    }
     let mut checks = Vec::new();
     let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
     let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);
@@ -311,6 +379,7 @@ pub fn assess_with(
         let der = s.derating(p.technology);
         checks.push(Check {
             name: format!("voltage {}", p.id),
+            part: Some(p.id.clone()),
             value: vout,
             limit: p.rated_voltage * der,
             unit: "V".into(),
@@ -320,6 +389,7 @@ pub fn assess_with(
         if let Some(t) = tmin {
             checks.push(Check {
                 name: format!("temperature_min {}", p.id),
+                part: Some(p.id.clone()),
                 value: t,
                 limit: s.environment.temperature_min,
                 unit: "°C".into(),
@@ -329,6 +399,7 @@ pub fn assess_with(
         if let Some(t) = tmax {
             checks.push(Check {
                 name: format!("temperature_max {}", p.id),
+                part: Some(p.id.clone()),
                 value: t,
                 limit: s.environment.temperature_max,
                 unit: "°C".into(),
@@ -338,6 +409,7 @@ pub fn assess_with(
         if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
             checks.push(Check {
                 name: format!("height {}", p.id),
+                part: Some(p.id.clone()),
                 value: ph,
                 limit: h.0,
                 unit: "mm".into(),
@@ -347,6 +419,7 @@ pub fn assess_with(
         if let Some(r) = p.ripple_current {
             checks.push(Check {
                 name: format!("ripple_current {}", p.id),
+                part: Some(p.id.clone()),
                 value: currents[j],
                 limit: r,
                 unit: "A".into(),
@@ -373,6 +446,7 @@ pub fn assess_with(
         if n > s.selection.max_per_part {
             checks.push(Check {
                 name: format!("max_per_part {}", p.id),
+                part: Some(p.id.clone()),
                 value: nf,
                 limit: s.selection.max_per_part as f64,
                 unit: "".into(),
@@ -424,6 +498,7 @@ pub fn assess_with(
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
             ok: ripple_pp <= s.target.ripple_pp.0,
+            part: None,
         },
     );
     if s.selection.margin.0 > 0.0 {
@@ -433,6 +508,7 @@ pub fn assess_with(
             limit: s.design_target(),
             unit: "V".into(),
             ok: ripple_pp <= s.design_target(),
+            part: None,
         });
     }
     if s.selection.check_typical {
@@ -442,6 +518,7 @@ pub fn assess_with(
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
             ok: ripple_pp_typical <= s.target.ripple_pp.0,
+            part: None,
         });
     }
     if let Some(m) = s.converter.max_capacitance {
@@ -451,6 +528,7 @@ pub fn assess_with(
             limit: m.0,
             unit: "F".into(),
             ok: climit <= m.0 * (1.0 + 1e-12),
+            part: None,
         });
     }
     if s.converter.min_capacitance.0 > 0.0 {
@@ -461,6 +539,7 @@ pub fn assess_with(
             limit: m,
             unit: "F".into(),
             ok: ceff >= m,
+            part: None,
         });
     }
     if let Some(m) = s.board.max_count {
@@ -470,6 +549,7 @@ pub fn assess_with(
             limit: m as f64,
             unit: "".into(),
             ok: count <= m,
+            part: None,
         });
     }
     checks.push(Check {
@@ -478,6 +558,7 @@ pub fn assess_with(
         limit: s.max_lines() as f64,
         unit: "".into(),
         ok: nlines <= s.max_lines(),
+        part: None,
     });
     if let Some(m) = s.board.max_area {
         if area_known {
@@ -487,6 +568,7 @@ pub fn assess_with(
                 limit: m.0,
                 unit: "mm²".into(),
                 ok: area <= m.0 * (1.0 + 1e-12),
+                part: None,
             });
         } else {
             warnings.push("some parts have no area: board.max_area cannot be checked".into());
@@ -499,6 +581,7 @@ pub fn assess_with(
             .map_or(0, |b| b.1);
         checks.push(Check {
             name: format!("require {id}"),
+            part: None,
             value: have as f64,
             limit: req as f64,
             unit: "".into(),
@@ -519,6 +602,7 @@ pub fn assess_with(
     let meets_target = ripple_pp <= s.target.ripple_pp.0;
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
+        corner: opts.corner,
         bank: lines,
         ripple_pp,
         ripple_pp_typical,

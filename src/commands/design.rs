@@ -10,15 +10,6 @@ use crate::scenario::Objective;
 use anyhow::Result;
 use std::fmt::Write;
 
-fn objective_arg(o: Option<&str>) -> Result<Option<Objective>> {
-    match o {
-        None => Ok(None),
-        Some(t) => Objective::parse(t)
-            .map(Some)
-            .ok_or_else(|| anyhow::anyhow!("--objective: `{t}` is not one of cost, area, count")),
-    }
-}
-
 /// Plain words for the limits that stop a design.
 pub(super) fn binding_text(b: &optimize::Binding) -> String {
     if b.limits == ["catalog"] {
@@ -41,6 +32,7 @@ pub fn design_report(
     p: &Problem,
     out: &optimize::Outcome,
     what: &str,
+    quiet: bool,
 ) -> Result<(String, serde_json::Value, Option<Assessment>)> {
     let mut body = text::header(p);
     let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
@@ -66,7 +58,7 @@ pub fn design_report(
                     "The converter's own output capacitance already meets the target: no capacitors need to be added."
                 );
             }
-            body.push_str(&text::assessment(&a));
+            body.push_str(&text::assessment_quiet(&a, quiet));
             let mut doc = report::assessment_json(out.status.name(), &a, p);
             doc["search"] = serde_json::to_value(st)?;
             (doc, Some(a))
@@ -95,7 +87,7 @@ pub fn design_report(
             if let Some(b) = &out.best_ripple_bank {
                 let a = assessment::assess(p, b)?;
                 let _ = writeln!(body, "\nClosest bank (lowest ripple found)");
-                body.push_str(&text::assessment(&a));
+                body.push_str(&text::assessment_quiet(&a, quiet));
                 doc["closest"] = report::assessment_json("closest", &a, p);
             }
             (doc, None)
@@ -106,14 +98,17 @@ pub fn design_report(
         "\nSearch: {} candidate parts ({} dominated dropped), {} of {} line sets solved, {} exact evaluations, {:.2} s",
         st.candidates, st.dominated, st.line_sets_solved, st.line_sets_total, st.evaluations, st.seconds
     );
-    body.push_str(&text::excluded(p));
+    if !quiet {
+        body.push_str(&text::excluded(p));
+    }
     body.push_str(&text::cautions());
     Ok((body, doc, a))
 }
 
-pub fn design(c: &Common, objective: Option<&str>, exclude: &[String]) -> Result<Outcome> {
+/// `design`: the best bank for the scenario's target (`objective` overrides the scenario's).
+pub fn design(c: &Common, objective: Option<Objective>, exclude: &[String]) -> Result<Outcome> {
     let o = Overrides {
-        objective: objective_arg(objective)?,
+        objective,
         exclude: exclude.to_vec(),
     };
     let p = load(c, &o)?;
@@ -122,7 +117,7 @@ pub fn design(c: &Common, objective: Option<&str>, exclude: &[String]) -> Result
         ..Default::default()
     };
     let out = optimize::design(&p, &settings);
-    let (body, doc, a) = design_report(&p, &out, "Design")?;
+    let (body, doc, a) = design_report(&p, &out, "Design", c.quiet)?;
     if let Some(dir) = &c.out {
         let files = match (&out.found, &a) {
             (Some(f), Some(a)) => bank_files(&p, &f.bank, a, &doc, "Bank design", &body)?,

@@ -26,6 +26,8 @@ pub struct Common {
     pub catalog: Option<PathBuf>,
     pub out: Option<PathBuf>,
     pub json: bool,
+    /// Keep the text report to the answer: no unused parts, no per-part limit rows.
+    pub quiet: bool,
 }
 
 /// What a command prints and its exit status.
@@ -123,7 +125,9 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             crate::units::format_si(q.c_worst(p.scenario.converter.vout.0), "F")
         );
     }
-    o.push_str(&text::excluded(&p));
+    if !c.quiet {
+        o.push_str(&text::excluded(&p));
+    }
     if !p.warnings.is_empty() {
         let _ = writeln!(o, "\nWarnings");
         for w in &p.warnings {
@@ -136,7 +140,12 @@ pub fn validate(c: &Common) -> Result<Outcome> {
     Ok(Outcome { stdout: o, code: 0 })
 }
 
-pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<Outcome> {
+pub fn assess(
+    c: &Common,
+    bank_arg: Option<&str>,
+    bom: Option<&Path>,
+    opts: &assessment::AssessOptions,
+) -> Result<Outcome> {
     let p = load(c, &Overrides::default())?;
     let bank = match (bank_arg, bom) {
         (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
@@ -155,11 +164,11 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
             None => anyhow::bail!("--bank: every count is zero: there is no bank to assess"),
         }
     }
-    let a = assessment::assess(&p, &bank)?;
+    let a = assessment::assess_opts(&p, &bank, opts)?;
     let status = if a.all_ok { "pass" } else { "fail" };
     let doc = report::assessment_json(status, &a, &p);
     let mut body = text::header(&p);
-    body.push_str(&text::assessment(&a));
+    body.push_str(&text::assessment_quiet(&a, c.quiet));
     let _ = writeln!(
         body,
         "\nVerdict: {}",

@@ -15,6 +15,7 @@ use std::path::Path;
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     use crate::catalog::Status as Life;
     let p = load(c, &Overrides::default())?;
+    let quiet = c.quiet;
     let src = bom.display().to_string();
     let rows = assessment::read_bom(bom)?;
     for d in drop {
@@ -176,7 +177,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         if let Some(b) = closest {
             let a = assessment::assess(&p, &b)?;
             body.push_str("\nClosest bank (lowest ripple found)\n");
-            body.push_str(&text::assessment(&a));
+            body.push_str(&text::assessment_quiet(&a, quiet));
             doc["closest"] = report::assessment_json("closest", &a, &p);
         }
         code = 1;
@@ -243,7 +244,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             &["change", "part", "before", "after", "reason"],
             &rows,
         ));
-        body.push_str(&text::assessment(&a));
+        body.push_str(&text::assessment_quiet(&a, quiet));
         let before_cost = before.as_ref().map(|b| b.cost);
         let _ = writeln!(
             body,
@@ -285,7 +286,9 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         }
         None => serde_json::Value::Null,
     };
-    body.push_str(&text::excluded(&p));
+    if !c.quiet {
+        body.push_str(&text::excluded(&p));
+    }
     body.push_str(&text::cautions());
     if let Some(dir) = &c.out {
         if code == 0 {

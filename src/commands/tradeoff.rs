@@ -277,11 +277,13 @@ pub fn tradeoff(
         ],
         &rows,
     ));
-    let _ = writeln!(
+    if !c.quiet {
+        let _ = writeln!(
         body,
         "\n'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
          tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target."
-    );
+        );
+    }
     if !note.is_empty() {
         let _ = writeln!(body, "{note}");
     }

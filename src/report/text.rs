@@ -117,6 +117,11 @@ pub fn header(problem: &Problem) -> String {
 
 /// The bank, the ripple figures, the limits and the warnings.
 pub fn assessment(a: &Assessment) -> String {
+    assessment_quiet(a, false)
+}
+
+/// As [`assessment`]; `quiet` leaves out the per-part limit rows.
+pub fn assessment_quiet(a: &Assessment, quiet: bool) -> String {
     let mut o = String::new();
     let rows: Vec<Vec<String>> = a
         .bank
@@ -200,6 +205,7 @@ pub fn assessment(a: &Assessment) -> String {
     let rows: Vec<Vec<String>> = a
         .checks
         .iter()
+        .filter(|c| !quiet || c.part.is_none())
         .map(|c| {
             let f = |x: f64| match c.unit.as_str() {
                 "V" | "F" | "A" => format_si(x, &c.unit),
