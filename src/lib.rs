@@ -17,6 +17,8 @@ pub mod load;
 pub mod optimize;
 pub mod problem;
 pub mod report;
+pub mod run;
 pub mod scenario;
+pub mod sha256;
 pub mod spectrum;
 pub mod units;

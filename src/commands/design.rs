@@ -6,6 +6,7 @@ use crate::load::Overrides;
 use crate::optimize;
 use crate::problem::Problem;
 use crate::report::{self, text, OutFiles};
+use crate::run::Run;
 use crate::scenario::Objective;
 use anyhow::Result;
 use std::fmt::Write;
@@ -33,8 +34,10 @@ pub fn design_report(
     out: &optimize::Outcome,
     what: &str,
     quiet: bool,
+    run: &Run,
 ) -> Result<(String, serde_json::Value, Option<Assessment>)> {
-    let mut body = text::header(p);
+    let mut body = text::run_header(run);
+    body.push_str(&text::header(p));
     let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
     let st = &out.stats;
     let (doc, a) = match &out.found {
@@ -102,6 +105,8 @@ pub fn design_report(
         body.push_str(&text::excluded(p));
     }
     body.push_str(&text::cautions());
+    let mut doc = doc;
+    run.stamp(&mut doc);
     Ok((body, doc, a))
 }
 
@@ -111,13 +116,13 @@ pub fn design(c: &Common, objective: Option<Objective>, exclude: &[String]) -> R
         objective,
         exclude: exclude.to_vec(),
     };
-    let p = load(c, &o)?;
+    let (p, run) = load(c, &o)?;
     let settings = optimize::Settings {
         progress: show_progress(c),
         ..Default::default()
     };
     let out = optimize::design(&p, &settings);
-    let (body, doc, a) = design_report(&p, &out, "Design", c.quiet)?;
+    let (body, doc, a) = design_report(&p, &out, "Design", c.quiet, &run)?;
     if let Some(dir) = &c.out {
         let files = match (&out.found, &a) {
             (Some(f), Some(a)) => bank_files(&p, &f.bank, a, &doc, "Bank design", &body)?,

@@ -14,6 +14,7 @@ use crate::assessment::{self, Assessment};
 use crate::load::{self, Overrides};
 use crate::problem::Problem;
 use crate::report::{self, text, OutFiles};
+use crate::run::Run;
 use anyhow::Result;
 use serde_json::json;
 use std::fmt::Write;
@@ -36,8 +37,9 @@ pub struct Outcome {
     pub code: u8,
 }
 
-pub(crate) fn load(c: &Common, o: &Overrides) -> Result<Problem> {
-    load::problem(c.scenario.as_deref(), c.catalog.as_deref(), o)
+pub(crate) fn load(c: &Common, o: &Overrides) -> Result<(Problem, Run)> {
+    let (p, inputs) = load::problem_and_inputs(c.scenario.as_deref(), c.catalog.as_deref(), o)?;
+    Ok((p, Run::now(inputs)))
 }
 
 /// The SPEC §8 document of a run with no bank: every key present, the bank
@@ -86,10 +88,11 @@ pub fn bank_files(
     Ok(files)
 }
 
+/// `validate`: check the inputs and list the usable and the unused parts.
 pub fn validate(c: &Common) -> Result<Outcome> {
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     if c.json {
-        let doc = json!({
+        let mut doc = json!({
             "status": "valid",
             "scenario": p.scenario.name,
             "catalog": p.catalog.source,
@@ -98,12 +101,13 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             "excluded": p.excluded,
             "warnings": p.warnings,
         });
+        run.stamp(&mut doc);
         return Ok(Outcome {
             stdout: report::json_text(doc),
             code: 0,
         });
     }
-    let mut o = String::new();
+    let mut o = text::run_header(&run);
     let _ = writeln!(o, "Scenario {} is valid.", p.scenario.source);
     let _ = writeln!(
         o,
@@ -146,7 +150,7 @@ pub fn assess(
     bom: Option<&Path>,
     opts: &assessment::AssessOptions,
 ) -> Result<Outcome> {
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     let bank = match (bank_arg, bom) {
         (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
         (None, Some(f)) => {
@@ -166,8 +170,10 @@ pub fn assess(
     }
     let a = assessment::assess_opts(&p, &bank, opts)?;
     let status = if a.all_ok { "pass" } else { "fail" };
-    let doc = report::assessment_json(status, &a, &p);
-    let mut body = text::header(&p);
+    let mut doc = report::assessment_json(status, &a, &p);
+    run.stamp(&mut doc);
+    let mut body = text::run_header(&run);
+    body.push_str(&text::header(&p));
     body.push_str(&text::assessment_quiet(&a, c.quiet));
     let _ = writeln!(
         body,

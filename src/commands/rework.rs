@@ -14,7 +14,7 @@ use std::path::Path;
 
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     use crate::catalog::Status as Life;
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     let quiet = c.quiet;
     let src = bom.display().to_string();
     let rows = assessment::read_bom(bom)?;
@@ -78,7 +78,8 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         );
         out.found.map(|f| (out.status, f))
     };
-    let mut body = text::header(&p);
+    let mut body = text::run_header(&run);
+    body.push_str(&text::header(&p));
     let _ = writeln!(
         body,
         "Objective: fewest changed line items, then {}",
@@ -290,6 +291,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         body.push_str(&text::excluded(&p));
     }
     body.push_str(&text::cautions());
+    run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         if code == 0 {
             let a = assessment::assess(&p, &new_bank)?;

@@ -45,7 +45,7 @@ pub fn tradeoff(
     points: usize,
 ) -> Result<Outcome> {
     use indicatif::{ProgressBar, ProgressStyle};
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     if !(2..=200).contains(&points) {
         anyhow::bail!("--points: {points} must be from 2 to 200");
     }
@@ -255,7 +255,8 @@ pub fn tradeoff(
             bank_key: key,
         });
     }
-    let mut body = text::header(&p);
+    let mut body = text::run_header(&run);
+    body.push_str(&text::header(&p));
     let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
     let _ = writeln!(
         body,
@@ -288,7 +289,7 @@ pub fn tradeoff(
         let _ = writeln!(body, "{note}");
     }
     body.push_str(&text::cautions());
-    let doc = json!({
+    let mut doc = json!({
         "status": "done",
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),
@@ -297,6 +298,7 @@ pub fn tradeoff(
         "excluded": p.excluded,
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
+    run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         let plots =
             report::plots::tradeoff_plots(&plot_points, Some(p.scenario.target.ripple_pp.0))?;

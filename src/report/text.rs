@@ -41,6 +41,15 @@ pub fn mv(v: f64) -> String {
     }
 }
 
+/// The run: version, date and each input with a short hash.
+pub fn run_header(run: &crate::run::Run) -> String {
+    let mut o = String::new();
+    for l in run.lines() {
+        let _ = writeln!(o, "{l}");
+    }
+    o
+}
+
 /// Header lines describing the converter and the target.
 pub fn header(problem: &Problem) -> String {
     let s = &problem.scenario;
