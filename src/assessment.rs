@@ -53,6 +53,18 @@ pub struct Check {
     /// The part a per-part check belongs to; `None` for checks of the whole bank.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub part: Option<String>,
+    /// Which side of the limit the value must stay on.
+    pub bound: Bound,
+}
+
+/// The direction of a check: `value ≤ limit` or `value ≥ limit`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Bound {
+    /// The value must not exceed the limit.
+    AtMost,
+    /// The value must reach the limit.
+    AtLeast,
 }
 
 /// A named corner for `assess --corner` (`worst` is the whole corner region).
@@ -93,7 +105,8 @@ pub struct AssessOptions {
 pub struct CornerInfo {
     pub vin: Option<f64>,
     pub duty: f64,
-    pub mode: String,
+    /// Conduction mode (`CCM`, `DCM`) where the topology has one; else `None` (JSON null).
+    pub mode: Option<String>,
     pub ripple_frequency: f64,
     pub current_pp: f64,
 }
@@ -380,6 +393,7 @@ pub fn assess_with(
         checks.push(Check {
             name: format!("voltage {}", p.id),
             part: Some(p.id.clone()),
+            bound: Bound::AtMost,
             value: vout,
             limit: p.rated_voltage * der,
             unit: "V".into(),
@@ -390,6 +404,7 @@ pub fn assess_with(
             checks.push(Check {
                 name: format!("temperature_min {}", p.id),
                 part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: t,
                 limit: s.environment.temperature_min,
                 unit: "°C".into(),
@@ -400,6 +415,7 @@ pub fn assess_with(
             checks.push(Check {
                 name: format!("temperature_max {}", p.id),
                 part: Some(p.id.clone()),
+                bound: Bound::AtLeast,
                 value: t,
                 limit: s.environment.temperature_max,
                 unit: "°C".into(),
@@ -410,6 +426,7 @@ pub fn assess_with(
             checks.push(Check {
                 name: format!("height {}", p.id),
                 part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: ph,
                 limit: h.0,
                 unit: "mm".into(),
@@ -420,6 +437,7 @@ pub fn assess_with(
             checks.push(Check {
                 name: format!("ripple_current {}", p.id),
                 part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: currents[j],
                 limit: r,
                 unit: "A".into(),
@@ -447,6 +465,7 @@ pub fn assess_with(
             checks.push(Check {
                 name: format!("max_per_part {}", p.id),
                 part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: nf,
                 limit: s.selection.max_per_part as f64,
                 unit: "".into(),
@@ -499,6 +518,7 @@ pub fn assess_with(
             unit: "V".into(),
             ok: ripple_pp <= s.target.ripple_pp.0,
             part: None,
+            bound: Bound::AtMost,
         },
     );
     if s.selection.margin.0 > 0.0 {
@@ -509,6 +529,7 @@ pub fn assess_with(
             unit: "V".into(),
             ok: ripple_pp <= s.design_target(),
             part: None,
+            bound: Bound::AtMost,
         });
     }
     if s.selection.check_typical {
@@ -519,6 +540,7 @@ pub fn assess_with(
             unit: "V".into(),
             ok: ripple_pp_typical <= s.target.ripple_pp.0,
             part: None,
+            bound: Bound::AtMost,
         });
     }
     if let Some(m) = s.converter.max_capacitance {
@@ -529,6 +551,7 @@ pub fn assess_with(
             unit: "F".into(),
             ok: climit <= m.0 * (1.0 + 1e-12),
             part: None,
+            bound: Bound::AtMost,
         });
     }
     if s.converter.min_capacitance.0 > 0.0 {
@@ -540,6 +563,7 @@ pub fn assess_with(
             unit: "F".into(),
             ok: ceff >= m,
             part: None,
+            bound: Bound::AtLeast,
         });
     }
     if let Some(m) = s.board.max_count {
@@ -550,6 +574,7 @@ pub fn assess_with(
             unit: "".into(),
             ok: count <= m,
             part: None,
+            bound: Bound::AtMost,
         });
     }
     checks.push(Check {
@@ -559,6 +584,7 @@ pub fn assess_with(
         unit: "".into(),
         ok: nlines <= s.max_lines(),
         part: None,
+        bound: Bound::AtMost,
     });
     if let Some(m) = s.board.max_area {
         if area_known {
@@ -569,6 +595,7 @@ pub fn assess_with(
                 unit: "mm²".into(),
                 ok: area <= m.0 * (1.0 + 1e-12),
                 part: None,
+                bound: Bound::AtMost,
             });
         } else {
             warnings.push("some parts have no area: board.max_area cannot be checked".into());
@@ -582,6 +609,7 @@ pub fn assess_with(
         checks.push(Check {
             name: format!("require {id}"),
             part: None,
+            bound: Bound::AtLeast,
             value: have as f64,
             limit: req as f64,
             unit: "".into(),
@@ -594,7 +622,7 @@ pub fn assess_with(
         .map(|op| CornerInfo {
             vin: op.vin,
             duty: op.duty,
-            mode: op.mode.into(),
+            mode: (!op.mode.is_empty()).then(|| op.mode.to_string()),
             ripple_frequency: op.f_ripple,
             current_pp: op.current_pp,
         })

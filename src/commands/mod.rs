@@ -13,11 +13,11 @@ pub use tradeoff::{bank_key, tradeoff, TRADEOFF_SPAN};
 use crate::assessment::{self, Assessment};
 use crate::load::{self, Overrides};
 use crate::problem::Problem;
+use crate::report::model::{self, Report, Table, Verdict};
 use crate::report::{self, text, OutFiles};
 use crate::run::Run;
 use anyhow::Result;
 use serde_json::json;
-use std::fmt::Write;
 use std::path::{Path, PathBuf};
 
 /// Options every command shares.
@@ -73,15 +73,14 @@ pub fn bank_files(
     bank: &[(usize, u32)],
     a: &Assessment,
     doc: &serde_json::Value,
-    title: &str,
-    body: &str,
+    rep: &Report,
 ) -> Result<OutFiles> {
     let mut files = OutFiles::default();
     files.add("bom.csv", report::bom_csv(problem, bank));
     files.add("report.json", report::json_text(doc.clone()));
     files.add("bank.cir", report::spice::netlist(problem, bank)?);
     let plots = report::plots::bank_plots(problem, bank, a)?;
-    files.add("report.html", report::html::page(title, body, &plots));
+    files.add("report.html", report::html::render(rep, &plots));
     for (name, svg) in plots {
         files.add(&name, svg);
     }
@@ -107,41 +106,58 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             code: 0,
         });
     }
-    let mut o = text::run_header(&run);
-    let _ = writeln!(o, "Scenario {} is valid.", p.scenario.source);
-    let _ = writeln!(
-        o,
-        "Catalog {} is valid: {} parts.",
-        p.catalog.source,
-        p.catalog.parts.len()
+    let mut r = Report::new("Validation", Some(&run));
+    let mut head = model::header(&p);
+    head.items.insert(
+        0,
+        model::Item::Line(format!(
+            "Catalog {} is valid: {} parts.",
+            p.catalog.source,
+            p.catalog.parts.len()
+        )),
     );
-    o.push_str(&text::header(&p));
-    let _ = writeln!(o, "\nParts that may be used: {}", p.eligible.len());
-    for &i in &p.eligible {
-        let q = &p.catalog.parts[i];
-        let _ = writeln!(
-            o,
-            "  {:<28} {:<22} {:>9} at {} V: {:>9} worst-corner",
-            q.id,
-            q.technology.name(),
-            crate::units::format_si(q.capacitance, "F"),
-            p.scenario.converter.vout.0,
-            crate::units::format_si(q.c_worst(p.scenario.converter.vout.0), "F")
-        );
-    }
+    head.items.insert(
+        0,
+        model::Item::Line(format!("Scenario {} is valid.", p.scenario.source)),
+    );
+    r.push(head);
+    r.section(format!("Parts that may be used: {}", p.eligible.len()));
+    let vout = p.scenario.converter.vout.0;
+    r.table(Table::new(
+        &[
+            "part",
+            "technology",
+            "C nominal",
+            &format!("C worst-corner at {vout} V"),
+        ],
+        p.eligible
+            .iter()
+            .map(|&i| {
+                let q = &p.catalog.parts[i];
+                vec![
+                    q.id.clone(),
+                    q.technology.name().to_string(),
+                    crate::units::format_si(q.capacitance, "F"),
+                    crate::units::format_si(q.c_worst(vout), "F"),
+                ]
+            })
+            .collect(),
+    ));
     if !c.quiet {
-        o.push_str(&text::excluded(&p));
-    }
-    if !p.warnings.is_empty() {
-        let _ = writeln!(o, "\nWarnings");
-        for w in &p.warnings {
-            let _ = writeln!(o, "  - {w}");
+        if let Some(x) = model::excluded(&p) {
+            r.push(x);
         }
     }
-    if p.eligible.is_empty() {
-        let _ = writeln!(o, "\nNo part may be used: a design is impossible until the catalog or the scenario changes.");
+    if let Some(w) = model::warnings(&p.warnings) {
+        r.push(w);
     }
-    Ok(Outcome { stdout: o, code: 0 })
+    if p.eligible.is_empty() {
+        r.para("No part may be used: a design is impossible until the catalog or the scenario changes.");
+    }
+    Ok(Outcome {
+        stdout: text::render(&r),
+        code: 0,
+    })
 }
 
 pub fn assess(
@@ -172,29 +188,41 @@ pub fn assess(
     let status = if a.all_ok { "pass" } else { "fail" };
     let mut doc = report::assessment_json(status, &a, &p);
     run.stamp(&mut doc);
-    let mut body = text::run_header(&run);
-    body.push_str(&text::header(&p));
-    body.push_str(&text::assessment_quiet(&a, c.quiet));
-    let _ = writeln!(
-        body,
-        "\nVerdict: {}",
-        if a.all_ok {
-            "PASS — the bank meets the target and every limit at the worst corner.".to_string()
-        } else {
-            let failed: Vec<&str> = a
-                .checks
-                .iter()
-                .filter(|c| !c.ok)
-                .map(|c| c.name.as_str())
-                .collect();
-            format!("FAIL — {}", failed.join(", "))
-        }
-    );
-    body.push_str(&text::cautions());
-    if let Some(dir) = &c.out {
-        bank_files(&p, &bank, &a, &doc, "Bank assessment", &body)?.commit(dir)?;
+    let mut r = Report::new("Bank assessment", Some(&run));
+    r.push(model::header(&p));
+    for s in model::assessment(&a, c.quiet) {
+        r.push(s);
     }
-    let stdout = if c.json { report::json_text(doc) } else { body };
+    r.verdict(
+        if a.all_ok {
+            Verdict::Pass
+        } else {
+            Verdict::Fail
+        },
+        format!(
+            "Verdict: {}",
+            if a.all_ok {
+                "PASS — the bank meets the target and every limit at the worst corner.".to_string()
+            } else {
+                let failed: Vec<&str> = a
+                    .checks
+                    .iter()
+                    .filter(|c| !c.ok)
+                    .map(|c| c.name.as_str())
+                    .collect();
+                format!("FAIL — {}", failed.join(", "))
+            }
+        ),
+    );
+    r.push(model::cautions());
+    if let Some(dir) = &c.out {
+        bank_files(&p, &bank, &a, &doc, &r)?.commit(dir)?;
+    }
+    let stdout = if c.json {
+        report::json_text(doc)
+    } else {
+        text::render(&r)
+    };
     Ok(Outcome {
         stdout,
         code: if a.all_ok { 0 } else { 1 },

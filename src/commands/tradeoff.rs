@@ -5,10 +5,10 @@ use crate::assessment::{self};
 use crate::load::Overrides;
 use crate::optimize;
 use crate::problem::Problem;
+use crate::report::model::{self, Report, Table};
 use crate::report::{self, text, OutFiles};
 use anyhow::Result;
 use serde_json::json;
-use std::fmt::Write;
 
 fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
     match v {
@@ -255,17 +255,19 @@ pub fn tradeoff(
             bank_key: key,
         });
     }
-    let mut body = text::run_header(&run);
-    body.push_str(&text::header(&p));
-    let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
-    let _ = writeln!(
-        body,
-        "\nTrade-off: {} ripple targets from {} to {} (geometric)",
+    let mut r = Report::new("Ripple trade-off", Some(&run));
+    r.push(model::header(&p));
+    r.line(format!(
+        "Objective: {}",
+        p.scenario.selection.objective.name()
+    ));
+    r.para(format!(
+        "Trade-off: {} ripple targets from {} to {} (geometric)",
         points,
         text::mv(lo),
         text::mv(hi)
-    );
-    body.push_str(&text::table(
+    ));
+    r.table(Table::new(
         &[
             "target",
             "status",
@@ -276,19 +278,22 @@ pub fn tradeoff(
             "n",
             "bank",
         ],
-        &rows,
+        rows,
     ));
     if !c.quiet {
-        let _ = writeln!(
-        body,
-        "\n'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
-         tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target."
+        r.para(
+        "'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
+         tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target.",
         );
     }
     if !note.is_empty() {
-        let _ = writeln!(body, "{note}");
+        if c.quiet {
+            r.para(note.clone());
+        } else {
+            r.line(note.clone());
+        }
     }
-    body.push_str(&text::cautions());
+    r.push(model::cautions());
     let mut doc = json!({
         "status": "done",
         "scenario": p.scenario.name,
@@ -308,10 +313,7 @@ pub fn tradeoff(
             csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?,
         );
         files.add("report.json", report::json_text(doc.clone()));
-        files.add(
-            "report.html",
-            report::html::page("Ripple trade-off", &body, &plots),
-        );
+        files.add("report.html", report::html::render(&r, &plots));
         for (name, svg) in plots {
             files.add(&name, svg);
         }
@@ -323,6 +325,10 @@ pub fn tradeoff(
     } else {
         1
     };
-    let stdout = if c.json { report::json_text(doc) } else { body };
+    let stdout = if c.json {
+        report::json_text(doc)
+    } else {
+        text::render(&r)
+    };
     Ok(Outcome { stdout, code })
 }

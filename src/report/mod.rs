@@ -3,6 +3,7 @@
 //! failed run never leaves an existing output folder half-written.
 
 pub mod html;
+pub mod model;
 pub mod plots;
 pub mod spice;
 pub mod text;
