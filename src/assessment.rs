@@ -11,29 +11,50 @@ use std::path::Path;
 /// One line of a bank with its details.
 #[derive(Debug, Clone, Serialize)]
 pub struct BankLine {
+    /// Catalog part id.
     pub part: String,
+    /// How many of the part are placed.
     pub count: u32,
+    /// Technology name as in the catalog's `technology` column.
     pub technology: String,
+    /// Case code, if the catalog gives one.
     pub case: Option<String>,
+    /// Nominal capacitance of one part, F.
     pub capacitance_nominal: f64,
+    /// Capacitance of one part at the typical corner (nominal with DC bias), F.
     pub capacitance_typical: f64,
+    /// Capacitance of one part at the low corner, F.
     pub capacitance_worst: f64,
+    /// ESR of one part (catalog maximum), Ω.
     pub esr: f64,
+    /// ESL of one part, H.
     pub esl: f64,
+    /// Rated DC voltage, V.
     pub rated_voltage: f64,
+    /// Cost of one part.
     pub unit_cost: f64,
+    /// Cost of the whole line (count × unit cost).
     pub line_total_cost: f64,
+    /// Footprint of one part, mm², if known.
     pub unit_area: Option<f64>,
+    /// Height, mm, if known.
     pub height: Option<f64>,
+    /// RMS ripple current in one part, A.
     pub ripple_current_rms: f64,
+    /// The part's RMS ripple-current rating, A, if given.
     pub ripple_current_rating: Option<f64>,
+    /// Life-cycle status (`active`, `nrnd`, `obsolete`).
     pub status: String,
 }
 
+/// RMS ripple current of one part of a line, with its rating.
 #[derive(Debug, Clone, Serialize)]
 pub struct PartCurrent {
+    /// Catalog part id.
     pub part: String,
+    /// RMS current in one part, A.
     pub rms: f64,
+    /// The part's rating, A, if the catalog gives one.
     pub rating: Option<f64>,
 }
 
@@ -101,45 +122,73 @@ pub struct AssessOptions {
     pub corner: NamedCorner,
 }
 
+/// One input-voltage corner of the converter.
 #[derive(Debug, Clone, Serialize)]
 pub struct CornerInfo {
+    /// Input voltage of the corner, V (`None` for a module).
     pub vin: Option<f64>,
+    /// Duty cycle at this corner.
     pub duty: f64,
     /// Conduction mode (`CCM`, `DCM`) where the topology has one; else `None` (JSON null).
     pub mode: Option<String>,
+    /// Fundamental frequency of the current into the bank, Hz.
     pub ripple_frequency: f64,
+    /// Peak-to-peak current into the bank, A.
     pub current_pp: f64,
 }
 
+/// Everything the reports say about one bank.
 #[derive(Debug, Clone, Serialize)]
 pub struct Assessment {
     /// The corner pass/fail was judged at (`assess --corner`; default `worst`).
     pub corner: NamedCorner,
+    /// The bank's lines.
     pub bank: Vec<BankLine>,
+    /// Ripple at the judged corner, target bandwidth, V.
     pub ripple_pp: f64,
+    /// Ripple at the typical corner, target bandwidth, V.
     pub ripple_pp_typical: f64,
+    /// Ripple at the judged corner without a bandwidth limit, V.
     pub ripple_pp_full_bandwidth: f64,
+    /// The scenario's ripple limit, V.
     pub target_ripple_pp: f64,
+    /// Measurement bandwidth, Hz (`None`: full bandwidth).
     pub bandwidth: Option<f64>,
+    /// Harmonics summed for the bandwidth-limited figure.
     pub harmonics: usize,
+    /// Total cost: parts plus `line_cost` per line.
     pub cost: f64,
+    /// Cost of the parts alone.
     pub parts_cost: f64,
+    /// Total footprint, mm² (a lower bound when `area_known` is false).
     pub area: f64,
     /// False when a part has no area: `area` is then a lower bound and the
     /// JSON reports null.
     #[serde(skip)]
     pub area_known: bool,
+    /// Number of parts.
     pub count: u32,
+    /// Number of distinct parts (lines).
     pub lines: u32,
+    /// Sum of nominal capacitances, F.
     pub capacitance_nominal_total: f64,
+    /// Sum of nominal × (1 + tolerance), F.
     pub capacitance_max_total: f64,
+    /// Sum of low-corner capacitances, F.
     pub capacitance_effective_total: f64,
+    /// Sum of typical-corner capacitances, F.
     pub capacitance_typical_total: f64,
+    /// Ripple current of each line.
     pub ripple_current: Vec<PartCurrent>,
+    /// Every limit and whether it is kept.
     pub checks: Vec<Check>,
+    /// The converter's input-voltage corners.
     pub corners: Vec<CornerInfo>,
+    /// The ripple meets the target.
     pub meets_target: bool,
+    /// The ripple and every limit are met.
     pub all_ok: bool,
+    /// Warnings about this bank and the inputs.
     pub warnings: Vec<String>,
 }
 

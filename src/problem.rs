@@ -12,18 +12,25 @@ use serde::Serialize;
 /// A part that may not be used, and why.
 #[derive(Debug, Clone, Serialize)]
 pub struct Excluded {
+    /// Catalog part id.
     pub part: String,
+    /// Why it may not be used.
     pub reason: String,
 }
 
 /// Everything the evaluator and the optimizer need, prepared once.
 pub struct Problem {
+    /// The scenario, with command-line overrides applied.
     pub scenario: Scenario,
+    /// The parts catalog.
     pub catalog: Catalog,
     /// Catalog indices of the parts that may be used.
     pub eligible: Vec<usize>,
+    /// Every part that may not be used, with its reason.
     pub excluded: Vec<Excluded>,
+    /// The converter's operating points (one per input-voltage corner).
     pub ops: Vec<OperatingPoint>,
+    /// Warnings about the inputs.
     pub warnings: Vec<String>,
 }
 
@@ -116,6 +123,7 @@ pub fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
 }
 
 impl Problem {
+    /// Check the scenario against the catalog, sort the parts into eligible and excluded, and compute the operating points.
     pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
         scenario.check_against(&catalog)?;
         let objective = scenario.selection.objective;
@@ -260,6 +268,7 @@ impl Problem {
         Evaluator::new(&self.scenario, &self.ops, models)
     }
 
+    /// The technology of catalog part `i`.
     pub fn technology(&self, i: usize) -> Technology {
         self.catalog.parts[i].technology
     }

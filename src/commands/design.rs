@@ -29,7 +29,7 @@ pub(super) fn binding_text(b: &optimize::Binding) -> String {
 }
 
 /// The report and the JSON for a design outcome.
-pub fn design_report(
+pub(crate) fn design_report(
     p: &Problem,
     out: &optimize::Outcome,
     what: &str,

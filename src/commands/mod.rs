@@ -6,9 +6,10 @@ mod design;
 mod rework;
 mod tradeoff;
 
-pub use design::{design, design_report};
+pub use design::design;
 pub use rework::rework;
-pub use tradeoff::{bank_key, tradeoff, TRADEOFF_SPAN};
+pub(crate) use tradeoff::bank_key;
+pub use tradeoff::tradeoff;
 
 use crate::assessment::{self, Assessment};
 use crate::load::{self, Overrides};
@@ -23,9 +24,13 @@ use std::path::{Path, PathBuf};
 /// Options every command shares.
 #[derive(Debug, Clone, Default)]
 pub struct Common {
+    /// `--scenario`: the scenario file (default: the bundled demo).
     pub scenario: Option<PathBuf>,
+    /// `--catalog`: the catalog file (default: the scenario's).
     pub catalog: Option<PathBuf>,
+    /// `--out`: the folder for output files.
     pub out: Option<PathBuf>,
+    /// `--json`: one JSON document on stdout instead of the text report.
     pub json: bool,
     /// Keep the text report to the answer: no unused parts, no per-part limit rows.
     pub quiet: bool,
@@ -33,7 +38,9 @@ pub struct Common {
 
 /// What a command prints and its exit status.
 pub struct Outcome {
+    /// The text report or the JSON document.
     pub stdout: String,
+    /// Exit status: 0 yes, 1 a well-formed question answered no.
     pub code: u8,
 }
 
@@ -68,7 +75,7 @@ pub(crate) fn infeasible_doc(
 }
 
 /// The standard output files for one bank.
-pub fn bank_files(
+pub(crate) fn bank_files(
     problem: &Problem,
     bank: &[(usize, u32)],
     a: &Assessment,
@@ -160,6 +167,7 @@ pub fn validate(c: &Common) -> Result<Outcome> {
     })
 }
 
+/// `assess`: a given bank against the target and every limit.
 pub fn assess(
     c: &Common,
     bank_arg: Option<&str>,
@@ -230,7 +238,7 @@ pub fn assess(
 }
 
 /// Show progress only on a terminal and never with --json.
-pub fn show_progress(c: &Common) -> bool {
+pub(crate) fn show_progress(c: &Common) -> bool {
     use std::io::IsTerminal;
     !c.json && std::io::stderr().is_terminal()
 }

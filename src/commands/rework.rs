@@ -12,6 +12,7 @@ use anyhow::Result;
 use serde_json::json;
 use std::path::Path;
 
+/// `rework`: the fewest changed line items when parts of a bill of materials go.
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     use crate::catalog::Status as Life;
     let (p, run) = load(c, &Overrides::default())?;

@@ -26,10 +26,10 @@ fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
 
 /// Default loose end of a trade-off, as a multiple of the scenario's target,
 /// when the smallest allowed bank ripples far more than that.
-pub const TRADEOFF_SPAN: f64 = 10.0;
+pub(crate) const TRADEOFF_SPAN: f64 = 10.0;
 
 /// `PART=N,PART=N` in catalog order: equal strings mean the same bank.
-pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
+pub(crate) fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
     let mut b: Vec<(usize, u32)> = bank.iter().copied().filter(|x| x.1 > 0).collect();
     b.sort();
     b.iter()
@@ -38,6 +38,7 @@ pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
         .join(",")
 }
 
+/// `tradeoff`: the best bank at each of a range of ripple targets.
 pub fn tradeoff(
     c: &Common,
     from: Option<&str>,

@@ -8,10 +8,13 @@ use std::time::Instant;
 /// Result of a rework: the fewest changed line items, then the objective.
 #[derive(Debug, Clone)]
 pub struct Rework {
+    /// How good the answer is.
     pub status: Status,
+    /// The new bank, unless infeasible.
     pub found: Option<Found>,
     /// Changed line items (removed plus added) of `found`.
     pub changes: usize,
+    /// What the search did.
     pub stats: Stats,
 }
 

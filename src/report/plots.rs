@@ -30,9 +30,11 @@ pub struct TradeoffPoint {
     pub status: String,
     /// Worst-corner ripple the chosen bank reaches, V.
     pub ripple_pp: Option<f64>,
+    /// Cost of the chosen bank.
     pub cost: Option<f64>,
     /// mm².
     pub area: Option<f64>,
+    /// Number of parts of the chosen bank.
     pub count: Option<u32>,
     /// Identifies the chosen bank (e.g. `A=3,B=2`); equal keys mean the same bank.
     pub bank_key: String,
@@ -111,6 +113,7 @@ pub struct ImpedanceData {
     /// target's peak-to-peak at the worst vin corner: target / (2 |I_k H_k|).
     /// Harmonics with no current are left out.
     pub needed: Vec<(f64, f64)>,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
 }
 
@@ -226,9 +229,11 @@ pub struct RippleData {
     pub limited: Vec<f64>,
     /// Samples over one period, full bandwidth, V.
     pub full: Vec<f64>,
+    /// Target peak-to-peak, V.
     pub target: f64,
     /// Middle of the bandwidth-limited waveform: (max + min) / 2, V.
     pub mid: f64,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
 }
 
@@ -263,6 +268,7 @@ pub struct SpectrumData {
     pub amplitude: Vec<f64>,
     /// Target peak-to-peak, V.
     pub target: f64,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
 }
 
