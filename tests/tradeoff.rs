@@ -55,6 +55,47 @@ fn front_is_monotone_and_every_point_verifies() {
         );
         assert!((a.ripple_pp - pt["ripple_pp"].as_f64().unwrap()).abs() < 1e-12);
     }
+    // The raw per-target optima, before the command carries a tighter bank
+    // forward: each solved to optimality on its own, so a looser target can
+    // never cost more (source: a bank meeting a tighter target meets every
+    // looser one, so the looser optimum is at most its cost).
+    let raw = v["raw"].as_array().expect("raw per-target results");
+    assert_eq!(raw.len(), pts.len());
+    let mut optimal_pairs = 0;
+    for w in raw.windows(2) {
+        let (tight, loose) = (&w[0], &w[1]);
+        assert!(loose["target"].as_f64() > tight["target"].as_f64());
+        if tight["status"] == "optimal" && loose["status"] == "optimal" {
+            let (ct, cl) = (
+                tight["cost"].as_f64().unwrap(),
+                loose["cost"].as_f64().unwrap(),
+            );
+            assert!(
+                cl <= ct * (1.0 + 1e-9) + 1e-12,
+                "raw optimum at {} costs {cl}, more than {ct} at the tighter {}",
+                loose["target"],
+                tight["target"]
+            );
+            optimal_pairs += 1;
+        }
+    }
+    assert!(
+        optimal_pairs >= 3,
+        "too few optimal neighbours to check: {optimal_pairs}"
+    );
+    for r in raw.iter().filter(|r| r["status"] != "infeasible") {
+        let bank: Vec<String> = r["bank"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"]))
+            .collect();
+        if bank.is_empty() {
+            continue;
+        }
+        let a = assess(&p, &parse_bank_arg(&p, &bank.join(",")).unwrap()).unwrap();
+        assert!(a.ripple_pp <= r["target"].as_f64().unwrap() * (1.0 + 1e-9));
+    }
     // Geometric spacing from --from to --to, both included.
     assert!((pts[0]["target"].as_f64().unwrap() - 3e-3).abs() < 1e-12);
     assert!((pts[5]["target"].as_f64().unwrap() - 40e-3).abs() < 1e-12);

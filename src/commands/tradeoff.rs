@@ -163,6 +163,24 @@ pub fn tradeoff(
         .copied()
         .zip(slots.into_iter().map(|o| o.expect("every target solved")))
         .collect();
+    // Each target's own result, before the front is made monotone below
+    // (reported as `raw`, so the optimizer's per-target answers can be checked).
+    let mut raw_json = Vec::new();
+    for (t, out) in &results {
+        let a = match &out.found {
+            Some(f) => Some(assessment::assess(&p, &f.bank)?),
+            None => None,
+        };
+        raw_json.push(json!({
+            "target": t,
+            "status": out.status.name(),
+            "ripple_pp": a.as_ref().map(|a| a.ripple_pp),
+            "cost": a.as_ref().map(|a| a.cost),
+            "area": a.as_ref().map(|a| a.area),
+            "count": a.as_ref().map(|a| a.count),
+            "bank": a.as_ref().map_or(json!([]), |a| json!(a.bank)),
+        }));
+    }
     // A bank that meets a tighter target meets every looser one: keep the
     // front monotone when the search could not prove a point optimal.
     for j in 1..results.len() {
@@ -301,6 +319,7 @@ pub fn tradeoff(
         "objective": p.scenario.selection.objective.name(),
         "from": lo, "to": hi,
         "points": json_points,
+        "raw": raw_json,
         "excluded": p.excluded,
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
