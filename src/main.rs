@@ -111,10 +111,10 @@ enum Cmd {
         /// Tightest ripple target, V (default: the lowest reachable)
         #[arg(long, value_name = "V")]
         from: Option<String>,
-        /// Loosest ripple target, V (default: the smallest allowed bank's ripple, at most 10x the target)
+        /// Loosest ripple target, V (default: the converter alone if it has internal capacitance, else 10x the target)
         #[arg(long, value_name = "V")]
         to: Option<String>,
-        /// Number of targets
+        /// Number of targets (the scenario's own target is added when it is not one of them)
         #[arg(long, default_value_t = 8)]
         points: usize,
         #[command(flatten)]

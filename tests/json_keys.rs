@@ -157,7 +157,12 @@ fn design_assess_rework_tradeoff_keys() {
     );
     run_keys(&t, "tradeoff");
     let pts = t["points"].as_array().unwrap();
-    assert_eq!(pts.len(), 3);
+    // Three geometric targets plus the scenario's own (8 mV), in order.
+    assert_eq!(pts.len(), 4);
+    assert_eq!(
+        pts.iter().filter(|p| p["scenario_target"] == true).count(),
+        1
+    );
     for p in pts {
         has_all(
             p,

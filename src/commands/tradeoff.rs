@@ -25,7 +25,7 @@ fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
 }
 
 /// Default loose end of a trade-off, as a multiple of the scenario's target,
-/// when the smallest allowed bank ripples far more than that.
+/// when the converter has no internal capacitance of its own.
 pub(crate) const TRADEOFF_SPAN: f64 = 10.0;
 
 /// `PART=N,PART=N` in catalog order: equal strings mean the same bank.
@@ -66,30 +66,26 @@ pub fn tradeoff(
         }
     };
     let mut note = String::new();
+    let target = p.scenario.target.ripple_pp.0;
     let hi = match to {
         Some(v) => v,
+        None if p.scenario.converter.internal_capacitance.is_some() => {
+            // The converter alone: the loosest meaningful target.
+            let a = assessment::assess(&p, &[])?;
+            note = format!(
+                "The upper end of the range is the converter alone (its internal capacitance, no added capacitors): {}. Use --to to change it.",
+                text::mv(a.ripple_pp)
+            );
+            a.ripple_pp
+        }
         None => {
-            let smallest = optimize::smallest_bank(&p)
-                .filter(|f| f.ripple_pp.is_finite())
-                .ok_or_else(|| {
-                    anyhow::anyhow!(
-                        "no bank satisfies the limits other than ripple; see `ripplebank validate`"
-                    )
-                })?;
-            let r = smallest.ripple_pp;
-            let cap = TRADEOFF_SPAN * p.scenario.target.ripple_pp.0;
-            if r > cap && cap > lo {
-                note = format!(
-                    "The smallest allowed bank ({}) ripples {}; the range stops at {} ({}× the target). Use --to to extend it.",
-                    if smallest.bank.is_empty() { "no added part".to_string() } else { bank_key(&p, &smallest.bank) },
-                    text::mv(r),
-                    text::mv(cap),
-                    TRADEOFF_SPAN
-                );
-                cap
-            } else {
-                r
-            }
+            let cap = TRADEOFF_SPAN * target;
+            note = format!(
+                "The upper end of the range is {}× the target ({}): its row is the cheapest bank reaching it. Use --to to change it.",
+                TRADEOFF_SPAN,
+                text::mv(cap)
+            );
+            cap
         }
     };
     if hi <= lo * (1.0 + 1e-6) {
@@ -117,9 +113,14 @@ pub fn tradeoff(
     } else {
         (lo, lo * 2.0)
     };
-    let targets: Vec<f64> = (0..points)
+    let mut targets: Vec<f64> = (0..points)
         .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
         .collect();
+    // The scenario's own target is always a row.
+    if !targets.iter().any(|&t| (t - target).abs() <= 1e-9 * target) {
+        targets.push(target);
+        targets.sort_by(f64::total_cmp);
+    }
     let pb = if show {
         ProgressBar::new(points as u64)
     } else {
@@ -226,7 +227,7 @@ pub fn tradeoff(
             None => (json!([]), None, None, None, None, String::new()),
         };
         json_points.push(json!({
-            "target": t, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
+            "target": t, "scenario_target": (t - target).abs() <= 1e-9 * target, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
             "count": count, "bank": bank_json,
         }));
         csv.write_record([
@@ -251,17 +252,21 @@ pub fn tradeoff(
             prev_cost = Some((*t, cc));
         }
         rows.push(vec![
-            text::mv(*t),
+            if (t - target).abs() <= 1e-9 * target {
+                format!("{} (scenario)", text::mv(*t))
+            } else {
+                text::mv(*t)
+            },
             out.status.name().to_string(),
             ripple.map_or("—".into(), text::mv),
             cost.map_or("—".into(), |x| format!("{x:.3}")),
             per_mv,
             area.map_or("—".into(), |x| format!("{x:.1}")),
             count.map_or("—".into(), |x| x.to_string()),
-            if key.is_empty() {
-                "no bank meets this target".into()
-            } else {
-                key.clone()
+            match &out.found {
+                None => "no bank meets this target".into(),
+                Some(f) if f.bank.is_empty() => report::plots::EMPTY_BANK.into(),
+                Some(_) => key.clone(),
             },
         ]);
         plot_points.push(report::plots::TradeoffPoint {
@@ -281,8 +286,8 @@ pub fn tradeoff(
         p.scenario.selection.objective.name()
     ));
     r.para(format!(
-        "Trade-off: {} ripple targets from {} to {} (geometric)",
-        points,
+        "Trade-off: {} ripple targets from {} to {} (geometric, with the scenario's own target)",
+        targets.len(),
         text::mv(lo),
         text::mv(hi)
     ));

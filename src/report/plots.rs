@@ -40,6 +40,9 @@ pub struct TradeoffPoint {
     pub bank_key: String,
 }
 
+/// How a trade-off names the empty bank (the converter's own capacitance alone).
+pub const EMPTY_BANK: &str = "converter alone (no added capacitors)";
+
 // ---------------------------------------------------------------- data
 
 /// The evaluator over a bank's parts and the vin corner with the largest
@@ -1147,7 +1150,13 @@ fn tradeoff_svg(
     let key_lines: Vec<String> = keys
         .iter()
         .enumerate()
-        .map(|(i, k)| format!("{}: {}", i + 1, k))
+        .map(|(i, k)| {
+            if k.is_empty() {
+                format!("{}: {EMPTY_BANK}", i + 1)
+            } else {
+                format!("{}: {}", i + 1, k)
+            }
+        })
         .collect();
     let lh = legend_height(entries.len(), 1)
         + (key_lines.len() as u32) * 20
