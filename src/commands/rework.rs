@@ -181,6 +181,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         code = 1;
     } else {
         let a = assessment::assess(&p, &new_bank)?;
+        let count_changes = kept
+            .iter()
+            .filter(|k| k["count_before"] != k["count_after"])
+            .count();
         if still_good {
             r.verdict(
                 Verdict::Pass,
@@ -190,10 +194,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             r.verdict(
                 Verdict::of_status(status),
                 format!(
-                "Rework: {} — {changes} changed line item(s){}",
+                "Rework: {} — {changes} changed line item(s), {count_changes} changed count(s){}",
                 status.name().to_uppercase(),
                 if status == optimize::Status::Optimal {
-                    " (the fewest possible; cheapest among those)"
+                    " (the fewest possible; then the fewest changed counts, then the objective, then same-footprint replacements)"
                 } else if changes == removed_forced.len() {
                     " (the fewest possible; parts to add came from a pool, so a cheaper change may exist)"
                 } else {
@@ -270,6 +274,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         doc["removed"] = json!(removed);
         doc["added"] = json!(added);
         doc["changes"] = json!(changes);
+        doc["count_changes"] = json!(count_changes);
         code = 0;
     }
     doc["still_good"] = json!(still_good);
