@@ -522,7 +522,7 @@ pub fn assess_with(
             });
         }
     }
-    // The worst corner is the low-capacitance one (SPEC §4); a bank whose
+    // The worst corner is the low-capacitance one (the v1 convention); a bank whose
     // ripple grows with capacitance (ESL- and ESR-dominated) is flagged.
     if ripple_pp_typical > s.target.ripple_pp.0 {
         warnings.push(format!(

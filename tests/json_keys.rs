@@ -1,4 +1,4 @@
-//! The JSON documents carry every key SPEC §8 names (source: SPEC §8), for
+//! The JSON documents carry every key of the JSON contract (source: the interface contract as README "JSON" states it), for
 //! each command, on the bundled demo and on an infeasible variant of it.
 
 use assert_cmd::Command;

@@ -1,6 +1,6 @@
 //! Each limit changes the design as it should, on the bundled demo (a
 //! 12 V → 3.3 V buck, invented data). Every check recomputes the limit from
-//! its definition (SPEC §3–§4) on the reported bank with the evaluator.
+//! its definition (the scenario keys and limits of docs/model.md) on the reported bank with the evaluator.
 
 use ripplebank::assessment::{assess, Assessment};
 use ripplebank::catalog::{Catalog, Status as Life};
@@ -247,7 +247,7 @@ fn status_obsolete_and_nrnd() {
 #[test]
 fn line_cost_favours_fewer_lines() {
     // A per-line cost (feeder set-up) is paid once per distinct part
-    // (SPEC §3): with a large one, the design uses fewer lines, and the
+    // (selection.line_cost): with a large one, the design uses fewer lines, and the
     // reported cost includes it.
     let b = baseline();
     let (mut s, c) = demo();
@@ -313,7 +313,7 @@ fn check_typical_holds_the_typical_corner_to_the_target() {
 
 #[test]
 fn objective_area_needs_every_usable_part_to_have_an_area() {
-    // SPEC §2: "when absent it comes from the imperial EIA case code …, else
+    // The catalog rule for `area`: "when absent it comes from the imperial EIA case code …, else
     // it is an error for objective `area`" — exit 2 naming file, line, column.
     let dir = tempfile::tempdir().unwrap();
     let cat = dir.path().join("c.csv");

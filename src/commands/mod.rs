@@ -49,7 +49,7 @@ pub(crate) fn load(c: &Common, o: &Overrides) -> Result<(Problem, Run)> {
     Ok((p, Run::now(inputs)))
 }
 
-/// The SPEC §8 document of a run with no bank: every key present, the bank
+/// The JSON document of a run with no bank: every key present, the bank
 /// figures null or zero, plus the lowest ripple found and the binding limits.
 pub(crate) fn infeasible_doc(
     p: &Problem,
