@@ -12,48 +12,129 @@ use std::path::Path;
 /// One line of a bank with its details.
 #[derive(Debug, Clone, Serialize)]
 pub struct BankLine {
+    /// Catalog part id.
     pub part: String,
+    /// How many of the part are placed.
     pub count: u32,
+    /// Technology name as in the catalog's `technology` column.
     pub technology: String,
+    /// Case code, if the catalog gives one.
     pub case: Option<String>,
+    /// Nominal capacitance of one part, F.
     pub capacitance_nominal: f64,
+    /// Capacitance of one part at the typical corner (nominal with DC bias), F.
     pub capacitance_typical: f64,
+    /// Capacitance of one part at the low corner, F.
     pub capacitance_worst: f64,
+    /// ESR of one part (catalog maximum), Ω.
     pub esr: f64,
+    /// ESL of one part, H.
     pub esl: f64,
+    /// Rated DC voltage, V.
     pub rated_voltage: f64,
+    /// Cost of one part.
     pub unit_cost: f64,
+    /// Cost of the whole line (count × unit cost).
     pub line_total_cost: f64,
+    /// Footprint of one part, mm², if known.
     pub unit_area: Option<f64>,
+    /// Height, mm, if known.
     pub height: Option<f64>,
+    /// RMS ripple current in one part, A.
     pub ripple_current_rms: f64,
+    /// The part's RMS ripple-current rating, A, if given.
     pub ripple_current_rating: Option<f64>,
+    /// Life-cycle status (`active`, `nrnd`, `obsolete`).
     pub status: String,
 }
 
+/// RMS ripple current of one part of a line, with its rating.
 #[derive(Debug, Clone, Serialize)]
 pub struct PartCurrent {
+    /// Catalog part id.
     pub part: String,
+    /// RMS current in one part, A.
     pub rms: f64,
+    /// The part's rating, A, if the catalog gives one.
     pub rating: Option<f64>,
 }
 
 /// A limit and whether the bank keeps it.
 #[derive(Debug, Clone, Serialize)]
 pub struct Check {
+    /// What is checked, e.g. `ripple_pp` or `voltage PART`.
     pub name: String,
+    /// The bank's figure.
     pub value: f64,
+    /// The limit it is held to.
     pub limit: f64,
+    /// Unit of `value` and `limit` (`V`, `F`, `A`, `mm²`, `°C` or empty).
     pub unit: String,
+    /// True when the bank keeps the limit.
     pub ok: bool,
+    /// The part a per-part check belongs to; `None` for checks of the whole bank.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub part: Option<String>,
+    /// Which side of the limit the value must stay on.
+    pub bound: Bound,
 }
 
+/// The direction of a check: `value ≤ limit` or `value ≥ limit`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Bound {
+    /// The value must not exceed the limit.
+    AtMost,
+    /// The value must reach the limit.
+    AtLeast,
+}
+
+/// A named corner for `assess --corner` (`worst` is the whole corner region).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum NamedCorner {
+    /// The largest ripple over the whole corner region (the default).
+    #[default]
+    Worst,
+    /// Every line at its lowest capacitance and highest ESR, nominal inductance.
+    Low,
+    /// Every line at its highest capacitance and lowest ESR, nominal inductance.
+    High,
+    /// Nominal capacitance with DC bias, the catalog ESR, nominal inductance.
+    Typical,
+}
+
+impl NamedCorner {
+    /// The name as written on the command line and in JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            NamedCorner::Worst => "worst",
+            NamedCorner::Low => "low",
+            NamedCorner::High => "high",
+            NamedCorner::Typical => "typical",
+        }
+    }
+}
+
+/// How a bank is assessed.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct AssessOptions {
+    /// Which corner pass/fail is judged at.
+    pub corner: NamedCorner,
+}
+
+/// One input-voltage corner of the converter.
 #[derive(Debug, Clone, Serialize)]
 pub struct CornerInfo {
+    /// Input voltage of the corner, V (`None` for a module).
     pub vin: Option<f64>,
+    /// Duty cycle at this corner.
     pub duty: f64,
-    pub mode: String,
+    /// Conduction mode (`CCM`, `DCM`) where the topology has one; else `None` (JSON null).
+    pub mode: Option<String>,
+    /// Fundamental frequency of the current into the bank, Hz.
     pub ripple_frequency: f64,
+    /// Peak-to-peak current into the bank, A.
     pub current_pp: f64,
 }
 
@@ -91,37 +172,62 @@ pub struct CornerFigures {
     pub typical: f64,
 }
 
+/// Everything the reports say about one bank.
 #[derive(Debug, Clone, Serialize)]
 pub struct Assessment {
+    /// The corner pass/fail was judged at (`assess --corner`; default `worst`).
+    pub corner: NamedCorner,
+    /// The bank's lines.
     pub bank: Vec<BankLine>,
     /// Where the largest ripple of the corner region occurs.
     pub worst_corner: WorstCorner,
     /// The named corners' figures.
     pub ripple_pp_corners: CornerFigures,
+    /// Ripple at the judged corner, target bandwidth, V.
     pub ripple_pp: f64,
+    /// Ripple at the typical corner, target bandwidth, V.
     pub ripple_pp_typical: f64,
+    /// Ripple at the judged corner without a bandwidth limit, V.
     pub ripple_pp_full_bandwidth: f64,
+    /// The scenario's ripple limit, V.
     pub target_ripple_pp: f64,
+    /// Measurement bandwidth, Hz (`None`: full bandwidth).
     pub bandwidth: Option<f64>,
+    /// Harmonics summed for the bandwidth-limited figure.
     pub harmonics: usize,
+    /// Total cost: parts plus `line_cost` per line.
     pub cost: f64,
+    /// Cost of the parts alone.
     pub parts_cost: f64,
+    /// Total footprint, mm² (a lower bound when `area_known` is false).
     pub area: f64,
     /// False when a part has no area: `area` is then a lower bound and the
     /// JSON reports null.
     #[serde(skip)]
     pub area_known: bool,
+    /// Number of parts.
     pub count: u32,
+    /// Number of distinct parts (lines).
     pub lines: u32,
+    /// Sum of nominal capacitances, F.
     pub capacitance_nominal_total: f64,
+    /// Sum of nominal × (1 + tolerance), F.
     pub capacitance_max_total: f64,
+    /// Sum of low-corner capacitances, F.
     pub capacitance_effective_total: f64,
+    /// Sum of typical-corner capacitances, F.
     pub capacitance_typical_total: f64,
+    /// Ripple current of each line.
     pub ripple_current: Vec<PartCurrent>,
+    /// Every limit and whether it is kept.
     pub checks: Vec<Check>,
+    /// The converter's input-voltage corners.
     pub corners: Vec<CornerInfo>,
+    /// The ripple meets the target.
     pub meets_target: bool,
+    /// The ripple and every limit are met.
     pub all_ok: bool,
+    /// Warnings about this bank and the inputs.
     pub warnings: Vec<String>,
 }
 
@@ -273,8 +379,18 @@ fn text_mv(v: f64) -> String {
     crate::units::format_si(v, "V")
 }
 
-/// Evaluate a bank (catalog indices and counts) completely.
+/// Evaluate a bank (catalog indices and counts) completely, over the whole
+/// corner region.
 pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
+    assess_opts(problem, bank, &AssessOptions::default())
+}
+
+/// As [`assess`], with options (the corner to judge at).
+pub fn assess_opts(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    opts: &AssessOptions,
+) -> Result<Assessment> {
     let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|&(_, n)| n > 0).collect();
     let parts: Vec<usize> = bank.iter().map(|&(i, _)| i).collect();
     let mut ev = problem.evaluator(&parts);
@@ -282,7 +398,7 @@ pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
     if ev.is_empty(&local) {
         bail!("the bank is empty (no part with a count above zero) and the converter has no internal capacitance: the ripple is unbounded");
     }
-    Ok(assess_with(problem, &mut ev, &bank, &local))
+    Ok(assess_with(problem, &mut ev, &bank, &local, opts))
 }
 
 /// As [`assess`], with an evaluator already built over (at least) the bank's parts.
@@ -291,18 +407,34 @@ pub fn assess_with(
     ev: &mut Evaluator,
     bank: &[(usize, u32)],
     local: &[(usize, u32)],
+    opts: &AssessOptions,
 ) -> Assessment {
     let s = &problem.scenario;
     let cat = &problem.catalog;
     let worst = region::worst(problem, ev, local, Band::Limited);
-    let ripple_pp = worst.value;
-    let ripple_pp_full = region::worst(problem, ev, local, Band::Full).value;
     let named =
         |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
     let corners_pp = CornerFigures {
         low: named(ev, Named::Low),
         high: named(ev, Named::High),
         typical: named(ev, Named::Typical),
+    };
+    // `assess --corner`: one named corner instead of the whole region.
+    let judged = match opts.corner {
+        NamedCorner::Worst => None,
+        NamedCorner::Low => Some(Named::Low),
+        NamedCorner::High => Some(Named::High),
+        NamedCorner::Typical => Some(Named::Typical),
+    };
+    let (ripple_pp, ripple_pp_full) = match judged {
+        None => (
+            worst.value,
+            region::worst(problem, ev, local, Band::Full).value,
+        ),
+        Some(w) => (
+            region::named_value(problem, ev, local, w, Band::Limited),
+            region::named_value(problem, ev, local, w, Band::Full),
+        ),
     };
     let ripple_pp_typical = corners_pp.typical;
     let currents = region::currents(ev, local, Some(&worst));
@@ -328,6 +460,13 @@ pub fn assess_with(
     let vout = s.converter.vout.0;
     let mut lines = Vec::new();
     let mut warnings = problem.warnings.clone();
+    if opts.corner != NamedCorner::Worst {
+        warnings.push(format!(
+            "--corner {}: judged at this named corner only, not over the whole corner region (its worst is {})",
+            opts.corner.name(),
+            text_mv(worst.value)
+        ));
+    }
     let mut checks = Vec::new();
     let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
     let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);
@@ -381,6 +520,8 @@ pub fn assess_with(
         let der = s.derating(p.technology);
         checks.push(Check {
             name: format!("voltage {}", p.id),
+            part: Some(p.id.clone()),
+            bound: Bound::AtMost,
             value: vout,
             limit: p.rated_voltage * der,
             unit: "V".into(),
@@ -390,6 +531,8 @@ pub fn assess_with(
         if let Some(t) = tmin {
             checks.push(Check {
                 name: format!("temperature_min {}", p.id),
+                part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: t,
                 limit: s.environment.temperature_min,
                 unit: "°C".into(),
@@ -399,6 +542,8 @@ pub fn assess_with(
         if let Some(t) = tmax {
             checks.push(Check {
                 name: format!("temperature_max {}", p.id),
+                part: Some(p.id.clone()),
+                bound: Bound::AtLeast,
                 value: t,
                 limit: s.environment.temperature_max,
                 unit: "°C".into(),
@@ -408,6 +553,8 @@ pub fn assess_with(
         if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
             checks.push(Check {
                 name: format!("height {}", p.id),
+                part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: ph,
                 limit: h.0,
                 unit: "mm".into(),
@@ -417,6 +564,8 @@ pub fn assess_with(
         if let Some(r) = p.ripple_current {
             checks.push(Check {
                 name: format!("ripple_current {}", p.id),
+                part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: currents[j],
                 limit: r,
                 unit: "A".into(),
@@ -443,6 +592,8 @@ pub fn assess_with(
         if n > s.selection.max_per_part {
             checks.push(Check {
                 name: format!("max_per_part {}", p.id),
+                part: Some(p.id.clone()),
+                bound: Bound::AtMost,
                 value: nf,
                 limit: s.selection.max_per_part as f64,
                 unit: "".into(),
@@ -511,6 +662,8 @@ pub fn assess_with(
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
             ok: ripple_pp <= s.target.ripple_pp.0,
+            part: None,
+            bound: Bound::AtMost,
         },
     );
     if s.selection.margin.0 > 0.0 {
@@ -520,6 +673,8 @@ pub fn assess_with(
             limit: s.design_target(),
             unit: "V".into(),
             ok: ripple_pp <= s.design_target(),
+            part: None,
+            bound: Bound::AtMost,
         });
     }
     if s.selection.check_typical {
@@ -529,6 +684,8 @@ pub fn assess_with(
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
             ok: ripple_pp_typical <= s.target.ripple_pp.0,
+            part: None,
+            bound: Bound::AtMost,
         });
     }
     if let Some(m) = s.converter.max_capacitance {
@@ -538,6 +695,8 @@ pub fn assess_with(
             limit: m.0,
             unit: "F".into(),
             ok: climit <= m.0 * (1.0 + 1e-12),
+            part: None,
+            bound: Bound::AtMost,
         });
     }
     if s.converter.min_capacitance.0 > 0.0 {
@@ -548,6 +707,8 @@ pub fn assess_with(
             limit: m,
             unit: "F".into(),
             ok: ceff >= m,
+            part: None,
+            bound: Bound::AtLeast,
         });
     }
     if let Some(m) = s.board.max_count {
@@ -557,6 +718,8 @@ pub fn assess_with(
             limit: m as f64,
             unit: "".into(),
             ok: count <= m,
+            part: None,
+            bound: Bound::AtMost,
         });
     }
     checks.push(Check {
@@ -565,6 +728,8 @@ pub fn assess_with(
         limit: s.max_lines() as f64,
         unit: "".into(),
         ok: nlines <= s.max_lines(),
+        part: None,
+        bound: Bound::AtMost,
     });
     if let Some(m) = s.board.max_area {
         if area_known {
@@ -574,6 +739,8 @@ pub fn assess_with(
                 limit: m.0,
                 unit: "mm²".into(),
                 ok: area <= m.0 * (1.0 + 1e-12),
+                part: None,
+                bound: Bound::AtMost,
             });
         } else {
             warnings.push("some parts have no area: board.max_area cannot be checked".into());
@@ -586,6 +753,8 @@ pub fn assess_with(
             .map_or(0, |b| b.1);
         checks.push(Check {
             name: format!("require {id}"),
+            part: None,
+            bound: Bound::AtLeast,
             value: have as f64,
             limit: req as f64,
             unit: "".into(),
@@ -598,7 +767,7 @@ pub fn assess_with(
         .map(|op| CornerInfo {
             vin: op.vin,
             duty: op.duty,
-            mode: op.mode.into(),
+            mode: (!op.mode.is_empty()).then(|| op.mode.to_string()),
             ripple_frequency: op.f_ripple,
             current_pp: op.current_pp,
         })
@@ -606,6 +775,7 @@ pub fn assess_with(
     let meets_target = ripple_pp <= s.target.ripple_pp.0;
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
+        corner: opts.corner,
         bank: lines,
         worst_corner,
         ripple_pp_corners: corners_pp,

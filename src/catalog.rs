@@ -12,15 +12,22 @@ use std::path::Path;
 /// Capacitor technology, as spelled in the `technology` column.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum Technology {
+    /// Multilayer ceramic (class I or II by its `dielectric`).
     Ceramic,
+    /// Polymer aluminum.
     PolymerAluminum,
+    /// Polymer tantalum.
     PolymerTantalum,
+    /// Manganese-dioxide tantalum.
     Tantalum,
+    /// Wet aluminum electrolytic.
     AluminumElectrolytic,
+    /// Film.
     Film,
 }
 
 impl Technology {
+    /// Every technology, in the order the reports list them.
     pub const ALL: [Technology; 6] = [
         Technology::Ceramic,
         Technology::PolymerAluminum,
@@ -30,6 +37,7 @@ impl Technology {
         Technology::Film,
     ];
 
+    /// The name in the `technology` column and in `[selection.voltage_derating]`.
     pub fn name(self) -> &'static str {
         match self {
             Technology::Ceramic => "ceramic",
@@ -41,6 +49,7 @@ impl Technology {
         }
     }
 
+    /// Read a `technology` cell; `None` if it is not one of [`Technology::ALL`].
     pub fn parse(s: &str) -> Option<Technology> {
         let s = s.trim().to_ascii_lowercase().replace(['_', ' '], "-");
         Technology::ALL.into_iter().find(|t| t.name() == s)
@@ -70,12 +79,16 @@ impl fmt::Display for Technology {
 /// Lifecycle status of a part.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Status {
+    /// In production (the default).
     Active,
+    /// Not recommended for new designs.
     Nrnd,
+    /// No longer made.
     Obsolete,
 }
 
 impl Status {
+    /// The name in the `status` column.
     pub fn name(self) -> &'static str {
         match self {
             Status::Active => "active",
@@ -202,10 +215,12 @@ fn imperial_case_area(case: &str) -> Option<f64> {
 /// points, flat beyond the ends.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BiasCurve {
+    /// `(volts, fraction retained)`, in increasing voltage.
     pub points: Vec<(f64, f64)>,
 }
 
 impl BiasCurve {
+    /// Read `V:fraction` points joined by `;`; the error says which point is wrong.
     pub fn parse(text: &str) -> std::result::Result<BiasCurve, String> {
         let mut points = Vec::new();
         for (i, item) in text.split(';').enumerate() {
@@ -265,28 +280,49 @@ impl BiasCurve {
 /// One catalog row.
 #[derive(Debug, Clone)]
 pub struct Part {
+    /// Unique part id (`part` column).
     pub id: String,
+    /// Technology.
     pub technology: Technology,
+    /// Nominal capacitance, F.
     pub capacitance: f64,
+    /// Rated DC voltage, V.
     pub rated_voltage: f64,
+    /// Maximum ESR at room temperature, Ω.
     pub esr: f64,
+    /// ESL of the part itself, H.
     pub esl: f64,
+    /// Unit cost.
     pub cost: f64,
+    /// Capacitance tolerance as a fraction.
     pub tolerance: f64,
+    /// True when the catalog gave the tolerance (else 20 % is assumed).
     pub tolerance_given: bool,
+    /// EIA dielectric code as written and decoded.
     pub dielectric: Option<(String, Dielectric)>,
+    /// DC-bias curve, if given.
     pub dc_bias: Option<BiasCurve>,
+    /// Case code, if given.
     pub case: Option<String>,
     /// Footprint in mm², from the `area` column or the EIA case code.
     pub area: Option<f64>,
+    /// Height, mm.
     pub height: Option<f64>,
+    /// RMS ripple-current rating, A.
     pub ripple_current: Option<f64>,
+    /// Lowest rated temperature, °C (`temp_min` column).
     pub temp_min: Option<f64>,
+    /// Highest rated temperature, °C (`temp_max` column).
     pub temp_max: Option<f64>,
+    /// Worst-case fractional capacitance loss over temperature (`temp_drop` column).
     pub temp_drop: Option<f64>,
+    /// Life-cycle status.
     pub status: Status,
+    /// Maker, carried to the bill of materials.
     pub manufacturer: Option<String>,
+    /// Maker's part number, carried to the bill of materials.
     pub mpn: Option<String>,
+    /// Free description, carried to the bill of materials.
     pub description: Option<String>,
     /// Columns the catalog has beyond SPEC §2, as (header, value).
     pub extra: Vec<(String, String)>,
@@ -338,10 +374,13 @@ impl Part {
 /// A loaded catalog.
 #[derive(Debug, Clone, Default)]
 pub struct Catalog {
+    /// Where the catalog came from (path or bundled name), for messages.
     pub source: String,
+    /// The parts in file order.
     pub parts: Vec<Part>,
     /// Headers of the extra columns, in file order.
     pub extra_columns: Vec<String>,
+    /// Warnings found while reading.
     pub warnings: Vec<String>,
     index: HashMap<String, usize>,
 }
@@ -403,16 +442,19 @@ fn normalise_header(h: &str) -> String {
 }
 
 impl Catalog {
+    /// Read a catalog file; errors name the file, line and column.
     pub fn from_path(path: &Path) -> Result<Catalog> {
         let bytes = std::fs::read(path)
             .map_err(|e| anyhow::anyhow!("{}: cannot read the catalog: {e}", path.display()))?;
         Catalog::from_bytes(&bytes, &path.display().to_string())
     }
 
+    /// The part with this id.
     pub fn get(&self, id: &str) -> Option<&Part> {
         self.index.get(id).map(|&i| &self.parts[i])
     }
 
+    /// The index in `parts` of the part with this id.
     pub fn position(&self, id: &str) -> Option<usize> {
         self.index.get(id).copied()
     }

@@ -1,9 +1,35 @@
 //! Command line of ripplebank: parses arguments, runs a command, prints.
 
-use clap::{Parser, Subcommand};
+#![forbid(unsafe_code)]
+
+use clap::{Parser, Subcommand, ValueEnum};
+use ripplebank::assessment::{AssessOptions, NamedCorner};
 use ripplebank::commands::{self, Common, Outcome};
+use ripplebank::scenario::Objective;
+use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
+
+/// `--objective`: what the design minimises.
+#[derive(Clone, Copy, ValueEnum)]
+enum ObjectiveArg {
+    /// Total cost (parts plus line cost)
+    Cost,
+    /// Total footprint area
+    Area,
+    /// Number of parts
+    Count,
+}
+
+impl From<ObjectiveArg> for Objective {
+    fn from(o: ObjectiveArg) -> Objective {
+        match o {
+            ObjectiveArg::Cost => Objective::Cost,
+            ObjectiveArg::Area => Objective::Area,
+            ObjectiveArg::Count => Objective::Count,
+        }
+    }
+}
 
 #[derive(Parser)]
 #[command(
@@ -41,6 +67,9 @@ struct Output {
     /// Write one JSON document to stdout
     #[arg(long)]
     json: bool,
+    /// Keep the text report to the answer: no unused parts, no per-part limit rows
+    #[arg(long)]
+    quiet: bool,
 }
 
 #[derive(Subcommand)]
@@ -49,9 +78,9 @@ enum Cmd {
     Design {
         #[command(flatten)]
         input: Input,
-        /// cost, area or count
-        #[arg(long)]
-        objective: Option<String>,
+        /// What to minimise (default: the scenario's selection.objective)
+        #[arg(long, value_enum, ignore_case = true)]
+        objective: Option<ObjectiveArg>,
         /// Never use this part (repeatable)
         #[arg(long, value_name = "PART")]
         exclude: Vec<String>,
@@ -67,6 +96,9 @@ enum Cmd {
         /// The bank as a bill of materials CSV (columns part, count)
         #[arg(long, value_name = "F")]
         bom: Option<PathBuf>,
+        /// The corner to judge the bank at (worst: the whole corner region)
+        #[arg(long, value_enum, ignore_case = true, default_value_t = NamedCorner::Worst)]
+        corner: NamedCorner,
         #[command(flatten)]
         input: Input,
         #[command(flatten)]
@@ -79,10 +111,10 @@ enum Cmd {
         /// Tightest ripple target, V (default: the lowest reachable)
         #[arg(long, value_name = "V")]
         from: Option<String>,
-        /// Loosest ripple target, V (default: the smallest allowed bank's ripple, at most 10x the target)
+        /// Loosest ripple target, V (default: the converter alone if it has internal capacitance, else 10x the target)
         #[arg(long, value_name = "V")]
         to: Option<String>,
-        /// Number of targets
+        /// Number of targets (the scenario's own target is added when it is not one of them)
         #[arg(long, default_value_t = 8)]
         points: usize,
         #[command(flatten)]
@@ -117,6 +149,7 @@ fn common(input: Input, output: Output) -> Common {
         catalog: input.catalog,
         out: output.out,
         json: output.json,
+        quiet: output.quiet,
     }
 }
 
@@ -135,13 +168,23 @@ fn main() -> ExitCode {
             objective,
             exclude,
             output,
-        } => commands::design(&common(input, output), objective.as_deref(), &exclude),
+        } => commands::design(
+            &common(input, output),
+            objective.map(Objective::from),
+            &exclude,
+        ),
         Cmd::Assess {
             bank,
             bom,
+            corner,
             input,
             output,
-        } => commands::assess(&common(input, output), bank.as_deref(), bom.as_deref()),
+        } => commands::assess(
+            &common(input, output),
+            bank.as_deref(),
+            bom.as_deref(),
+            &AssessOptions { corner },
+        ),
         Cmd::Tradeoff {
             input,
             from,
@@ -165,12 +208,21 @@ fn main() -> ExitCode {
             catalog: input.catalog,
             out: None,
             json,
+            quiet: false,
         }),
     };
     match result {
         Ok(Outcome { stdout, code }) => {
-            print!("{stdout}");
-            ExitCode::from(code)
+            // A closed stdout (a pipe into `head`) is not an error.
+            let mut out = std::io::stdout().lock();
+            match out.write_all(stdout.as_bytes()).and_then(|()| out.flush()) {
+                Ok(()) => ExitCode::from(code),
+                Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => ExitCode::from(code),
+                Err(e) => {
+                    eprintln!("ripplebank: error: cannot write to stdout: {e}");
+                    ExitCode::from(2)
+                }
+            }
         }
         Err(e) => {
             eprintln!("ripplebank: error: {e:#}");

@@ -12,21 +12,28 @@ use serde::Serialize;
 /// A part that may not be used, and why.
 #[derive(Debug, Clone, Serialize)]
 pub struct Excluded {
+    /// Catalog part id.
     pub part: String,
+    /// Why it may not be used.
     pub reason: String,
 }
 
 /// Everything the evaluator and the optimizer need, prepared once.
 pub struct Problem {
+    /// The scenario, with command-line overrides applied.
     pub scenario: Scenario,
+    /// The parts catalog.
     pub catalog: Catalog,
     /// Catalog indices of the parts that may be used.
     pub eligible: Vec<usize>,
+    /// Every part that may not be used, with its reason.
     pub excluded: Vec<Excluded>,
+    /// The converter's operating points (one per input-voltage corner).
     pub ops: Vec<OperatingPoint>,
     /// The operating points the corner region's search starts from: the
     /// input-voltage sweep at each region inductance.
     pub region_ops: Vec<OperatingPoint>,
+    /// Warnings about the inputs.
     pub warnings: Vec<String>,
 }
 
@@ -142,6 +149,7 @@ fn calibrate_module(s: &Scenario, ops: &mut [OperatingPoint]) {
 }
 
 impl Problem {
+    /// Check the scenario against the catalog, sort the parts into eligible and excluded, and compute the operating points.
     pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
         scenario.check_against(&catalog)?;
         let objective = scenario.selection.objective;
@@ -327,6 +335,7 @@ impl Problem {
         op.remove(0)
     }
 
+    /// The technology of catalog part `i`.
     pub fn technology(&self, i: usize) -> Technology {
         self.catalog.parts[i].technology
     }

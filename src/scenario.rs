@@ -63,18 +63,26 @@ quantity!(Seconds, Unit::Second);
 quantity!(Fraction, Unit::Fraction);
 quantity!(Plain, Unit::Plain);
 
+/// Converter topology (`converter.topology`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Topology {
+    /// Buck; `phases` interleaved phases.
     Buck,
+    /// Forward converter (rectified secondary, output inductor).
     Forward,
+    /// Bridge or push-pull with rectified secondary.
     Bridge,
+    /// Flyback.
     Flyback,
+    /// Boost.
     Boost,
+    /// A module with its own stated standalone ripple.
     Module,
 }
 
 impl Topology {
+    /// The lowercase name as in the scenario.
     pub fn name(self) -> &'static str {
         match self {
             Topology::Buck => "buck",
@@ -87,34 +95,53 @@ impl Topology {
     }
 }
 
+/// The `[converter]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Converter {
+    /// `topology`.
     pub topology: Topology,
+    /// `vin`: one input voltage.
     pub vin: Option<Volts>,
+    /// `vin_min`: the low end of the input range.
     pub vin_min: Option<Volts>,
+    /// `vin_max`: the high end of the input range.
     pub vin_max: Option<Volts>,
+    /// `vout`: output voltage.
     pub vout: Volts,
+    /// `iout`: output current.
     #[serde(default)]
     pub iout: Amperes,
+    /// `fsw`: switching frequency.
     pub fsw: Hertz,
+    /// `inductance`: output inductor (buck, forward, bridge), inductor (boost) or primary magnetizing inductance (flyback).
     pub inductance: Option<Henries>,
     /// Tolerance of `inductance` (fraction; the region spans L·(1 ± tol)).
     #[serde(default)]
     pub inductance_tolerance: Fraction,
+    /// `turns_ratio`: Ns/Np (forward, bridge, flyback).
     pub turns_ratio: Option<Plain>,
+    /// `phases`: interleaved buck phases.
     #[serde(default = "one")]
     pub phases: u32,
+    /// `edge_time`: commutation time of current steps (flyback, boost).
     #[serde(default)]
     pub edge_time: Seconds,
+    /// `max_capacitance`: the converter's limit on added output capacitance.
     pub max_capacitance: Option<Farads>,
+    /// `min_capacitance`: the least added capacitance the converter needs.
     #[serde(default)]
     pub min_capacitance: Farads,
+    /// `standalone_ripple_pp`: a module's ripple with no added capacitors.
     pub standalone_ripple_pp: Option<Volts>,
+    /// `standalone_bandwidth`: the bandwidth of that figure.
     pub standalone_bandwidth: Option<Hertz>,
+    /// `internal_capacitance`: capacitance already on the converter's output.
     pub internal_capacitance: Option<Farads>,
+    /// `internal_esr`: ESR of the internal capacitance.
     #[serde(default)]
     pub internal_esr: Ohms,
+    /// `internal_esl`: ESL of the internal capacitance.
     #[serde(default)]
     pub internal_esl: Henries,
 }
@@ -123,22 +150,30 @@ fn one() -> u32 {
     1
 }
 
+/// The `[target]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Target {
+    /// `ripple_pp`: the peak-to-peak limit.
     pub ripple_pp: Volts,
+    /// `bandwidth`: the measurement bandwidth (`None`: full bandwidth).
     pub bandwidth: Option<Hertz>,
+    /// `bandwidth_order`: low-pass order of the measurement.
     #[serde(default = "one")]
     pub bandwidth_order: u32,
+    /// `harmonics`: harmonics to sum; 0 chooses automatically.
     #[serde(default)]
     pub harmonics: usize,
 }
 
+/// The `[environment]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Environment {
+    /// `temperature_min`, °C.
     #[serde(default = "room")]
     pub temperature_min: f64,
+    /// `temperature_max`, °C.
     #[serde(default = "room")]
     pub temperature_max: f64,
 }
@@ -156,29 +191,41 @@ impl Default for Environment {
     }
 }
 
+/// The `[board]` table.
 #[derive(Debug, Clone, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Board {
+    /// `mounting_inductance`: added in series with every capacitor.
     #[serde(default)]
     pub mounting_inductance: Henries,
+    /// `connection_inductance`: between the converter's output and the bank.
     #[serde(default)]
     pub connection_inductance: Henries,
+    /// `max_area`: mm².
     pub max_area: Option<Plain>,
+    /// `max_height`: mm.
     pub max_height: Option<Plain>,
+    /// `max_count`: most parts in the bank.
     pub max_count: Option<u32>,
+    /// `max_lines`: most distinct parts.
     pub max_lines: Option<u32>,
 }
 
+/// What the design minimises (`selection.objective`, `--objective`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
 #[serde(rename_all = "lowercase")]
 pub enum Objective {
+    /// Total cost.
     #[default]
     Cost,
+    /// Total footprint area.
     Area,
+    /// Number of parts.
     Count,
 }
 
 impl Objective {
+    /// `cost`, `area` or `count`.
     pub fn name(self) -> &'static str {
         match self {
             Objective::Cost => "cost",
@@ -186,6 +233,7 @@ impl Objective {
             Objective::Count => "count",
         }
     }
+    /// Read an objective name; `None` if unknown.
     pub fn parse(s: &str) -> Option<Objective> {
         match s {
             "cost" => Some(Objective::Cost),
@@ -196,31 +244,43 @@ impl Objective {
     }
 }
 
+/// How the added capacitance is counted against `max_capacitance`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
 #[serde(rename_all = "lowercase")]
 pub enum CapBasis {
+    /// Nominal × (1 + tolerance), no bias.
     #[default]
     Nominal,
+    /// Effective capacitance with DC bias.
     Effective,
 }
 
+/// The `[selection]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Selection {
+    /// `objective`.
     #[serde(default)]
     pub objective: Objective,
+    /// `line_cost`: added once per distinct part.
     #[serde(default)]
     pub line_cost: Plain,
+    /// `max_per_part`: most parts of one line.
     #[serde(default = "twenty")]
     pub max_per_part: u32,
+    /// `exclude`: part ids never to use.
     #[serde(default)]
     pub exclude: Vec<String>,
+    /// `allow_nrnd`: parts not recommended for new designs may be used.
     #[serde(default)]
     pub allow_nrnd: bool,
+    /// `require`: fixed minimum counts per part id.
     #[serde(default)]
     pub require: BTreeMap<String, u32>,
+    /// `max_capacitance_basis`.
     #[serde(default)]
     pub max_capacitance_basis: CapBasis,
+    /// `[selection.voltage_derating]`: rated × factor must reach vout, per technology.
     #[serde(default)]
     pub voltage_derating: BTreeMap<String, Fraction>,
     /// Extension: require the typical corner to meet the target too (for
@@ -254,26 +314,35 @@ impl Default for Selection {
     }
 }
 
+/// A scenario file.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Scenario {
+    /// `name`.
     #[serde(default)]
     pub name: String,
     /// Free text about the product (an extension of SPEC §3).
     #[serde(default)]
     pub description: String,
+    /// `catalog`: path relative to the scenario file.
     pub catalog: Option<String>,
+    /// `[converter]`.
     pub converter: Converter,
+    /// `[target]`.
     pub target: Target,
+    /// `[environment]`.
     #[serde(default)]
     pub environment: Environment,
+    /// `[board]`.
     #[serde(default)]
     pub board: Board,
+    /// `[selection]`.
     #[serde(default)]
     pub selection: Selection,
     /// Where the scenario came from (for messages and relative paths).
     #[serde(skip)]
     pub source: String,
+    /// Folder of the scenario file, for relative paths.
     #[serde(skip)]
     pub dir: Option<PathBuf>,
 }
@@ -282,6 +351,7 @@ pub struct Scenario {
 pub const DEFAULT_MAX_LINES: u32 = 3;
 
 impl Scenario {
+    /// Read a scenario file; errors name the file and the key.
     pub fn from_path(path: &Path) -> Result<Scenario> {
         let text = std::fs::read(path)
             .map_err(|e| anyhow::anyhow!("{}: cannot read the scenario: {e}", path.display()))?;
@@ -298,6 +368,7 @@ impl Scenario {
         Ok(s)
     }
 
+    /// Read scenario text; `source` names it in messages.
     pub fn from_str(text: &str, source: &str) -> Result<Scenario> {
         let text = text.strip_prefix('\u{feff}').unwrap_or(text);
         let mut s: Scenario = toml::from_str(text).map_err(|e| {
@@ -337,6 +408,7 @@ impl Scenario {
         self.target.ripple_pp.0 * (1.0 - self.selection.margin.0)
     }
 
+    /// `board.max_lines`, or the default.
     pub fn max_lines(&self) -> u32 {
         self.board.max_lines.unwrap_or(DEFAULT_MAX_LINES)
     }

@@ -10,12 +10,19 @@ use std::fmt;
 /// The physical kind of a field; decides which unit symbol is accepted.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Unit {
+    /// Capacitance, F.
     Farad,
+    /// Resistance, Ω.
     Ohm,
+    /// Inductance, H.
     Henry,
+    /// Voltage, V.
     Volt,
+    /// Current, A.
     Ampere,
+    /// Frequency, Hz.
     Hertz,
+    /// Time, s.
     Second,
     /// Plain number or percentage (`"10%"` = 0.10).
     Fraction,
@@ -38,6 +45,7 @@ impl Unit {
         }
     }
 
+    /// The unit's name, for messages.
     pub fn name(self) -> &'static str {
         match self {
             Unit::Farad => "capacitance (F)",

@@ -853,6 +853,8 @@ const OPTIONAL: &[&str] = &[
     "case",
     "bandwidth",
     "vin",
+    "mode",      // null where the topology has no conduction mode (README "JSON")
+    "inductors", // null: no inductor catalog is read (README "JSON")
 ];
 
 #[test]

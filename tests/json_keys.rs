@@ -1,4 +1,4 @@
-//! The JSON documents carry every key SPEC §8 names (source: SPEC §8), for
+//! The JSON documents carry every key of the JSON contract (source: the interface contract as README "JSON" states it), for
 //! each command, on the bundled demo and on an infeasible variant of it.
 
 use assert_cmd::Command;
@@ -41,10 +41,82 @@ fn has_all(v: &Value, keys: &[&str], what: &str) {
     }
 }
 
+/// SHA-256 of a file by `sha256sum` (GNU coreutils) when installed, else by
+/// the library's own (checked against the FIPS 180-4 vectors in its unit tests).
+fn sha256_of(path: &std::path::Path) -> String {
+    match std::process::Command::new("sha256sum").arg(path).output() {
+        Ok(o) if o.status.success() => String::from_utf8(o.stdout)
+            .unwrap()
+            .split_whitespace()
+            .next()
+            .unwrap()
+            .to_string(),
+        _ => ripplebank::sha256::hex(&std::fs::read(path).unwrap()),
+    }
+}
+
+/// `version`, `inputs` and `date`, in every document (v2 keys).
+fn run_keys(v: &Value, what: &str) {
+    assert_eq!(
+        v["version"].as_str(),
+        Some(env!("CARGO_PKG_VERSION")),
+        "{what}: version"
+    );
+    let inputs = v["inputs"].as_object().expect("inputs is an object");
+    for k in ["scenario", "catalog", "inductors"] {
+        let i = inputs
+            .get(k)
+            .unwrap_or_else(|| panic!("{what}: inputs.{k} missing"));
+        assert!(
+            i.is_null() || (i["path"].is_string() && i["sha256"].is_string()),
+            "{what}: inputs.{k}"
+        );
+    }
+    // The bundled demo: its path says so, its hash is that of the file it was built from.
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    if inputs["scenario"]["path"]
+        .as_str()
+        .is_some_and(|p| p.starts_with("(bundled)"))
+    {
+        assert_eq!(
+            inputs["scenario"]["path"],
+            "(bundled) scenarios/pol-buck-3v3.toml"
+        );
+        assert_eq!(
+            inputs["scenario"]["sha256"].as_str().unwrap(),
+            sha256_of(&root.join("scenarios/pol-buck-3v3.toml"))
+        );
+    }
+    let cat = &inputs["catalog"];
+    assert_eq!(
+        cat["sha256"].as_str().unwrap(),
+        sha256_of(&root.join("catalogs/demo-parts.csv")),
+        "{what}: every run here uses the demo catalog's bytes"
+    );
+    // RFC 3339, UTC: YYYY-MM-DDThh:mm:ssZ.
+    let d = v["date"].as_str().expect("date is a string");
+    let b = d.as_bytes();
+    assert_eq!(b.len(), 20, "{what}: date {d}");
+    for (i, c) in b.iter().enumerate() {
+        match i {
+            4 | 7 => assert_eq!(*c, b'-', "{d}"),
+            10 => assert_eq!(*c, b'T', "{d}"),
+            13 | 16 => assert_eq!(*c, b':', "{d}"),
+            19 => assert_eq!(*c, b'Z', "{d}"),
+            _ => assert!(c.is_ascii_digit(), "{d}"),
+        }
+    }
+    let month: u32 = d[5..7].parse().unwrap();
+    let day: u32 = d[8..10].parse().unwrap();
+    assert!((1..=12).contains(&month) && (1..=31).contains(&day), "{d}");
+    assert!(d[..4].parse::<u32>().unwrap() >= 2024, "{d}");
+}
+
 #[test]
 fn design_assess_rework_tradeoff_keys() {
     let d = run(&["design"], 0);
     has_all(&d, BANK_KEYS, "design");
+    run_keys(&d, "design");
     assert!(matches!(d["status"].as_str(), Some("optimal" | "feasible")));
     for b in d["bank"].as_array().unwrap() {
         assert!(b["part"].is_string() && b["count"].is_u64());
@@ -63,6 +135,7 @@ fn design_assess_rework_tradeoff_keys() {
         .collect();
     let a = run(&["assess", "--bank", &bank.join(",")], 0);
     has_all(&a, BANK_KEYS, "assess");
+    run_keys(&a, "assess");
     assert_eq!(a["status"], "pass");
     assert_eq!(a["ripple_pp"], d["ripple_pp"]);
 
@@ -75,14 +148,21 @@ fn design_assess_rework_tradeoff_keys() {
     std::fs::write(&bom, text).unwrap();
     let r = run(&["rework", "--bom", bom.to_str().unwrap()], 0);
     has_all(&r, BANK_KEYS, "rework");
+    run_keys(&r, "rework");
     has_all(&r, &["kept", "removed", "added"], "rework");
 
     let t = run(
         &["tradeoff", "--points", "3", "--from", "5m", "--to", "20m"],
         0,
     );
+    run_keys(&t, "tradeoff");
     let pts = t["points"].as_array().unwrap();
-    assert_eq!(pts.len(), 3);
+    // Three geometric targets plus the scenario's own (8 mV), in order.
+    assert_eq!(pts.len(), 4);
+    assert_eq!(
+        pts.iter().filter(|p| p["scenario_target"] == true).count(),
+        1
+    );
     for p in pts {
         has_all(
             p,
@@ -101,6 +181,23 @@ fn design_assess_rework_tradeoff_keys() {
 }
 
 #[test]
+fn validate_keys() {
+    let v = run(&["validate"], 0);
+    run_keys(&v, "validate");
+    assert!(v["inputs"]["inductors"].is_null());
+    // A scenario from a file: its own path and hash.
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let f = root.join("scenarios/module-5v.toml");
+    let v = run(&["validate", "--scenario", f.to_str().unwrap()], 0);
+    run_keys(&v, "validate --scenario");
+    assert_eq!(v["inputs"]["scenario"]["path"], f.to_str().unwrap());
+    assert_eq!(
+        v["inputs"]["scenario"]["sha256"].as_str().unwrap(),
+        sha256_of(&f)
+    );
+}
+
+#[test]
 fn infeasible_design_keys() {
     let dir = tempfile::tempdir().unwrap();
     let text = ripplebank::load::DEMO_SCENARIO
@@ -113,6 +210,7 @@ fn infeasible_design_keys() {
     std::fs::write(&f, text).unwrap();
     let d = run(&["design", "--scenario", f.to_str().unwrap()], 1);
     has_all(&d, BANK_KEYS, "infeasible design");
+    run_keys(&d, "infeasible design");
     has_all(&d, &["best_ripple_pp", "binding"], "infeasible design");
     assert_eq!(d["status"], "infeasible");
     assert!(d["best_ripple_pp"].as_f64().unwrap() > 1e-3);

@@ -1,6 +1,6 @@
 //! Each limit changes the design as it should, on the bundled demo (a
 //! 12 V → 3.3 V buck, invented data). Every check recomputes the limit from
-//! its definition (SPEC §3–§4) on the reported bank with the evaluator.
+//! its definition (the scenario keys and limits of docs/model.md) on the reported bank with the evaluator.
 
 use ripplebank::assessment::{assess, Assessment};
 use ripplebank::catalog::{Catalog, Status as Life};
@@ -67,39 +67,89 @@ fn max_lines() {
 
 #[test]
 fn max_count() {
+    // A limit between the fewest parts any passing bank needs (the count
+    // design, checked by brute force in tests/oracle.rs) and the cost
+    // design's count: feasible, and the cost design breaks it.
+    use ripplebank::scenario::Objective;
     let b = baseline();
     let (mut s, c) = demo();
-    s.board.max_count = Some(b.count - 2);
+    s.selection.objective = Objective::Count;
+    let fewest = solve(s, c).1.expect("a count design").count;
+    assert!(
+        fewest < b.count,
+        "the cost design uses more parts ({}) than the fewest ({fewest})",
+        b.count
+    );
+    let limit = fewest;
+    assert!(
+        b.count > limit,
+        "unconstrained, the design breaks the limit"
+    );
+    let (mut s, c) = demo();
+    s.board.max_count = Some(limit);
     let (_, a) = solve(s, c);
-    if let Some(a) = a {
-        assert!(a.count <= b.count - 2);
-        assert!(a.cost >= b.cost - 1e-12);
-    }
+    let a = a.expect("the count design shows a bank within the limit exists");
+    assert!(a.count <= limit, "{} parts > {limit}", a.count);
+    assert!(
+        a.cost >= b.cost - 1e-12,
+        "a limit never makes the design cheaper"
+    );
 }
 
 #[test]
 fn max_area() {
+    // A limit halfway between the smallest passing area (the area design)
+    // and the cost design's area: feasible, and the cost design breaks it.
+    use ripplebank::scenario::Objective;
     let b = baseline();
     let (mut s, c) = demo();
-    let limit = b.area * 0.8;
+    s.selection.objective = Objective::Area;
+    let smallest = solve(s, c).1.expect("an area design").area;
+    assert!(
+        smallest < b.area * 0.999,
+        "area design {smallest} vs cost design {}",
+        b.area
+    );
+    let limit = (smallest + b.area) / 2.0;
+    assert!(b.area > limit, "unconstrained, the design breaks the limit");
+    let (mut s, c) = demo();
     s.board.max_area = Some(Plain(limit));
     let (_, a) = solve(s, c);
-    if let Some(a) = a {
-        assert!(a.area <= limit * (1.0 + 1e-12), "{} > {limit}", a.area);
-        assert!(a.cost >= b.cost - 1e-12);
-    }
+    let a = a.expect("the area design shows a bank within the limit exists");
+    assert!(a.area <= limit * (1.0 + 1e-12), "{} > {limit}", a.area);
+    assert!(
+        a.cost >= b.cost - 1e-12,
+        "a limit never makes the design cheaper"
+    );
 }
 
 #[test]
 fn max_height() {
+    // Just below the cost design's tallest part: the design must change to
+    // lower parts, and it still exists.
     let b = baseline();
     let tallest = b.bank.iter().filter_map(|l| l.height).fold(0.0, f64::max);
+    let limit = tallest - 0.01;
+    assert!(
+        b.bank.iter().any(|l| l.height.unwrap() > limit),
+        "unconstrained, the design breaks the limit"
+    );
     let (mut s, c) = demo();
-    s.board.max_height = Some(Plain(tallest - 0.01));
-    let (_, a) = solve(s, c);
-    if let Some(a) = a {
-        assert!(a.bank.iter().all(|l| l.height.unwrap() < tallest));
+    s.board.max_height = Some(Plain(limit));
+    let (p, a) = solve(s, c);
+    let a = a.expect("a bank of lower parts exists");
+    assert!(!a.bank.is_empty());
+    for l in &a.bank {
+        let h = l.height.expect("every demo part has a height");
+        assert!(h <= limit, "{} is {h} mm > {limit}", l.part);
     }
+    // Recomputed from the catalog: every part above the limit is excluded.
+    for (i, q) in p.catalog.parts.iter().enumerate() {
+        if q.height.is_some_and(|h| h > limit) {
+            assert!(!p.eligible.contains(&i), "{} is too tall", q.id);
+        }
+    }
+    assert!(a.cost >= b.cost - 1e-12);
 }
 
 #[test]
@@ -197,7 +247,7 @@ fn status_obsolete_and_nrnd() {
 #[test]
 fn line_cost_favours_fewer_lines() {
     // A per-line cost (feeder set-up) is paid once per distinct part
-    // (SPEC §3): with a large one, the design uses fewer lines, and the
+    // (selection.line_cost): with a large one, the design uses fewer lines, and the
     // reported cost includes it.
     let b = baseline();
     let (mut s, c) = demo();
@@ -263,7 +313,7 @@ fn check_typical_holds_the_typical_corner_to_the_target() {
 
 #[test]
 fn objective_area_needs_every_usable_part_to_have_an_area() {
-    // SPEC §2: "when absent it comes from the imperial EIA case code …, else
+    // The catalog rule for `area`: "when absent it comes from the imperial EIA case code …, else
     // it is an error for objective `area`" — exit 2 naming file, line, column.
     let dir = tempfile::tempdir().unwrap();
     let cat = dir.path().join("c.csv");

@@ -7,6 +7,7 @@ use ripplebank::assessment::{self, Assessment};
 use ripplebank::catalog::Catalog;
 use ripplebank::load;
 use ripplebank::problem::Problem;
+use ripplebank::report::model::{self, Report, Verdict};
 use ripplebank::report::{html, plots, CAUTIONS};
 use ripplebank::scenario::Scenario;
 use std::f64::consts::PI;
@@ -353,7 +354,10 @@ fn plots_escape_part_names() {
         "{:?}",
         texts(&doc)
     );
-    let page = html::page("A & <B>", "Bank\n  A&B <47u>\n", &plots);
+    let mut rep = Report::new("A & <B>", None);
+    rep.section("Bank");
+    rep.line("A&B <47u>");
+    let page = html::render(&rep, &plots);
     let doc = parse_html(&page);
     let h1 = doc.descendants().find(|n| n.has_tag_name("h1")).unwrap();
     assert_eq!(h1.text(), Some("A & <B>"));
@@ -373,11 +377,15 @@ fn html_report_is_self_contained_and_embeds_every_plot() {
     let p = demo();
     let (b, a) = assessed(&p, &format!("{BIG}=4,{SMALL}=2"));
     let plots = plots::bank_plots(&p, &b, &a).unwrap();
-    let mut body = ripplebank::report::text::header(&p);
-    body.push_str(&ripplebank::report::text::assessment(&a));
-    body.push_str("\nVerdict: PASS — test.\n");
-    body.push_str(&ripplebank::report::text::cautions());
-    let page = html::page("Bank assessment", &body, &plots);
+    let mut rep = Report::new("Bank assessment", None);
+    rep.push(model::header(&p));
+    for sec in model::assessment(&a, false) {
+        rep.push(sec);
+    }
+    // The verdict's words say "fail"; its class must follow the kind (pass), not the words.
+    rep.verdict(Verdict::Pass, "Verdict: test text that says FAIL in words.");
+    rep.push(model::cautions());
+    let page = html::render(&rep, &plots);
     assert!(page.starts_with("<!DOCTYPE html>"));
     assert!(
         !page.contains("<?xml"),
@@ -431,6 +439,34 @@ fn html_report_is_self_contained_and_embeds_every_plot() {
     assert!(doc
         .descendants()
         .any(|n| n.attribute("class") == Some("verdict pass")));
+    assert!(!doc
+        .descendants()
+        .any(|n| n.attribute("class") == Some("verdict fail")));
+    // Tables are tables: the bank and the limits, with their headings and rows.
+    let tables: Vec<_> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("table"))
+        .collect();
+    assert!(tables.len() >= 3, "bank, ripple and limits tables");
+    let cells = |t: &roxmltree::Node| -> Vec<String> {
+        t.descendants()
+            .filter(|n| n.has_tag_name("th") || n.has_tag_name("td"))
+            .map(|n| n.text().unwrap_or("").to_string())
+            .collect()
+    };
+    assert!(tables.iter().any(|t| {
+        let c = cells(t);
+        c.iter().any(|x| x == BIG) && c.iter().any(|x| x == "C nominal")
+    }));
+    let limits = tables
+        .iter()
+        .find(|t| cells(t).iter().any(|x| x == "must be"))
+        .expect("the limits table states each check's direction");
+    let rows = limits
+        .descendants()
+        .filter(|n| n.has_tag_name("tr"))
+        .count();
+    assert_eq!(rows, a.checks.len() + 1, "one row per check and a header");
     // No scripts and nothing fetched from elsewhere.
     assert!(!doc
         .descendants()

@@ -14,6 +14,31 @@ use ripplebank::optimize::{self, Settings};
 use ripplebank::problem::Problem;
 use ripplebank::scenario::Scenario;
 
+/// Kept lines whose count changed.
+fn count_changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
+    old.iter()
+        .filter(|o| new.iter().any(|n| n.0 == o.0 && n.1 != o.1))
+        .count()
+}
+
+/// Added lines in the case (footprint) of a removed line.
+fn same_case(cat: &Catalog, old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
+    let removed: Vec<&str> = old
+        .iter()
+        .filter(|o| !new.iter().any(|n| n.0 == o.0))
+        .filter_map(|o| cat.parts[o.0].case.as_deref())
+        .collect();
+    new.iter()
+        .filter(|n| !old.iter().any(|o| o.0 == n.0))
+        .filter(|n| {
+            cat.parts[n.0]
+                .case
+                .as_deref()
+                .is_some_and(|c| removed.contains(&c))
+        })
+        .count()
+}
+
 /// Changed line items between two banks: lines removed plus lines added.
 fn changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
     old.iter()
@@ -29,6 +54,7 @@ fn changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
 fn rework_matches_brute_force() {
     let mut rng = StdRng::seed_from_u64(0x2e_0012);
     let mut compared = 0;
+    let mut count_rule_mattered = 0;
     for case in 0..120 {
         let nparts = rng.gen_range(3..=6);
         let cat_text = random_catalog(&mut rng, nparts);
@@ -98,10 +124,35 @@ fn rework_matches_brute_force() {
             .iter()
             .filter(|(b, _)| !b.iter().any(|x| x.0 == forced[0]))
             .collect();
+        // The rule: fewest changed lines, then fewest changed counts, then
+        // cost, then the most same-footprint additions.
         let best = allowed
             .iter()
-            .map(|(b, c)| (changes(&current, b), *c))
+            .map(|(b, c)| {
+                (
+                    changes(&current, b),
+                    count_changes(&current, b),
+                    *c,
+                    same_case(cat, &current, b),
+                )
+            })
+            .min_by(|x, y| {
+                x.0.cmp(&y.0)
+                    .then(x.1.cmp(&y.1))
+                    .then(x.2.partial_cmp(&y.2).unwrap())
+                    .then(y.3.cmp(&x.3))
+            });
+        // The rule without counts (lines, then cost): where it differs, the
+        // count rule changed the answer.
+        let lines_then_cost = allowed
+            .iter()
+            .map(|(b, c)| (changes(&current, b), *c, count_changes(&current, b)))
             .min_by(|x, y| x.0.cmp(&y.0).then(x.1.partial_cmp(&y.1).unwrap()));
+        if let (Some(b), Some(l)) = (best, lines_then_cost) {
+            if l.2 > b.1 {
+                count_rule_mattered += 1;
+            }
+        }
         let r = optimize::rework(
             &p,
             &current,
@@ -122,7 +173,7 @@ fn rework_matches_brute_force() {
                     f.bank
                 );
             }
-            (Some((ch, cost)), Some(f)) => {
+            (Some((ch, cch, cost, _)), Some(f)) => {
                 compared += 1;
                 assert!(
                     !f.bank.iter().any(|x| x.0 == forced[0]),
@@ -136,14 +187,24 @@ fn rework_matches_brute_force() {
                     .iter()
                     .map(|&(i, n)| n as f64 * cat.parts[i].cost)
                     .sum();
+                let got_c = count_changes(&current, &f.bank);
+                assert_eq!(
+                    got_c, cch,
+                    "case {case}: {got_c} changed counts, fewest possible {cch}"
+                );
+                assert_eq!(r.count_changes, cch, "case {case}: reported count changes");
                 assert!(
-                    tool_cost <= cost * 1.01 + 1e-12,
-                    "case {case}: cost {tool_cost} above {cost}"
+                    (tool_cost - cost).abs() <= 1e-9 * cost.max(1e-12),
+                    "case {case}: cost {tool_cost}, brute force {cost}"
                 );
             }
         }
     }
-    eprintln!("rework: {compared} cases compared with brute force");
+    eprintln!("rework: {compared} cases compared with brute force; the count rule changed the answer in {count_rule_mattered}");
+    assert!(
+        count_rule_mattered >= 1,
+        "no case where counting count changes changes the answer"
+    );
     assert!(compared >= 40, "too few comparable cases: {compared}");
 }
 
@@ -240,4 +301,95 @@ fn part_missing_from_the_catalog_is_replaced() {
         .iter()
         .any(|r| r["part"] == "NO-SUCH-PART" && r["reason"] == "not in the catalog"));
     assert_eq!(v["before"]["complete"], false);
+}
+
+/// Where two replacements tie on changed lines, changed counts and cost, the
+/// one in the dropped part's footprint (case) wins. The catalog (invented)
+/// holds two electrically identical parts of equal cost, C in 1206 with the
+/// smaller stated area (so it dominates in area and the plain search keeps
+/// it) and B in 0805, the case of the dropped part A. Brute force over every
+/// count of the replacement confirms the tie; the rule picks B.
+#[test]
+fn same_footprint_replacement_wins_a_tie() {
+    let cat_text = "part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance,dielectric,case,area,height\n\
+        K,ceramic,1u,10,8m,0.35n,0.015,10%,X5R,0402,,0.5\n\
+        C,ceramic,22u,10,4m,0.5n,0.06,10%,X5R,1206,1.5,1.0\n\
+        A,ceramic,22u,10,4m,0.5n,0.05,10%,X5R,0805,,1.0\n\
+        B,ceramic,22u,10,4m,0.5n,0.06,10%,X5R,0805,2.5,1.0\n";
+    let scen = |target: f64| {
+        format!(
+            "[converter]\ntopology = \"buck\"\nvin = 12\nvout = 3.3\niout = 6\nfsw = \"600k\"\ninductance = \"2.2u\"\n\
+             [target]\nripple_pp = {target}\nbandwidth = \"20M\"\nharmonics = 80\n\
+             [board]\nmounting_inductance = \"0.3n\"\nmax_lines = 3\n[selection]\nmax_per_part = {MAX_COUNT}\n"
+        )
+    };
+    let problem = |target: f64| {
+        let c = Catalog::from_bytes(cat_text.as_bytes(), "tie.csv").unwrap();
+        Problem::new(Scenario::from_str(&scen(target), "tie.toml").unwrap(), c).unwrap()
+    };
+    let p0 = problem(1.0);
+    let id = |p: &Problem, s: &str| p.catalog.position(s).unwrap();
+    let (k, a, b, c) = (id(&p0, "K"), id(&p0, "A"), id(&p0, "B"), id(&p0, "C"));
+    let current = vec![(k, 1), (a, 4)];
+    let r_current = ripplebank::assessment::assess(&p0, &current)
+        .unwrap()
+        .ripple_pp;
+    let target = r_current * 1.001;
+    let p = problem(target);
+    let r_k = ripplebank::assessment::assess(&p, &[(k, MAX_COUNT)])
+        .unwrap()
+        .ripple_pp;
+    assert!(
+        r_k > target,
+        "K alone, even {MAX_COUNT} of it, must not meet the target"
+    );
+    // Brute force: the cheapest count of each replacement with K kept at 1.
+    let cheapest = |x: usize| {
+        (1..=MAX_COUNT)
+            .find(|&n| {
+                let a = ripplebank::assessment::assess(&p, &[(k, 1), (x, n)]).unwrap();
+                a.all_ok
+            })
+            .map(|n| (n, n as f64 * p.catalog.parts[x].cost))
+    };
+    let (nb, cb) = cheapest(b).expect("B replaces A");
+    let (nc, cc) = cheapest(c).expect("C replaces A");
+    assert_eq!(nb, nc);
+    assert!((cb - cc).abs() < 1e-12, "a true tie: {cb} vs {cc}");
+    let r = optimize::rework(
+        &p,
+        &current,
+        &[a],
+        &Settings {
+            explain: false,
+            ..Default::default()
+        },
+    );
+    let f = r.found.expect("a rework");
+    assert_eq!(r.changes, 2, "remove A, add one line");
+    assert_eq!(r.count_changes, 0, "K keeps its count");
+    assert!(f.bank.contains(&(k, 1)), "{:?}", f.bank);
+    assert!(
+        f.bank.contains(&(b, nb)),
+        "same-footprint B expected: {:?}",
+        f.bank
+    );
+    // Without the footprint rule the answer differs: the plain search keeps C.
+    let mut sc = p.scenario.clone();
+    sc.selection.exclude.push("A".into());
+    sc.selection.require.insert("K".into(), 1);
+    sc.board.max_lines = Some(2);
+    let plain = Problem::new(sc, p.catalog.clone()).unwrap();
+    let d = optimize::design(
+        &plain,
+        &Settings {
+            explain: false,
+            ..Default::default()
+        },
+    );
+    let db = d.found.expect("a plain design").bank;
+    assert!(
+        !db.iter().any(|x| x.0 == b),
+        "plain design {db:?} would already pick B"
+    );
 }

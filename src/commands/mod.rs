@@ -6,39 +6,50 @@ mod design;
 mod rework;
 mod tradeoff;
 
-pub use design::{design, design_report};
+pub use design::design;
 pub use rework::rework;
-pub use tradeoff::{bank_key, tradeoff, TRADEOFF_SPAN};
+pub(crate) use tradeoff::bank_key;
+pub use tradeoff::tradeoff;
 
 use crate::assessment::{self, Assessment};
 use crate::load::{self, Overrides};
 use crate::problem::Problem;
+use crate::report::model::{self, Report, Table, Verdict};
 use crate::report::{self, text, OutFiles};
+use crate::run::Run;
 use anyhow::Result;
 use serde_json::json;
-use std::fmt::Write;
 use std::path::{Path, PathBuf};
 
 /// Options every command shares.
 #[derive(Debug, Clone, Default)]
 pub struct Common {
+    /// `--scenario`: the scenario file (default: the bundled demo).
     pub scenario: Option<PathBuf>,
+    /// `--catalog`: the catalog file (default: the scenario's).
     pub catalog: Option<PathBuf>,
+    /// `--out`: the folder for output files.
     pub out: Option<PathBuf>,
+    /// `--json`: one JSON document on stdout instead of the text report.
     pub json: bool,
+    /// Keep the text report to the answer: no unused parts, no per-part limit rows.
+    pub quiet: bool,
 }
 
 /// What a command prints and its exit status.
 pub struct Outcome {
+    /// The text report or the JSON document.
     pub stdout: String,
+    /// Exit status: 0 yes, 1 a well-formed question answered no.
     pub code: u8,
 }
 
-pub(crate) fn load(c: &Common, o: &Overrides) -> Result<Problem> {
-    load::problem(c.scenario.as_deref(), c.catalog.as_deref(), o)
+pub(crate) fn load(c: &Common, o: &Overrides) -> Result<(Problem, Run)> {
+    let (p, inputs) = load::problem_and_inputs(c.scenario.as_deref(), c.catalog.as_deref(), o)?;
+    Ok((p, Run::now(inputs)))
 }
 
-/// The SPEC §8 document of a run with no bank: every key present, the bank
+/// The JSON document of a run with no bank: every key present, the bank
 /// figures null or zero, plus the lowest ripple found and the binding limits.
 pub(crate) fn infeasible_doc(
     p: &Problem,
@@ -64,30 +75,30 @@ pub(crate) fn infeasible_doc(
 }
 
 /// The standard output files for one bank.
-pub fn bank_files(
+pub(crate) fn bank_files(
     problem: &Problem,
     bank: &[(usize, u32)],
     a: &Assessment,
     doc: &serde_json::Value,
-    title: &str,
-    body: &str,
+    rep: &Report,
 ) -> Result<OutFiles> {
     let mut files = OutFiles::default();
     files.add("bom.csv", report::bom_csv(problem, bank));
     files.add("report.json", report::json_text(doc.clone()));
     files.add("bank.cir", report::spice::netlist(problem, bank)?);
     let plots = report::plots::bank_plots(problem, bank, a)?;
-    files.add("report.html", report::html::page(title, body, &plots));
+    files.add("report.html", report::html::render(rep, &plots));
     for (name, svg) in plots {
         files.add(&name, svg);
     }
     Ok(files)
 }
 
+/// `validate`: check the inputs and list the usable and the unused parts.
 pub fn validate(c: &Common) -> Result<Outcome> {
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     if c.json {
-        let doc = json!({
+        let mut doc = json!({
             "status": "valid",
             "scenario": p.scenario.name,
             "catalog": p.catalog.source,
@@ -96,48 +107,74 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             "excluded": p.excluded,
             "warnings": p.warnings,
         });
+        run.stamp(&mut doc);
         return Ok(Outcome {
             stdout: report::json_text(doc),
             code: 0,
         });
     }
-    let mut o = String::new();
-    let _ = writeln!(o, "Scenario {} is valid.", p.scenario.source);
-    let _ = writeln!(
-        o,
-        "Catalog {} is valid: {} parts.",
-        p.catalog.source,
-        p.catalog.parts.len()
+    let mut r = Report::new("Validation", Some(&run));
+    let mut head = model::header(&p);
+    head.items.insert(
+        0,
+        model::Item::Line(format!(
+            "Catalog {} is valid: {} parts.",
+            p.catalog.source,
+            p.catalog.parts.len()
+        )),
     );
-    o.push_str(&text::header(&p));
-    let _ = writeln!(o, "\nParts that may be used: {}", p.eligible.len());
-    for &i in &p.eligible {
-        let q = &p.catalog.parts[i];
-        let _ = writeln!(
-            o,
-            "  {:<28} {:<22} {:>9} at {} V: {:>9} worst-corner",
-            q.id,
-            q.technology.name(),
-            crate::units::format_si(q.capacitance, "F"),
-            p.scenario.converter.vout.0,
-            crate::units::format_si(q.c_worst(p.scenario.converter.vout.0), "F")
-        );
-    }
-    o.push_str(&text::excluded(&p));
-    if !p.warnings.is_empty() {
-        let _ = writeln!(o, "\nWarnings");
-        for w in &p.warnings {
-            let _ = writeln!(o, "  - {w}");
+    head.items.insert(
+        0,
+        model::Item::Line(format!("Scenario {} is valid.", p.scenario.source)),
+    );
+    r.push(head);
+    r.section(format!("Parts that may be used: {}", p.eligible.len()));
+    let vout = p.scenario.converter.vout.0;
+    r.table(Table::new(
+        &[
+            "part",
+            "technology",
+            "C nominal",
+            &format!("C worst-corner at {vout} V"),
+        ],
+        p.eligible
+            .iter()
+            .map(|&i| {
+                let q = &p.catalog.parts[i];
+                vec![
+                    q.id.clone(),
+                    q.technology.name().to_string(),
+                    crate::units::format_si(q.capacitance, "F"),
+                    crate::units::format_si(q.c_worst(vout), "F"),
+                ]
+            })
+            .collect(),
+    ));
+    if !c.quiet {
+        if let Some(x) = model::excluded(&p) {
+            r.push(x);
         }
     }
-    if p.eligible.is_empty() {
-        let _ = writeln!(o, "\nNo part may be used: a design is impossible until the catalog or the scenario changes.");
+    if let Some(w) = model::warnings(&p.warnings) {
+        r.push(w);
     }
-    Ok(Outcome { stdout: o, code: 0 })
+    if p.eligible.is_empty() {
+        r.para("No part may be used: a design is impossible until the catalog or the scenario changes.");
+    }
+    Ok(Outcome {
+        stdout: text::render(&r),
+        code: 0,
+    })
 }
 
-pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<Outcome> {
-    let p = load(c, &Overrides::default())?;
+/// `assess`: a given bank against the target and every limit.
+pub fn assess(
+    c: &Common,
+    bank_arg: Option<&str>,
+    bom: Option<&Path>,
+    opts: &assessment::AssessOptions,
+) -> Result<Outcome> {
+    let (p, run) = load(c, &Overrides::default())?;
     let bank = match (bank_arg, bom) {
         (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
         (None, Some(f)) => {
@@ -155,31 +192,45 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
             None => anyhow::bail!("--bank: every count is zero: there is no bank to assess"),
         }
     }
-    let a = assessment::assess(&p, &bank)?;
+    let a = assessment::assess_opts(&p, &bank, opts)?;
     let status = if a.all_ok { "pass" } else { "fail" };
-    let doc = report::assessment_json(status, &a, &p);
-    let mut body = text::header(&p);
-    body.push_str(&text::assessment(&a));
-    let _ = writeln!(
-        body,
-        "\nVerdict: {}",
-        if a.all_ok {
-            "PASS — the bank meets the target and every limit at the worst corner.".to_string()
-        } else {
-            let failed: Vec<&str> = a
-                .checks
-                .iter()
-                .filter(|c| !c.ok)
-                .map(|c| c.name.as_str())
-                .collect();
-            format!("FAIL — {}", failed.join(", "))
-        }
-    );
-    body.push_str(&text::cautions());
-    if let Some(dir) = &c.out {
-        bank_files(&p, &bank, &a, &doc, "Bank assessment", &body)?.commit(dir)?;
+    let mut doc = report::assessment_json(status, &a, &p);
+    run.stamp(&mut doc);
+    let mut r = Report::new("Bank assessment", Some(&run));
+    r.push(model::header(&p));
+    for s in model::assessment(&a, c.quiet) {
+        r.push(s);
     }
-    let stdout = if c.json { report::json_text(doc) } else { body };
+    r.verdict(
+        if a.all_ok {
+            Verdict::Pass
+        } else {
+            Verdict::Fail
+        },
+        format!(
+            "Verdict: {}",
+            if a.all_ok {
+                "PASS — the bank meets the target and every limit at the worst corner.".to_string()
+            } else {
+                let failed: Vec<&str> = a
+                    .checks
+                    .iter()
+                    .filter(|c| !c.ok)
+                    .map(|c| c.name.as_str())
+                    .collect();
+                format!("FAIL — {}", failed.join(", "))
+            }
+        ),
+    );
+    r.push(model::cautions());
+    if let Some(dir) = &c.out {
+        bank_files(&p, &bank, &a, &doc, &r)?.commit(dir)?;
+    }
+    let stdout = if c.json {
+        report::json_text(doc)
+    } else {
+        text::render(&r)
+    };
     Ok(Outcome {
         stdout,
         code: if a.all_ok { 0 } else { 1 },
@@ -187,7 +238,7 @@ pub fn assess(c: &Common, bank_arg: Option<&str>, bom: Option<&Path>) -> Result<
 }
 
 /// Show progress only on a terminal and never with --json.
-pub fn show_progress(c: &Common) -> bool {
+pub(crate) fn show_progress(c: &Common) -> bool {
     use std::io::IsTerminal;
     !c.json && std::io::stderr().is_terminal()
 }

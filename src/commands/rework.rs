@@ -6,15 +6,17 @@ use crate::assessment::{self};
 use crate::load::Overrides;
 use crate::optimize;
 use crate::problem::Problem;
+use crate::report::model::{self, Report, Table, Verdict};
 use crate::report::{self, text, OutFiles};
 use anyhow::Result;
 use serde_json::json;
-use std::fmt::Write;
 use std::path::Path;
 
+/// `rework`: the fewest changed line items when parts of a bill of materials go.
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     use crate::catalog::Status as Life;
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
+    let quiet = c.quiet;
     let src = bom.display().to_string();
     let rows = assessment::read_bom(bom)?;
     for d in drop {
@@ -77,18 +79,17 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
         );
         out.found.map(|f| (out.status, f))
     };
-    let mut body = text::header(&p);
-    let _ = writeln!(
-        body,
+    let mut r = Report::new("Bank rework", Some(&run));
+    r.push(model::header(&p));
+    r.line(format!(
         "Objective: fewest changed line items, then {}",
         p.scenario.selection.objective.name()
-    );
-    let _ = writeln!(body, "\nCurrent bill of materials ({src})");
+    ));
+    r.section(format!("Current bill of materials ({src})"));
     match &before {
         Some(a) => {
-            let _ = writeln!(
-                body,
-                "  with today's catalog data{}: worst-corner ripple {} against {} — {}",
+            r.line(format!(
+                "with today's catalog data{}: worst-corner ripple {} against {} — {}",
                 if complete {
                     ""
                 } else {
@@ -101,27 +102,24 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
                 } else {
                     "does NOT meet the target and every limit"
                 }
-            );
+            ));
         }
         None => {
-            let _ = writeln!(
-                body,
-                "  none of its parts is in the catalog; it cannot be assessed"
-            );
+            r.line("none of its parts is in the catalog; it cannot be assessed");
         }
     }
     for (id, n, why) in &removed_forced {
-        let _ = writeln!(body, "  must replace {id} ×{n}: {why}");
+        r.line(format!("must replace {id} ×{n}: {why}"));
     }
     let (status, new_bank, changes) = if still_good {
         (optimize::Status::Optimal, current.clone(), 0)
     } else {
-        let r = optimize::rework(&p, &current, &forced, &settings);
+        let rw = optimize::rework(&p, &current, &forced, &settings);
         (
-            r.status,
-            r.found.map(|f| f.bank).unwrap_or_default(),
+            rw.status,
+            rw.found.map(|f| f.bank).unwrap_or_default(),
             // Lines missing from the catalog are removed too.
-            r.changes + removed_forced.len() - forced.len(),
+            rw.changes + removed_forced.len() - forced.len(),
         )
     };
     let id = |i: usize| p.catalog.parts[i].id.clone();
@@ -158,48 +156,54 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     let mut doc;
     let code;
     if status == optimize::Status::Infeasible {
-        let _ = writeln!(body, "\nRework: INFEASIBLE — no bank reachable by changing line items meets the target under every limit.");
-        let (r, closest) = optimize::lowest_ripple(&p);
-        if r.is_finite() {
-            let _ = writeln!(
-                body,
+        r.verdict(Verdict::Infeasible, "Rework: INFEASIBLE — no bank reachable by changing line items meets the target under every limit.");
+        let (lowest, closest) = optimize::lowest_ripple(&p);
+        if lowest.is_finite() {
+            r.line(format!(
                 "  The lowest worst-corner ripple any allowed bank reached is {}.",
-                text::mv(r)
-            );
+                text::mv(lowest)
+            ));
         }
         let binding = optimize::binding(&p, p.scenario.design_target());
-        body.push_str(&binding_text(&binding));
-        doc = super::infeasible_doc(&p, r.is_finite().then_some(r), &binding);
+        r.line(binding_text(&binding).trim_end().to_string());
+        doc = super::infeasible_doc(&p, lowest.is_finite().then_some(lowest), &binding);
         for k in ["kept", "removed", "added"] {
             doc[k] = json!([]);
         }
         if let Some(b) = closest {
             let a = assessment::assess(&p, &b)?;
-            body.push_str("\nClosest bank (lowest ripple found)\n");
-            body.push_str(&text::assessment(&a));
+            r.para("Closest bank (lowest ripple found)");
+            for s in model::assessment(&a, quiet) {
+                r.push(s);
+            }
             doc["closest"] = report::assessment_json("closest", &a, &p);
         }
         code = 1;
     } else {
         let a = assessment::assess(&p, &new_bank)?;
+        let count_changes = kept
+            .iter()
+            .filter(|k| k["count_before"] != k["count_after"])
+            .count();
         if still_good {
-            let _ = writeln!(
-                body,
-                "\nRework: nothing to change — the bank is still good."
+            r.verdict(
+                Verdict::Pass,
+                "Rework: nothing to change — the bank is still good.",
             );
         } else {
-            let _ = writeln!(
-                body,
-                "\nRework: {} — {changes} changed line item(s){}",
+            r.verdict(
+                Verdict::of_status(status),
+                format!(
+                "Rework: {} — {changes} changed line item(s), {count_changes} changed count(s){}",
                 status.name().to_uppercase(),
                 if status == optimize::Status::Optimal {
-                    " (the fewest possible; cheapest among those)"
+                    " (the fewest possible; then the fewest changed counts, then the objective, then same-footprint replacements)"
                 } else if changes == removed_forced.len() {
                     " (the fewest possible; parts to add came from a pool, so a cheaper change may exist)"
                 } else {
                     " (parts to add came from a pool: fewer or cheaper changes may exist)"
                 }
-            );
+            ));
         }
         let row = |v: &serde_json::Value, what: &str| -> Vec<String> {
             vec![
@@ -239,37 +243,38 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
             v[2] = "0".into();
             v
         }));
-        body.push_str(&text::table(
+        r.table(Table::new(
             &["change", "part", "before", "after", "reason"],
-            &rows,
+            rows,
         ));
-        body.push_str(&text::assessment(&a));
+        for s in model::assessment(&a, quiet) {
+            r.push(s);
+        }
         let before_cost = before.as_ref().map(|b| b.cost);
-        let _ = writeln!(
-            body,
-            "\nCost before {} → after {:.3}; ripple before {} → after {}",
+        r.para(format!(
+            "Cost before {} → after {:.3}; ripple before {} → after {}",
             before_cost.map_or("—".into(), |c| format!("{c:.3}")),
             a.cost,
             before
                 .as_ref()
                 .map_or("—".into(), |b| text::mv(b.ripple_pp)),
             text::mv(a.ripple_pp)
-        );
+        ));
         if let Some((st, f)) = &fresh {
             let fa = assessment::assess(&p, &f.bank)?;
-            let _ = writeln!(
-                body,
+            r.line(format!(
                 "A fresh design without the replaced parts ({}) would cost {:.3}: {}",
                 st.name(),
                 fa.cost,
                 bank_key(&p, &f.bank)
-            );
+            ));
         }
         doc = report::assessment_json(status.name(), &a, &p);
         doc["kept"] = json!(kept);
         doc["removed"] = json!(removed);
         doc["added"] = json!(added);
         doc["changes"] = json!(changes);
+        doc["count_changes"] = json!(count_changes);
         code = 0;
     }
     doc["still_good"] = json!(still_good);
@@ -281,26 +286,34 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     };
     doc["fresh_optimum"] = match &fresh {
         Some((st, f)) => {
-            json!({"status": st.name(), "cost": assessment::assess(&p, &f.bank)?.cost, "bank": bank_key(&p, &f.bank)})
+            let fa = assessment::assess(&p, &f.bank)?;
+            json!({"status": st.name(), "cost": fa.cost, "bank": fa.bank, "bank_key": bank_key(&p, &f.bank)})
         }
         None => serde_json::Value::Null,
     };
-    body.push_str(&text::excluded(&p));
-    body.push_str(&text::cautions());
+    if !c.quiet {
+        if let Some(x) = model::excluded(&p) {
+            r.push(x);
+        }
+    }
+    r.push(model::cautions());
+    run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         if code == 0 {
             let a = assessment::assess(&p, &new_bank)?;
-            bank_files(&p, &new_bank, &a, &doc, "Bank rework", &body)?.commit(dir)?;
+            bank_files(&p, &new_bank, &a, &doc, &r)?.commit(dir)?;
         } else {
             let mut files = OutFiles::default();
             files.add("report.json", report::json_text(doc.clone()));
-            files.add(
-                "report.html",
-                report::html::page("Bank rework (infeasible)", &body, &[]),
-            );
+            r.title = "Bank rework (infeasible)".into();
+            files.add("report.html", report::html::render(&r, &[]));
             files.commit(dir)?;
         }
     }
-    let stdout = if c.json { report::json_text(doc) } else { body };
+    let stdout = if c.json {
+        report::json_text(doc)
+    } else {
+        text::render(&r)
+    };
     Ok(Outcome { stdout, code })
 }

@@ -5,10 +5,10 @@ use crate::assessment::{self};
 use crate::load::Overrides;
 use crate::optimize;
 use crate::problem::Problem;
+use crate::report::model::{self, Report, Table};
 use crate::report::{self, text, OutFiles};
 use anyhow::Result;
 use serde_json::json;
-use std::fmt::Write;
 
 fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
     match v {
@@ -25,11 +25,11 @@ fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
 }
 
 /// Default loose end of a trade-off, as a multiple of the scenario's target,
-/// when the smallest allowed bank ripples far more than that.
-pub const TRADEOFF_SPAN: f64 = 10.0;
+/// when the converter has no internal capacitance of its own.
+pub(crate) const TRADEOFF_SPAN: f64 = 10.0;
 
 /// `PART=N,PART=N` in catalog order: equal strings mean the same bank.
-pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
+pub(crate) fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
     let mut b: Vec<(usize, u32)> = bank.iter().copied().filter(|x| x.1 > 0).collect();
     b.sort();
     b.iter()
@@ -38,6 +38,7 @@ pub fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
         .join(",")
 }
 
+/// `tradeoff`: the best bank at each of a range of ripple targets.
 pub fn tradeoff(
     c: &Common,
     from: Option<&str>,
@@ -45,7 +46,7 @@ pub fn tradeoff(
     points: usize,
 ) -> Result<Outcome> {
     use indicatif::{ProgressBar, ProgressStyle};
-    let p = load(c, &Overrides::default())?;
+    let (p, run) = load(c, &Overrides::default())?;
     if !(2..=200).contains(&points) {
         anyhow::bail!("--points: {points} must be from 2 to 200");
     }
@@ -65,30 +66,26 @@ pub fn tradeoff(
         }
     };
     let mut note = String::new();
+    let target = p.scenario.target.ripple_pp.0;
     let hi = match to {
         Some(v) => v,
+        None if p.scenario.converter.internal_capacitance.is_some() => {
+            // The converter alone: the loosest meaningful target.
+            let a = assessment::assess(&p, &[])?;
+            note = format!(
+                "The upper end of the range is the converter alone (its internal capacitance, no added capacitors): {}. Use --to to change it.",
+                text::mv(a.ripple_pp)
+            );
+            a.ripple_pp
+        }
         None => {
-            let smallest = optimize::smallest_bank(&p)
-                .filter(|f| f.ripple_pp.is_finite())
-                .ok_or_else(|| {
-                    anyhow::anyhow!(
-                        "no bank satisfies the limits other than ripple; see `ripplebank validate`"
-                    )
-                })?;
-            let r = smallest.ripple_pp;
-            let cap = TRADEOFF_SPAN * p.scenario.target.ripple_pp.0;
-            if r > cap && cap > lo {
-                note = format!(
-                    "The smallest allowed bank ({}) ripples {}; the range stops at {} ({}× the target). Use --to to extend it.",
-                    if smallest.bank.is_empty() { "no added part".to_string() } else { bank_key(&p, &smallest.bank) },
-                    text::mv(r),
-                    text::mv(cap),
-                    TRADEOFF_SPAN
-                );
-                cap
-            } else {
-                r
-            }
+            let cap = TRADEOFF_SPAN * target;
+            note = format!(
+                "The upper end of the range is {}× the target ({}): its row is the cheapest bank reaching it. Use --to to change it.",
+                TRADEOFF_SPAN,
+                text::mv(cap)
+            );
+            cap
         }
     };
     if hi <= lo * (1.0 + 1e-6) {
@@ -116,9 +113,14 @@ pub fn tradeoff(
     } else {
         (lo, lo * 2.0)
     };
-    let targets: Vec<f64> = (0..points)
+    let mut targets: Vec<f64> = (0..points)
         .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
         .collect();
+    // The scenario's own target is always a row.
+    if !targets.iter().any(|&t| (t - target).abs() <= 1e-9 * target) {
+        targets.push(target);
+        targets.sort_by(f64::total_cmp);
+    }
     let pb = if show {
         ProgressBar::new(points as u64)
     } else {
@@ -162,6 +164,24 @@ pub fn tradeoff(
         .copied()
         .zip(slots.into_iter().map(|o| o.expect("every target solved")))
         .collect();
+    // Each target's own result, before the front is made monotone below
+    // (reported as `raw`, so the optimizer's per-target answers can be checked).
+    let mut raw_json = Vec::new();
+    for (t, out) in &results {
+        let a = match &out.found {
+            Some(f) => Some(assessment::assess(&p, &f.bank)?),
+            None => None,
+        };
+        raw_json.push(json!({
+            "target": t,
+            "status": out.status.name(),
+            "ripple_pp": a.as_ref().map(|a| a.ripple_pp),
+            "cost": a.as_ref().map(|a| a.cost),
+            "area": a.as_ref().map(|a| a.area),
+            "count": a.as_ref().map(|a| a.count),
+            "bank": a.as_ref().map_or(json!([]), |a| json!(a.bank)),
+        }));
+    }
     // A bank that meets a tighter target meets every looser one: keep the
     // front monotone when the search could not prove a point optimal.
     for j in 1..results.len() {
@@ -207,7 +227,7 @@ pub fn tradeoff(
             None => (json!([]), None, None, None, None, String::new()),
         };
         json_points.push(json!({
-            "target": t, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
+            "target": t, "scenario_target": (t - target).abs() <= 1e-9 * target, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
             "count": count, "bank": bank_json,
         }));
         csv.write_record([
@@ -232,17 +252,21 @@ pub fn tradeoff(
             prev_cost = Some((*t, cc));
         }
         rows.push(vec![
-            text::mv(*t),
+            if (t - target).abs() <= 1e-9 * target {
+                format!("{} (scenario)", text::mv(*t))
+            } else {
+                text::mv(*t)
+            },
             out.status.name().to_string(),
             ripple.map_or("—".into(), text::mv),
             cost.map_or("—".into(), |x| format!("{x:.3}")),
             per_mv,
             area.map_or("—".into(), |x| format!("{x:.1}")),
             count.map_or("—".into(), |x| x.to_string()),
-            if key.is_empty() {
-                "no bank meets this target".into()
-            } else {
-                key.clone()
+            match &out.found {
+                None => "no bank meets this target".into(),
+                Some(f) if f.bank.is_empty() => report::plots::EMPTY_BANK.into(),
+                Some(_) => key.clone(),
             },
         ]);
         plot_points.push(report::plots::TradeoffPoint {
@@ -255,16 +279,19 @@ pub fn tradeoff(
             bank_key: key,
         });
     }
-    let mut body = text::header(&p);
-    let _ = writeln!(body, "Objective: {}", p.scenario.selection.objective.name());
-    let _ = writeln!(
-        body,
-        "\nTrade-off: {} ripple targets from {} to {} (geometric)",
-        points,
+    let mut r = Report::new("Ripple trade-off", Some(&run));
+    r.push(model::header(&p));
+    r.line(format!(
+        "Objective: {}",
+        p.scenario.selection.objective.name()
+    ));
+    r.para(format!(
+        "Trade-off: {} ripple targets from {} to {} (geometric, with the scenario's own target)",
+        targets.len(),
         text::mv(lo),
         text::mv(hi)
-    );
-    body.push_str(&text::table(
+    ));
+    r.table(Table::new(
         &[
             "target",
             "status",
@@ -275,26 +302,33 @@ pub fn tradeoff(
             "n",
             "bank",
         ],
-        &rows,
+        rows,
     ));
-    let _ = writeln!(
-        body,
-        "\n'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
-         tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target."
-    );
-    if !note.is_empty() {
-        let _ = writeln!(body, "{note}");
+    if !c.quiet {
+        r.para(
+        "'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
+         tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target.",
+        );
     }
-    body.push_str(&text::cautions());
-    let doc = json!({
+    if !note.is_empty() {
+        if c.quiet {
+            r.para(note.clone());
+        } else {
+            r.line(note.clone());
+        }
+    }
+    r.push(model::cautions());
+    let mut doc = json!({
         "status": "done",
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),
         "from": lo, "to": hi,
         "points": json_points,
+        "raw": raw_json,
         "excluded": p.excluded,
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
+    run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         let plots =
             report::plots::tradeoff_plots(&plot_points, Some(p.scenario.target.ripple_pp.0))?;
@@ -304,10 +338,7 @@ pub fn tradeoff(
             csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?,
         );
         files.add("report.json", report::json_text(doc.clone()));
-        files.add(
-            "report.html",
-            report::html::page("Ripple trade-off", &body, &plots),
-        );
+        files.add("report.html", report::html::render(&r, &plots));
         for (name, svg) in plots {
             files.add(&name, svg);
         }
@@ -319,6 +350,10 @@ pub fn tradeoff(
     } else {
         1
     };
-    let stdout = if c.json { report::json_text(doc) } else { body };
+    let stdout = if c.json {
+        report::json_text(doc)
+    } else {
+        text::render(&r)
+    };
     Ok(Outcome { stdout, code })
 }

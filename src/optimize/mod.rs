@@ -56,15 +56,20 @@ pub fn better(a: &Key, b: &Key) -> bool {
     false
 }
 
+/// How good an answer is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Status {
+    /// The best bank under the model: every line set examined or bounded.
     Optimal,
+    /// A verified bank, not proven the best.
     Feasible,
+    /// No bank meets the target under every limit.
     Infeasible,
 }
 
 impl Status {
+    /// `optimal`, `feasible` or `infeasible`.
     pub fn name(self) -> &'static str {
         match self {
             Status::Optimal => "optimal",
@@ -79,41 +84,59 @@ impl Status {
 pub struct Found {
     /// Catalog indices and counts.
     pub bank: Vec<(usize, u32)>,
+    /// The objective key the search orders banks by (the objective first).
     pub key: Key,
+    /// Worst-corner ripple of the bank, V.
     pub ripple_pp: f64,
 }
 
 /// Result of a design run.
 #[derive(Debug, Clone)]
 pub struct Outcome {
+    /// How good the answer is.
     pub status: Status,
+    /// The bank, unless infeasible.
     pub found: Option<Found>,
+    /// When infeasible: the lowest ripple any allowed bank reaches, V.
     pub best_ripple_pp: Option<f64>,
+    /// When infeasible: the bank that reaches it.
     pub best_ripple_bank: Option<Vec<(usize, u32)>>,
+    /// When infeasible: the limits that stop a design.
     pub binding: Binding,
+    /// What the search did.
     pub stats: Stats,
 }
 
+/// What a search did, for reports.
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct Stats {
+    /// Eligible parts the search considered.
     pub candidates: usize,
+    /// Parts dropped because another part dominates them.
     pub dominated: usize,
+    /// Line sets (choices of parts) in the search space.
     pub line_sets_total: usize,
+    /// Line sets whose counts were searched.
     pub line_sets_solved: usize,
+    /// Exact ripple evaluations made.
     pub evaluations: usize,
+    /// Every line set was enumerated.
     pub exhaustive: bool,
     /// The search reached its evaluation budget before it finished.
     pub stopped: bool,
+    /// A proven lower bound on the objective, when one is known.
     pub lower_bound: Option<f64>,
     /// Searches run by the cutting-plane loop (1 when the first bank found
     /// held over the whole corner region).
     pub region_rounds: usize,
+    /// Wall time, s.
     pub seconds: f64,
 }
 
 /// Knobs of the search.
 #[derive(Debug, Clone)]
 pub struct Settings {
+    /// Show a progress bar on stderr.
     pub progress: bool,
     /// Largest number of line sets enumerated exhaustively.
     pub exhaustive_limit: usize,

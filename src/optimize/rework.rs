@@ -1,4 +1,5 @@
-//! Rework: the fewest changed line items, then the objective.
+//! Rework: the fewest changed line items, then the fewest changed counts,
+//! then the objective, then same-footprint replacements.
 
 use super::search::{pool, prune_dominated, run_sets};
 use super::{Found, Settings, Stats, Status};
@@ -8,15 +9,22 @@ use std::time::Instant;
 /// Result of a rework: the fewest changed line items, then the objective.
 #[derive(Debug, Clone)]
 pub struct Rework {
+    /// How good the answer is.
     pub status: Status,
+    /// The new bank, unless infeasible.
     pub found: Option<Found>,
     /// Changed line items (removed plus added) of `found`.
     pub changes: usize,
+    /// Kept lines whose count changed.
+    pub count_changes: usize,
+    /// What the search did.
     pub stats: Stats,
 }
 
-/// The bank nearest to `current` (fewest removed plus added line items,
-/// then the scenario's objective) that meets the target and every limit.
+/// The bank nearest to `current` that meets the target and every limit:
+/// fewest removed plus added line items, then fewest kept lines whose count
+/// changes, then the scenario's objective, then the most added lines in the
+/// case (footprint) of a removed line.
 /// `forced_out` are catalog indices that must go; the other parts of
 /// `current` may stay (their counts may change) or go.
 pub fn rework(
@@ -53,7 +61,7 @@ pub fn rework(
     let mut cuts: Vec<super::Cut> = Vec::new();
     let mut verified: Option<f64> = None;
     let mut round = 0;
-    let (mut s, found_at, exhaustive) = loop {
+    let (mut s, found_at, exhaustive, adds, base, max_lines) = loop {
         round += 1;
         let mut s = super::search_with(problem, &cands, target, &cuts);
         s.budget = settings.max_evaluations;
@@ -119,18 +127,50 @@ pub fn rework(
                 }
             }
         }
-        break (s, found_at, exhaustive);
+        break (s, found_at, exhaustive, adds, base, max_lines);
     };
     stats.evaluations = s.evals;
     stats.line_sets_solved = s.sets_solved;
     stats.stopped = s.stopped;
     stats.exhaustive = exhaustive && !s.stopped;
-    stats.seconds = t0.elapsed().as_secs_f64();
-    let found = s.inc.take().map(|(key, bank, r)| Found {
+    let mut found = s.inc.take().map(|(key, bank, r)| Found {
         bank: bank.iter().map(|&(i, n)| (cands[i], n)).collect(),
         key,
         ripple_pp: verified.unwrap_or(r),
     });
+    // Second stage: among the banks with that fewest number of changed line
+    // items, the fewest changed counts, then the objective, then footprints.
+    if let (Some(level), Some(f)) = (found_at, found.as_mut()) {
+        let pool_cat: Vec<usize> = if allowed.len() <= settings.pool * 2 {
+            allowed
+                .iter()
+                .copied()
+                .filter(|i| !kept_cat.contains(i))
+                .collect()
+        } else {
+            adds.iter().map(|&i| cands[i]).collect()
+        };
+        let (better, complete, evals) = refine(
+            problem,
+            current,
+            &kept_cat,
+            &pool_cat,
+            level - base,
+            max_lines,
+            f,
+        );
+        stats.evaluations += evals;
+        if !complete {
+            stats.exhaustive = false;
+        }
+        if let Some(b) = better {
+            *f = b;
+        }
+    }
+    stats.seconds = t0.elapsed().as_secs_f64();
+    let count_changes = found
+        .as_ref()
+        .map_or(0, |f| count_changes(current, &f.bank));
     let status = match (&found, stats.exhaustive) {
         (Some(_), true) => Status::Optimal,
         (Some(_), false) => Status::Feasible,
@@ -140,8 +180,181 @@ pub fn rework(
         status,
         found,
         changes: found_at.unwrap_or(0),
+        count_changes,
         stats,
     }
+}
+
+/// Kept lines (in both banks) whose count differs.
+pub(crate) fn count_changes(old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
+    old.iter()
+        .filter(|o| new.iter().any(|n| n.0 == o.0 && n.1 != o.1))
+        .count()
+}
+
+/// Added lines whose case code equals that of a removed line.
+pub(crate) fn same_case(problem: &Problem, old: &[(usize, u32)], new: &[(usize, u32)]) -> usize {
+    let parts = &problem.catalog.parts;
+    let removed: Vec<&str> = old
+        .iter()
+        .filter(|o| !new.iter().any(|n| n.0 == o.0))
+        .filter_map(|o| parts[o.0].case.as_deref())
+        .collect();
+    new.iter()
+        .filter(|n| !old.iter().any(|o| o.0 == n.0))
+        .filter(|n| {
+            parts[n.0]
+                .case
+                .as_deref()
+                .is_some_and(|c| removed.contains(&c))
+        })
+        .count()
+}
+
+/// Largest count vectors enumerated for one line set and one choice of
+/// kept lines whose count may change, and for the whole second stage.
+const REFINE_PER_SET: u64 = 40_000;
+const REFINE_TOTAL: u64 = 4_000_000;
+
+/// The second stage of [`rework`]: enumerate every bank with exactly
+/// `extra` changed line items (kept lines of `current` minus removals plus
+/// additions from `pool`) by increasing number of changed counts, and return
+/// the best by (changed counts, objective, same-footprint additions) if it
+/// beats `found`. Also returns whether the enumeration was complete, and the
+/// number of exact evaluations.
+fn refine(
+    problem: &Problem,
+    current: &[(usize, u32)],
+    kept: &[usize],
+    pool: &[usize],
+    extra: usize,
+    max_lines: usize,
+    found: &Found,
+) -> (Option<Found>, bool, usize) {
+    use crate::assessment::{assess_with, AssessOptions};
+    use crate::scenario::Objective;
+    let sc = &problem.scenario;
+    let target = sc.design_target();
+    let max_n = sc.selection.max_per_part.max(1);
+    let universe: Vec<usize> = kept.iter().chain(pool).copied().collect();
+    let mut ev = problem.evaluator(&universe);
+    let local_of = |cat: usize| {
+        universe
+            .iter()
+            .position(|&u| u == cat)
+            .expect("in universe")
+    };
+    let cur_count = |cat: usize| current.iter().find(|b| b.0 == cat).map_or(0, |b| b.1);
+    let objective = |a: &crate::assessment::Assessment| match sc.selection.objective {
+        Objective::Cost => a.cost,
+        Objective::Area => a.area,
+        Objective::Count => a.count as f64,
+    };
+    let c0 = count_changes(current, &found.bank);
+    let mut complete = true;
+    let mut evals: u64 = 0;
+    for c in 0..=c0 {
+        // (objective, same-case additions, bank, ripple) of the best so far at `c`.
+        let mut best: Option<(f64, usize, Vec<(usize, u32)>, f64)> = None;
+        for r in 0..=extra.min(kept.len()) {
+            let a = extra - r;
+            if a > pool.len() {
+                continue;
+            }
+            for removed in combinations(kept, r) {
+                let stay: Vec<usize> = kept
+                    .iter()
+                    .copied()
+                    .filter(|i| !removed.contains(i))
+                    .collect();
+                if stay.len() + a > max_lines || c > stay.len() {
+                    continue;
+                }
+                for added in combinations(pool, a) {
+                    if stay.is_empty() && added.is_empty() {
+                        continue;
+                    }
+                    for changing in combinations(&stay, c) {
+                        let free: Vec<usize> = added.iter().chain(&changing).copied().collect();
+                        let size = (max_n as u64).saturating_pow(free.len() as u32);
+                        if size > REFINE_PER_SET || evals + size > REFINE_TOTAL {
+                            complete = false;
+                            continue;
+                        }
+                        let mut counts = vec![1u32; free.len()];
+                        loop {
+                            // A changing line must differ from its current count.
+                            let differs = changing
+                                .iter()
+                                .enumerate()
+                                .all(|(j, &k)| counts[added.len() + j] != cur_count(k));
+                            if differs {
+                                let mut bank: Vec<(usize, u32)> = stay
+                                    .iter()
+                                    .filter(|k| !changing.contains(k))
+                                    .map(|&k| (k, cur_count(k)))
+                                    .collect();
+                                bank.extend(free.iter().zip(&counts).map(|(&k, &n)| (k, n)));
+                                let local: Vec<(usize, u32)> =
+                                    bank.iter().map(|&(k, n)| (local_of(k), n)).collect();
+                                evals += 1;
+                                if ev.ripple_check(&local, target) <= target {
+                                    let asm = assess_with(
+                                        problem,
+                                        &mut ev,
+                                        &bank,
+                                        &local,
+                                        &AssessOptions::default(),
+                                    );
+                                    if asm.all_ok {
+                                        let obj = objective(&asm);
+                                        let sc_n = same_case(problem, current, &bank);
+                                        let better = match &best {
+                                            None => true,
+                                            Some((bo, bs, _, _)) => {
+                                                let tie =
+                                                    (obj - bo).abs() <= 1e-9 * bo.abs().max(1e-12);
+                                                (!tie && obj < *bo) || (tie && sc_n > *bs)
+                                            }
+                                        };
+                                        if better {
+                                            best = Some((obj, sc_n, bank, asm.ripple_pp));
+                                        }
+                                    }
+                                }
+                            }
+                            // Next count vector.
+                            let mut j = 0;
+                            while j < counts.len() && counts[j] == max_n {
+                                counts[j] = 1;
+                                j += 1;
+                            }
+                            if j == counts.len() {
+                                break;
+                            }
+                            counts[j] += 1;
+                        }
+                    }
+                }
+            }
+        }
+        if let Some((obj, _, bank, r)) = best {
+            let mut key = found.key.clone();
+            if let Some(k0) = key.first_mut() {
+                *k0 = obj;
+            }
+            return (
+                Some(Found {
+                    bank,
+                    key,
+                    ripple_pp: r,
+                }),
+                complete,
+                evals as usize,
+            );
+        }
+    }
+    (None, complete, evals as usize)
 }
 
 /// All `k`-element subsets of `items`, in order.

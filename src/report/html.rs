@@ -1,10 +1,11 @@
-//! Self-contained HTML report: the text report in sections, the plots
-//! inlined as SVG, and the cautions in a box. No scripts, no external
-//! resources; the markup is also well-formed XML (XHTML syntax), so it can
-//! be checked with any XML parser.
+//! Self-contained HTML report: the report model's sections with tables as
+//! `<table>`, the verdict coloured from its kind, the plots inlined as SVG,
+//! and the cautions in a box. No scripts, no external resources; the markup
+//! is also well-formed XML (XHTML syntax), so it can be checked with any XML
+//! parser.
 
+use super::model::{Item, Report, SectionKind, Table};
 use super::plots::xml_escape;
-use super::CAUTIONS;
 use std::fmt::Write;
 
 const CSS: &str = r#"
@@ -18,9 +19,15 @@ pre { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, "Liberation 
   font-size: 12.5px; line-height: 1.4; background: #f7f7f7; border: 1px solid #e2e2e2; border-radius: 4px;
   padding: 10px 12px; margin: 0; overflow-x: auto; white-space: pre; }
 .verdict { font-weight: 600; font-size: 1.05em; padding: 10px 14px; border-radius: 4px; margin: 16px 0; border: 2px solid; }
-.verdict.pass { border-color: #2f7d32; background: #eef7ee; color: #1b5e20; }
-.verdict.fail { border-color: #b71c1c; background: #fdeeee; color: #8e1515; }
-.verdict.info { border-color: #777; background: #f4f4f4; }
+.verdict.pass, .verdict.optimal { border-color: #2f7d32; background: #eef7ee; color: #1b5e20; }
+.verdict.feasible { border-color: #9a6700; background: #fff8e1; color: #6d4a00; }
+.verdict.fail, .verdict.infeasible { border-color: #b71c1c; background: #fdeeee; color: #8e1515; }
+table { border-collapse: collapse; font-size: 0.9em; margin: 4px 0 8px; }
+th, td { text-align: left; padding: 3px 10px 3px 0; border-bottom: 1px solid #e6e6e6; vertical-align: top; white-space: nowrap; }
+th { font-weight: 600; border-bottom: 1px solid #999; }
+table.inputs { font-size: 0.85em; color: #5a5a5a; }
+table.inputs td { border: none; padding: 1px 10px 1px 0; }
+code { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, "Liberation Mono", monospace; }
 .cautions { border: 2px solid #b26a00; background: #fff8e6; border-radius: 4px; padding: 8px 16px 10px; margin: 20px 0; }
 .cautions h2 { border: none; margin: 4px 0 6px; color: #7a4a00; }
 .cautions ul { margin: 0; padding-left: 20px; }
@@ -41,49 +48,6 @@ footer { margin-top: 32px; color: #777; font-size: 0.85em; }
 }
 "#;
 
-/// One block of the text report: an optional heading and its lines.
-struct Block<'a> {
-    heading: Option<&'a str>,
-    lines: Vec<&'a str>,
-}
-
-/// Split the plain-text report into blocks at blank lines. A block whose
-/// first line starts at the margin and whose other lines are indented is
-/// a section with a heading.
-fn blocks(body: &str) -> Vec<Block<'_>> {
-    let mut out = Vec::new();
-    let mut cur: Vec<&str> = Vec::new();
-    fn flush<'a>(cur: &mut Vec<&'a str>, out: &mut Vec<Block<'a>>) {
-        if cur.is_empty() {
-            return;
-        }
-        let first = cur[0];
-        let rest_indented =
-            cur.len() > 1 && cur[1..].iter().all(|l| l.starts_with(' ') || l.is_empty());
-        if !first.starts_with(' ') && rest_indented {
-            out.push(Block {
-                heading: Some(first),
-                lines: cur[1..].to_vec(),
-            });
-        } else {
-            out.push(Block {
-                heading: None,
-                lines: cur.clone(),
-            });
-        }
-        cur.clear();
-    }
-    for line in body.lines() {
-        if line.trim().is_empty() {
-            flush(&mut cur, &mut out);
-        } else {
-            cur.push(line.trim_end());
-        }
-    }
-    flush(&mut cur, &mut out);
-    out
-}
-
 /// Remove a leading XML declaration, doctype or comments: keep from `<svg`.
 fn inline_svg(svg: &str) -> Option<&str> {
     let start = svg.find("<svg")?;
@@ -102,66 +66,143 @@ fn caption(name: &str) -> &'static str {
     }
 }
 
-fn cautions_box(o: &mut String) {
-    o.push_str("<section class=\"cautions\" id=\"cautions\">\n<h2>Cautions</h2>\n<ul>\n");
-    for c in CAUTIONS {
-        let _ = writeln!(o, "<li>{}</li>", xml_escape(c));
+fn table_html(o: &mut String, t: &Table, class: Option<&str>) {
+    match class {
+        Some(c) => {
+            let _ = writeln!(o, "<table class=\"{c}\">");
+        }
+        None => o.push_str("<table>\n"),
     }
-    o.push_str("</ul>\n</section>\n");
+    if !t.head.is_empty() {
+        o.push_str("<thead><tr>");
+        for h in &t.head {
+            let _ = write!(o, "<th>{}</th>", xml_escape(h));
+        }
+        o.push_str("</tr></thead>\n");
+    }
+    o.push_str("<tbody>\n");
+    for r in &t.rows {
+        o.push_str("<tr>");
+        for c in r {
+            let _ = write!(o, "<td>{}</td>", xml_escape(c));
+        }
+        o.push_str("</tr>\n");
+    }
+    o.push_str("</tbody>\n</table>\n");
 }
 
-/// One self-contained HTML page: `title`, the plain-text report `body`
-/// rendered in sections, the plots inlined, and the cautions.
-pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
+fn list_html(o: &mut String, v: &[String]) {
+    o.push_str("<ul>\n");
+    for x in v {
+        let _ = writeln!(o, "<li>{}</li>", xml_escape(x));
+    }
+    o.push_str("</ul>\n");
+}
+
+/// One self-contained HTML page of `report`, with the plots inlined.
+pub fn render(report: &Report, plots: &[(String, String)]) -> String {
+    let title = &report.title;
     let mut o = String::new();
     o.push_str("<!DOCTYPE html>\n<html xmlns=\"http://www.w3.org/1999/xhtml\" lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n");
     o.push_str("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"/>\n");
     let _ = writeln!(o, "<title>{} — ripplebank</title>", xml_escape(title));
     let _ = writeln!(o, "<style>{CSS}</style>\n</head>\n<body>");
     let _ = writeln!(o, "<header>\n<h1>{}</h1>", xml_escape(title));
-    let _ = writeln!(
-        o,
-        "<p class=\"meta\">ripplebank {}</p>\n</header>",
-        env!("CARGO_PKG_VERSION")
-    );
-
-    let blocks = blocks(body);
-    // Verdict lines first, where the reader looks.
-    for b in blocks.iter().filter(|b| {
-        b.heading.is_none() && b.lines.first().is_some_and(|l| l.starts_with("Verdict:"))
-    }) {
-        let text = b.lines.join("\n");
-        let class = if text.contains("PASS") {
-            "pass"
-        } else if text.contains("FAIL") {
-            "fail"
-        } else {
-            "info"
-        };
-        let _ = writeln!(o, "<p class=\"verdict {class}\">{}</p>", xml_escape(&text));
+    match &report.run {
+        Some(run) => {
+            let _ = writeln!(
+                o,
+                "<p class=\"meta\">ripplebank {}, run <time datetime=\"{}\">{}</time></p>",
+                xml_escape(run.version),
+                xml_escape(&run.date),
+                xml_escape(&run.date)
+            );
+            let rows: Vec<Vec<String>> = [
+                ("scenario", &run.inputs.scenario),
+                ("catalog", &run.inputs.catalog),
+                ("inductors", &run.inputs.inductors),
+            ]
+            .iter()
+            .filter_map(|(w, i)| {
+                i.as_ref().map(|i| {
+                    vec![
+                        w.to_string(),
+                        i.path.clone(),
+                        format!("sha256 {}", i.short_hash()),
+                    ]
+                })
+            })
+            .collect();
+            table_html(
+                &mut o,
+                &Table {
+                    head: Vec::new(),
+                    rows,
+                },
+                Some("inputs"),
+            );
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "<p class=\"meta\">ripplebank {}</p>",
+                env!("CARGO_PKG_VERSION")
+            );
+        }
+    }
+    o.push_str("</header>\n");
+    // The verdicts first, where the reader looks; the class comes from the kind.
+    for (v, text) in report.verdicts() {
+        let _ = writeln!(
+            o,
+            "<p class=\"verdict {}\" data-verdict=\"{}\">{}</p>",
+            v.name(),
+            v.name(),
+            xml_escape(text)
+        );
     }
     o.push_str("<p class=\"meta\">Read the <a href=\"#cautions\">cautions</a> before you rely on these results.</p>\n<main>\n");
-    for b in &blocks {
-        match b.heading {
-            // The cautions have their own box below.
-            Some(h) if h.trim() == "Cautions" => continue,
-            Some(h) => {
-                let _ = writeln!(
-                    o,
-                    "<section class=\"report-section\">\n<h2>{}</h2>\n<pre>{}</pre>\n</section>",
-                    xml_escape(h),
-                    xml_escape(&b.lines.join("\n"))
-                );
+    let mut cautions = Vec::new();
+    for s in &report.sections {
+        if s.kind == SectionKind::Cautions {
+            cautions.push(s);
+            continue;
+        }
+        let rest: Vec<&Item> = s
+            .items
+            .iter()
+            .filter(|i| !matches!(i, Item::Verdict(..)))
+            .collect();
+        if rest.is_empty() && s.heading.is_none() {
+            continue;
+        }
+        o.push_str("<section class=\"report-section\">\n");
+        if let Some(h) = &s.heading {
+            let _ = writeln!(o, "<h2>{}</h2>", xml_escape(h));
+        }
+        let mut lines: Vec<&str> = Vec::new();
+        let flush = |lines: &mut Vec<&str>, o: &mut String| {
+            if !lines.is_empty() {
+                let _ = writeln!(o, "<pre>{}</pre>", xml_escape(&lines.join("\n")));
+                lines.clear();
             }
-            None if b.lines.first().is_some_and(|l| l.starts_with("Verdict:")) => continue,
-            None => {
-                let _ = writeln!(
-                    o,
-                    "<section class=\"report-section\">\n<pre>{}</pre>\n</section>",
-                    xml_escape(&b.lines.join("\n"))
-                );
+        };
+        for i in rest {
+            match i {
+                Item::Line(l) => lines.push(l),
+                Item::Table(t) => {
+                    flush(&mut lines, &mut o);
+                    table_html(&mut o, t, None);
+                }
+                Item::List(v) => {
+                    flush(&mut lines, &mut o);
+                    list_html(&mut o, v);
+                }
+                Item::Verdict(..) => {}
             }
         }
+        flush(&mut lines, &mut o);
+        o.push_str("</section>\n");
     }
     if !plots.is_empty() {
         o.push_str("<h2>Plots</h2>\n");
@@ -188,7 +229,25 @@ pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
         }
     }
     o.push_str("</main>\n");
-    cautions_box(&mut o);
+    for s in cautions {
+        o.push_str("<section class=\"cautions\" id=\"cautions\">\n");
+        let _ = writeln!(
+            o,
+            "<h2>{}</h2>",
+            xml_escape(s.heading.as_deref().unwrap_or("Cautions"))
+        );
+        for i in &s.items {
+            match i {
+                Item::List(v) => list_html(&mut o, v),
+                Item::Line(l) => {
+                    let _ = writeln!(o, "<p>{}</p>", xml_escape(l));
+                }
+                Item::Table(t) => table_html(&mut o, t, None),
+                Item::Verdict(..) => {}
+            }
+        }
+        o.push_str("</section>\n");
+    }
     let _ = writeln!(
         o,
         "<footer>Written by ripplebank {}. A model, not a measurement: verify on hardware.</footer>\n</body>\n</html>",
@@ -200,18 +259,6 @@ pub fn page(title: &str, body: &str, plots: &[(String, String)]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn sections_and_plain_blocks() {
-        let b = blocks(
-            "Scenario: x\nConverter: y\n  corner\n\nBank\n  a  b\n  c  d\n\nVerdict: PASS\n",
-        );
-        assert_eq!(b.len(), 3);
-        assert_eq!(b[0].heading, None);
-        assert_eq!(b[1].heading, Some("Bank"));
-        assert_eq!(b[1].lines.len(), 2);
-        assert_eq!(b[2].lines, vec!["Verdict: PASS"]);
-    }
 
     #[test]
     fn strips_declaration() {

@@ -3,6 +3,7 @@
 //! failed run never leaves an existing output folder half-written.
 
 pub mod html;
+pub mod model;
 pub mod plots;
 pub mod spice;
 pub mod text;
@@ -44,7 +45,7 @@ pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value
 }
 
 /// Replace NaN and infinities (never valid JSON) by null, recursively.
-pub fn sanitize(v: &mut Value) {
+pub(crate) fn sanitize(v: &mut Value) {
     match v {
         Value::Number(n) if n.as_f64().is_some_and(|x| !x.is_finite()) => *v = Value::Null,
         Value::Array(a) => a.iter_mut().for_each(sanitize),
@@ -56,10 +57,12 @@ pub fn sanitize(v: &mut Value) {
 /// Files of one run, written together into an output folder.
 #[derive(Default)]
 pub struct OutFiles {
+    /// File names and contents, in the order added.
     pub files: Vec<(String, Vec<u8>)>,
 }
 
 impl OutFiles {
+    /// Add a file `name` with contents `data`.
     pub fn add(&mut self, name: &str, data: impl Into<Vec<u8>>) {
         self.files.push((name.to_string(), data.into()));
     }

@@ -30,13 +30,18 @@ pub struct TradeoffPoint {
     pub status: String,
     /// Worst-corner ripple the chosen bank reaches, V.
     pub ripple_pp: Option<f64>,
+    /// Cost of the chosen bank.
     pub cost: Option<f64>,
     /// mm².
     pub area: Option<f64>,
+    /// Number of parts of the chosen bank.
     pub count: Option<u32>,
     /// Identifies the chosen bank (e.g. `A=3,B=2`); equal keys mean the same bank.
     pub bank_key: String,
 }
+
+/// How a trade-off names the empty bank (the converter's own capacitance alone).
+pub const EMPTY_BANK: &str = "converter alone (no added capacitors)";
 
 // ---------------------------------------------------------------- data
 
@@ -107,6 +112,7 @@ pub struct ImpedanceData {
     /// target's peak-to-peak at the worst vin corner: target / (2 |I_k H_k|).
     /// Harmonics with no current are left out.
     pub needed: Vec<(f64, f64)>,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
     /// Input voltage of that operating point, V.
     pub vin: Option<f64>,
@@ -225,9 +231,11 @@ pub struct RippleData {
     pub limited: Vec<f64>,
     /// Samples over one period, full bandwidth, V.
     pub full: Vec<f64>,
+    /// Target peak-to-peak, V.
     pub target: f64,
     /// Middle of the bandwidth-limited waveform: (max + min) / 2, V.
     pub mid: f64,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
     /// Input voltage of that operating point, V.
     pub vin: Option<f64>,
@@ -265,6 +273,7 @@ pub struct SpectrumData {
     pub amplitude: Vec<f64>,
     /// Target peak-to-peak, V.
     pub target: f64,
+    /// Index of the input-voltage corner shown.
     pub vin_corner: usize,
     /// Input voltage of that operating point, V.
     pub vin: Option<f64>,
@@ -1146,7 +1155,13 @@ fn tradeoff_svg(
     let key_lines: Vec<String> = keys
         .iter()
         .enumerate()
-        .map(|(i, k)| format!("{}: {}", i + 1, k))
+        .map(|(i, k)| {
+            if k.is_empty() {
+                format!("{}: {EMPTY_BANK}", i + 1)
+            } else {
+                format!("{}: {}", i + 1, k)
+            }
+        })
         .collect();
     let lh = legend_height(entries.len(), 1)
         + (key_lines.len() as u32) * 20

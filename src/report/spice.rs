@@ -38,14 +38,20 @@ const FILTER_R: f64 = 1e3;
 pub enum Sweep {
     /// `points` frequencies evenly spaced from `start` to `stop` (Hz), both included.
     Linear {
+        /// Number of frequencies.
         points: usize,
+        /// First frequency, Hz.
         start: f64,
+        /// Last frequency, Hz.
         stop: f64,
     },
     /// `per_decade` frequencies per decade from `start` to `stop` (Hz).
     Decade {
+        /// Frequencies per decade.
         per_decade: usize,
+        /// First frequency, Hz.
         start: f64,
+        /// Last frequency, Hz.
         stop: f64,
     },
 }

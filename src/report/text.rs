@@ -1,14 +1,19 @@
-//! The readable report.
+//! The readable report: the report model rendered as plain text.
 
-use crate::assessment::Assessment;
-use crate::problem::Problem;
-use crate::units::format_si;
-use std::fmt::Write;
+pub use super::model::mv;
+use super::model::{Item, Report, Section};
 
-/// Format rows as left-aligned columns.
+/// Format rows as left-aligned columns, each line indented by two spaces.
+/// An empty `head` prints no header row.
 pub fn table(head: &[&str], rows: &[Vec<String>]) -> String {
-    let n = head.len();
-    let mut w: Vec<usize> = head.iter().map(|h| h.chars().count()).collect();
+    let n = if head.is_empty() {
+        rows.iter().map(Vec::len).max().unwrap_or(0)
+    } else {
+        head.len()
+    };
+    let mut w: Vec<usize> = (0..n)
+        .map(|i| head.get(i).map_or(0, |h| h.chars().count()))
+        .collect();
     for r in rows {
         for (i, c) in r.iter().enumerate().take(n) {
             w[i] = w[i].max(c.chars().count());
@@ -17,7 +22,7 @@ pub fn table(head: &[&str], rows: &[Vec<String>]) -> String {
     let mut out = String::new();
     let line = |cells: Vec<&str>, out: &mut String| {
         let mut s = String::from("  ");
-        for (i, c) in cells.iter().enumerate() {
+        for (i, c) in cells.iter().enumerate().take(n) {
             s.push_str(c);
             if i + 1 < cells.len() {
                 s.push_str(&" ".repeat(w[i] - c.chars().count() + 2));
@@ -26,225 +31,84 @@ pub fn table(head: &[&str], rows: &[Vec<String>]) -> String {
         out.push_str(s.trim_end());
         out.push('\n');
     };
-    line(head.to_vec(), &mut out);
+    if !head.is_empty() {
+        line(head.to_vec(), &mut out);
+    }
     for r in rows {
         line(r.iter().map(|s| s.as_str()).collect(), &mut out);
     }
     out
 }
 
-pub fn mv(v: f64) -> String {
-    if v.is_finite() {
-        format_si(v, "V")
-    } else {
-        "unbounded".into()
+fn section(s: &Section, out: &mut String) {
+    let indent = if s.heading.is_some() { "  " } else { "" };
+    if let Some(h) = &s.heading {
+        out.push_str(h);
+        out.push('\n');
     }
-}
-
-/// Header lines describing the converter and the target.
-pub fn header(problem: &Problem) -> String {
-    let s = &problem.scenario;
-    let c = &s.converter;
-    let mut o = String::new();
-    if !s.name.is_empty() {
-        let _ = writeln!(o, "Scenario: {}", s.name);
-    }
-    let vins: Vec<String> = s.vin_corners().iter().map(|v| format!("{v} V")).collect();
-    let _ = writeln!(
-        o,
-        "Converter: {} {} → {} V, {} A, fsw {}{}",
-        c.topology.name(),
-        if vins.is_empty() {
-            "(vin not given)".to_string()
-        } else {
-            vins.join(" / ")
-        },
-        c.vout.0,
-        c.iout.0,
-        format_si(c.fsw.0, "Hz"),
-        if c.phases > 1 {
-            format!(", {} phases", c.phases)
-        } else {
-            String::new()
-        }
-    );
-    if c.phases > 1 {
-        let _ = writeln!(
-            o,
-            "  {} interleaved phases: only harmonics at multiples of {}× fsw remain in the summed current",
-            c.phases, c.phases
-        );
-    }
-    for op in &problem.ops {
-        let _ = writeln!(
-            o,
-            "  corner vin {}: duty {:.3}{}, current into the bank {} p-p at {}",
-            op.vin.map_or("—".into(), |v| format!("{v} V")),
-            op.duty,
-            if op.mode.is_empty() {
-                String::new()
-            } else {
-                format!(" ({})", op.mode)
-            },
-            format_si(op.current_pp, "A"),
-            format_si(op.f_ripple, "Hz")
-        );
-    }
-    let t = &s.target;
-    let _ = writeln!(
-        o,
-        "Target: {} p-p at the worst corner, {}",
-        mv(t.ripple_pp.0),
-        match t.bandwidth {
-            Some(b) => format!(
-                "{} bandwidth (order {})",
-                format_si(b.0, "Hz"),
-                t.bandwidth_order
-            ),
-            None => "full bandwidth".into(),
-        }
-    );
-    if s.selection.margin.0 > 0.0 {
-        let _ = writeln!(
-            o,
-            "  designed to {} (selection.margin {:.0} %)",
-            mv(s.design_target()),
-            s.selection.margin.0 * 100.0
-        );
-    }
-    o
-}
-
-/// The bank, the ripple figures, the limits and the warnings.
-pub fn assessment(a: &Assessment) -> String {
-    let mut o = String::new();
-    let rows: Vec<Vec<String>> = a
-        .bank
-        .iter()
-        .map(|l| {
-            vec![
-                l.part.clone(),
-                l.count.to_string(),
-                l.technology.clone(),
-                l.case.clone().unwrap_or_default(),
-                format_si(l.capacitance_nominal, "F"),
-                format_si(l.capacitance_worst, "F"),
-                format_si(l.esr, "Ω"),
-                format_si(l.esl, "H"),
-                format!(
-                    "{}{}",
-                    format_si(l.ripple_current_rms, "A"),
-                    l.ripple_current_rating
-                        .map_or(String::new(), |r| format!(" / {}", format_si(r, "A")))
-                ),
-                format!("{:.3}", l.unit_cost),
-                format!("{:.3}", l.line_total_cost),
-                l.unit_area
-                    .map_or("—".into(), |x| format!("{:.2}", x * l.count as f64)),
-            ]
-        })
-        .collect();
-    let _ = writeln!(o, "\nBank");
-    o.push_str(&table(
-        &[
-            "part",
-            "n",
-            "technology",
-            "case",
-            "C nominal",
-            "C worst",
-            "ESR",
-            "ESL",
-            "I rms / rating",
-            "unit",
-            "line",
-            "mm²",
-        ],
-        &rows,
-    ));
-    let _ = writeln!(
-        o,
-        "  total: {} part{} on {} line{}, cost {:.3}, area {}, C nominal {}, C worst-corner {}",
-        a.count,
-        if a.count == 1 { "" } else { "s" },
-        a.lines,
-        if a.lines == 1 { "" } else { "s" },
-        a.cost,
-        if a.area_known {
-            format!("{:.2} mm²", a.area)
-        } else {
-            "unknown (some parts give none)".into()
-        },
-        format_si(a.capacitance_nominal_total, "F"),
-        format_si(a.capacitance_effective_total, "F")
-    );
-    let _ = writeln!(o, "\nRipple ({} harmonics)", a.harmonics);
-    let _ = writeln!(
-        o,
-        "  worst corner      {:>10}   {} (target {})",
-        mv(a.ripple_pp),
-        if a.meets_target {
-            "meets the target"
-        } else {
-            "MISSES the target"
-        },
-        mv(a.target_ripple_pp)
-    );
-    let _ = writeln!(o, "  typical corner    {:>10}", mv(a.ripple_pp_typical));
-    let _ = writeln!(
-        o,
-        "  full bandwidth    {:>10}   (worst corner, no bandwidth limit)",
-        mv(a.ripple_pp_full_bandwidth)
-    );
-    let _ = writeln!(o, "\nLimits");
-    let rows: Vec<Vec<String>> = a
-        .checks
-        .iter()
-        .map(|c| {
-            let f = |x: f64| match c.unit.as_str() {
-                "V" | "F" | "A" => format_si(x, &c.unit),
-                "" => format!("{x}"),
-                u => format!("{x:.2} {u}"),
-            };
-            vec![
-                c.name.clone(),
-                f(c.value),
-                f(c.limit),
-                if c.ok { "ok".into() } else { "FAIL".into() },
-            ]
-        })
-        .collect();
-    o.push_str(&table(&["check", "value", "limit", ""], &rows));
-    if !a.warnings.is_empty() {
-        let _ = writeln!(o, "\nWarnings");
-        for w in &a.warnings {
-            let _ = writeln!(o, "  - {w}");
+    for item in &s.items {
+        match item {
+            Item::Line(l) | Item::Verdict(_, l) => {
+                for part in l.lines() {
+                    out.push_str(indent);
+                    out.push_str(part);
+                    out.push('\n');
+                }
+            }
+            Item::Table(t) => {
+                let head: Vec<&str> = t.head.iter().map(String::as_str).collect();
+                out.push_str(&table(&head, &t.rows));
+            }
+            Item::List(v) => {
+                for x in v {
+                    out.push_str("  - ");
+                    out.push_str(x);
+                    out.push('\n');
+                }
+            }
         }
     }
-    o
 }
 
-pub fn excluded(problem: &Problem) -> String {
-    let mut o = String::new();
-    if problem.excluded.is_empty() {
-        return o;
+/// The whole report as text: the run's lines, then each section, a blank
+/// line between sections.
+pub fn render(r: &Report) -> String {
+    let mut out = String::new();
+    if let Some(run) = &r.run {
+        for l in run.lines() {
+            out.push_str(&l);
+            out.push('\n');
+        }
     }
-    let _ = writeln!(
-        o,
-        "\nParts not used ({} of {})",
-        problem.excluded.len(),
-        problem.catalog.parts.len()
-    );
-    for e in &problem.excluded {
-        let _ = writeln!(o, "  {:<28} {}", e.part, e.reason);
+    for (i, s) in r.sections.iter().enumerate() {
+        if i > 0 {
+            out.push('\n');
+        }
+        section(s, &mut out);
     }
-    o
+    out
 }
 
-pub fn cautions() -> String {
-    let mut o = String::from("\nCautions\n");
-    for c in super::CAUTIONS {
-        let _ = writeln!(o, "  - {c}");
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::model::{Table, Verdict};
+
+    #[test]
+    fn sections_are_separated_and_indented() {
+        let mut r = Report::new("t", None);
+        r.para("Head line");
+        r.line("  indented as written");
+        r.section("Bank");
+        r.table(Table::new(
+            &["a", "bb"],
+            vec![vec!["xyz".into(), "1".into()]],
+        ));
+        r.line("total: 1");
+        r.verdict(Verdict::Pass, "Verdict: PASS — fine.");
+        assert_eq!(
+            render(&r),
+            "Head line\n  indented as written\n\nBank\n  a    bb\n  xyz  1\n  total: 1\n\nVerdict: PASS — fine.\n"
+        );
     }
-    o
 }

@@ -1,0 +1,444 @@
+//! The structured report: sections of lines, tables and verdicts, built once
+//! by each command and rendered to text ([`super::text::render`]) and to HTML
+//! ([`super::html::render`]) from the same data.
+
+use crate::assessment::{Assessment, Bound};
+use crate::problem::Problem;
+use crate::run::Run;
+use crate::units::format_si;
+
+/// The answer a report gives, as data (the HTML colours it from this).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verdict {
+    /// The bank meets the target and every limit.
+    Pass,
+    /// The bank misses the target or a limit.
+    Fail,
+    /// The best bank under the model.
+    Optimal,
+    /// A verified bank, not proven the best.
+    Feasible,
+    /// No bank meets the target under every limit.
+    Infeasible,
+}
+
+impl Verdict {
+    /// The word for text reports and the CSS class of the HTML page.
+    pub fn name(self) -> &'static str {
+        match self {
+            Verdict::Pass => "pass",
+            Verdict::Fail => "fail",
+            Verdict::Optimal => "optimal",
+            Verdict::Feasible => "feasible",
+            Verdict::Infeasible => "infeasible",
+        }
+    }
+
+    /// The verdict of an optimizer status.
+    pub fn of_status(s: crate::optimize::Status) -> Verdict {
+        match s {
+            crate::optimize::Status::Optimal => Verdict::Optimal,
+            crate::optimize::Status::Feasible => Verdict::Feasible,
+            crate::optimize::Status::Infeasible => Verdict::Infeasible,
+        }
+    }
+}
+
+/// A table: a header row (empty for none) and rows of cells.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Table {
+    /// Column headings; empty when the table has no header row.
+    pub head: Vec<String>,
+    /// The rows, each a list of cells.
+    pub rows: Vec<Vec<String>>,
+}
+
+impl Table {
+    /// A table with these headings and rows.
+    pub fn new(head: &[&str], rows: Vec<Vec<String>>) -> Table {
+        Table {
+            head: head.iter().map(|s| s.to_string()).collect(),
+            rows,
+        }
+    }
+}
+
+/// One piece of a section.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Item {
+    /// A line of text (leading spaces are kept in text output).
+    Line(String),
+    /// A table.
+    Table(Table),
+    /// A bulleted list.
+    List(Vec<String>),
+    /// The answer, with the sentence that states it.
+    Verdict(Verdict, String),
+}
+
+/// What a section is, where it matters to the layout.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum SectionKind {
+    /// An ordinary section.
+    #[default]
+    Normal,
+    /// The cautions (the HTML page puts them in a box of their own).
+    Cautions,
+}
+
+/// A section: an optional heading and its items.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Section {
+    /// The heading, if any.
+    pub heading: Option<String>,
+    /// The layout role.
+    pub kind: SectionKind,
+    /// The content, in order.
+    pub items: Vec<Item>,
+}
+
+/// A whole report.
+#[derive(Debug, Clone)]
+pub struct Report {
+    /// The page title (HTML).
+    pub title: String,
+    /// Version, inputs and date of the run.
+    pub run: Option<Run>,
+    /// The sections, in order.
+    pub sections: Vec<Section>,
+}
+
+impl Report {
+    /// An empty report.
+    pub fn new(title: &str, run: Option<&Run>) -> Report {
+        Report {
+            title: title.to_string(),
+            run: run.cloned(),
+            sections: Vec::new(),
+        }
+    }
+
+    /// Append a section.
+    pub fn push(&mut self, s: Section) {
+        self.sections.push(s);
+    }
+
+    /// Start a section without a heading, holding `line`.
+    pub fn para(&mut self, line: impl Into<String>) {
+        self.sections.push(Section {
+            items: vec![Item::Line(line.into())],
+            ..Default::default()
+        });
+    }
+
+    /// Start a section with a heading.
+    pub fn section(&mut self, heading: impl Into<String>) {
+        self.sections.push(Section {
+            heading: Some(heading.into()),
+            ..Default::default()
+        });
+    }
+
+    /// Start a section without a heading that states the verdict.
+    pub fn verdict(&mut self, v: Verdict, text: impl Into<String>) {
+        self.sections.push(Section {
+            items: vec![Item::Verdict(v, text.into())],
+            ..Default::default()
+        });
+    }
+
+    fn last(&mut self) -> &mut Section {
+        if self.sections.is_empty() {
+            self.sections.push(Section::default());
+        }
+        self.sections.last_mut().expect("one section")
+    }
+
+    /// Append a line to the last section.
+    pub fn line(&mut self, line: impl Into<String>) {
+        self.last().items.push(Item::Line(line.into()));
+    }
+
+    /// Append a table to the last section.
+    pub fn table(&mut self, t: Table) {
+        self.last().items.push(Item::Table(t));
+    }
+
+    /// Every verdict in the report, in order.
+    pub fn verdicts(&self) -> Vec<(Verdict, &str)> {
+        self.sections
+            .iter()
+            .flat_map(|s| s.items.iter())
+            .filter_map(|i| match i {
+                Item::Verdict(v, t) => Some((*v, t.as_str())),
+                _ => None,
+            })
+            .collect()
+    }
+}
+
+/// A voltage with an SI prefix, or "unbounded".
+pub fn mv(v: f64) -> String {
+    if v.is_finite() {
+        format_si(v, "V")
+    } else {
+        "unbounded".into()
+    }
+}
+
+/// The converter and the target (a section without a heading).
+pub fn header(problem: &Problem) -> Section {
+    let s = &problem.scenario;
+    let c = &s.converter;
+    let mut o = Vec::new();
+    if !s.name.is_empty() {
+        o.push(format!("Scenario: {}", s.name));
+    }
+    let vins: Vec<String> = s.vin_corners().iter().map(|v| format!("{v} V")).collect();
+    o.push(format!(
+        "Converter: {} {} → {} V, {} A, fsw {}{}",
+        c.topology.name(),
+        if vins.is_empty() {
+            "(vin not given)".to_string()
+        } else {
+            vins.join(" / ")
+        },
+        c.vout.0,
+        c.iout.0,
+        format_si(c.fsw.0, "Hz"),
+        if c.phases > 1 {
+            format!(", {} phases", c.phases)
+        } else {
+            String::new()
+        }
+    ));
+    if c.phases > 1 {
+        o.push(format!(
+            "  {} interleaved phases: only harmonics at multiples of {}× fsw remain in the summed current",
+            c.phases, c.phases
+        ));
+    }
+    for op in &problem.ops {
+        o.push(format!(
+            "  corner vin {}: duty {:.3}{}, current into the bank {} p-p at {}",
+            op.vin.map_or("—".into(), |v| format!("{v} V")),
+            op.duty,
+            if op.mode.is_empty() {
+                String::new()
+            } else {
+                format!(" ({})", op.mode)
+            },
+            format_si(op.current_pp, "A"),
+            format_si(op.f_ripple, "Hz")
+        ));
+    }
+    let t = &s.target;
+    o.push(format!(
+        "Target: {} p-p at the worst corner, {}",
+        mv(t.ripple_pp.0),
+        match t.bandwidth {
+            Some(b) => format!(
+                "{} bandwidth (order {})",
+                format_si(b.0, "Hz"),
+                t.bandwidth_order
+            ),
+            None => "full bandwidth".into(),
+        }
+    ));
+    if s.selection.margin.0 > 0.0 {
+        o.push(format!(
+            "  designed to {} (selection.margin {:.0} %)",
+            mv(s.design_target()),
+            s.selection.margin.0 * 100.0
+        ));
+    }
+    Section {
+        items: o.into_iter().map(Item::Line).collect(),
+        ..Default::default()
+    }
+}
+
+/// The bank, the ripple figures, the limits and the warnings. `quiet`
+/// leaves out the per-part limit rows.
+pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
+    let mut out = Vec::new();
+    let rows: Vec<Vec<String>> = a
+        .bank
+        .iter()
+        .map(|l| {
+            vec![
+                l.part.clone(),
+                l.count.to_string(),
+                l.technology.clone(),
+                l.case.clone().unwrap_or_default(),
+                format_si(l.capacitance_nominal, "F"),
+                format_si(l.capacitance_worst, "F"),
+                format_si(l.esr, "Ω"),
+                format_si(l.esl, "H"),
+                format!(
+                    "{}{}",
+                    format_si(l.ripple_current_rms, "A"),
+                    l.ripple_current_rating
+                        .map_or(String::new(), |r| format!(" / {}", format_si(r, "A")))
+                ),
+                format!("{:.3}", l.unit_cost),
+                format!("{:.3}", l.line_total_cost),
+                l.unit_area
+                    .map_or("—".into(), |x| format!("{:.2}", x * l.count as f64)),
+            ]
+        })
+        .collect();
+    let total = format!(
+        "total: {} part{} on {} line{}, cost {:.3}, area {}, C nominal {}, C worst-corner {}",
+        a.count,
+        if a.count == 1 { "" } else { "s" },
+        a.lines,
+        if a.lines == 1 { "" } else { "s" },
+        a.cost,
+        if a.area_known {
+            format!("{:.2} mm²", a.area)
+        } else {
+            "unknown (some parts give none)".into()
+        },
+        format_si(a.capacitance_nominal_total, "F"),
+        format_si(a.capacitance_effective_total, "F")
+    );
+    out.push(Section {
+        heading: Some("Bank".into()),
+        items: vec![
+            Item::Table(Table::new(
+                &[
+                    "part",
+                    "n",
+                    "technology",
+                    "case",
+                    "C nominal",
+                    "C worst",
+                    "ESR",
+                    "ESL",
+                    "I rms / rating",
+                    "unit",
+                    "line",
+                    "mm²",
+                ],
+                rows,
+            )),
+            Item::Line(total),
+        ],
+        ..Default::default()
+    });
+    let corner = if a.corner == crate::assessment::NamedCorner::Worst {
+        "worst corner".to_string()
+    } else {
+        format!("{} corner", a.corner.name())
+    };
+    out.push(Section {
+        heading: Some(format!("Ripple ({} harmonics)", a.harmonics)),
+        items: vec![Item::Table(Table {
+            head: Vec::new(),
+            rows: vec![
+                vec![
+                    corner.clone(),
+                    mv(a.ripple_pp),
+                    format!(
+                        "{} (target {})",
+                        if a.meets_target {
+                            "meets the target"
+                        } else {
+                            "MISSES the target"
+                        },
+                        mv(a.target_ripple_pp)
+                    ),
+                ],
+                vec![
+                    "typical corner".into(),
+                    mv(a.ripple_pp_typical),
+                    String::new(),
+                ],
+                vec![
+                    "full bandwidth".into(),
+                    mv(a.ripple_pp_full_bandwidth),
+                    format!("({corner}, no bandwidth limit)"),
+                ],
+            ],
+        })],
+        ..Default::default()
+    });
+    let rows: Vec<Vec<String>> = a
+        .checks
+        .iter()
+        .filter(|c| !quiet || c.part.is_none())
+        .map(|c| {
+            let f = |x: f64| match c.unit.as_str() {
+                "V" | "F" | "A" => format_si(x, &c.unit),
+                "" => format!("{x}"),
+                u => format!("{x:.2} {u}"),
+            };
+            vec![
+                c.name.clone(),
+                f(c.value),
+                match c.bound {
+                    Bound::AtMost => "≤".into(),
+                    Bound::AtLeast => "≥".into(),
+                },
+                f(c.limit),
+                if c.ok { "ok".into() } else { "FAIL".into() },
+            ]
+        })
+        .collect();
+    out.push(Section {
+        heading: Some("Limits".into()),
+        items: vec![Item::Table(Table::new(
+            &["check", "value", "must be", "limit", "result"],
+            rows,
+        ))],
+        ..Default::default()
+    });
+    if let Some(w) = warnings(&a.warnings) {
+        out.push(w);
+    }
+    out
+}
+
+/// The warnings as a section, or `None` when there are none.
+pub fn warnings(w: &[String]) -> Option<Section> {
+    (!w.is_empty()).then(|| Section {
+        heading: Some("Warnings".into()),
+        items: vec![Item::List(w.to_vec())],
+        ..Default::default()
+    })
+}
+
+/// The parts not used and why, or `None` when every part may be used.
+pub fn excluded(problem: &Problem) -> Option<Section> {
+    if problem.excluded.is_empty() {
+        return None;
+    }
+    Some(Section {
+        heading: Some(format!(
+            "Parts not used ({} of {})",
+            problem.excluded.len(),
+            problem.catalog.parts.len()
+        )),
+        items: vec![Item::Table(Table::new(
+            &["part", "reason"],
+            problem
+                .excluded
+                .iter()
+                .map(|e| vec![e.part.clone(), e.reason.clone()])
+                .collect(),
+        ))],
+        ..Default::default()
+    })
+}
+
+/// The cautions printed with every report.
+pub fn cautions() -> Section {
+    Section {
+        heading: Some("Cautions".into()),
+        kind: SectionKind::Cautions,
+        items: vec![Item::List(
+            super::CAUTIONS.iter().map(|c| c.to_string()).collect(),
+        )],
+    }
+}
