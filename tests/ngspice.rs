@@ -595,3 +595,130 @@ mounting_inductance = "0.5n"
         std::panic::resume_unwind(e);
     }
 }
+
+/// The region's worst point across more topologies and networks: bank.cir
+/// is written at the worst point found, and ngspice must reproduce both
+/// figures there within 0.5 % (target bandwidth and full bandwidth).
+#[test]
+fn worst_points_across_topologies_match_ngspice() {
+    if !have_ngspice() {
+        return;
+    }
+    let full_bridge = r#"
+name = "test full bridge (invented)"
+[converter]
+topology = "bridge"
+vin_min = 36
+vin_max = 60
+vout = 5
+iout = 10
+fsw = "200k"
+inductance = "4.7u"
+inductance_tolerance = "20%"
+turns_ratio = 0.25
+[target]
+ripple_pp = "30m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.4n"
+"#;
+    check_ripple(
+        &problem(full_bridge),
+        &[("T-CER-22U", 4), ("T-POLY-220U", 1)],
+        "full bridge 36-60 V to 5 V, worst point",
+    );
+    let module = r#"
+name = "test module behind a connection inductance (invented)"
+[converter]
+topology = "module"
+vin = 12
+vout = 5
+iout = 3
+fsw = "400k"
+standalone_ripple_pp = "30m"
+standalone_bandwidth = "20M"
+internal_capacitance = "10u"
+internal_esr = "5m"
+internal_esl = "1n"
+[target]
+ripple_pp = "10m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.3n"
+connection_inductance = "2n"
+"#;
+    check_ripple(
+        &problem(module),
+        &[("T-CER-22U", 2), ("T-CER-1U", 2)],
+        "module with 2 nH connection inductance",
+    );
+    let forward = r#"
+name = "test forward with an electrolytic (invented)"
+[converter]
+topology = "forward"
+vin_min = 36
+vin_max = 72
+vout = 12
+iout = 3
+fsw = "250k"
+inductance = "22u"
+inductance_tolerance = "20%"
+turns_ratio = 0.5
+[target]
+ripple_pp = "60m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.5n"
+"#;
+    check_ripple(
+        &problem(forward),
+        &[("T-ELEC-470U", 1), ("T-CER-1U", 2)],
+        "forward 36-72 V to 12 V, electrolytic and ceramics",
+    );
+    let esl_buck = r#"
+name = "test 2 MHz ESL-dominated buck (invented)"
+[converter]
+topology = "buck"
+vin = 5
+vout = 1.2
+iout = 4
+fsw = "2M"
+inductance = "0.47u"
+inductance_tolerance = "20%"
+[target]
+ripple_pp = "20m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.5n"
+"#;
+    check_ripple(
+        &problem(esl_buck),
+        &[("T-CER-22U", 2)],
+        "2 MHz ESL-dominated buck",
+    );
+    let flyback2 = r#"
+name = "test flyback, second-order bandwidth (invented)"
+[converter]
+topology = "flyback"
+vin_min = 24
+vin_max = 60
+vout = 12
+iout = 1
+fsw = "200k"
+inductance = "40u"
+inductance_tolerance = "20%"
+turns_ratio = 0.5
+edge_time = "30n"
+[target]
+ripple_pp = "100m"
+bandwidth = "20M"
+bandwidth_order = 2
+[board]
+mounting_inductance = "0.5n"
+"#;
+    check_ripple(
+        &problem(flyback2),
+        &[("T-CER-22U", 3), ("T-POLY-220U", 1)],
+        "flyback 24-60 V, second-order 20 MHz limit",
+    );
+}

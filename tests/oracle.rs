@@ -130,6 +130,7 @@ fn optimizer_matches_brute_force_on_random_cases() {
                     "case {case}: the tool's bank ripples {dense} V over the dense region search, target {target}"
                 );
                 // Every reported bank meets every limit the oracle checks.
+                let a = ripplebank::assessment::assess(&p, &f.bank).unwrap();
                 assert!(a.all_ok, "case {case}: bank {:?} breaks a limit", f.bank);
                 let tool = f.key[0];
                 let excess = if *oc > 0.0 { (tool - oc) / oc } else { tool };

@@ -351,19 +351,66 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
                     ),
                 ],
                 vec![
+                    "low corner".into(),
+                    mv(a.ripple_pp_corners.low),
+                    "(every line at its lowest C and highest ESR, nominal L)".into(),
+                ],
+                vec![
+                    "high corner".into(),
+                    mv(a.ripple_pp_corners.high),
+                    "(every line at its highest C and lowest ESR, nominal L)".into(),
+                ],
+                vec![
                     "typical corner".into(),
                     mv(a.ripple_pp_typical),
-                    String::new(),
+                    "(nominal C under DC bias, catalog ESR)".into(),
                 ],
                 vec![
                     "full bandwidth".into(),
-                    mv(a.ripple_pp_full_bandwidth),
+                    if a.ripple_pp_full_bandwidth.is_finite() {
+                        mv(a.ripple_pp_full_bandwidth)
+                    } else {
+                        "not finite".into()
+                    },
                     format!("({corner}, no bandwidth limit)"),
                 ],
             ],
         })],
         ..Default::default()
     });
+    {
+        let w = &a.worst_corner;
+        let mut where_ = Vec::new();
+        if let Some(v) = w.vin {
+            where_.push(format!("vin {}", format_si(v, "V")));
+        }
+        if let Some(l) = w.inductance {
+            where_.push(format!("L {}", format_si(l, "H")));
+        }
+        let mut rows = Vec::new();
+        for l in &w.lines {
+            rows.push(vec![
+                l.part.clone(),
+                format_si(l.capacitance, "F"),
+                format_si(l.esr, "Ω"),
+            ]);
+        }
+        out.push(Section {
+            heading: Some(format!(
+                "Worst point of the corner region{}",
+                if where_.is_empty() {
+                    String::new()
+                } else {
+                    format!(" ({})", where_.join(", "))
+                }
+            )),
+            items: vec![Item::Table(Table {
+                head: vec!["line".into(), "C there".into(), "ESR there".into()],
+                rows,
+            })],
+            ..Default::default()
+        });
+    }
     let rows: Vec<Vec<String>> = a
         .checks
         .iter()
