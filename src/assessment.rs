@@ -258,6 +258,9 @@ pub fn assess_with(
     let vout = s.converter.vout.0;
     let mut lines = Vec::new();
     let mut warnings = problem.warnings.clone();
+    // The bank's own parts get one note each below; the catalog-wide note
+    // would say the same twice.
+    warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
     let mut checks = Vec::new();
     let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
     let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);

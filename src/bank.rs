@@ -194,12 +194,18 @@ impl Evaluator {
             // Scale each corner's unit triangle so that the internal bank
             // alone shows the measured standalone ripple (typical corner).
             let sb = c.standalone_bandwidth.map(|b| b.0).or(bw);
+            let so = s.standalone_bandwidth_order() as i32;
+            let filt_sa = |f: f64| {
+                sb.map_or(Complex64::new(1.0, 0.0), |b| {
+                    Complex64::new(1.0, f / b).powi(-so)
+                })
+            };
             let target = c.standalone_ripple_pp.map_or(1.0, |v| v.0);
             for cur in currents.iter_mut() {
                 let n = ev.n_full;
                 for k in 0..n {
                     let zt = ev.transfer_of(Complex64::default(), k);
-                    ev.buf[k + 1] = cur[k] * zt * filt(ev.freqs[k], sb);
+                    ev.buf[k + 1] = cur[k] * zt * filt_sa(ev.freqs[k]);
                 }
                 let pp = ev.pp_from_buf(n, true);
                 let scale = if pp > 0.0 { target / pp } else { 0.0 };

@@ -94,12 +94,15 @@ pub struct Dielectric {
     pub temp_max: f64,
     /// Worst-case fractional capacitance loss over the rated range.
     pub drop: f64,
+    /// Worst-case fractional capacitance gain over the rated range.
+    pub rise: f64,
     /// Class I (temperature-stable, no DC-bias loss) or class II.
     pub class1: bool,
 }
 
 /// Decode an EIA-198 dielectric code: class II `[XYZ][2-9][PRSTUV]`
-/// (e.g. X7R: −55…125 °C, ±15 %) or class I `C0G`/`NP0` (−55…125 °C, 0).
+/// (e.g. X7R: −55…125 °C, ±15 %; Y5V: −30…85 °C, +22/−82 %) or class I
+/// `C0G`/`NP0` (−55…125 °C, 0).
 pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
     let c = code.trim().to_ascii_uppercase();
     if matches!(c.as_str(), "C0G" | "COG" | "NP0" | "NPO") {
@@ -107,6 +110,7 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
             temp_min: -55.0,
             temp_max: 125.0,
             drop: 0.0,
+            rise: 0.0,
             class1: true,
         });
     }
@@ -130,19 +134,21 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
         b'9' => 200.0,
         _ => return None,
     };
-    let drop = match b[2] {
-        b'P' => 0.10,
-        b'R' => 0.15,
-        b'S' => 0.22,
-        b'T' => 0.33,
-        b'U' => 0.56,
-        b'V' => 0.82,
+    // EIA-198: P ±10 %, R ±15 %, S ±22 %, T +22/−33 %, U +22/−56 %, V +22/−82 %.
+    let (rise, drop) = match b[2] {
+        b'P' => (0.10, 0.10),
+        b'R' => (0.15, 0.15),
+        b'S' => (0.22, 0.22),
+        b'T' => (0.22, 0.33),
+        b'U' => (0.22, 0.56),
+        b'V' => (0.22, 0.82),
         _ => return None,
     };
     Some(Dielectric {
         temp_min,
         temp_max,
         drop,
+        rise,
         class1: false,
     })
 }
@@ -198,6 +204,58 @@ fn imperial_case_area(case: &str) -> Option<f64> {
     Some(l * w)
 }
 
+/// Points `x:y` joined by `;`, linear between points, flat beyond the ends.
+fn interpolate(p: &[(f64, f64)], x: f64) -> f64 {
+    if x <= p[0].0 {
+        return p[0].1;
+    }
+    for w in p.windows(2) {
+        let ((x0, y0), (x1, y1)) = (w[0], w[1]);
+        if x <= x1 {
+            return y0 + (y1 - y0) * (x - x0) / (x1 - x0);
+        }
+    }
+    p[p.len() - 1].1
+}
+
+/// Read `x:y;x:y;…`: `x` rises strictly, each pair checked by `check`.
+fn parse_points(
+    text: &str,
+    form: &str,
+    x_of: impl Fn(&str) -> std::result::Result<f64, String>,
+    y_of: impl Fn(&str) -> std::result::Result<f64, String>,
+    x_name: &str,
+) -> std::result::Result<Vec<(f64, f64)>, String> {
+    let mut points: Vec<(f64, f64)> = Vec::new();
+    for (i, item) in text.split(';').enumerate() {
+        let item = item.trim();
+        if item.is_empty() {
+            continue;
+        }
+        let Some((x, y)) = item.split_once(':') else {
+            return Err(format!(
+                "point {} `{item}` is not of the form {form}",
+                i + 1
+            ));
+        };
+        let x = x_of(x.trim()).map_err(|e| format!("point {}: {e}", i + 1))?;
+        let y = y_of(y.trim()).map_err(|e| format!("point {}: {e}", i + 1))?;
+        if let Some(&(px, _)) = points.last() {
+            if x <= px {
+                return Err(format!(
+                    "point {}: {x_name} must rise strictly ({x} after {px})",
+                    i + 1
+                ));
+            }
+        }
+        points.push((x, y));
+    }
+    if points.is_empty() {
+        return Err("no points".into());
+    }
+    Ok(points)
+}
+
 /// Capacitance retained under DC bias: `V:fraction` points, linear between
 /// points, flat beyond the ends.
 #[derive(Debug, Clone, PartialEq)]
@@ -207,59 +265,113 @@ pub struct BiasCurve {
 
 impl BiasCurve {
     pub fn parse(text: &str) -> std::result::Result<BiasCurve, String> {
-        let mut points = Vec::new();
-        for (i, item) in text.split(';').enumerate() {
-            let item = item.trim();
-            if item.is_empty() {
-                continue;
-            }
-            let Some((v, k)) = item.split_once(':') else {
-                return Err(format!(
-                    "point {} `{item}` is not of the form V:fraction",
-                    i + 1
-                ));
-            };
-            let v = units::parse(v, Unit::Volt).map_err(|e| format!("point {}: {e}", i + 1))?;
-            let k = units::parse(k, Unit::Fraction).map_err(|e| format!("point {}: {e}", i + 1))?;
-            if v < 0.0 {
-                return Err(format!("point {}: negative voltage {v}", i + 1));
-            }
-            if !(k > 0.0 && k <= 1.5) {
-                return Err(format!(
-                    "point {}: retained fraction {k} must be above 0 and at most 1.5",
-                    i + 1
-                ));
-            }
-            if let Some(&(pv, _)) = points.last() {
-                if v <= pv {
+        let points = parse_points(
+            text,
+            "V:fraction",
+            |v| {
+                let v = units::parse(v, Unit::Volt).map_err(|e| e.to_string())?;
+                if v < 0.0 {
+                    return Err(format!("negative voltage {v}"));
+                }
+                Ok(v)
+            },
+            |k| {
+                let k = units::parse(k, Unit::Fraction).map_err(|e| e.to_string())?;
+                if !(k > 0.0 && k <= 1.5) {
                     return Err(format!(
-                        "point {}: voltages must rise strictly ({v} V after {pv} V)",
-                        i + 1
+                        "retained fraction {k} must be above 0 and at most 1.5"
                     ));
                 }
-            }
-            points.push((v, k));
-        }
-        if points.is_empty() {
-            return Err("no points".into());
-        }
+                Ok(k)
+            },
+            "voltages",
+        )?;
         Ok(BiasCurve { points })
     }
 
     /// Retained fraction at DC voltage `v`.
     pub fn at(&self, v: f64) -> f64 {
-        let p = &self.points;
-        if v <= p[0].0 {
-            return p[0].1;
-        }
-        for w in p.windows(2) {
-            let ((v0, k0), (v1, k1)) = (w[0], w[1]);
-            if v <= v1 {
-                return k0 + (k1 - k0) * (v - v0) / (v1 - v0);
+        interpolate(&self.points, v)
+    }
+}
+
+/// ESR multiplier against temperature (`esr_temp`): `°C:factor` points,
+/// linear between points, flat beyond the ends.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TempCurve {
+    pub points: Vec<(f64, f64)>,
+}
+
+impl TempCurve {
+    /// Largest factor accepted (an electrolytic at −55 °C may reach tens).
+    pub const MAX_FACTOR: f64 = 100.0;
+
+    pub fn parse(text: &str) -> std::result::Result<TempCurve, String> {
+        let points = parse_points(
+            text,
+            "°C:factor",
+            |t| {
+                let t = t.trim_end_matches("°C").trim_end_matches('C').trim();
+                let t = units::parse(t, Unit::Plain).map_err(|e| e.to_string())?;
+                if !(-273.15..=500.0).contains(&t) {
+                    return Err(format!("temperature {t} °C is outside −273 … 500 °C"));
+                }
+                Ok(t)
+            },
+            |k| {
+                let k = units::parse(k, Unit::Plain).map_err(|e| e.to_string())?;
+                if !(k > 0.0 && k <= TempCurve::MAX_FACTOR) {
+                    return Err(format!(
+                        "ESR factor {k} must be above 0 and at most {}",
+                        TempCurve::MAX_FACTOR
+                    ));
+                }
+                Ok(k)
+            },
+            "temperatures",
+        )?;
+        Ok(TempCurve { points })
+    }
+
+    /// ESR factor at temperature `t` (°C).
+    pub fn at(&self, t: f64) -> f64 {
+        interpolate(&self.points, t)
+    }
+
+    /// Lowest and highest factor over `[t_lo, t_hi]` (the ends and every
+    /// point between them: the curve is linear in between).
+    pub fn range(&self, t_lo: f64, t_hi: f64) -> (f64, f64) {
+        let mut lo = self.at(t_lo).min(self.at(t_hi));
+        let mut hi = self.at(t_lo).max(self.at(t_hi));
+        for &(t, k) in &self.points {
+            if t > t_lo && t < t_hi {
+                lo = lo.min(k);
+                hi = hi.max(k);
             }
         }
-        p[p.len() - 1].1
+        (lo, hi)
     }
+}
+
+/// Read an `aging` cell: percent per decade of hours, `2.5` or `"2.5%"`
+/// (also `"2.5%/decade"`).
+pub fn parse_aging(text: &str) -> std::result::Result<f64, String> {
+    let t = text.trim();
+    let t = t
+        .strip_suffix("/decade")
+        .or_else(|| t.strip_suffix("/dec"))
+        .unwrap_or(t)
+        .trim();
+    let t = t.strip_suffix('%').unwrap_or(t).trim();
+    let v = units::parse(t, Unit::Plain).map_err(|_| {
+        format!("`{text}` is not an aging rate (percent per decade, e.g. 2.5 or 2.5%)")
+    })?;
+    if !(0.0..=25.0).contains(&v) {
+        return Err(format!(
+            "{v} %/decade must be from 0 to 25 (class II ceramics lose about 1 to 7 % per decade)"
+        ));
+    }
+    Ok(v)
 }
 
 /// One catalog row.
@@ -269,7 +381,12 @@ pub struct Part {
     pub technology: Technology,
     pub capacitance: f64,
     pub rated_voltage: f64,
+    /// Highest ESR at room temperature (the catalog's `esr`).
     pub esr: f64,
+    /// Lowest ESR at room temperature (`esr_min`; equals `esr` when absent).
+    pub esr_min: f64,
+    /// ESR multiplier against temperature (`esr_temp`); none = 1.
+    pub esr_temp: Option<TempCurve>,
     pub esl: f64,
     pub cost: f64,
     pub tolerance: f64,
@@ -284,6 +401,10 @@ pub struct Part {
     pub temp_min: Option<f64>,
     pub temp_max: Option<f64>,
     pub temp_drop: Option<f64>,
+    /// Worst-case fractional capacitance gain over temperature (`temp_rise`).
+    pub temp_rise: Option<f64>,
+    /// Capacitance loss, percent per decade of hours (`aging`; 0 when absent).
+    pub aging: f64,
     pub status: Status,
     pub manufacturer: Option<String>,
     pub mpn: Option<String>,
@@ -302,6 +423,48 @@ impl Part {
             .unwrap_or(0.0)
     }
 
+    /// Worst-case fractional capacitance gain over temperature: the
+    /// `temp_rise` column, else the EIA-198 letter, else 0.
+    pub fn temperature_rise(&self) -> f64 {
+        self.temp_rise
+            .or(self.dielectric.as_ref().map(|(_, d)| d.rise))
+            .unwrap_or(0.0)
+    }
+
+    /// Fraction of capacitance lost to aging after `service_hours`:
+    /// `(aging % / 100) · log10(service_hours / 1000)` beyond the 1000 h
+    /// referee time, else 0 (capped below 1).
+    pub fn aging_loss(&self, service_hours: f64) -> f64 {
+        if self.aging > 0.0 && service_hours > 1000.0 {
+            (self.aging / 100.0 * (service_hours / 1000.0).log10()).min(0.99)
+        } else {
+            0.0
+        }
+    }
+
+    /// ESR factor at temperature `t` °C (1 without an `esr_temp` curve).
+    pub fn esr_factor(&self, t: f64) -> f64 {
+        self.esr_temp.as_ref().map_or(1.0, |c| c.at(t))
+    }
+
+    /// Lowest and highest ESR over the environment `[temp_min, temp_max]`:
+    /// `(esr_min · k_T(temp_max), esr · k_T(temp_min))` for an ESR that
+    /// falls with temperature. A curve that is not monotonic in the range
+    /// gives its lowest and highest factor there instead, so the range
+    /// always covers every temperature in between.
+    pub fn esr_range(&self, temp_min: f64, temp_max: f64) -> (f64, f64) {
+        let (lo, hi) = if temp_min <= temp_max {
+            (temp_min, temp_max)
+        } else {
+            (temp_max, temp_min)
+        };
+        let (k_lo, k_hi) = self
+            .esr_temp
+            .as_ref()
+            .map_or((1.0, 1.0), |c| c.range(lo, hi));
+        (self.esr_min * k_lo, self.esr * k_hi)
+    }
+
     /// Retained fraction under DC bias `v` (1 without a curve).
     pub fn bias_factor(&self, v: f64) -> f64 {
         self.dc_bias.as_ref().map_or(1.0, |c| c.at(v))
@@ -316,12 +479,27 @@ impl Part {
         )
     }
 
-    /// Worst corner: `C_nom · (1 − tol) · k_bias(vdc) · (1 − drop_T)` (SPEC §4).
-    pub fn c_worst(&self, vdc: f64) -> f64 {
+    /// Lowest capacitance: `C_nom · (1 − tol) · k_bias(vdc) · (1 − drop_T) ·
+    /// (1 − aging)`, aging after `service_hours` (0 = none).
+    pub fn c_low(&self, vdc: f64, service_hours: f64) -> f64 {
         self.capacitance
             * (1.0 - self.tolerance)
             * self.bias_factor(vdc)
             * (1.0 - self.temperature_drop())
+            * (1.0 - self.aging_loss(service_hours))
+    }
+
+    /// Highest capacitance: `C_nom · (1 + tol) · k_bias(vdc) · (1 + rise_T)`.
+    pub fn c_high(&self, vdc: f64) -> f64 {
+        self.capacitance
+            * (1.0 + self.tolerance)
+            * self.bias_factor(vdc)
+            * (1.0 + self.temperature_rise())
+    }
+
+    /// The low corner without aging: `c_low(vdc, 0)`.
+    pub fn c_worst(&self, vdc: f64) -> f64 {
+        self.c_low(vdc, 0.0)
     }
 
     /// Typical corner: `C_nom · k_bias(vdc)` (SPEC §4).
@@ -334,6 +512,10 @@ impl Part {
         self.capacitance * (1.0 + self.tolerance)
     }
 }
+
+/// The catalog-wide note about parts without a tolerance (an assessment
+/// replaces it with one note per part of its bank).
+pub const NO_TOLERANCE: &str = "give no tolerance; 20 % assumed";
 
 /// A loaded catalog.
 #[derive(Debug, Clone, Default)]
@@ -357,6 +539,9 @@ const KNOWN: &[&str] = &[
     "tolerance",
     "dielectric",
     "dc_bias",
+    "esr_min",
+    "esr_temp",
+    "aging",
     "case",
     "area",
     "height",
@@ -364,6 +549,7 @@ const KNOWN: &[&str] = &[
     "temp_min",
     "temp_max",
     "temp_drop",
+    "temp_rise",
     "status",
     "manufacturer",
     "mpn",
@@ -494,7 +680,7 @@ impl Catalog {
                 ));
             }
         }
-        let mut warned_tol = 0usize;
+        let mut no_tol: Vec<String> = Vec::new();
         let mut lines = LineCounter::new(text.as_bytes());
         for rec in rdr.records() {
             let rec = rec.map_err(|e| {
@@ -527,9 +713,8 @@ impl Catalog {
                 semicolon,
             };
             let part = row.part(&extra)?;
-            if part.tolerance_given {
-            } else {
-                warned_tol += 1;
+            if !part.tolerance_given {
+                no_tol.push(part.id.clone());
             }
             if let Some(&prev) = cat.index.get(&part.id) {
                 bail!(
@@ -545,9 +730,19 @@ impl Catalog {
         if cat.parts.is_empty() {
             bail!("{source}: line 1: the catalog has a header row but no parts below it");
         }
-        if warned_tol > 0 {
+        if !no_tol.is_empty() {
+            let mut names = no_tol
+                .iter()
+                .take(8)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(", ");
+            if no_tol.len() > 8 {
+                names.push_str(", …");
+            }
             cat.warnings.push(format!(
-                "{source}: {warned_tol} part(s) give no tolerance; 20 % assumed"
+                "{source}: {} part(s) {NO_TOLERANCE}: {names}",
+                no_tol.len()
             ));
         }
         Ok(cat)
@@ -706,6 +901,41 @@ impl Row<'_> {
         if esr > 1000.0 {
             return Err(self.err("esr", format!("{esr} Ohm is not a plausible ESR")));
         }
+        let esr_min = match self.num("esr_min", Unit::Ohm)? {
+            None => esr,
+            Some(m) => {
+                self.positive("esr_min", m, true)?;
+                if m > esr {
+                    return Err(self.err(
+                        "esr_min",
+                        format!("{m} Ohm is above the part's esr {esr} Ohm (esr is the highest, esr_min the lowest)"),
+                    ));
+                }
+                m
+            }
+        };
+        let esr_temp = match self.text("esr_temp") {
+            None => None,
+            Some(t) => {
+                let t = if self.semicolon {
+                    t.replace(',', ".")
+                } else {
+                    t
+                };
+                Some(TempCurve::parse(&t).map_err(|e| self.err("esr_temp", e))?)
+            }
+        };
+        let aging = match self.text("aging") {
+            None => 0.0,
+            Some(t) => {
+                let t = if self.semicolon {
+                    t.replace(',', ".")
+                } else {
+                    t
+                };
+                parse_aging(&t).map_err(|e| self.err("aging", e))?
+            }
+        };
         let esl = self.req("esl", Unit::Henry)?;
         self.positive("esl", esl, true)?;
         if esl > 1e-3 {
@@ -774,6 +1004,12 @@ impl Row<'_> {
                 return Err(self.err("temp_drop", format!("{d} must be at least 0 and below 1")));
             }
         }
+        let temp_rise = self.num("temp_rise", Unit::Fraction)?;
+        if let Some(d) = temp_rise {
+            if !(0.0..=1.0).contains(&d) {
+                return Err(self.err("temp_rise", format!("{d} must be from 0 to 1 (100 %)")));
+            }
+        }
         let status = match self.text("status").map(|s| s.to_ascii_lowercase()) {
             None => Status::Active,
             Some(s) => match s.as_str() {
@@ -794,6 +1030,8 @@ impl Row<'_> {
             capacitance,
             rated_voltage,
             esr,
+            esr_min,
+            esr_temp,
             esl,
             cost,
             tolerance: tol.unwrap_or(0.20),
@@ -807,6 +1045,8 @@ impl Row<'_> {
             temp_min,
             temp_max,
             temp_drop,
+            temp_rise,
+            aging,
             status,
             manufacturer: self.text("manufacturer"),
             mpn: self.text("mpn"),
@@ -824,6 +1064,110 @@ impl Row<'_> {
 mod tests {
     use super::*;
 
+    fn one_part(extra_head: &str, extra_cells: &str) -> Part {
+        let csv = format!(
+            "part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance{extra_head}\n\
+             A,ceramic,10u,16,10m,0.4n,0.05,10%{extra_cells}\n"
+        );
+        Catalog::from_bytes(csv.as_bytes(), "t.csv")
+            .unwrap_or_else(|e| panic!("{e:#}"))
+            .parts
+            .remove(0)
+    }
+
+    #[test]
+    fn aging_loses_two_decades_times_the_rate() {
+        // Class II aging law as manufacturers publish it (common practice,
+        // no single source; IEC 60384-9 style 1000 h referee time):
+        // C(t) = C(t0) · (1 − k/100 · log10(t / t0)). 2.5 %/decade from
+        // 1000 h to 100 000 h is two decades: 5 % lost.
+        for cell in ["2.5", "2.5%", "2.5 %/decade"] {
+            let p = one_part(",dielectric,aging", &format!(",X7R,\"{cell}\""));
+            assert_eq!(p.aging, 2.5, "{cell}");
+            let c0 = p.c_low(0.0, 1000.0);
+            let c = p.c_low(0.0, 100_000.0);
+            assert!((c / c0 - 0.95).abs() < 1e-12, "{cell}: {}", c / c0);
+        }
+        let p = one_part(",dielectric,aging", ",X7R,2.5");
+        // No aging at or before the referee time, nor with service_hours 0.
+        assert_eq!(p.c_low(0.0, 0.0), p.c_low(0.0, 1000.0));
+        assert_eq!(p.c_low(0.0, 500.0), p.c_worst(0.0));
+        // X7R: C_low = 10 µ · 0.9 · 0.85, C_high = 10 µ · 1.1 · 1.15 (EIA-198 R = ±15 %).
+        assert!((p.c_worst(0.0) - 10e-6 * 0.9 * 0.85).abs() < 1e-18);
+        assert!((p.c_high(0.0) - 10e-6 * 1.1 * 1.15).abs() < 1e-18);
+        assert!(parse_aging("30").is_err());
+        assert!(parse_aging("fast").is_err());
+    }
+
+    #[test]
+    fn high_corner_uses_the_rise_and_temp_rise_column() {
+        // Y5V (EIA-198 V: +22/−82 %) and a non-EIA part with temp_rise 5 %.
+        let y5v = one_part(",dielectric", ",Y5V");
+        assert!((y5v.c_high(0.0) - 10e-6 * 1.1 * 1.22).abs() < 1e-18);
+        assert!((y5v.c_worst(0.0) - 10e-6 * 0.9 * 0.18).abs() < 1e-18);
+        let p = one_part(",temp_drop,temp_rise", ",10%,5%");
+        assert!((p.c_high(0.0) - 10e-6 * 1.1 * 1.05).abs() < 1e-18);
+        let none = one_part("", "");
+        assert_eq!(none.temperature_rise(), 0.0);
+    }
+
+    #[test]
+    fn esr_range_follows_the_temperature_curve() {
+        // Hand-interpolated from the curve below (linear between points):
+        // at −40 °C the factor is 8, at 85 °C 1 + (0.6 − 1)·65/85.
+        let p = one_part(",esr_min,esr_temp", ",6m,-40:8;-25:4;0:1.8;20:1;105:0.6");
+        assert_eq!(p.esr_min, 6e-3);
+        let (lo, hi) = p.esr_range(-40.0, 85.0);
+        let k85 = 1.0 + (0.6 - 1.0) * 65.0 / 85.0;
+        assert!((lo - 6e-3 * k85).abs() < 1e-15, "{lo}");
+        assert!((hi - 10e-3 * 8.0).abs() < 1e-15, "{hi}");
+        // Flat beyond the ends; between −25 and 0: 4 + (1.8 − 4)·0.5.
+        assert_eq!(p.esr_factor(-55.0), 8.0);
+        assert_eq!(p.esr_factor(150.0), 0.6);
+        assert!((p.esr_factor(-12.5) - 2.9).abs() < 1e-12);
+        // Without a curve or esr_min: the catalog ESR at both ends.
+        let q = one_part("", "");
+        assert_eq!(q.esr_range(-40.0, 85.0), (10e-3, 10e-3));
+        // A curve with a minimum inside the range still covers it.
+        let r = one_part(",esr_temp", ",-40:3;25:1;125:2");
+        assert_eq!(r.esr_range(-40.0, 125.0), (10e-3, 30e-3));
+    }
+
+    #[test]
+    fn esr_temp_and_esr_min_errors_name_line_and_column() {
+        let bad = [
+            (
+                ",esr_temp",
+                ",-40:8;-50:4",
+                "column 9 (esr_temp)",
+                "rise strictly",
+            ),
+            (",esr_temp", ",-40 8", "column 9 (esr_temp)", "°C:factor"),
+            (",esr_temp", ",-40:0", "column 9 (esr_temp)", "above 0"),
+            (
+                ",esr_min",
+                ",20m",
+                "column 9 (esr_min)",
+                "above the part's esr",
+            ),
+            (",temp_rise", ",150%", "column 9 (temp_rise)", "from 0 to 1"),
+            (",aging", ",40%", "column 9 (aging)", "from 0 to 25"),
+        ];
+        for (h, c, want1, want2) in bad {
+            let csv = format!(
+                "part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance{h}\n\
+                 A,ceramic,10u,16,10m,0.4n,0.05,10%{c}\n"
+            );
+            let e = Catalog::from_bytes(csv.as_bytes(), "t.csv")
+                .unwrap_err()
+                .to_string();
+            assert!(
+                e.contains(&format!("line 2, {want1}")) && e.contains(want2),
+                "{e}"
+            );
+        }
+    }
+
     #[test]
     fn eia198_class2_table() {
         // EIA-198 (EIA/IS-198) class II codes: first letter = low temperature,
@@ -838,20 +1182,26 @@ mod tests {
             ('8', 150.0),
             ('9', 200.0),
         ];
+        // EIA-198 letter: (rise, drop): P ±10 %, R ±15 %, S ±22 %,
+        // T +22/−33 %, U +22/−56 %, V +22/−82 %.
         let drops = [
-            ('P', 0.10),
-            ('R', 0.15),
-            ('S', 0.22),
-            ('T', 0.33),
-            ('U', 0.56),
-            ('V', 0.82),
+            ('P', 0.10, 0.10),
+            ('R', 0.15, 0.15),
+            ('S', 0.22, 0.22),
+            ('T', 0.22, 0.33),
+            ('U', 0.22, 0.56),
+            ('V', 0.22, 0.82),
         ];
         for (l, tl) in lows {
             for (h, th) in highs {
-                for (d, dd) in drops {
+                for (d, rr, dd) in drops {
                     let code = format!("{l}{h}{d}");
                     let x = decode_dielectric(&code).unwrap();
-                    assert_eq!((x.temp_min, x.temp_max, x.drop), (tl, th, dd), "{code}");
+                    assert_eq!(
+                        (x.temp_min, x.temp_max, x.rise, x.drop),
+                        (tl, th, rr, dd),
+                        "{code}"
+                    );
                     assert!(!x.class1);
                 }
             }
@@ -862,7 +1212,7 @@ mod tests {
         let y5v = decode_dielectric("y5v").unwrap();
         assert_eq!((y5v.temp_min, y5v.temp_max, y5v.drop), (-30.0, 85.0, 0.82));
         let c0g = decode_dielectric("C0G").unwrap();
-        assert!(c0g.class1 && c0g.drop == 0.0);
+        assert!(c0g.class1 && c0g.drop == 0.0 && c0g.rise == 0.0);
         assert!(decode_dielectric("X7Q").is_none());
         assert!(decode_dielectric("W7R").is_none());
         assert!(decode_dielectric("X1R").is_none());

@@ -201,6 +201,61 @@ impl Problem {
                 }
             }
         }
+        if conv.topology != Topology::Module && conv.inductance_tolerance.is_none() {
+            warnings.push(
+                "converter.inductance_tolerance not given: the nominal inductance only is used (0 %); \
+                 power inductors are commonly ±20 %"
+                    .into(),
+            );
+        }
+        if conv.bridge.is_some() && conv.topology != Topology::Bridge {
+            warnings.push(format!(
+                "converter.bridge applies to topology bridge only and is ignored for a {}",
+                conv.topology.name()
+            ));
+        }
+        let listed = |ids: &[&str]| -> String {
+            let mut t = ids.iter().take(8).copied().collect::<Vec<_>>().join(", ");
+            if ids.len() > 8 {
+                t.push_str(", …");
+            }
+            t
+        };
+        let usable = || eligible.iter().map(|&i| &catalog.parts[i]);
+        if scenario.environment.temperature_min < 0.0 {
+            let cold: Vec<&str> = usable()
+                .filter(|p| {
+                    p.technology == Technology::AluminumElectrolytic && p.esr_temp.is_none()
+                })
+                .map(|p| p.id.as_str())
+                .collect();
+            if !cold.is_empty() {
+                warnings.push(format!(
+                    "{} aluminum electrolytic part(s) give no esr_temp curve, and the environment reaches {} °C: \
+                     their ESR rises several-fold in the cold, which the room-temperature ESR used here misses: {}",
+                    cold.len(),
+                    scenario.environment.temperature_min,
+                    listed(&cold)
+                ));
+            }
+        }
+        let no_bias: Vec<&str> = usable()
+            .filter(|p| {
+                p.technology == Technology::Ceramic
+                    && p.dc_bias.is_none()
+                    && p.dielectric.as_ref().is_some_and(|(_, d)| !d.class1)
+            })
+            .map(|p| p.id.as_str())
+            .collect();
+        if !no_bias.is_empty() {
+            warnings.push(format!(
+                "{} class II ceramic part(s) give no dc_bias curve and are taken at their nominal capacitance: \
+                 at {} V the capacitance may be a fraction of nominal: {}",
+                no_bias.len(),
+                scenario.converter.vout.0,
+                listed(&no_bias)
+            ));
+        }
         if scenario.converter.max_capacitance.is_none() {
             warnings.push(
                 "converter.max_capacitance not given: the converter maker's limit on added output \

@@ -63,26 +63,76 @@ quantity!(Seconds, Unit::Second);
 quantity!(Fraction, Unit::Fraction);
 quantity!(Plain, Unit::Plain);
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Topology {
-    Buck,
-    Forward,
-    Bridge,
-    Flyback,
-    Boost,
-    Module,
+/// A word of the trade read in any letter case (`"Buck"`, `"COST"`); an
+/// unknown word is an error that lists the allowed names.
+macro_rules! words {
+    ($(#[$m:meta])* $name:ident { $($variant:ident = $word:literal),+ $(,)? }) => {
+        $(#[$m])*
+        #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+        pub enum $name {
+            $($variant),+
+        }
+
+        impl $name {
+            /// Every allowed spelling, in lower case.
+            pub const NAMES: &'static [&'static str] = &[$($word),+];
+
+            pub fn name(self) -> &'static str {
+                match self {
+                    $($name::$variant => $word),+
+                }
+            }
+
+            /// Case-insensitive; `_` and spaces count as `-`.
+            pub fn parse(s: &str) -> Option<$name> {
+                let s = s.trim().to_ascii_lowercase().replace(['_', ' '], "-");
+                match s.as_str() {
+                    $($word => Some($name::$variant),)+
+                    _ => None,
+                }
+            }
+        }
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+                let s = String::deserialize(d)?;
+                $name::parse(&s).ok_or_else(|| de::Error::unknown_variant(&s, $name::NAMES))
+            }
+        }
+    };
 }
 
-impl Topology {
-    pub fn name(self) -> &'static str {
+words!(Topology {
+    Buck = "buck",
+    Forward = "forward",
+    Bridge = "bridge",
+    Flyback = "flyback",
+    Boost = "boost",
+    Module = "module",
+});
+
+words!(
+    /// How a bridge converter drives its transformer primary.
+    BridgeKind {
+        Full = "full",
+        Half = "half",
+        PushPull = "push-pull",
+    }
+);
+
+impl Default for BridgeKind {
+    fn default() -> Self {
+        BridgeKind::Full
+    }
+}
+
+impl BridgeKind {
+    /// Voltage across the primary while a switch pair conducts: `vin`
+    /// (full bridge, push-pull) or `vin / 2` (half bridge).
+    pub fn primary_voltage(self, vin: f64) -> f64 {
         match self {
-            Topology::Buck => "buck",
-            Topology::Forward => "forward",
-            Topology::Bridge => "bridge",
-            Topology::Flyback => "flyback",
-            Topology::Boost => "boost",
-            Topology::Module => "module",
+            BridgeKind::Half => vin / 2.0,
+            BridgeKind::Full | BridgeKind::PushPull => vin,
         }
     }
 }
@@ -99,7 +149,11 @@ pub struct Converter {
     pub iout: Amperes,
     pub fsw: Hertz,
     pub inductance: Option<Henries>,
+    /// Tolerance of the converter's inductance (`"20%"` or 0.2); absent = 0.
+    pub inductance_tolerance: Option<Fraction>,
     pub turns_ratio: Option<Plain>,
+    /// Bridge kind (full, half, push-pull); only for topology `bridge`.
+    pub bridge: Option<BridgeKind>,
     #[serde(default = "one")]
     pub phases: u32,
     #[serde(default)]
@@ -109,6 +163,8 @@ pub struct Converter {
     pub min_capacitance: Farads,
     pub standalone_ripple_pp: Option<Volts>,
     pub standalone_bandwidth: Option<Hertz>,
+    /// Low-pass order of the standalone figure (default: the target's).
+    pub standalone_bandwidth_order: Option<u32>,
     pub internal_capacitance: Option<Farads>,
     #[serde(default)]
     pub internal_esr: Ohms,
@@ -118,6 +174,27 @@ pub struct Converter {
 
 fn one() -> u32 {
     1
+}
+
+impl Converter {
+    /// The inductance tolerance as a fraction (0 when not given).
+    pub fn inductance_tolerance(&self) -> f64 {
+        self.inductance_tolerance.map_or(0.0, |t| t.0)
+    }
+
+    /// The bridge kind (full when not given).
+    pub fn bridge_kind(&self) -> BridgeKind {
+        self.bridge.unwrap_or_default()
+    }
+
+    /// `vin` on the transformer primary (the bridge kind's, else `vin`).
+    pub fn primary_voltage(&self, vin: f64) -> f64 {
+        if self.topology == Topology::Bridge {
+            self.bridge_kind().primary_voltage(vin)
+        } else {
+            vin
+        }
+    }
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -138,6 +215,9 @@ pub struct Environment {
     pub temperature_min: f64,
     #[serde(default = "room")]
     pub temperature_max: f64,
+    /// Hours in service, for the aging of class II ceramics (0 = none).
+    #[serde(default)]
+    pub service_hours: f64,
 }
 
 fn room() -> f64 {
@@ -149,6 +229,7 @@ impl Default for Environment {
         Environment {
             temperature_min: 25.0,
             temperature_max: 25.0,
+            service_hours: 0.0,
         }
     }
 }
@@ -166,39 +247,27 @@ pub struct Board {
     pub max_lines: Option<u32>,
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
-#[serde(rename_all = "lowercase")]
-pub enum Objective {
-    #[default]
-    Cost,
-    Area,
-    Count,
-}
+words!(Objective {
+    Cost = "cost",
+    Area = "area",
+    Count = "count",
+});
 
-impl Objective {
-    pub fn name(self) -> &'static str {
-        match self {
-            Objective::Cost => "cost",
-            Objective::Area => "area",
-            Objective::Count => "count",
-        }
-    }
-    pub fn parse(s: &str) -> Option<Objective> {
-        match s {
-            "cost" => Some(Objective::Cost),
-            "area" => Some(Objective::Area),
-            "count" => Some(Objective::Count),
-            _ => None,
-        }
+impl Default for Objective {
+    fn default() -> Self {
+        Objective::Cost
     }
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
-#[serde(rename_all = "lowercase")]
-pub enum CapBasis {
-    #[default]
-    Nominal,
-    Effective,
+words!(CapBasis {
+    Nominal = "nominal",
+    Effective = "effective",
+});
+
+impl Default for CapBasis {
+    fn default() -> Self {
+        CapBasis::Nominal
+    }
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -329,6 +398,14 @@ impl Scenario {
         v
     }
 
+    /// Low-pass order of a module's standalone ripple figure: the
+    /// converter's `standalone_bandwidth_order`, else the target's.
+    pub fn standalone_bandwidth_order(&self) -> u32 {
+        self.converter
+            .standalone_bandwidth_order
+            .unwrap_or(self.target.bandwidth_order)
+    }
+
     /// The ripple the search designs to: the target less the margin.
     pub fn design_target(&self) -> f64 {
         self.target.ripple_pp.0 * (1.0 - self.selection.margin.0)
@@ -439,14 +516,20 @@ impl Scenario {
         for &vin in &vins {
             match c.topology {
                 Topology::Buck | Topology::Forward | Topology::Bridge => {
-                    let d = c.vout.0 / (vin * n);
+                    let d = c.vout.0 / (c.primary_voltage(vin) * n);
                     if !(d > 0.0 && d < 1.0) {
+                        let (formula, what) = if c.topology == Topology::Bridge
+                            && c.bridge_kind() == BridgeKind::Half
+                        {
+                            ("vout/((vin/2)·n)", "a half bridge".to_string())
+                        } else {
+                            ("vout/(vin·n)", format!("a {}", c.topology.name()))
+                        };
                         return Err(self.err(
                             "converter.vout",
                             format!(
-                                "duty cycle vout/(vin·n) = {:.3} at vin = {vin} V is outside (0, 1): a {} cannot make {} V from {vin} V",
+                                "duty cycle {formula} = {:.3} at vin = {vin} V is outside (0, 1): {what} cannot make {} V from {vin} V",
                                 d,
-                                c.topology.name(),
                                 c.vout.0
                             ),
                         ));
@@ -480,6 +563,22 @@ impl Scenario {
         }
         if c.topology == Topology::Boost && c.iout.0 <= 0.0 {
             return Err(self.err("converter.iout", "a boost needs a load current above zero"));
+        }
+        if let Some(t) = c.inductance_tolerance {
+            if !(0.0..0.9).contains(&t.0) {
+                return Err(self.err(
+                    "converter.inductance_tolerance",
+                    format!("{} must be at least 0 and below 0.9 (90 %)", t.0),
+                ));
+            }
+        }
+        if let Some(o) = c.standalone_bandwidth_order {
+            if o == 0 || o > 8 {
+                return Err(self.err(
+                    "converter.standalone_bandwidth_order",
+                    format!("{o} must be from 1 to 8"),
+                ));
+            }
         }
         nonneg("converter.edge_time", c.edge_time.0)?;
         if c.edge_time.0 * c.fsw.0 > 0.2 {
@@ -551,6 +650,15 @@ impl Scenario {
             return Err(self.err(
                 "environment.temperature_min",
                 "must be finite and not above temperature_max",
+            ));
+        }
+        if !(e.service_hours >= 0.0) || !e.service_hours.is_finite() || e.service_hours > 1e7 {
+            return Err(self.err(
+                "environment.service_hours",
+                format!(
+                    "{} must be from 0 to 10 000 000 hours (0 = no aging)",
+                    e.service_hours
+                ),
             ));
         }
         let b = &self.board;
