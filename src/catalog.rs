@@ -941,7 +941,7 @@ impl Row<'_> {
         if esl > 1e-3 {
             return Err(self.err("esl", format!("{esl} H is not a plausible ESL")));
         }
-        let cost = self.req("cost", Unit::Plain)?;
+        let cost = self.req("cost", Unit::Cost)?;
         self.positive("cost", cost, true)?;
         let tol = self.num("tolerance", Unit::Fraction)?;
         if let Some(t) = tol {

@@ -62,6 +62,7 @@ quantity!(Hertz, Unit::Hertz);
 quantity!(Seconds, Unit::Second);
 quantity!(Fraction, Unit::Fraction);
 quantity!(Plain, Unit::Plain);
+quantity!(Money, Unit::Cost);
 
 /// A word of the trade read in any letter case (`"Buck"`, `"COST"`); an
 /// unknown word is an error that lists the allowed names.
@@ -276,7 +277,7 @@ pub struct Selection {
     #[serde(default)]
     pub objective: Objective,
     #[serde(default)]
-    pub line_cost: Plain,
+    pub line_cost: Money,
     #[serde(default = "twenty")]
     pub max_per_part: u32,
     #[serde(default)]
@@ -307,7 +308,7 @@ impl Default for Selection {
     fn default() -> Self {
         Selection {
             objective: Objective::Cost,
-            line_cost: Plain(0.0),
+            line_cost: Money(0.0),
             max_per_part: 20,
             exclude: vec![],
             allow_nrnd: false,
