@@ -681,6 +681,7 @@ impl Catalog {
             }
         }
         let mut no_tol: Vec<String> = Vec::new();
+        let mut unusual = Unusual::default();
         let mut lines = LineCounter::new(text.as_bytes());
         for rec in rdr.records() {
             let rec = rec.map_err(|e| {
@@ -713,6 +714,7 @@ impl Catalog {
                 semicolon,
             };
             let part = row.part(&extra)?;
+            unusual.note(&part, &col, line);
             if !part.tolerance_given {
                 no_tol.push(part.id.clone());
             }
@@ -730,6 +732,7 @@ impl Catalog {
         if cat.parts.is_empty() {
             bail!("{source}: line 1: the catalog has a header row but no parts below it");
         }
+        unusual.into_warnings(source, &mut cat.warnings);
         if !no_tol.is_empty() {
             let mut names = no_tol
                 .iter()
@@ -746,6 +749,68 @@ impl Catalog {
             ));
         }
         Ok(cat)
+    }
+}
+
+/// Values that are possible but unusual enough to be a slip of the unit:
+/// one warning per kind, listing the parts with their line and column.
+#[derive(Default)]
+struct Unusual {
+    /// (what, column, entries "PART (line N)").
+    kinds: Vec<(&'static str, &'static str, Vec<String>)>,
+}
+
+impl Unusual {
+    /// Thresholds are common practice, no source: a capacitor's ESL is
+    /// below a few nH for chips and below about 20 nH for leaded cans; a
+    /// ceramic's ESR is milliohms.
+    const ESL_WARN: f64 = 50e-9;
+    const CERAMIC_ESR_WARN: f64 = 1.0;
+
+    fn push(&mut self, what: &'static str, column: &'static str, entry: String) {
+        match self.kinds.iter_mut().find(|k| k.0 == what) {
+            Some(k) => k.2.push(entry),
+            None => self.kinds.push((what, column, vec![entry])),
+        }
+    }
+
+    fn note(&mut self, p: &Part, col: &HashMap<&'static str, usize>, line: u64) {
+        let at = |c: &str| {
+            format!(
+                "{} (line {line}, column {})",
+                p.id,
+                col.get(c).map_or(0, |i| i + 1)
+            )
+        };
+        if p.esl > Self::ESL_WARN {
+            self.push(
+                "ESL above 50 nH (unusual for a capacitor; check the prefix)",
+                "esl",
+                at("esl"),
+            );
+        }
+        if p.technology == Technology::Ceramic && p.esr > Self::CERAMIC_ESR_WARN {
+            self.push(
+                "ESR above 1 Ω on a ceramic (ceramics have milliohms; check the prefix)",
+                "esr",
+                at("esr"),
+            );
+        }
+    }
+
+    fn into_warnings(self, source: &str, out: &mut Vec<String>) {
+        for (what, column, entries) in self.kinds {
+            let mut list = entries
+                .iter()
+                .take(8)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(", ");
+            if entries.len() > 8 {
+                list.push_str(", …");
+            }
+            out.push(format!("{source}: column `{column}`: {what}: {list}"));
+        }
     }
 }
 
@@ -868,6 +933,28 @@ impl Row<'_> {
         Ok(())
     }
 
+    /// An ESR above 10 Ω is no output capacitor's: an error with the
+    /// likely value (milliohms).
+    fn plausible_esr(&self, name: &str, esr: f64) -> Result<()> {
+        if esr > 10.0 {
+            let t = self.raw(name).map_or("", |(_, v)| v);
+            return Err(self.err(
+                name,
+                format!(
+                    "{} is not a plausible ESR (above 10 Ω); {} {}?",
+                    units::format_si(esr, "Ω"),
+                    if units::is_bare(t) {
+                        "bare numbers are ohms — did you mean"
+                    } else {
+                        "did you mean"
+                    },
+                    units::suggest_text(t, "m")
+                ),
+            ));
+        }
+        Ok(())
+    }
+
     fn part(&self, extra: &[(usize, String)]) -> Result<Part> {
         let id = self
             .text("part")
@@ -886,11 +973,33 @@ impl Row<'_> {
         })?;
         let capacitance = self.req("capacitance", Unit::Farad)?;
         self.positive("capacitance", capacitance, false)?;
+        let cap_text = self.raw("capacitance").map_or("", |(_, v)| v);
+        let bare = |what: &str| {
+            if units::is_bare(cap_text) {
+                format!("bare numbers are {what} — did you mean")
+            } else {
+                "did you mean".to_string()
+            }
+        };
         if capacitance > 100.0 {
             return Err(self.err(
                 "capacitance",
                 format!(
-                    "{capacitance} F is beyond any output capacitor (did a prefix go missing?)"
+                    "{} is beyond any output capacitor (did a prefix go missing? {} {}?)",
+                    units::format_si(capacitance, "F"),
+                    bare("farads"),
+                    units::suggest_text(cap_text, "u")
+                ),
+            ));
+        }
+        if technology == Technology::Ceramic && capacitance > 1e-3 {
+            return Err(self.err(
+                "capacitance",
+                format!(
+                    "{} for a ceramic (no ceramic capacitor reaches 1 mF); {} {}?",
+                    units::format_si(capacitance, "F"),
+                    bare("farads"),
+                    units::suggest_text(cap_text, "u")
                 ),
             ));
         }
@@ -898,13 +1007,12 @@ impl Row<'_> {
         self.positive("rated_voltage", rated_voltage, false)?;
         let esr = self.req("esr", Unit::Ohm)?;
         self.positive("esr", esr, true)?;
-        if esr > 1000.0 {
-            return Err(self.err("esr", format!("{esr} Ohm is not a plausible ESR")));
-        }
+        self.plausible_esr("esr", esr)?;
         let esr_min = match self.num("esr_min", Unit::Ohm)? {
             None => esr,
             Some(m) => {
                 self.positive("esr_min", m, true)?;
+                self.plausible_esr("esr_min", m)?;
                 if m > esr {
                     return Err(self.err(
                         "esr_min",
@@ -938,8 +1046,17 @@ impl Row<'_> {
         };
         let esl = self.req("esl", Unit::Henry)?;
         self.positive("esl", esl, true)?;
-        if esl > 1e-3 {
-            return Err(self.err("esl", format!("{esl} H is not a plausible ESL")));
+        if esl > 1e-6 {
+            let t = self.raw("esl").map_or("", |(_, v)| v);
+            return Err(self.err(
+                "esl",
+                format!(
+                    "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {} {}?",
+                    units::format_si(esl, "H"),
+                    if units::is_bare(t) { "bare numbers are henries — did you mean" } else { "did you mean" },
+                    units::suggest_text(t, "n")
+                ),
+            ));
         }
         let cost = self.req("cost", Unit::Cost)?;
         self.positive("cost", cost, true)?;

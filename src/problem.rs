@@ -201,6 +201,12 @@ impl Problem {
                 }
             }
         }
+        if conv.fsw.0 > 20e6 {
+            warnings.push(format!(
+                "converter.fsw is {}: above 20 MHz is unusual for a power converter; check the prefix",
+                crate::units::format_si(conv.fsw.0, "Hz")
+            ));
+        }
         if conv.topology != Topology::Module && conv.inductance_tolerance.is_none() {
             warnings.push(
                 "converter.inductance_tolerance not given: the nominal inductance only is used (0 %); \

@@ -399,6 +399,17 @@ impl Scenario {
         v
     }
 
+    /// Fundamental of the current into the bank: `fsw`, `2·fsw` for a
+    /// bridge, `phases·fsw` for an interleaved buck.
+    pub fn ripple_frequency(&self) -> f64 {
+        let c = &self.converter;
+        match c.topology {
+            Topology::Bridge => 2.0 * c.fsw.0,
+            Topology::Buck => c.phases.max(1) as f64 * c.fsw.0,
+            _ => c.fsw.0,
+        }
+    }
+
     /// Low-pass order of a module's standalone ripple figure: the
     /// converter's `standalone_bandwidth_order`, else the target's.
     pub fn standalone_bandwidth_order(&self) -> u32 {
@@ -446,10 +457,23 @@ impl Scenario {
         pos("converter.vout", c.vout.0)?;
         nonneg("converter.iout", c.iout.0)?;
         pos("converter.fsw", c.fsw.0)?;
-        if c.fsw.0 < 100.0 || c.fsw.0 > 100e6 {
+        if c.fsw.0 < 1e3 {
             return Err(self.err(
                 "converter.fsw",
-                format!("{} Hz is outside 100 Hz … 100 MHz", c.fsw.0),
+                format!(
+                    "{} is below 1 kHz, slower than any switching converter; bare numbers are hertz — did you mean \"{}\"?",
+                    units::format_si(c.fsw.0, "Hz"),
+                    units::suggest(c.fsw.0, "k")
+                ),
+            ));
+        }
+        if c.fsw.0 > 100e6 {
+            return Err(self.err(
+                "converter.fsw",
+                format!(
+                    "{} is outside 1 kHz … 100 MHz",
+                    units::format_si(c.fsw.0, "Hz")
+                ),
             ));
         }
         for (k, v) in [
@@ -484,7 +508,20 @@ impl Scenario {
                         format!("a {} needs its inductance", c.topology.name()),
                     ))
                 }
-                Some(l) => pos("converter.inductance", l.0)?,
+                Some(l) => {
+                    pos("converter.inductance", l.0)?;
+                    if !(1e-9..=10e-3).contains(&l.0) {
+                        return Err(self.err(
+                            "converter.inductance",
+                            format!(
+                                "{} is outside 1 nH … 10 mH, where a converter's inductor lies (an ESL is not meant here); \
+                                 bare numbers are henries — did you mean \"{}\"?",
+                                units::format_si(l.0, "H"),
+                                units::suggest(l.0, "u")
+                            ),
+                        ));
+                    }
+                }
             }
         }
         if c.phases == 0 || c.phases > 16 {
@@ -628,8 +665,37 @@ impl Scenario {
         }
         let t = &self.target;
         pos("target.ripple_pp", t.ripple_pp.0)?;
-        if let Some(b) = t.bandwidth {
-            pos("target.bandwidth", b.0)?;
+        if t.ripple_pp.0 >= c.vout.0 {
+            return Err(self.err(
+                "target.ripple_pp",
+                format!(
+                    "{} is at or above vout {} — a ripple limit is a small part of the output \
+                     (prefixes are case-sensitive: `m` is milli, `M` mega; bare numbers are volts) — did you mean \"{}\"?",
+                    units::format_si(t.ripple_pp.0, "V"),
+                    units::format_si(c.vout.0, "V"),
+                    units::suggest(t.ripple_pp.0, "m")
+                ),
+            ));
+        }
+        let f_ripple = self.ripple_frequency();
+        for (key, bw) in [
+            ("target.bandwidth", t.bandwidth),
+            ("converter.standalone_bandwidth", c.standalone_bandwidth),
+        ] {
+            let Some(b) = bw else { continue };
+            pos(key, b.0)?;
+            if b.0 < f_ripple {
+                return Err(self.err(
+                    key,
+                    format!(
+                        "{} is below the ripple frequency {}, so no harmonic of the ripple would be measured \
+                         (`M` is mega, `m` milli; bare numbers are hertz) — did you mean \"{}\"?",
+                        units::format_si(b.0, "Hz"),
+                        units::format_si(f_ripple, "Hz"),
+                        units::suggest(b.0, "M")
+                    ),
+                ));
+            }
         }
         if t.bandwidth_order == 0 || t.bandwidth_order > 8 {
             return Err(self.err(

@@ -334,6 +334,39 @@ pub fn format_compact(value: f64) -> String {
     format_si(value, "").replace(' ', "").replace('µ', "u")
 }
 
+/// The number at the start of a value as written (`"4.7uF"` → `"4.7"`).
+pub fn mantissa(text: &str) -> &str {
+    let t = text.trim();
+    let end = t
+        .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == ',' || c == '+' || c == '-'))
+        .unwrap_or(t.len());
+    &t[..end]
+}
+
+/// A likely intended value for a misread one: the digits of `value` as the
+/// reader shows them, with `prefix` in place of its own prefix
+/// (`suggest(8e6, "m")` = `"8m"`, `suggest(600.0, "k")` = `"600k"`).
+pub fn suggest(value: f64, prefix: &str) -> String {
+    let t = format_compact(value);
+    let digits = t.trim_end_matches(|c: char| c.is_alphabetic());
+    format!("{digits}{prefix}")
+}
+
+/// As [`suggest`], from the text as written: its leading number with
+/// `prefix` after it (`"4.7"` → `"4.7u"`, `"22000"` → `"22000u"`).
+pub fn suggest_text(text: &str, prefix: &str) -> String {
+    let m = mantissa(text);
+    if m.is_empty() {
+        return prefix.to_string();
+    }
+    format!("{m}{prefix}")
+}
+
+/// True when the text is a bare number (no prefix, no unit symbol).
+pub fn is_bare(text: &str) -> bool {
+    text.trim().parse::<f64>().is_ok()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -442,6 +475,17 @@ mod tests {
         }
         assert_eq!(format_compact(10e-6), "10u");
         assert_eq!(format_compact(4.5e-10), "450p");
+    }
+
+    #[test]
+    fn suggestions_keep_the_digits() {
+        assert_eq!(suggest(8e6, "m"), "8m");
+        assert_eq!(suggest(600.0, "k"), "600k");
+        assert_eq!(suggest(20.0, "M"), "20M");
+        assert_eq!(suggest(2.2, "u"), "2.2u");
+        assert_eq!(suggest_text("4.7", "u"), "4.7u");
+        assert_eq!(suggest_text("5k", "m"), "5m");
+        assert!(is_bare("4.7") && !is_bare("4.7u"));
     }
 
     #[test]

@@ -245,7 +245,7 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "scn-absurd-fsw.toml",
         Scenario,
-        &["key `converter.fsw`", "outside 100 Hz"],
+        &["key `converter.fsw`", "outside 1 kHz"],
     ),
     (
         "scn-negative-inductance.toml",
