@@ -3,6 +3,7 @@
 //! Every error names the file, the line and the column. Extra columns are
 //! kept and carried through to the bill of materials.
 
+use crate::sheet::{Col, Row, Sheet};
 use crate::units::{self, Unit};
 use anyhow::{bail, Result};
 use std::collections::HashMap;
@@ -528,7 +529,35 @@ pub struct Catalog {
     index: HashMap<String, usize>,
 }
 
-const KNOWN: &[&str] = &[
+/// The catalog's columns and what each holds.
+pub const KNOWN: &[(&str, Col)] = &[
+    ("part", Col::Text),
+    ("technology", Col::Text),
+    ("capacitance", Col::Value(Unit::Farad)),
+    ("rated_voltage", Col::Value(Unit::Volt)),
+    ("esr", Col::Value(Unit::Ohm)),
+    ("esl", Col::Value(Unit::Henry)),
+    ("cost", Col::Value(Unit::Cost)),
+    ("tolerance", Col::Value(Unit::Fraction)),
+    ("dielectric", Col::Text),
+    ("dc_bias", Col::Text),
+    ("esr_min", Col::Value(Unit::Ohm)),
+    ("esr_temp", Col::Text),
+    ("aging", Col::Text),
+    ("case", Col::Text),
+    ("area", Col::Area),
+    ("height", Col::Millimetre),
+    ("ripple_current", Col::Value(Unit::Ampere)),
+    ("temp_min", Col::Celsius),
+    ("temp_max", Col::Celsius),
+    ("temp_drop", Col::Value(Unit::Fraction)),
+    ("temp_rise", Col::Value(Unit::Fraction)),
+    ("status", Col::Text),
+    ("manufacturer", Col::Text),
+    ("mpn", Col::Text),
+    ("description", Col::Text),
+];
+pub const REQUIRED: &[&str] = &[
     "part",
     "technology",
     "capacitance",
@@ -536,57 +565,7 @@ const KNOWN: &[&str] = &[
     "esr",
     "esl",
     "cost",
-    "tolerance",
-    "dielectric",
-    "dc_bias",
-    "esr_min",
-    "esr_temp",
-    "aging",
-    "case",
-    "area",
-    "height",
-    "ripple_current",
-    "temp_min",
-    "temp_max",
-    "temp_drop",
-    "temp_rise",
-    "status",
-    "manufacturer",
-    "mpn",
-    "description",
 ];
-const REQUIRED: &[&str] = &[
-    "part",
-    "technology",
-    "capacitance",
-    "rated_voltage",
-    "esr",
-    "esl",
-    "cost",
-];
-
-/// Levenshtein distance between two short names.
-fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut prev: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut cur = vec![i + 1; b.len() + 1];
-        for (j, &cb) in b.iter().enumerate() {
-            cur[j + 1] = (prev[j] + usize::from(ca != cb))
-                .min(prev[j + 1] + 1)
-                .min(cur[j] + 1);
-        }
-        prev = cur;
-    }
-    prev[b.len()]
-}
-
-fn normalise_header(h: &str) -> String {
-    h.trim()
-        .trim_start_matches('\u{feff}')
-        .to_ascii_lowercase()
-        .replace([' ', '-'], "_")
-}
 
 impl Catalog {
     pub fn from_path(path: &Path) -> Result<Catalog> {
@@ -605,116 +584,20 @@ impl Catalog {
 
     /// Parse catalog text; `source` names it in messages.
     pub fn from_bytes(bytes: &[u8], source: &str) -> Result<Catalog> {
-        let text = match std::str::from_utf8(bytes) {
-            Ok(t) => t.to_string(),
-            Err(e) => {
-                if let Some(at) = bytes.iter().position(|&b| b == 0) {
-                    let (line, column) = text_position(bytes, at);
-                    bail!("{source}: line {line}, column {column}: a NUL byte: this is not a text file; a catalog is CSV text");
-                }
-                // Spreadsheet exports are often Windows-1252/Latin-1: decode
-                // those byte for byte rather than refuse them.
-                let _ = e;
-                bytes.iter().map(|&b| b as char).collect()
-            }
-        };
-        let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
-        if text.trim().is_empty() {
-            bail!("{source}: line 1: the catalog is empty (it needs a header row and at least one part)");
-        }
-        let first_line = text.lines().next().unwrap_or("");
-        let semicolon = first_line.matches(';').count() > first_line.matches(',').count();
-        let mut rdr = csv::ReaderBuilder::new()
-            .delimiter(if semicolon { b';' } else { b',' })
-            .flexible(false)
-            .trim(csv::Trim::All)
-            .from_reader(text.as_bytes());
-        let headers: Vec<String> = rdr
-            .headers()
-            .map_err(|e| anyhow::anyhow!("{source}: line 1: cannot read the header row: {e}"))?
-            .iter()
-            .map(normalise_header)
-            .collect();
-        let mut col: HashMap<&str, usize> = HashMap::new();
-        let mut extra = Vec::new();
-        for (i, h) in headers.iter().enumerate() {
-            if h.is_empty() {
-                bail!("{source}: line 1, column {}: empty column name", i + 1);
-            }
-            if let Some(k) = KNOWN.iter().find(|k| **k == h) {
-                if col.insert(k, i).is_some() {
-                    bail!(
-                        "{source}: line 1, column {}: column `{h}` appears twice",
-                        i + 1
-                    );
-                }
-            } else {
-                extra.push((i, h.clone()));
-            }
-        }
-        for r in REQUIRED {
-            if !col.contains_key(r) {
-                bail!(
-                    "{source}: line 1: required column `{r}` is missing (have: {})",
-                    headers.join(", ")
-                );
-            }
-        }
+        let sheet = Sheet::read(bytes, source, "catalog", KNOWN, REQUIRED)?;
         let mut cat = Catalog {
             source: source.to_string(),
-            extra_columns: extra.iter().map(|(_, h)| h.clone()).collect(),
+            extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
+            warnings: sheet.warnings.clone(),
             ..Default::default()
         };
-        // An extra column whose name is close to a known one is most likely a
-        // typo that would silently drop data (a misspelled `status` makes an
-        // obsolete part usable): say so.
-        for (i, h) in &extra {
-            if let Some(k) = KNOWN
-                .iter()
-                .find(|k| edit_distance(h, k) <= 2 && h.len() >= 3)
-            {
-                cat.warnings.push(format!(
-                    "{source}: line 1, column {} `{h}` is not a known column; did you mean `{k}`? \
-                     It is only carried to the bill of materials",
-                    i + 1
-                ));
-            }
-        }
+        let col = &sheet.col;
         let mut no_tol: Vec<String> = Vec::new();
         let mut unusual = Unusual::default();
-        let mut lines = LineCounter::new(text.as_bytes());
-        for rec in rdr.records() {
-            let rec = rec.map_err(|e| {
-                let line = lines.line(e.position());
-                match e.kind() {
-                    csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
-                        let (len, expected_len) = (*len as usize, *expected_len as usize);
-                        let what = if len > expected_len {
-                            format!("{len} fields where the header has {expected_len}; a comma inside a value needs double quotes")
-                        } else {
-                            format!(
-                                "{len} fields where the header has {expected_len}: `{}` and later columns are missing",
-                                headers.get(len).map_or("", String::as_str)
-                            )
-                        };
-                        anyhow::anyhow!("{source}: line {line}, column {}: {what}", len.min(expected_len) + 1)
-                    }
-                    _ => anyhow::anyhow!("{source}: line {line}: {e}"),
-                }
-            })?;
-            let line = lines.line(rec.position());
-            if rec.iter().all(|f| f.is_empty()) {
-                continue;
-            }
-            let row = Row {
-                rec: &rec,
-                col: &col,
-                source,
-                line,
-                semicolon,
-            };
-            let part = row.part(&extra)?;
-            unusual.note(&part, &col, line);
+        for row in sheet.rows() {
+            let line = row.line;
+            let part = read_part(&row)?;
+            unusual.note(&part, col, line);
             if !part.tolerance_given {
                 no_tol.push(part.id.clone());
             }
@@ -867,319 +750,229 @@ impl<'a> LineCounter<'a> {
     }
 }
 
-struct Row<'a> {
-    rec: &'a csv::StringRecord,
-    col: &'a HashMap<&'static str, usize>,
-    source: &'a str,
-    line: u64,
-    semicolon: bool,
+/// An ESR above 10 Ω is no output capacitor's: an error with the
+/// likely value (milliohms).
+fn plausible_esr(row: &Row, name: &str, esr: f64) -> Result<()> {
+    if esr > 10.0 {
+        let t = row.raw(name).map_or("", |(_, v)| v);
+        return Err(row.err(
+            name,
+            format!(
+                "{} is not a plausible ESR (above 10 Ω); {} {}?",
+                units::format_si(esr, "Ω"),
+                if units::is_bare(t) {
+                    "bare numbers are ohms — did you mean"
+                } else {
+                    "did you mean"
+                },
+                units::suggest_text(t, "m")
+            ),
+        ));
+    }
+    Ok(())
 }
 
-impl Row<'_> {
-    fn raw(&self, name: &str) -> Option<(usize, &str)> {
-        let &i = self.col.get(name)?;
-        let v = self.rec.get(i)?.trim();
-        (!v.is_empty()).then_some((i, v))
-    }
-
-    fn err(&self, name: &str, msg: impl fmt::Display) -> anyhow::Error {
-        let c = self.col.get(name).map_or(0, |i| i + 1);
-        anyhow::anyhow!(
-            "{}: line {}, column {c} ({name}): {msg}",
-            self.source,
-            self.line
+fn read_part(row: &Row) -> Result<Part> {
+    let id = row
+        .text("part")
+        .ok_or_else(|| row.err("part", "part id is empty"))?;
+    let tech_text = row
+        .text("technology")
+        .ok_or_else(|| row.err("technology", "required value is empty"))?;
+    let technology = Technology::parse(&tech_text).ok_or_else(|| {
+        row.err(
+            "technology",
+            format!(
+                "unknown technology `{tech_text}` (one of: {})",
+                Technology::ALL.map(|t| t.name()).join(", ")
+            ),
         )
-    }
-
-    fn text(&self, name: &str) -> Option<String> {
-        self.raw(name).map(|(_, v)| v.to_string())
-    }
-
-    fn num(&self, name: &str, unit: Unit) -> Result<Option<f64>> {
-        let Some((_, v)) = self.raw(name) else {
-            return Ok(None);
-        };
-        let owned;
-        let v = if self.semicolon && v.contains(',') {
-            owned = v.replace(',', ".");
-            owned.as_str()
+    })?;
+    let capacitance = row.req("capacitance", Unit::Farad)?;
+    row.positive("capacitance", capacitance, false)?;
+    let cap_text = row.raw("capacitance").map_or("", |(_, v)| v);
+    let bare = |what: &str| {
+        if units::is_bare(cap_text) {
+            format!("bare numbers are {what} — did you mean")
         } else {
-            v
-        };
-        units::parse(v, unit)
-            .map(Some)
-            .map_err(|e| self.err(name, e))
+            "did you mean".to_string()
+        }
+    };
+    if capacitance > 100.0 {
+        return Err(row.err(
+            "capacitance",
+            format!(
+                "{} is beyond any output capacitor (did a prefix go missing? {} {}?)",
+                units::format_si(capacitance, "F"),
+                bare("farads"),
+                units::suggest_text(cap_text, "u")
+            ),
+        ));
     }
-
-    fn req(&self, name: &str, unit: Unit) -> Result<f64> {
-        self.num(name, unit)?
-            .ok_or_else(|| self.err(name, "required value is empty"))
+    if technology == Technology::Ceramic && capacitance > 1e-3 {
+        return Err(row.err(
+            "capacitance",
+            format!(
+                "{} for a ceramic (no ceramic capacitor reaches 1 mF); {} {}?",
+                units::format_si(capacitance, "F"),
+                bare("farads"),
+                units::suggest_text(cap_text, "u")
+            ),
+        ));
     }
-
-    fn positive(&self, name: &str, v: f64, allow_zero: bool) -> Result<()> {
-        if v < 0.0 || (!allow_zero && v == 0.0) {
-            return Err(self.err(
-                name,
-                format!(
-                    "{v} must be {}",
-                    if allow_zero {
-                        "zero or more"
-                    } else {
-                        "above zero"
-                    }
-                ),
-            ));
-        }
-        Ok(())
-    }
-
-    /// An ESR above 10 Ω is no output capacitor's: an error with the
-    /// likely value (milliohms).
-    fn plausible_esr(&self, name: &str, esr: f64) -> Result<()> {
-        if esr > 10.0 {
-            let t = self.raw(name).map_or("", |(_, v)| v);
-            return Err(self.err(
-                name,
-                format!(
-                    "{} is not a plausible ESR (above 10 Ω); {} {}?",
-                    units::format_si(esr, "Ω"),
-                    if units::is_bare(t) {
-                        "bare numbers are ohms — did you mean"
-                    } else {
-                        "did you mean"
-                    },
-                    units::suggest_text(t, "m")
-                ),
-            ));
-        }
-        Ok(())
-    }
-
-    fn part(&self, extra: &[(usize, String)]) -> Result<Part> {
-        let id = self
-            .text("part")
-            .ok_or_else(|| self.err("part", "part id is empty"))?;
-        let tech_text = self
-            .text("technology")
-            .ok_or_else(|| self.err("technology", "required value is empty"))?;
-        let technology = Technology::parse(&tech_text).ok_or_else(|| {
-            self.err(
-                "technology",
-                format!(
-                    "unknown technology `{tech_text}` (one of: {})",
-                    Technology::ALL.map(|t| t.name()).join(", ")
-                ),
-            )
-        })?;
-        let capacitance = self.req("capacitance", Unit::Farad)?;
-        self.positive("capacitance", capacitance, false)?;
-        let cap_text = self.raw("capacitance").map_or("", |(_, v)| v);
-        let bare = |what: &str| {
-            if units::is_bare(cap_text) {
-                format!("bare numbers are {what} — did you mean")
-            } else {
-                "did you mean".to_string()
-            }
-        };
-        if capacitance > 100.0 {
-            return Err(self.err(
-                "capacitance",
-                format!(
-                    "{} is beyond any output capacitor (did a prefix go missing? {} {}?)",
-                    units::format_si(capacitance, "F"),
-                    bare("farads"),
-                    units::suggest_text(cap_text, "u")
-                ),
-            ));
-        }
-        if technology == Technology::Ceramic && capacitance > 1e-3 {
-            return Err(self.err(
-                "capacitance",
-                format!(
-                    "{} for a ceramic (no ceramic capacitor reaches 1 mF); {} {}?",
-                    units::format_si(capacitance, "F"),
-                    bare("farads"),
-                    units::suggest_text(cap_text, "u")
-                ),
-            ));
-        }
-        let rated_voltage = self.req("rated_voltage", Unit::Volt)?;
-        self.positive("rated_voltage", rated_voltage, false)?;
-        let esr = self.req("esr", Unit::Ohm)?;
-        self.positive("esr", esr, true)?;
-        self.plausible_esr("esr", esr)?;
-        let esr_min = match self.num("esr_min", Unit::Ohm)? {
-            None => esr,
-            Some(m) => {
-                self.positive("esr_min", m, true)?;
-                self.plausible_esr("esr_min", m)?;
-                if m > esr {
-                    return Err(self.err(
-                        "esr_min",
-                        format!("{m} Ohm is above the part's esr {esr} Ohm (esr is the highest, esr_min the lowest)"),
-                    ));
-                }
-                m
-            }
-        };
-        let esr_temp = match self.text("esr_temp") {
-            None => None,
-            Some(t) => {
-                let t = if self.semicolon {
-                    t.replace(',', ".")
-                } else {
-                    t
-                };
-                Some(TempCurve::parse(&t).map_err(|e| self.err("esr_temp", e))?)
-            }
-        };
-        let aging = match self.text("aging") {
-            None => 0.0,
-            Some(t) => {
-                let t = if self.semicolon {
-                    t.replace(',', ".")
-                } else {
-                    t
-                };
-                parse_aging(&t).map_err(|e| self.err("aging", e))?
-            }
-        };
-        let esl = self.req("esl", Unit::Henry)?;
-        self.positive("esl", esl, true)?;
-        if esl > 1e-6 {
-            let t = self.raw("esl").map_or("", |(_, v)| v);
-            return Err(self.err(
-                "esl",
-                format!(
-                    "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {} {}?",
-                    units::format_si(esl, "H"),
-                    if units::is_bare(t) { "bare numbers are henries — did you mean" } else { "did you mean" },
-                    units::suggest_text(t, "n")
-                ),
-            ));
-        }
-        let cost = self.req("cost", Unit::Cost)?;
-        self.positive("cost", cost, true)?;
-        let tol = self.num("tolerance", Unit::Fraction)?;
-        if let Some(t) = tol {
-            if !(0.0..1.0).contains(&t) {
-                return Err(self.err(
-                    "tolerance",
-                    format!("{t} must be at least 0 and below 1 (100 %)"),
+    let rated_voltage = row.req("rated_voltage", Unit::Volt)?;
+    row.positive("rated_voltage", rated_voltage, false)?;
+    let esr = row.req("esr", Unit::Ohm)?;
+    row.positive("esr", esr, true)?;
+    plausible_esr(row, "esr", esr)?;
+    let esr_min = match row.num("esr_min", Unit::Ohm)? {
+        None => esr,
+        Some(m) => {
+            row.positive("esr_min", m, true)?;
+            plausible_esr(row, "esr_min", m)?;
+            if m > esr {
+                return Err(row.err(
+                    "esr_min",
+                    format!("{m} Ohm is above the part's esr {esr} Ohm (esr is the highest, esr_min the lowest)"),
                 ));
             }
+            m
         }
-        let dielectric = match self.text("dielectric") {
-            None => None,
-            Some(code) => match decode_dielectric(&code) {
-                Some(d) => Some((code.to_ascii_uppercase(), d)),
-                None => {
-                    return Err(self.err(
-                        "dielectric",
-                        format!("`{code}` is not an EIA-198 code this tool knows (X7R, X5R, X6S, C0G, …); leave it empty and give temp_min, temp_max, temp_drop"),
-                    ))
-                }
-            },
-        };
-        let dc_bias = match self.text("dc_bias") {
-            None => None,
-            Some(t) => {
-                let t = if self.semicolon {
-                    t.replace(',', ".")
-                } else {
-                    t
-                };
-                Some(BiasCurve::parse(&t).map_err(|e| self.err("dc_bias", e))?)
-            }
-        };
-        let case = self.text("case");
-        let area = match self.num("area", Unit::Plain)? {
-            Some(a) => {
-                self.positive("area", a, false)?;
-                Some(a)
-            }
-            None => case.as_deref().and_then(eia_case_area),
-        };
-        let height = self.num("height", Unit::Plain)?;
-        if let Some(h) = height {
-            self.positive("height", h, false)?;
-        }
-        let ripple_current = self.num("ripple_current", Unit::Ampere)?;
-        if let Some(r) = ripple_current {
-            self.positive("ripple_current", r, false)?;
-        }
-        let temp_min = self.num("temp_min", Unit::Plain)?;
-        let temp_max = self.num("temp_max", Unit::Plain)?;
-        if let (Some(a), Some(b)) = (temp_min, temp_max) {
-            if a >= b {
-                return Err(self.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
-            }
-        }
-        let temp_drop = self.num("temp_drop", Unit::Fraction)?;
-        if let Some(d) = temp_drop {
-            if !(0.0..1.0).contains(&d) {
-                return Err(self.err("temp_drop", format!("{d} must be at least 0 and below 1")));
-            }
-        }
-        let temp_rise = self.num("temp_rise", Unit::Fraction)?;
-        if let Some(d) = temp_rise {
-            if !(0.0..=1.0).contains(&d) {
-                return Err(self.err("temp_rise", format!("{d} must be from 0 to 1 (100 %)")));
-            }
-        }
-        let status = match self.text("status").map(|s| s.to_ascii_lowercase()) {
-            None => Status::Active,
-            Some(s) => match s.as_str() {
-                "active" => Status::Active,
-                "nrnd" => Status::Nrnd,
-                "obsolete" => Status::Obsolete,
-                _ => {
-                    return Err(self.err(
-                        "status",
-                        format!("unknown status `{s}` (active, nrnd, obsolete)"),
-                    ))
-                }
-            },
-        };
-        Ok(Part {
-            id,
-            technology,
-            capacitance,
-            rated_voltage,
-            esr,
-            esr_min,
-            esr_temp,
-            esl,
-            cost,
-            tolerance: tol.unwrap_or(0.20),
-            tolerance_given: tol.is_some(),
-            dielectric,
-            dc_bias,
-            case,
-            area,
-            height,
-            ripple_current,
-            temp_min,
-            temp_max,
-            temp_drop,
-            temp_rise,
-            aging,
-            status,
-            manufacturer: self.text("manufacturer"),
-            mpn: self.text("mpn"),
-            description: self.text("description"),
-            extra: extra
-                .iter()
-                .map(|(i, h)| (h.clone(), self.rec.get(*i).unwrap_or("").to_string()))
-                .collect(),
-            line: self.line,
-        })
+    };
+    let esr_temp = match row.decimal_text("esr_temp") {
+        None => None,
+        Some(t) => Some(TempCurve::parse(&t).map_err(|e| row.err("esr_temp", e))?),
+    };
+    let aging = match row.decimal_text("aging") {
+        None => 0.0,
+        Some(t) => parse_aging(&t).map_err(|e| row.err("aging", e))?,
+    };
+    let esl = row.req("esl", Unit::Henry)?;
+    row.positive("esl", esl, true)?;
+    if esl > 1e-6 {
+        let t = row.raw("esl").map_or("", |(_, v)| v);
+        return Err(row.err(
+            "esl",
+            format!(
+                "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {} {}?",
+                units::format_si(esl, "H"),
+                if units::is_bare(t) { "bare numbers are henries — did you mean" } else { "did you mean" },
+                units::suggest_text(t, "n")
+            ),
+        ));
     }
+    let cost = row.req("cost", Unit::Cost)?;
+    row.positive("cost", cost, true)?;
+    let tol = row.num("tolerance", Unit::Fraction)?;
+    if let Some(t) = tol {
+        if !(0.0..1.0).contains(&t) {
+            return Err(row.err(
+                "tolerance",
+                format!("{t} must be at least 0 and below 1 (100 %)"),
+            ));
+        }
+    }
+    let dielectric = match row.text("dielectric") {
+        None => None,
+        Some(code) => match decode_dielectric(&code) {
+            Some(d) => Some((code.to_ascii_uppercase(), d)),
+            None => {
+                return Err(row.err(
+                    "dielectric",
+                    format!("`{code}` is not an EIA-198 code this tool knows (X7R, X5R, X6S, C0G, …); leave it empty and give temp_min, temp_max, temp_drop"),
+                ))
+            }
+        },
+    };
+    let dc_bias = match row.decimal_text("dc_bias") {
+        None => None,
+        Some(t) => Some(BiasCurve::parse(&t).map_err(|e| row.err("dc_bias", e))?),
+    };
+    let case = row.text("case");
+    let area = match row.num("area", Unit::Plain)? {
+        Some(a) => {
+            row.positive("area", a, false)?;
+            Some(a)
+        }
+        None => case.as_deref().and_then(eia_case_area),
+    };
+    let height = row.num("height", Unit::Plain)?;
+    if let Some(h) = height {
+        row.positive("height", h, false)?;
+    }
+    let ripple_current = row.num("ripple_current", Unit::Ampere)?;
+    if let Some(r) = ripple_current {
+        row.positive("ripple_current", r, false)?;
+    }
+    let temp_min = row.num("temp_min", Unit::Plain)?;
+    let temp_max = row.num("temp_max", Unit::Plain)?;
+    if let (Some(a), Some(b)) = (temp_min, temp_max) {
+        if a >= b {
+            return Err(row.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
+        }
+    }
+    let temp_drop = row.num("temp_drop", Unit::Fraction)?;
+    if let Some(d) = temp_drop {
+        if !(0.0..1.0).contains(&d) {
+            return Err(row.err("temp_drop", format!("{d} must be at least 0 and below 1")));
+        }
+    }
+    let temp_rise = row.num("temp_rise", Unit::Fraction)?;
+    if let Some(d) = temp_rise {
+        if !(0.0..=1.0).contains(&d) {
+            return Err(row.err("temp_rise", format!("{d} must be from 0 to 1 (100 %)")));
+        }
+    }
+    let status = match row.text("status").map(|s| s.to_ascii_lowercase()) {
+        None => Status::Active,
+        Some(s) => match s.as_str() {
+            "active" => Status::Active,
+            "nrnd" => Status::Nrnd,
+            "obsolete" => Status::Obsolete,
+            _ => {
+                return Err(row.err(
+                    "status",
+                    format!("unknown status `{s}` (active, nrnd, obsolete)"),
+                ))
+            }
+        },
+    };
+    Ok(Part {
+        id,
+        technology,
+        capacitance,
+        rated_voltage,
+        esr,
+        esr_min,
+        esr_temp,
+        esl,
+        cost,
+        tolerance: tol.unwrap_or(0.20),
+        tolerance_given: tol.is_some(),
+        dielectric,
+        dc_bias,
+        case,
+        area,
+        height,
+        ripple_current,
+        temp_min,
+        temp_max,
+        temp_drop,
+        temp_rise,
+        aging,
+        status,
+        manufacturer: row.text("manufacturer"),
+        mpn: row.text("mpn"),
+        description: row.text("description"),
+        extra: row.extra(),
+        line: row.line,
+    })
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::sheet::edit_distance;
 
     fn one_part(extra_head: &str, extra_cells: &str) -> Part {
         let csv = format!(
@@ -1393,6 +1186,39 @@ mod tests {
         );
         assert!(!c.warnings.iter().any(|w| w.contains("vendor_code")));
         assert_eq!(edit_distance("ripple_curent", "ripple_current"), 1);
+    }
+
+    #[test]
+    fn header_units_scale_bare_numbers_only() {
+        let csv = "Part,Technology,Capacitance (uF),Rated Voltage (V),ESR [mOhm],ESL (nH),Cost ($),Tolerance (%),Height (mm),Temp Min (°C)\n\
+                   A,ceramic,22,6.3,3,0.4,0.05,10,1.25,-55\n\
+                   B,ceramic,100n,16,0R005,450p,$0.02,±5%,0.5,-55\n";
+        let c = Catalog::from_bytes(csv.as_bytes(), "t.csv").unwrap_or_else(|e| panic!("{e:#}"));
+        let a = &c.parts[0];
+        assert!((a.capacitance - 22e-6).abs() < 1e-18);
+        assert!((a.esr - 3e-3).abs() < 1e-15);
+        assert!((a.esl - 0.4e-9).abs() < 1e-21);
+        assert!((a.tolerance - 0.10).abs() < 1e-15);
+        assert_eq!(
+            (a.cost, a.height, a.temp_min),
+            (0.05, Some(1.25), Some(-55.0))
+        );
+        // Cells with their own prefix or unit are read as written.
+        let b = &c.parts[1];
+        assert!((b.capacitance - 100e-9).abs() < 1e-21);
+        assert!((b.esr - 5e-3).abs() < 1e-15);
+        assert!((b.esl - 450e-12).abs() < 1e-21);
+        assert!((b.tolerance - 0.05).abs() < 1e-15);
+        assert_eq!(b.cost, 0.02);
+        // A header unit that does not fit the column is refused at line 1.
+        let bad = "part,technology,capacitance (uH),rated_voltage,esr,esl,cost\nA,ceramic,22,6.3,3m,0.4n,0.05\n";
+        let e = Catalog::from_bytes(bad.as_bytes(), "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("line 1, column 3 (capacitance)") && e.contains("uH"),
+            "{e}"
+        );
     }
 
     #[test]

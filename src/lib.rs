@@ -18,5 +18,6 @@ pub mod optimize;
 pub mod problem;
 pub mod report;
 pub mod scenario;
+pub mod sheet;
 pub mod spectrum;
 pub mod units;
