@@ -429,10 +429,12 @@ impl Scenario {
 
     /// Voltage derating for a technology: scenario value or the default.
     pub fn derating(&self, t: Technology) -> f64 {
+        // Keys in any letter case ("Ceramic", "polymer_aluminum").
         self.selection
             .voltage_derating
-            .get(t.name())
-            .map_or(t.default_derating(), |f| f.0)
+            .iter()
+            .find(|(k, _)| Technology::parse(k) == Some(t))
+            .map_or(t.default_derating(), |(_, f)| f.0)
     }
 
     fn err(&self, key: &str, msg: impl fmt::Display) -> anyhow::Error {
@@ -863,6 +865,94 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("converter.turns_ratio"), "{e}");
+    }
+
+    #[test]
+    fn trade_words_in_any_letter_case() {
+        let t = MIN.replace("\"buck\"", "\"Buck\"")
+            + "[selection]\nobjective = \"Cost\"\nmax_capacitance_basis = \"EFFECTIVE\"\n\
+               [selection.voltage_derating]\nCeramic = 0.5\n";
+        let s = Scenario::from_str(&t, "t.toml").unwrap();
+        assert_eq!(s.converter.topology, Topology::Buck);
+        assert_eq!(s.selection.objective, Objective::Cost);
+        assert_eq!(s.selection.max_capacitance_basis, CapBasis::Effective);
+        assert_eq!(s.derating(Technology::Ceramic), 0.5);
+        assert_eq!(Objective::parse("AREA"), Some(Objective::Area));
+        assert_eq!(BridgeKind::parse("Push-Pull"), Some(BridgeKind::PushPull));
+        assert_eq!(BridgeKind::parse("push_pull"), Some(BridgeKind::PushPull));
+        // An unknown word still lists the allowed names.
+        let e = Scenario::from_str(&MIN.replace("\"buck\"", "\"Buk\""), "t.toml")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("`Buk`") && e.contains("buck") && e.contains("module"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn plausibility_errors_name_the_key_and_suggest() {
+        for (from, to, key, hint) in [
+            (
+                "ripple_pp = \"8m\"",
+                "ripple_pp = \"8M\"",
+                "target.ripple_pp",
+                "\"8m\"",
+            ),
+            ("fsw = \"600k\"", "fsw = 600", "converter.fsw", "\"600k\""),
+            (
+                "bandwidth = \"20M\"",
+                "bandwidth = 20",
+                "target.bandwidth",
+                "\"20M\"",
+            ),
+            (
+                "inductance = \"2.2u\"",
+                "inductance = 2.2",
+                "converter.inductance",
+                "\"2.2u\"",
+            ),
+            (
+                "inductance = \"2.2u\"",
+                "inductance = \"0.3n\"",
+                "converter.inductance",
+                "1 nH",
+            ),
+        ] {
+            let e = Scenario::from_str(&MIN.replace(from, to), "t.toml")
+                .unwrap_err()
+                .to_string();
+            assert!(
+                e.contains(&format!("key `{key}`")) && e.contains(hint),
+                "{e}"
+            );
+        }
+        // The ripple frequency of a bridge is 2·fsw, of N interleaved phases N·fsw.
+        let two = MIN
+            .replace("bandwidth = \"20M\"", "bandwidth = \"1M\"")
+            .replace("inductance = \"2.2u\"", "inductance = \"2.2u\"\nphases = 2");
+        let e = Scenario::from_str(&two, "t.toml").unwrap_err().to_string();
+        assert!(e.contains("ripple frequency 1.2 MHz"), "{e}");
+    }
+
+    #[test]
+    fn v2_keys_are_read() {
+        let t = MIN.replace(
+            "inductance = \"2.2u\"",
+            "inductance = \"2.2u\"\ninductance_tolerance = \"±20%\"",
+        ) + "[environment]\nservice_hours = 50000\n";
+        let s = Scenario::from_str(&t, "t.toml").unwrap();
+        assert!((s.converter.inductance_tolerance() - 0.2).abs() < 1e-15);
+        assert_eq!(s.environment.service_hours, 50000.0);
+        assert_eq!(s.converter.bridge_kind(), BridgeKind::Full);
+        assert_eq!(s.standalone_bandwidth_order(), 1);
+        let e = Scenario::from_str(
+            &MIN.replace("iout = 6", "iout = 6\ninductance_tolerance = 1.5"),
+            "t.toml",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("converter.inductance_tolerance"), "{e}");
     }
 
     #[test]
