@@ -76,7 +76,30 @@ pub enum Status {
     Obsolete,
 }
 
+/// The `status` column (`active` when empty), in any letter case.
+pub(crate) fn read_status(row: &Row) -> Result<Status> {
+    match row.text("status") {
+        None => Ok(Status::Active),
+        Some(s) => Status::parse(&s).ok_or_else(|| {
+            row.err(
+                "status",
+                format!("unknown status `{s}` (active, nrnd, obsolete)"),
+            )
+        }),
+    }
+}
+
 impl Status {
+    /// Case-insensitive.
+    pub fn parse(s: &str) -> Option<Status> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "active" => Some(Status::Active),
+            "nrnd" => Some(Status::Nrnd),
+            "obsolete" => Some(Status::Obsolete),
+            _ => None,
+        }
+    }
+
     pub fn name(self) -> &'static str {
         match self {
             Status::Active => "active",
@@ -923,20 +946,7 @@ fn read_part(row: &Row) -> Result<Part> {
             return Err(row.err("temp_rise", format!("{d} must be from 0 to 1 (100 %)")));
         }
     }
-    let status = match row.text("status").map(|s| s.to_ascii_lowercase()) {
-        None => Status::Active,
-        Some(s) => match s.as_str() {
-            "active" => Status::Active,
-            "nrnd" => Status::Nrnd,
-            "obsolete" => Status::Obsolete,
-            _ => {
-                return Err(row.err(
-                    "status",
-                    format!("unknown status `{s}` (active, nrnd, obsolete)"),
-                ))
-            }
-        },
-    };
+    let status = read_status(row)?;
     Ok(Part {
         id,
         technology,

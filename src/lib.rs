@@ -13,6 +13,7 @@ pub mod bank;
 pub mod catalog;
 pub mod commands;
 pub mod converter;
+pub mod inductors;
 pub mod load;
 pub mod optimize;
 pub mod problem;

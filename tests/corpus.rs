@@ -35,6 +35,9 @@ enum Kind {
     Scenario,
     /// `assess --scenario good-scenario.toml --bom FILE`
     Bom,
+    /// An inductor catalog, read through `InductorCatalog::from_path` (the
+    /// inductor catalog is not wired into a command yet).
+    Inductors,
 }
 use Kind::*;
 
@@ -560,16 +563,55 @@ const CASES: &[(&str, Kind, &[&str])] = &[
             "damping",
         ],
     ),
+    // ---- inductor catalogs
+    (
+        "ind-inductance-henries.csv",
+        Inductors,
+        &["line 3, column 2 (inductance)", "did you mean 2.2u?"],
+    ),
+    (
+        "ind-dcr-ohms.csv",
+        Inductors,
+        &["line 2, column 4 (dcr)", "did you mean 12m?"],
+    ),
+    (
+        "ind-srf-hertz.csv",
+        Inductors,
+        &["line 2, column 7 (srf)", "did you mean 60M?"],
+    ),
+    (
+        "ind-missing-saturation-column.csv",
+        Inductors,
+        &["line 1", "required column `saturation_current` is missing"],
+    ),
 ];
 
 /// Run one bad-input case and check the rules for bad input.
 fn run_bad(file: &str, kind: Kind, expect: &[&str]) -> Result<(), String> {
     let path = file.to_string();
+    if kind == Inductors {
+        let msg = match ripplebank::inductors::InductorCatalog::from_path(&root().join(file)) {
+            Ok(_) => return Err(format!("{file}: accepted, want an error")),
+            Err(e) => format!("{e:#}"),
+        };
+        let name = Path::new(file).file_name().unwrap().to_string_lossy();
+        let missing: Vec<&str> = std::iter::once(&*name)
+            .chain(std::iter::once("line "))
+            .chain(expect.iter().copied())
+            .filter(|e| !msg.contains(e))
+            .collect();
+        return if missing.is_empty() {
+            Ok(())
+        } else {
+            Err(format!("{file}: message lacks {missing:?}: {msg}"))
+        };
+    }
     let good_scn = corpus("good-scenario.toml");
     let args: Vec<&str> = match kind {
         Catalog => vec!["validate", "--scenario", &good_scn, "--catalog", &path],
         Scenario => vec!["validate", "--scenario", &path],
         Bom => vec!["assess", "--scenario", &good_scn, "--bom", &path],
+        Inductors => unreachable!("handled above"),
     };
     let out = bin().args(&args).output().map_err(|e| e.to_string())?;
     let stderr = String::from_utf8_lossy(&out.stderr);
@@ -1226,4 +1268,30 @@ fn bill_of_materials_header_aliases_and_whole_decimal_counts() {
         (doc["bank"].clone(), doc["ripple_pp"].as_f64().unwrap())
     };
     assert_eq!(run("good-bom-aliases.csv"), run("good-bom.csv"));
+}
+
+#[test]
+fn inductor_catalog_with_header_units_reads_right() {
+    // Semicolon export with CRLF: `Inductance (uH)` 2,2 = 2.2 µH, `DCR [mOhm]`
+    // 30 = 30 mΩ, `SRF (MHz)` 60 = 60 MHz, `Tolerance (%)` 20 = 20 %; the
+    // second row writes its own units (`470n`, `0R004`, `150M`, `±10%`, `€0,30`).
+    let bytes = std::fs::read(root().join(CORPUS).join("ok-inductors-header-units.csv")).unwrap();
+    let c =
+        ripplebank::inductors::InductorCatalog::from_bytes(&bytes, "ok-inductors-header-units.csv")
+            .unwrap_or_else(|e| panic!("{e:#}"));
+    let a = c.get("LX-H-2U2").unwrap();
+    close(a.inductance, 2.2e-6);
+    close(a.tolerance, 0.20);
+    close(a.dcr, 30e-3);
+    close(a.rated_current, 5.5);
+    close(a.saturation_current, 6.5);
+    close(a.srf.unwrap(), 60e6);
+    close(a.cost, 0.18);
+    let b = c.get("LX-H-470N").unwrap();
+    close(b.inductance, 470e-9);
+    close(b.tolerance, 0.10);
+    close(b.dcr, 4e-3);
+    close(b.srf.unwrap(), 150e6);
+    close(b.cost, 0.30);
+    assert_eq!(b.height, Some(3.0));
 }
