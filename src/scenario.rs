@@ -277,7 +277,7 @@ pub struct Selection {
     #[serde(default)]
     pub objective: Objective,
     #[serde(default)]
-    pub line_cost: Money,
+    pub line_cost: Plain,
     #[serde(default = "twenty")]
     pub max_per_part: u32,
     #[serde(default)]
@@ -308,7 +308,7 @@ impl Default for Selection {
     fn default() -> Self {
         Selection {
             objective: Objective::Cost,
-            line_cost: Money(0.0),
+            line_cost: Plain(0.0),
             max_per_part: 20,
             exclude: vec![],
             allow_nrnd: false,
