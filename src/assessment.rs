@@ -248,8 +248,9 @@ pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>
             .map_err(|_| anyhow::anyhow!("--bank: count `{n}` of `{id}` is not a whole number"))?;
         let Some(i) = problem.catalog.position(id) else {
             bail!(
-                "--bank: part `{id}` is not in the catalog {}",
-                problem.catalog.source
+                "--bank: part `{id}` is not in the catalog {}{}",
+                problem.catalog.source,
+                did_you_mean(problem, id)
             );
         };
         add(&mut out, i, n);
@@ -270,8 +271,66 @@ fn add(out: &mut Vec<(usize, u32)>, i: usize, n: u32) {
     }
 }
 
-/// A bill of materials as read from CSV: (part id, count, line number).
-pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
+/// Where a bill-of-materials row sits in the output network.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Position {
+    /// The bank at the converter's output (the default).
+    Converter,
+    /// The filter inductor.
+    Inductor,
+    /// The bank after the filter inductor, at the load.
+    Load,
+    /// The damping leg (its resistor and capacitor).
+    Damping,
+}
+
+impl Position {
+    /// Every position word, in lower case.
+    pub const NAMES: &'static [&'static str] = &["converter", "inductor", "load", "damping"];
+
+    /// The word of the `position` column.
+    pub fn name(self) -> &'static str {
+        match self {
+            Position::Converter => "converter",
+            Position::Inductor => "inductor",
+            Position::Load => "load",
+            Position::Damping => "damping",
+        }
+    }
+
+    /// Case-insensitive.
+    pub fn parse(s: &str) -> Option<Position> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "converter" => Some(Position::Converter),
+            "inductor" => Some(Position::Inductor),
+            "load" => Some(Position::Load),
+            "damping" => Some(Position::Damping),
+            _ => None,
+        }
+    }
+}
+
+/// One line of a bill of materials as read from CSV.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BomRow {
+    /// Part id as written (a damping resistor: its value, e.g. `R 0R22`).
+    pub part: String,
+    /// Number of parts.
+    pub count: u32,
+    /// Line in the file (1-based, the header is line 1).
+    pub line: u64,
+    /// The `position` column (`converter` when absent).
+    pub position: Position,
+}
+
+/// Header names read as the `part` column, in order of preference.
+pub const BOM_PART_HEADERS: &[&str] = &["part", "part_number", "item"];
+/// Header names read as the `count` column, in order of preference.
+pub const BOM_COUNT_HEADERS: &[&str] = &["count", "qty", "quantity"];
+
+/// A bill of materials as read from CSV, every row with its position.
+/// Rows of the same part and position are summed.
+pub fn read_bom_rows(path: &Path) -> Result<Vec<BomRow>> {
     let src = path.display().to_string();
     let bytes = std::fs::read(path)
         .map_err(|e| anyhow::anyhow!("{src}: cannot read the bill of materials: {e}"))?;
@@ -296,17 +355,27 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
         .headers()
         .map_err(|e| anyhow::anyhow!("{src}: line 1: {e}"))?
         .iter()
-        .map(|h| h.trim().to_ascii_lowercase())
+        .map(|h| crate::sheet::normalise_header(h))
         .collect();
-    let pc = headers
-        .iter()
-        .position(|h| h == "part")
-        .ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `part` is missing"))?;
-    let cc = headers
-        .iter()
-        .position(|h| h == "count")
-        .ok_or_else(|| anyhow::anyhow!("{src}: line 1: column `count` is missing"))?;
-    let mut out: Vec<(String, u32, u64)> = Vec::new();
+    let find = |names: &[&str]| {
+        names
+            .iter()
+            .find_map(|n| headers.iter().position(|h| h == n))
+    };
+    let pc = find(BOM_PART_HEADERS).ok_or_else(|| {
+        anyhow::anyhow!(
+            "{src}: line 1: column `part` is missing (also read as `part number`, `item`; have: {})",
+            headers.join(", ")
+        )
+    })?;
+    let cc = find(BOM_COUNT_HEADERS).ok_or_else(|| {
+        anyhow::anyhow!(
+            "{src}: line 1: column `count` is missing (also read as `qty`, `quantity`; have: {})",
+            headers.join(", ")
+        )
+    })?;
+    let pos_col = find(&["position"]);
+    let mut out: Vec<BomRow> = Vec::new();
     let mut lines = crate::catalog::LineCounter::new(text.as_bytes());
     for rec in rdr.records() {
         let rec =
@@ -329,19 +398,46 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
                 cc + 1
             );
         }
-        let count: u32 = cs.parse().map_err(|_| {
-            anyhow::anyhow!(
-                "{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts",
-                cc + 1
-            )
-        })?;
-        let total = match out.iter_mut().find(|e| e.0 == part) {
+        // A spreadsheet writes whole counts as `2.0`: that is 2.
+        let count = cs
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite() && *v >= 0.0 && v.fract() == 0.0)
+            .ok_or_else(|| {
+                anyhow::anyhow!(
+                    "{src}: line {line}, column {} (count): `{cs}` is not a whole number of parts",
+                    cc + 1
+                )
+            })?;
+        if count > MAX_COUNT_PER_PART as f64 {
+            bail!("{src}: line {line}, column {} (count): more than {MAX_COUNT_PER_PART} of one part is not a bank", cc + 1);
+        }
+        let count = count as u32;
+        let position = match pos_col.and_then(|c| rec.get(c)).map(str::trim) {
+            None | Some("") => Position::Converter,
+            Some(t) => Position::parse(t).ok_or_else(|| {
+                anyhow::anyhow!(
+                    "{src}: line {line}, column {} (position): unknown position `{t}` (one of: {})",
+                    pos_col.unwrap_or(0) + 1,
+                    Position::NAMES.join(", ")
+                )
+            })?,
+        };
+        let total = match out
+            .iter_mut()
+            .find(|e| e.part == part && e.position == position)
+        {
             Some(e) => {
-                e.1 = e.1.saturating_add(count);
-                e.1
+                e.count = e.count.saturating_add(count);
+                e.count
             }
             None => {
-                out.push((part, count, line));
+                out.push(BomRow {
+                    part,
+                    count,
+                    line,
+                    position,
+                });
                 count
             }
         };
@@ -355,6 +451,44 @@ pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
     Ok(out)
 }
 
+/// A bill of materials of the converter-side bank: (part id, count, line
+/// number). Rows in another position are refused until the filter is
+/// modelled.
+pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
+    let rows = read_bom_rows(path)?;
+    if let Some(r) = rows.iter().find(|r| r.position != Position::Converter) {
+        bail!(
+            "{}: line {}, column `position`: `{}` is in position `{}`: filter positions need the filter model, \
+             which this version does not evaluate; list the converter-side bank only",
+            path.display(),
+            r.line,
+            r.part,
+            r.position.name()
+        );
+    }
+    Ok(rows
+        .into_iter()
+        .map(|r| (r.part, r.count, r.line))
+        .collect())
+}
+
+/// A catalog part whose id differs from `id` only in letter case.
+fn case_twin<'a>(problem: &'a Problem, id: &str) -> Option<&'a str> {
+    problem
+        .catalog
+        .parts
+        .iter()
+        .find(|p| p.id.eq_ignore_ascii_case(id))
+        .map(|p| p.id.as_str())
+}
+
+/// " (did you mean `X`?)" when a part of that name exists in another case.
+fn did_you_mean(problem: &Problem, id: &str) -> String {
+    case_twin(problem, id).map_or(String::new(), |t| {
+        format!("; did you mean `{t}`? (part ids are case-sensitive)")
+    })
+}
+
 /// Resolve a bill of materials against the catalog; unknown parts are errors.
 pub fn bom_to_bank(
     problem: &Problem,
@@ -365,8 +499,9 @@ pub fn bom_to_bank(
     for (id, n, line) in bom {
         let Some(i) = problem.catalog.position(id) else {
             bail!(
-                "{src}: line {line}, column `part`: part `{id}` is not in the catalog {}",
-                problem.catalog.source
+                "{src}: line {line}, column `part`: part `{id}` is not in the catalog {}{}",
+                problem.catalog.source,
+                did_you_mean(problem, id)
             );
         };
         add(&mut out, i, *n);
@@ -467,6 +602,9 @@ pub fn assess_with(
             text_mv(worst.value)
         ));
     }
+    // The bank's own parts get one note each below; the catalog-wide note
+    // would say the same twice.
+    warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
     let mut checks = Vec::new();
     let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
     let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);

@@ -3,6 +3,7 @@
 //! Every error names the file, the line and the column. Extra columns are
 //! kept and carried through to the bill of materials.
 
+use crate::sheet::{Col, Row, Sheet};
 use crate::units::{self, Unit};
 use anyhow::{bail, Result};
 use std::collections::HashMap;
@@ -87,7 +88,30 @@ pub enum Status {
     Obsolete,
 }
 
+/// The `status` column (`active` when empty), in any letter case.
+pub(crate) fn read_status(row: &Row) -> Result<Status> {
+    match row.text("status") {
+        None => Ok(Status::Active),
+        Some(s) => Status::parse(&s).ok_or_else(|| {
+            row.err(
+                "status",
+                format!("unknown status `{s}` (active, nrnd, obsolete)"),
+            )
+        }),
+    }
+}
+
 impl Status {
+    /// Case-insensitive.
+    pub fn parse(s: &str) -> Option<Status> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "active" => Some(Status::Active),
+            "nrnd" => Some(Status::Nrnd),
+            "obsolete" => Some(Status::Obsolete),
+            _ => None,
+        }
+    }
+
     /// The name in the `status` column.
     pub fn name(self) -> &'static str {
         match self {
@@ -107,12 +131,15 @@ pub struct Dielectric {
     pub temp_max: f64,
     /// Worst-case fractional capacitance loss over the rated range.
     pub drop: f64,
+    /// Worst-case fractional capacitance gain over the rated range.
+    pub rise: f64,
     /// Class I (temperature-stable, no DC-bias loss) or class II.
     pub class1: bool,
 }
 
 /// Decode an EIA-198 dielectric code: class II `[XYZ][2-9][PRSTUV]`
-/// (e.g. X7R: −55…125 °C, ±15 %) or class I `C0G`/`NP0` (−55…125 °C, 0).
+/// (e.g. X7R: −55…125 °C, ±15 %; Y5V: −30…85 °C, +22/−82 %) or class I
+/// `C0G`/`NP0` (−55…125 °C, 0).
 pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
     let c = code.trim().to_ascii_uppercase();
     if matches!(c.as_str(), "C0G" | "COG" | "NP0" | "NPO") {
@@ -120,6 +147,7 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
             temp_min: -55.0,
             temp_max: 125.0,
             drop: 0.0,
+            rise: 0.0,
             class1: true,
         });
     }
@@ -143,19 +171,21 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
         b'9' => 200.0,
         _ => return None,
     };
-    let drop = match b[2] {
-        b'P' => 0.10,
-        b'R' => 0.15,
-        b'S' => 0.22,
-        b'T' => 0.33,
-        b'U' => 0.56,
-        b'V' => 0.82,
+    // EIA-198: P ±10 %, R ±15 %, S ±22 %, T +22/−33 %, U +22/−56 %, V +22/−82 %.
+    let (rise, drop) = match b[2] {
+        b'P' => (0.10, 0.10),
+        b'R' => (0.15, 0.15),
+        b'S' => (0.22, 0.22),
+        b'T' => (0.22, 0.33),
+        b'U' => (0.22, 0.56),
+        b'V' => (0.22, 0.82),
         _ => return None,
     };
     Some(Dielectric {
         temp_min,
         temp_max,
         drop,
+        rise,
         class1: false,
     })
 }
@@ -211,6 +241,58 @@ fn imperial_case_area(case: &str) -> Option<f64> {
     Some(l * w)
 }
 
+/// Points `x:y` joined by `;`, linear between points, flat beyond the ends.
+fn interpolate(p: &[(f64, f64)], x: f64) -> f64 {
+    if x <= p[0].0 {
+        return p[0].1;
+    }
+    for w in p.windows(2) {
+        let ((x0, y0), (x1, y1)) = (w[0], w[1]);
+        if x <= x1 {
+            return y0 + (y1 - y0) * (x - x0) / (x1 - x0);
+        }
+    }
+    p[p.len() - 1].1
+}
+
+/// Read `x:y;x:y;…`: `x` rises strictly, each pair checked by `check`.
+fn parse_points(
+    text: &str,
+    form: &str,
+    x_of: impl Fn(&str) -> std::result::Result<f64, String>,
+    y_of: impl Fn(&str) -> std::result::Result<f64, String>,
+    x_name: &str,
+) -> std::result::Result<Vec<(f64, f64)>, String> {
+    let mut points: Vec<(f64, f64)> = Vec::new();
+    for (i, item) in text.split(';').enumerate() {
+        let item = item.trim();
+        if item.is_empty() {
+            continue;
+        }
+        let Some((x, y)) = item.split_once(':') else {
+            return Err(format!(
+                "point {} `{item}` is not of the form {form}",
+                i + 1
+            ));
+        };
+        let x = x_of(x.trim()).map_err(|e| format!("point {}: {e}", i + 1))?;
+        let y = y_of(y.trim()).map_err(|e| format!("point {}: {e}", i + 1))?;
+        if let Some(&(px, _)) = points.last() {
+            if x <= px {
+                return Err(format!(
+                    "point {}: {x_name} must rise strictly ({x} after {px})",
+                    i + 1
+                ));
+            }
+        }
+        points.push((x, y));
+    }
+    if points.is_empty() {
+        return Err("no points".into());
+    }
+    Ok(points)
+}
+
 /// Capacitance retained under DC bias: `V:fraction` points, linear between
 /// points, flat beyond the ends.
 #[derive(Debug, Clone, PartialEq)]
@@ -222,59 +304,115 @@ pub struct BiasCurve {
 impl BiasCurve {
     /// Read `V:fraction` points joined by `;`; the error says which point is wrong.
     pub fn parse(text: &str) -> std::result::Result<BiasCurve, String> {
-        let mut points = Vec::new();
-        for (i, item) in text.split(';').enumerate() {
-            let item = item.trim();
-            if item.is_empty() {
-                continue;
-            }
-            let Some((v, k)) = item.split_once(':') else {
-                return Err(format!(
-                    "point {} `{item}` is not of the form V:fraction",
-                    i + 1
-                ));
-            };
-            let v = units::parse(v, Unit::Volt).map_err(|e| format!("point {}: {e}", i + 1))?;
-            let k = units::parse(k, Unit::Fraction).map_err(|e| format!("point {}: {e}", i + 1))?;
-            if v < 0.0 {
-                return Err(format!("point {}: negative voltage {v}", i + 1));
-            }
-            if !(k > 0.0 && k <= 1.5) {
-                return Err(format!(
-                    "point {}: retained fraction {k} must be above 0 and at most 1.5",
-                    i + 1
-                ));
-            }
-            if let Some(&(pv, _)) = points.last() {
-                if v <= pv {
+        let points = parse_points(
+            text,
+            "V:fraction",
+            |v| {
+                let v = units::parse(v, Unit::Volt).map_err(|e| e.to_string())?;
+                if v < 0.0 {
+                    return Err(format!("negative voltage {v}"));
+                }
+                Ok(v)
+            },
+            |k| {
+                let k = units::parse(k, Unit::Fraction).map_err(|e| e.to_string())?;
+                if !(k > 0.0 && k <= 1.5) {
                     return Err(format!(
-                        "point {}: voltages must rise strictly ({v} V after {pv} V)",
-                        i + 1
+                        "retained fraction {k} must be above 0 and at most 1.5"
                     ));
                 }
-            }
-            points.push((v, k));
-        }
-        if points.is_empty() {
-            return Err("no points".into());
-        }
+                Ok(k)
+            },
+            "voltages",
+        )?;
         Ok(BiasCurve { points })
     }
 
     /// Retained fraction at DC voltage `v`.
     pub fn at(&self, v: f64) -> f64 {
-        let p = &self.points;
-        if v <= p[0].0 {
-            return p[0].1;
-        }
-        for w in p.windows(2) {
-            let ((v0, k0), (v1, k1)) = (w[0], w[1]);
-            if v <= v1 {
-                return k0 + (k1 - k0) * (v - v0) / (v1 - v0);
+        interpolate(&self.points, v)
+    }
+}
+
+/// ESR multiplier against temperature (`esr_temp`): `°C:factor` points,
+/// linear between points, flat beyond the ends.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TempCurve {
+    /// `(°C, factor)` points, temperatures increasing.
+    pub points: Vec<(f64, f64)>,
+}
+
+impl TempCurve {
+    /// Largest factor accepted (an electrolytic at −55 °C may reach tens).
+    pub const MAX_FACTOR: f64 = 100.0;
+
+    /// Read `°C:factor` points joined by `;`.
+    pub fn parse(text: &str) -> std::result::Result<TempCurve, String> {
+        let points = parse_points(
+            text,
+            "°C:factor",
+            |t| {
+                let t = t.trim_end_matches("°C").trim_end_matches('C').trim();
+                let t = units::parse(t, Unit::Plain).map_err(|e| e.to_string())?;
+                if !(-273.15..=500.0).contains(&t) {
+                    return Err(format!("temperature {t} °C is outside −273 … 500 °C"));
+                }
+                Ok(t)
+            },
+            |k| {
+                let k = units::parse(k, Unit::Plain).map_err(|e| e.to_string())?;
+                if !(k > 0.0 && k <= TempCurve::MAX_FACTOR) {
+                    return Err(format!(
+                        "ESR factor {k} must be above 0 and at most {}",
+                        TempCurve::MAX_FACTOR
+                    ));
+                }
+                Ok(k)
+            },
+            "temperatures",
+        )?;
+        Ok(TempCurve { points })
+    }
+
+    /// ESR factor at temperature `t` (°C).
+    pub fn at(&self, t: f64) -> f64 {
+        interpolate(&self.points, t)
+    }
+
+    /// Lowest and highest factor over `[t_lo, t_hi]` (the ends and every
+    /// point between them: the curve is linear in between).
+    pub fn range(&self, t_lo: f64, t_hi: f64) -> (f64, f64) {
+        let mut lo = self.at(t_lo).min(self.at(t_hi));
+        let mut hi = self.at(t_lo).max(self.at(t_hi));
+        for &(t, k) in &self.points {
+            if t > t_lo && t < t_hi {
+                lo = lo.min(k);
+                hi = hi.max(k);
             }
         }
-        p[p.len() - 1].1
+        (lo, hi)
     }
+}
+
+/// Read an `aging` cell: percent per decade of hours, `2.5` or `"2.5%"`
+/// (also `"2.5%/decade"`).
+pub fn parse_aging(text: &str) -> std::result::Result<f64, String> {
+    let t = text.trim();
+    let t = t
+        .strip_suffix("/decade")
+        .or_else(|| t.strip_suffix("/dec"))
+        .unwrap_or(t)
+        .trim();
+    let t = t.strip_suffix('%').unwrap_or(t).trim();
+    let v = units::parse(t, Unit::Plain).map_err(|_| {
+        format!("`{text}` is not an aging rate (percent per decade, e.g. 2.5 or 2.5%)")
+    })?;
+    if !(0.0..=25.0).contains(&v) {
+        return Err(format!(
+            "{v} %/decade must be from 0 to 25 (class II ceramics lose about 1 to 7 % per decade)"
+        ));
+    }
+    Ok(v)
 }
 
 /// One catalog row.
@@ -288,8 +426,12 @@ pub struct Part {
     pub capacitance: f64,
     /// Rated DC voltage, V.
     pub rated_voltage: f64,
-    /// Maximum ESR at room temperature, Ω.
+    /// Highest ESR at room temperature (the catalog's `esr`).
     pub esr: f64,
+    /// Lowest ESR at room temperature (`esr_min`; equals `esr` when absent).
+    pub esr_min: f64,
+    /// ESR multiplier against temperature (`esr_temp`); none = 1.
+    pub esr_temp: Option<TempCurve>,
     /// ESL of the part itself, H.
     pub esl: f64,
     /// Unit cost.
@@ -316,6 +458,10 @@ pub struct Part {
     pub temp_max: Option<f64>,
     /// Worst-case fractional capacitance loss over temperature (`temp_drop` column).
     pub temp_drop: Option<f64>,
+    /// Worst-case fractional capacitance gain over temperature (`temp_rise`).
+    pub temp_rise: Option<f64>,
+    /// Capacitance loss, percent per decade of hours (`aging`; 0 when absent).
+    pub aging: f64,
     /// Life-cycle status.
     pub status: Status,
     /// Maker, carried to the bill of materials.
@@ -338,6 +484,48 @@ impl Part {
             .unwrap_or(0.0)
     }
 
+    /// Worst-case fractional capacitance gain over temperature: the
+    /// `temp_rise` column, else the EIA-198 letter, else 0.
+    pub fn temperature_rise(&self) -> f64 {
+        self.temp_rise
+            .or(self.dielectric.as_ref().map(|(_, d)| d.rise))
+            .unwrap_or(0.0)
+    }
+
+    /// Fraction of capacitance lost to aging after `service_hours`:
+    /// `(aging % / 100) · log10(service_hours / 1000)` beyond the 1000 h
+    /// referee time, else 0 (capped below 1).
+    pub fn aging_loss(&self, service_hours: f64) -> f64 {
+        if self.aging > 0.0 && service_hours > 1000.0 {
+            (self.aging / 100.0 * (service_hours / 1000.0).log10()).min(0.99)
+        } else {
+            0.0
+        }
+    }
+
+    /// ESR factor at temperature `t` °C (1 without an `esr_temp` curve).
+    pub fn esr_factor(&self, t: f64) -> f64 {
+        self.esr_temp.as_ref().map_or(1.0, |c| c.at(t))
+    }
+
+    /// Lowest and highest ESR over the environment `[temp_min, temp_max]`:
+    /// `(esr_min · k_T(temp_max), esr · k_T(temp_min))` for an ESR that
+    /// falls with temperature. A curve that is not monotonic in the range
+    /// gives its lowest and highest factor there instead, so the range
+    /// always covers every temperature in between.
+    pub fn esr_range(&self, temp_min: f64, temp_max: f64) -> (f64, f64) {
+        let (lo, hi) = if temp_min <= temp_max {
+            (temp_min, temp_max)
+        } else {
+            (temp_max, temp_min)
+        };
+        let (k_lo, k_hi) = self
+            .esr_temp
+            .as_ref()
+            .map_or((1.0, 1.0), |c| c.range(lo, hi));
+        (self.esr_min * k_lo, self.esr * k_hi)
+    }
+
     /// Retained fraction under DC bias `v` (1 without a curve).
     pub fn bias_factor(&self, v: f64) -> f64 {
         self.dc_bias.as_ref().map_or(1.0, |c| c.at(v))
@@ -352,12 +540,27 @@ impl Part {
         )
     }
 
-    /// Worst corner: `C_nom · (1 − tol) · k_bias(vdc) · (1 − drop_T)` (SPEC §4).
-    pub fn c_worst(&self, vdc: f64) -> f64 {
+    /// Lowest capacitance: `C_nom · (1 − tol) · k_bias(vdc) · (1 − drop_T) ·
+    /// (1 − aging)`, aging after `service_hours` (0 = none).
+    pub fn c_low(&self, vdc: f64, service_hours: f64) -> f64 {
         self.capacitance
             * (1.0 - self.tolerance)
             * self.bias_factor(vdc)
             * (1.0 - self.temperature_drop())
+            * (1.0 - self.aging_loss(service_hours))
+    }
+
+    /// Highest capacitance: `C_nom · (1 + tol) · k_bias(vdc) · (1 + rise_T)`.
+    pub fn c_high(&self, vdc: f64) -> f64 {
+        self.capacitance
+            * (1.0 + self.tolerance)
+            * self.bias_factor(vdc)
+            * (1.0 + self.temperature_rise())
+    }
+
+    /// The low corner without aging: `c_low(vdc, 0)`.
+    pub fn c_worst(&self, vdc: f64) -> f64 {
+        self.c_low(vdc, 0.0)
     }
 
     /// Typical corner: `C_nom · k_bias(vdc)` (SPEC §4).
@@ -370,6 +573,10 @@ impl Part {
         self.capacitance * (1.0 + self.tolerance)
     }
 }
+
+/// The catalog-wide note about parts without a tolerance (an assessment
+/// replaces it with one note per part of its bank).
+pub const NO_TOLERANCE: &str = "give no tolerance; 20 % assumed";
 
 /// A loaded catalog.
 #[derive(Debug, Clone, Default)]
@@ -385,7 +592,36 @@ pub struct Catalog {
     index: HashMap<String, usize>,
 }
 
-const KNOWN: &[&str] = &[
+/// The catalog's columns and what each holds.
+pub const KNOWN: &[(&str, Col)] = &[
+    ("part", Col::Text),
+    ("technology", Col::Text),
+    ("capacitance", Col::Value(Unit::Farad)),
+    ("rated_voltage", Col::Value(Unit::Volt)),
+    ("esr", Col::Value(Unit::Ohm)),
+    ("esl", Col::Value(Unit::Henry)),
+    ("cost", Col::Value(Unit::Cost)),
+    ("tolerance", Col::Value(Unit::Fraction)),
+    ("dielectric", Col::Text),
+    ("dc_bias", Col::Text),
+    ("esr_min", Col::Value(Unit::Ohm)),
+    ("esr_temp", Col::Text),
+    ("aging", Col::Text),
+    ("case", Col::Text),
+    ("area", Col::Area),
+    ("height", Col::Millimetre),
+    ("ripple_current", Col::Value(Unit::Ampere)),
+    ("temp_min", Col::Celsius),
+    ("temp_max", Col::Celsius),
+    ("temp_drop", Col::Value(Unit::Fraction)),
+    ("temp_rise", Col::Value(Unit::Fraction)),
+    ("status", Col::Text),
+    ("manufacturer", Col::Text),
+    ("mpn", Col::Text),
+    ("description", Col::Text),
+];
+/// The columns every catalog must have.
+pub const REQUIRED: &[&str] = &[
     "part",
     "technology",
     "capacitance",
@@ -393,53 +629,7 @@ const KNOWN: &[&str] = &[
     "esr",
     "esl",
     "cost",
-    "tolerance",
-    "dielectric",
-    "dc_bias",
-    "case",
-    "area",
-    "height",
-    "ripple_current",
-    "temp_min",
-    "temp_max",
-    "temp_drop",
-    "status",
-    "manufacturer",
-    "mpn",
-    "description",
 ];
-const REQUIRED: &[&str] = &[
-    "part",
-    "technology",
-    "capacitance",
-    "rated_voltage",
-    "esr",
-    "esl",
-    "cost",
-];
-
-/// Levenshtein distance between two short names.
-fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut prev: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut cur = vec![i + 1; b.len() + 1];
-        for (j, &cb) in b.iter().enumerate() {
-            cur[j + 1] = (prev[j] + usize::from(ca != cb))
-                .min(prev[j + 1] + 1)
-                .min(cur[j] + 1);
-        }
-        prev = cur;
-    }
-    prev[b.len()]
-}
-
-fn normalise_header(h: &str) -> String {
-    h.trim()
-        .trim_start_matches('\u{feff}')
-        .to_ascii_lowercase()
-        .replace([' ', '-'], "_")
-}
 
 impl Catalog {
     /// Read a catalog file; errors name the file, line and column.
@@ -461,117 +651,22 @@ impl Catalog {
 
     /// Parse catalog text; `source` names it in messages.
     pub fn from_bytes(bytes: &[u8], source: &str) -> Result<Catalog> {
-        let text = match std::str::from_utf8(bytes) {
-            Ok(t) => t.to_string(),
-            Err(e) => {
-                if let Some(at) = bytes.iter().position(|&b| b == 0) {
-                    let (line, column) = text_position(bytes, at);
-                    bail!("{source}: line {line}, column {column}: a NUL byte: this is not a text file; a catalog is CSV text");
-                }
-                // Spreadsheet exports are often Windows-1252/Latin-1: decode
-                // those byte for byte rather than refuse them.
-                let _ = e;
-                bytes.iter().map(|&b| b as char).collect()
-            }
-        };
-        let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
-        if text.trim().is_empty() {
-            bail!("{source}: line 1: the catalog is empty (it needs a header row and at least one part)");
-        }
-        let first_line = text.lines().next().unwrap_or("");
-        let semicolon = first_line.matches(';').count() > first_line.matches(',').count();
-        let mut rdr = csv::ReaderBuilder::new()
-            .delimiter(if semicolon { b';' } else { b',' })
-            .flexible(false)
-            .trim(csv::Trim::All)
-            .from_reader(text.as_bytes());
-        let headers: Vec<String> = rdr
-            .headers()
-            .map_err(|e| anyhow::anyhow!("{source}: line 1: cannot read the header row: {e}"))?
-            .iter()
-            .map(normalise_header)
-            .collect();
-        let mut col: HashMap<&str, usize> = HashMap::new();
-        let mut extra = Vec::new();
-        for (i, h) in headers.iter().enumerate() {
-            if h.is_empty() {
-                bail!("{source}: line 1, column {}: empty column name", i + 1);
-            }
-            if let Some(k) = KNOWN.iter().find(|k| **k == h) {
-                if col.insert(k, i).is_some() {
-                    bail!(
-                        "{source}: line 1, column {}: column `{h}` appears twice",
-                        i + 1
-                    );
-                }
-            } else {
-                extra.push((i, h.clone()));
-            }
-        }
-        for r in REQUIRED {
-            if !col.contains_key(r) {
-                bail!(
-                    "{source}: line 1: required column `{r}` is missing (have: {})",
-                    headers.join(", ")
-                );
-            }
-        }
+        let sheet = Sheet::read(bytes, source, "catalog", KNOWN, REQUIRED)?;
         let mut cat = Catalog {
             source: source.to_string(),
-            extra_columns: extra.iter().map(|(_, h)| h.clone()).collect(),
+            extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
+            warnings: sheet.warnings.clone(),
             ..Default::default()
         };
-        // An extra column whose name is close to a known one is most likely a
-        // typo that would silently drop data (a misspelled `status` makes an
-        // obsolete part usable): say so.
-        for (i, h) in &extra {
-            if let Some(k) = KNOWN
-                .iter()
-                .find(|k| edit_distance(h, k) <= 2 && h.len() >= 3)
-            {
-                cat.warnings.push(format!(
-                    "{source}: line 1, column {} `{h}` is not a known column; did you mean `{k}`? \
-                     It is only carried to the bill of materials",
-                    i + 1
-                ));
-            }
-        }
-        let mut warned_tol = 0usize;
-        let mut lines = LineCounter::new(text.as_bytes());
-        for rec in rdr.records() {
-            let rec = rec.map_err(|e| {
-                let line = lines.line(e.position());
-                match e.kind() {
-                    csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
-                        let (len, expected_len) = (*len as usize, *expected_len as usize);
-                        let what = if len > expected_len {
-                            format!("{len} fields where the header has {expected_len}; a comma inside a value needs double quotes")
-                        } else {
-                            format!(
-                                "{len} fields where the header has {expected_len}: `{}` and later columns are missing",
-                                headers.get(len).map_or("", String::as_str)
-                            )
-                        };
-                        anyhow::anyhow!("{source}: line {line}, column {}: {what}", len.min(expected_len) + 1)
-                    }
-                    _ => anyhow::anyhow!("{source}: line {line}: {e}"),
-                }
-            })?;
-            let line = lines.line(rec.position());
-            if rec.iter().all(|f| f.is_empty()) {
-                continue;
-            }
-            let row = Row {
-                rec: &rec,
-                col: &col,
-                source,
-                line,
-                semicolon,
-            };
-            let part = row.part(&extra)?;
-            if part.tolerance_given {
-            } else {
-                warned_tol += 1;
+        let col = &sheet.col;
+        let mut no_tol: Vec<String> = Vec::new();
+        let mut unusual = Unusual::default();
+        for row in sheet.rows() {
+            let line = row.line;
+            let part = read_part(&row)?;
+            unusual.note(&part, col, line);
+            if !part.tolerance_given {
+                no_tol.push(part.id.clone());
             }
             if let Some(&prev) = cat.index.get(&part.id) {
                 bail!(
@@ -587,12 +682,85 @@ impl Catalog {
         if cat.parts.is_empty() {
             bail!("{source}: line 1: the catalog has a header row but no parts below it");
         }
-        if warned_tol > 0 {
+        unusual.into_warnings(source, &mut cat.warnings);
+        if !no_tol.is_empty() {
+            let mut names = no_tol
+                .iter()
+                .take(8)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(", ");
+            if no_tol.len() > 8 {
+                names.push_str(", …");
+            }
             cat.warnings.push(format!(
-                "{source}: {warned_tol} part(s) give no tolerance; 20 % assumed"
+                "{source}: {} part(s) {NO_TOLERANCE}: {names}",
+                no_tol.len()
             ));
         }
         Ok(cat)
+    }
+}
+
+/// Values that are possible but unusual enough to be a slip of the unit:
+/// one warning per kind, listing the parts with their line and column.
+#[derive(Default)]
+struct Unusual {
+    /// (what, column, entries "PART (line N)").
+    kinds: Vec<(&'static str, &'static str, Vec<String>)>,
+}
+
+impl Unusual {
+    /// Thresholds are common practice, no source: a capacitor's ESL is
+    /// below a few nH for chips and below about 20 nH for leaded cans; a
+    /// ceramic's ESR is milliohms.
+    const ESL_WARN: f64 = 50e-9;
+    const CERAMIC_ESR_WARN: f64 = 1.0;
+
+    fn push(&mut self, what: &'static str, column: &'static str, entry: String) {
+        match self.kinds.iter_mut().find(|k| k.0 == what) {
+            Some(k) => k.2.push(entry),
+            None => self.kinds.push((what, column, vec![entry])),
+        }
+    }
+
+    fn note(&mut self, p: &Part, col: &HashMap<&'static str, usize>, line: u64) {
+        let at = |c: &str| {
+            format!(
+                "{} (line {line}, column {})",
+                p.id,
+                col.get(c).map_or(0, |i| i + 1)
+            )
+        };
+        if p.esl > Self::ESL_WARN {
+            self.push(
+                "ESL above 50 nH (unusual for a capacitor; check the prefix)",
+                "esl",
+                at("esl"),
+            );
+        }
+        if p.technology == Technology::Ceramic && p.esr > Self::CERAMIC_ESR_WARN {
+            self.push(
+                "ESR above 1 Ω on a ceramic (ceramics have milliohms; check the prefix)",
+                "esr",
+                at("esr"),
+            );
+        }
+    }
+
+    fn into_warnings(self, source: &str, out: &mut Vec<String>) {
+        for (what, column, entries) in self.kinds {
+            let mut list = entries
+                .iter()
+                .take(8)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(", ");
+            if entries.len() > 8 {
+                list.push_str(", …");
+            }
+            out.push(format!("{source}: column `{column}`: {what}: {list}"));
+        }
     }
 }
 
@@ -649,222 +817,320 @@ impl<'a> LineCounter<'a> {
     }
 }
 
-struct Row<'a> {
-    rec: &'a csv::StringRecord,
-    col: &'a HashMap<&'static str, usize>,
-    source: &'a str,
-    line: u64,
-    semicolon: bool,
+/// An ESR above 10 Ω is no output capacitor's: an error with the
+/// likely value (milliohms).
+fn plausible_esr(row: &Row, name: &str, esr: f64) -> Result<()> {
+    if esr > 10.0 {
+        let t = row.raw(name).map_or("", |(_, v)| v);
+        return Err(row.err(
+            name,
+            format!(
+                "{} is not a plausible ESR (above 10 Ω); {} {}?",
+                units::format_si(esr, "Ω"),
+                if units::is_bare(t) {
+                    "bare numbers are ohms — did you mean"
+                } else {
+                    "did you mean"
+                },
+                units::suggest_text(t, "m")
+            ),
+        ));
+    }
+    Ok(())
 }
 
-impl Row<'_> {
-    fn raw(&self, name: &str) -> Option<(usize, &str)> {
-        let &i = self.col.get(name)?;
-        let v = self.rec.get(i)?.trim();
-        (!v.is_empty()).then_some((i, v))
-    }
-
-    fn err(&self, name: &str, msg: impl fmt::Display) -> anyhow::Error {
-        let c = self.col.get(name).map_or(0, |i| i + 1);
-        anyhow::anyhow!(
-            "{}: line {}, column {c} ({name}): {msg}",
-            self.source,
-            self.line
+fn read_part(row: &Row) -> Result<Part> {
+    let id = row
+        .text("part")
+        .ok_or_else(|| row.err("part", "part id is empty"))?;
+    let tech_text = row
+        .text("technology")
+        .ok_or_else(|| row.err("technology", "required value is empty"))?;
+    let technology = Technology::parse(&tech_text).ok_or_else(|| {
+        row.err(
+            "technology",
+            format!(
+                "unknown technology `{tech_text}` (one of: {})",
+                Technology::ALL.map(|t| t.name()).join(", ")
+            ),
         )
-    }
-
-    fn text(&self, name: &str) -> Option<String> {
-        self.raw(name).map(|(_, v)| v.to_string())
-    }
-
-    fn num(&self, name: &str, unit: Unit) -> Result<Option<f64>> {
-        let Some((_, v)) = self.raw(name) else {
-            return Ok(None);
-        };
-        let owned;
-        let v = if self.semicolon && v.contains(',') {
-            owned = v.replace(',', ".");
-            owned.as_str()
+    })?;
+    let capacitance = row.req("capacitance", Unit::Farad)?;
+    row.positive("capacitance", capacitance, false)?;
+    let cap_text = row.raw("capacitance").map_or("", |(_, v)| v);
+    let bare = |what: &str| {
+        if units::is_bare(cap_text) {
+            format!("bare numbers are {what} — did you mean")
         } else {
-            v
-        };
-        units::parse(v, unit)
-            .map(Some)
-            .map_err(|e| self.err(name, e))
+            "did you mean".to_string()
+        }
+    };
+    if capacitance > 100.0 {
+        return Err(row.err(
+            "capacitance",
+            format!(
+                "{} is beyond any output capacitor (did a prefix go missing? {} {}?)",
+                units::format_si(capacitance, "F"),
+                bare("farads"),
+                units::suggest_text(cap_text, "u")
+            ),
+        ));
     }
-
-    fn req(&self, name: &str, unit: Unit) -> Result<f64> {
-        self.num(name, unit)?
-            .ok_or_else(|| self.err(name, "required value is empty"))
+    if technology == Technology::Ceramic && capacitance > 1e-3 {
+        return Err(row.err(
+            "capacitance",
+            format!(
+                "{} for a ceramic (no ceramic capacitor reaches 1 mF); {} {}?",
+                units::format_si(capacitance, "F"),
+                bare("farads"),
+                units::suggest_text(cap_text, "u")
+            ),
+        ));
     }
-
-    fn positive(&self, name: &str, v: f64, allow_zero: bool) -> Result<()> {
-        if v < 0.0 || (!allow_zero && v == 0.0) {
-            return Err(self.err(
-                name,
-                format!(
-                    "{v} must be {}",
-                    if allow_zero {
-                        "zero or more"
-                    } else {
-                        "above zero"
-                    }
-                ),
-            ));
-        }
-        Ok(())
-    }
-
-    fn part(&self, extra: &[(usize, String)]) -> Result<Part> {
-        let id = self
-            .text("part")
-            .ok_or_else(|| self.err("part", "part id is empty"))?;
-        let tech_text = self
-            .text("technology")
-            .ok_or_else(|| self.err("technology", "required value is empty"))?;
-        let technology = Technology::parse(&tech_text).ok_or_else(|| {
-            self.err(
-                "technology",
-                format!(
-                    "unknown technology `{tech_text}` (one of: {})",
-                    Technology::ALL.map(|t| t.name()).join(", ")
-                ),
-            )
-        })?;
-        let capacitance = self.req("capacitance", Unit::Farad)?;
-        self.positive("capacitance", capacitance, false)?;
-        if capacitance > 100.0 {
-            return Err(self.err(
-                "capacitance",
-                format!(
-                    "{capacitance} F is beyond any output capacitor (did a prefix go missing?)"
-                ),
-            ));
-        }
-        let rated_voltage = self.req("rated_voltage", Unit::Volt)?;
-        self.positive("rated_voltage", rated_voltage, false)?;
-        let esr = self.req("esr", Unit::Ohm)?;
-        self.positive("esr", esr, true)?;
-        if esr > 1000.0 {
-            return Err(self.err("esr", format!("{esr} Ohm is not a plausible ESR")));
-        }
-        let esl = self.req("esl", Unit::Henry)?;
-        self.positive("esl", esl, true)?;
-        if esl > 1e-3 {
-            return Err(self.err("esl", format!("{esl} H is not a plausible ESL")));
-        }
-        let cost = self.req("cost", Unit::Plain)?;
-        self.positive("cost", cost, true)?;
-        let tol = self.num("tolerance", Unit::Fraction)?;
-        if let Some(t) = tol {
-            if !(0.0..1.0).contains(&t) {
-                return Err(self.err(
-                    "tolerance",
-                    format!("{t} must be at least 0 and below 1 (100 %)"),
+    let rated_voltage = row.req("rated_voltage", Unit::Volt)?;
+    row.positive("rated_voltage", rated_voltage, false)?;
+    let esr = row.req("esr", Unit::Ohm)?;
+    row.positive("esr", esr, true)?;
+    plausible_esr(row, "esr", esr)?;
+    let esr_min = match row.num("esr_min", Unit::Ohm)? {
+        None => esr,
+        Some(m) => {
+            row.positive("esr_min", m, true)?;
+            plausible_esr(row, "esr_min", m)?;
+            if m > esr {
+                return Err(row.err(
+                    "esr_min",
+                    format!("{m} Ohm is above the part's esr {esr} Ohm (esr is the highest, esr_min the lowest)"),
                 ));
             }
+            m
         }
-        let dielectric = match self.text("dielectric") {
-            None => None,
-            Some(code) => match decode_dielectric(&code) {
-                Some(d) => Some((code.to_ascii_uppercase(), d)),
-                None => {
-                    return Err(self.err(
-                        "dielectric",
-                        format!("`{code}` is not an EIA-198 code this tool knows (X7R, X5R, X6S, C0G, …); leave it empty and give temp_min, temp_max, temp_drop"),
-                    ))
-                }
-            },
-        };
-        let dc_bias = match self.text("dc_bias") {
-            None => None,
-            Some(t) => {
-                let t = if self.semicolon {
-                    t.replace(',', ".")
-                } else {
-                    t
-                };
-                Some(BiasCurve::parse(&t).map_err(|e| self.err("dc_bias", e))?)
-            }
-        };
-        let case = self.text("case");
-        let area = match self.num("area", Unit::Plain)? {
-            Some(a) => {
-                self.positive("area", a, false)?;
-                Some(a)
-            }
-            None => case.as_deref().and_then(eia_case_area),
-        };
-        let height = self.num("height", Unit::Plain)?;
-        if let Some(h) = height {
-            self.positive("height", h, false)?;
-        }
-        let ripple_current = self.num("ripple_current", Unit::Ampere)?;
-        if let Some(r) = ripple_current {
-            self.positive("ripple_current", r, false)?;
-        }
-        let temp_min = self.num("temp_min", Unit::Plain)?;
-        let temp_max = self.num("temp_max", Unit::Plain)?;
-        if let (Some(a), Some(b)) = (temp_min, temp_max) {
-            if a >= b {
-                return Err(self.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
-            }
-        }
-        let temp_drop = self.num("temp_drop", Unit::Fraction)?;
-        if let Some(d) = temp_drop {
-            if !(0.0..1.0).contains(&d) {
-                return Err(self.err("temp_drop", format!("{d} must be at least 0 and below 1")));
-            }
-        }
-        let status = match self.text("status").map(|s| s.to_ascii_lowercase()) {
-            None => Status::Active,
-            Some(s) => match s.as_str() {
-                "active" => Status::Active,
-                "nrnd" => Status::Nrnd,
-                "obsolete" => Status::Obsolete,
-                _ => {
-                    return Err(self.err(
-                        "status",
-                        format!("unknown status `{s}` (active, nrnd, obsolete)"),
-                    ))
-                }
-            },
-        };
-        Ok(Part {
-            id,
-            technology,
-            capacitance,
-            rated_voltage,
-            esr,
-            esl,
-            cost,
-            tolerance: tol.unwrap_or(0.20),
-            tolerance_given: tol.is_some(),
-            dielectric,
-            dc_bias,
-            case,
-            area,
-            height,
-            ripple_current,
-            temp_min,
-            temp_max,
-            temp_drop,
-            status,
-            manufacturer: self.text("manufacturer"),
-            mpn: self.text("mpn"),
-            description: self.text("description"),
-            extra: extra
-                .iter()
-                .map(|(i, h)| (h.clone(), self.rec.get(*i).unwrap_or("").to_string()))
-                .collect(),
-            line: self.line,
-        })
+    };
+    let esr_temp = match row.decimal_text("esr_temp") {
+        None => None,
+        Some(t) => Some(TempCurve::parse(&t).map_err(|e| row.err("esr_temp", e))?),
+    };
+    let aging = match row.decimal_text("aging") {
+        None => 0.0,
+        Some(t) => parse_aging(&t).map_err(|e| row.err("aging", e))?,
+    };
+    let esl = row.req("esl", Unit::Henry)?;
+    row.positive("esl", esl, true)?;
+    if esl > 1e-6 {
+        let t = row.raw("esl").map_or("", |(_, v)| v);
+        return Err(row.err(
+            "esl",
+            format!(
+                "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {} {}?",
+                units::format_si(esl, "H"),
+                if units::is_bare(t) { "bare numbers are henries — did you mean" } else { "did you mean" },
+                units::suggest_text(t, "n")
+            ),
+        ));
     }
+    let cost = row.req("cost", Unit::Cost)?;
+    row.positive("cost", cost, true)?;
+    let tol = row.num("tolerance", Unit::Fraction)?;
+    if let Some(t) = tol {
+        if !(0.0..1.0).contains(&t) {
+            return Err(row.err(
+                "tolerance",
+                format!("{t} must be at least 0 and below 1 (100 %)"),
+            ));
+        }
+    }
+    let dielectric = match row.text("dielectric") {
+        None => None,
+        Some(code) => match decode_dielectric(&code) {
+            Some(d) => Some((code.to_ascii_uppercase(), d)),
+            None => {
+                return Err(row.err(
+                    "dielectric",
+                    format!("`{code}` is not an EIA-198 code this tool knows (X7R, X5R, X6S, C0G, …); leave it empty and give temp_min, temp_max, temp_drop"),
+                ))
+            }
+        },
+    };
+    let dc_bias = match row.decimal_text("dc_bias") {
+        None => None,
+        Some(t) => Some(BiasCurve::parse(&t).map_err(|e| row.err("dc_bias", e))?),
+    };
+    let case = row.text("case");
+    let area = match row.num("area", Unit::Plain)? {
+        Some(a) => {
+            row.positive("area", a, false)?;
+            Some(a)
+        }
+        None => case.as_deref().and_then(eia_case_area),
+    };
+    let height = row.num("height", Unit::Plain)?;
+    if let Some(h) = height {
+        row.positive("height", h, false)?;
+    }
+    let ripple_current = row.num("ripple_current", Unit::Ampere)?;
+    if let Some(r) = ripple_current {
+        row.positive("ripple_current", r, false)?;
+    }
+    let temp_min = row.num("temp_min", Unit::Plain)?;
+    let temp_max = row.num("temp_max", Unit::Plain)?;
+    if let (Some(a), Some(b)) = (temp_min, temp_max) {
+        if a >= b {
+            return Err(row.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
+        }
+    }
+    let temp_drop = row.num("temp_drop", Unit::Fraction)?;
+    if let Some(d) = temp_drop {
+        if !(0.0..1.0).contains(&d) {
+            return Err(row.err("temp_drop", format!("{d} must be at least 0 and below 1")));
+        }
+    }
+    let temp_rise = row.num("temp_rise", Unit::Fraction)?;
+    if let Some(d) = temp_rise {
+        if !(0.0..=1.0).contains(&d) {
+            return Err(row.err("temp_rise", format!("{d} must be from 0 to 1 (100 %)")));
+        }
+    }
+    let status = read_status(row)?;
+    Ok(Part {
+        id,
+        technology,
+        capacitance,
+        rated_voltage,
+        esr,
+        esr_min,
+        esr_temp,
+        esl,
+        cost,
+        tolerance: tol.unwrap_or(0.20),
+        tolerance_given: tol.is_some(),
+        dielectric,
+        dc_bias,
+        case,
+        area,
+        height,
+        ripple_current,
+        temp_min,
+        temp_max,
+        temp_drop,
+        temp_rise,
+        aging,
+        status,
+        manufacturer: row.text("manufacturer"),
+        mpn: row.text("mpn"),
+        description: row.text("description"),
+        extra: row.extra(),
+        line: row.line,
+    })
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::sheet::edit_distance;
+
+    fn one_part(extra_head: &str, extra_cells: &str) -> Part {
+        let csv = format!(
+            "part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance{extra_head}\n\
+             A,ceramic,10u,16,10m,0.4n,0.05,10%{extra_cells}\n"
+        );
+        Catalog::from_bytes(csv.as_bytes(), "t.csv")
+            .unwrap_or_else(|e| panic!("{e:#}"))
+            .parts
+            .remove(0)
+    }
+
+    #[test]
+    fn aging_loses_two_decades_times_the_rate() {
+        // Class II aging law as manufacturers publish it (common practice,
+        // no single source; IEC 60384-9 style 1000 h referee time):
+        // C(t) = C(t0) · (1 − k/100 · log10(t / t0)). 2.5 %/decade from
+        // 1000 h to 100 000 h is two decades: 5 % lost.
+        for cell in ["2.5", "2.5%", "2.5 %/decade"] {
+            let p = one_part(",dielectric,aging", &format!(",X7R,\"{cell}\""));
+            assert_eq!(p.aging, 2.5, "{cell}");
+            let c0 = p.c_low(0.0, 1000.0);
+            let c = p.c_low(0.0, 100_000.0);
+            assert!((c / c0 - 0.95).abs() < 1e-12, "{cell}: {}", c / c0);
+        }
+        let p = one_part(",dielectric,aging", ",X7R,2.5");
+        // No aging at or before the referee time, nor with service_hours 0.
+        assert_eq!(p.c_low(0.0, 0.0), p.c_low(0.0, 1000.0));
+        assert_eq!(p.c_low(0.0, 500.0), p.c_worst(0.0));
+        // X7R: C_low = 10 µ · 0.9 · 0.85, C_high = 10 µ · 1.1 · 1.15 (EIA-198 R = ±15 %).
+        assert!((p.c_worst(0.0) - 10e-6 * 0.9 * 0.85).abs() < 1e-18);
+        assert!((p.c_high(0.0) - 10e-6 * 1.1 * 1.15).abs() < 1e-18);
+        assert!(parse_aging("30").is_err());
+        assert!(parse_aging("fast").is_err());
+    }
+
+    #[test]
+    fn high_corner_uses_the_rise_and_temp_rise_column() {
+        // Y5V (EIA-198 V: +22/−82 %) and a non-EIA part with temp_rise 5 %.
+        let y5v = one_part(",dielectric", ",Y5V");
+        assert!((y5v.c_high(0.0) - 10e-6 * 1.1 * 1.22).abs() < 1e-18);
+        assert!((y5v.c_worst(0.0) - 10e-6 * 0.9 * 0.18).abs() < 1e-18);
+        let p = one_part(",temp_drop,temp_rise", ",10%,5%");
+        assert!((p.c_high(0.0) - 10e-6 * 1.1 * 1.05).abs() < 1e-18);
+        let none = one_part("", "");
+        assert_eq!(none.temperature_rise(), 0.0);
+    }
+
+    #[test]
+    fn esr_range_follows_the_temperature_curve() {
+        // Hand-interpolated from the curve below (linear between points):
+        // at −40 °C the factor is 8, at 85 °C 1 + (0.6 − 1)·65/85.
+        let p = one_part(",esr_min,esr_temp", ",6m,-40:8;-25:4;0:1.8;20:1;105:0.6");
+        assert_eq!(p.esr_min, 6e-3);
+        let (lo, hi) = p.esr_range(-40.0, 85.0);
+        let k85 = 1.0 + (0.6 - 1.0) * 65.0 / 85.0;
+        assert!((lo - 6e-3 * k85).abs() < 1e-15, "{lo}");
+        assert!((hi - 10e-3 * 8.0).abs() < 1e-15, "{hi}");
+        // Flat beyond the ends; between −25 and 0: 4 + (1.8 − 4)·0.5.
+        assert_eq!(p.esr_factor(-55.0), 8.0);
+        assert_eq!(p.esr_factor(150.0), 0.6);
+        assert!((p.esr_factor(-12.5) - 2.9).abs() < 1e-12);
+        // Without a curve or esr_min: the catalog ESR at both ends.
+        let q = one_part("", "");
+        assert_eq!(q.esr_range(-40.0, 85.0), (10e-3, 10e-3));
+        // A curve with a minimum inside the range still covers it.
+        let r = one_part(",esr_temp", ",-40:3;25:1;125:2");
+        assert_eq!(r.esr_range(-40.0, 125.0), (10e-3, 30e-3));
+    }
+
+    #[test]
+    fn esr_temp_and_esr_min_errors_name_line_and_column() {
+        let bad = [
+            (
+                ",esr_temp",
+                ",-40:8;-50:4",
+                "column 9 (esr_temp)",
+                "rise strictly",
+            ),
+            (",esr_temp", ",-40 8", "column 9 (esr_temp)", "°C:factor"),
+            (",esr_temp", ",-40:0", "column 9 (esr_temp)", "above 0"),
+            (
+                ",esr_min",
+                ",20m",
+                "column 9 (esr_min)",
+                "above the part's esr",
+            ),
+            (",temp_rise", ",150%", "column 9 (temp_rise)", "from 0 to 1"),
+            (",aging", ",40%", "column 9 (aging)", "from 0 to 25"),
+        ];
+        for (h, c, want1, want2) in bad {
+            let csv = format!(
+                "part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance{h}\n\
+                 A,ceramic,10u,16,10m,0.4n,0.05,10%{c}\n"
+            );
+            let e = Catalog::from_bytes(csv.as_bytes(), "t.csv")
+                .unwrap_err()
+                .to_string();
+            assert!(
+                e.contains(&format!("line 2, {want1}")) && e.contains(want2),
+                "{e}"
+            );
+        }
+    }
 
     #[test]
     fn eia198_class2_table() {
@@ -880,20 +1146,26 @@ mod tests {
             ('8', 150.0),
             ('9', 200.0),
         ];
+        // EIA-198 letter: (rise, drop): P ±10 %, R ±15 %, S ±22 %,
+        // T +22/−33 %, U +22/−56 %, V +22/−82 %.
         let drops = [
-            ('P', 0.10),
-            ('R', 0.15),
-            ('S', 0.22),
-            ('T', 0.33),
-            ('U', 0.56),
-            ('V', 0.82),
+            ('P', 0.10, 0.10),
+            ('R', 0.15, 0.15),
+            ('S', 0.22, 0.22),
+            ('T', 0.22, 0.33),
+            ('U', 0.22, 0.56),
+            ('V', 0.22, 0.82),
         ];
         for (l, tl) in lows {
             for (h, th) in highs {
-                for (d, dd) in drops {
+                for (d, rr, dd) in drops {
                     let code = format!("{l}{h}{d}");
                     let x = decode_dielectric(&code).unwrap();
-                    assert_eq!((x.temp_min, x.temp_max, x.drop), (tl, th, dd), "{code}");
+                    assert_eq!(
+                        (x.temp_min, x.temp_max, x.rise, x.drop),
+                        (tl, th, rr, dd),
+                        "{code}"
+                    );
                     assert!(!x.class1);
                 }
             }
@@ -904,7 +1176,7 @@ mod tests {
         let y5v = decode_dielectric("y5v").unwrap();
         assert_eq!((y5v.temp_min, y5v.temp_max, y5v.drop), (-30.0, 85.0, 0.82));
         let c0g = decode_dielectric("C0G").unwrap();
-        assert!(c0g.class1 && c0g.drop == 0.0);
+        assert!(c0g.class1 && c0g.drop == 0.0 && c0g.rise == 0.0);
         assert!(decode_dielectric("X7Q").is_none());
         assert!(decode_dielectric("W7R").is_none());
         assert!(decode_dielectric("X1R").is_none());
@@ -968,6 +1240,39 @@ mod tests {
         );
         assert!(!c.warnings.iter().any(|w| w.contains("vendor_code")));
         assert_eq!(edit_distance("ripple_curent", "ripple_current"), 1);
+    }
+
+    #[test]
+    fn header_units_scale_bare_numbers_only() {
+        let csv = "Part,Technology,Capacitance (uF),Rated Voltage (V),ESR [mOhm],ESL (nH),Cost ($),Tolerance (%),Height (mm),Temp Min (°C)\n\
+                   A,ceramic,22,6.3,3,0.4,0.05,10,1.25,-55\n\
+                   B,ceramic,100n,16,0R005,450p,$0.02,±5%,0.5,-55\n";
+        let c = Catalog::from_bytes(csv.as_bytes(), "t.csv").unwrap_or_else(|e| panic!("{e:#}"));
+        let a = &c.parts[0];
+        assert!((a.capacitance - 22e-6).abs() < 1e-18);
+        assert!((a.esr - 3e-3).abs() < 1e-15);
+        assert!((a.esl - 0.4e-9).abs() < 1e-21);
+        assert!((a.tolerance - 0.10).abs() < 1e-15);
+        assert_eq!(
+            (a.cost, a.height, a.temp_min),
+            (0.05, Some(1.25), Some(-55.0))
+        );
+        // Cells with their own prefix or unit are read as written.
+        let b = &c.parts[1];
+        assert!((b.capacitance - 100e-9).abs() < 1e-21);
+        assert!((b.esr - 5e-3).abs() < 1e-15);
+        assert!((b.esl - 450e-12).abs() < 1e-21);
+        assert!((b.tolerance - 0.05).abs() < 1e-15);
+        assert_eq!(b.cost, 0.02);
+        // A header unit that does not fit the column is refused at line 1.
+        let bad = "part,technology,capacitance (uH),rated_voltage,esr,esl,cost\nA,ceramic,22,6.3,3m,0.4n,0.05\n";
+        let e = Catalog::from_bytes(bad.as_bytes(), "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("line 1, column 3 (capacitance)") && e.contains("uH"),
+            "{e}"
+        );
     }
 
     #[test]

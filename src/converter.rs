@@ -189,7 +189,7 @@ pub fn region_inductances(s: &Scenario) -> Vec<Option<f64>> {
     let Some(l) = c.inductance.map(|l| l.0) else {
         return vec![None];
     };
-    let tol = s.converter.inductance_tolerance.0;
+    let tol = s.converter.inductance_tolerance();
     let mut v = match c.topology {
         Topology::Flyback | Topology::Boost => vec![l * (1.0 - tol), l, l * (1.0 + tol)],
         _ => vec![l * (1.0 - tol)],
@@ -302,7 +302,8 @@ fn operating_point(s: &Scenario, vin: Option<f64>, l: f64) -> OperatingPoint {
                 fsw
             };
             let ratio = if c.topology == Topology::Buck { 1.0 } else { n };
-            let d = vout / (vin * ratio);
+            // A half bridge puts vin/2 on the primary (SPEC §5).
+            let d = vout / (c.primary_voltage(vin) * ratio);
             let di = vout * (1.0 - d) / (l * f);
             let w = triangle(1.0 / f, d, di).interleave(c.phases);
             let (lo, hi) = w.min_max();
@@ -399,6 +400,46 @@ mod tests {
         let want = 3.3 * (1.0 - 3.3 / 12.0) / (2.2e-6 * 600e3);
         assert!((op.current_pp - want).abs() < 1e-12);
         assert!(op.waveform.mean().abs() < 1e-12);
+    }
+
+    fn bridge(kind: &str) -> Scenario {
+        let t = format!(
+            "[converter]\ntopology = \"bridge\"\nbridge = \"{kind}\"\nvin = 48\nvout = 5\niout = 10\nfsw = \"200k\"\ninductance = \"4.7u\"\nturns_ratio = 0.25\n[target]\nripple_pp = \"20m\"\n"
+        );
+        Scenario::from_str(&t, "t").unwrap()
+    }
+
+    #[test]
+    fn half_bridge_has_half_the_primary_voltage() {
+        // Erickson & Maksimović, Fundamentals of Power Electronics, ch. 6
+        // (transformer-isolated converters): full bridge and push-pull
+        // V = n·D·Vg, half bridge V = 0.5·n·D·Vg, with the output inductor
+        // switched at 2·fsw. So D = vout/(n·vin) or vout/(n·vin/2).
+        let (vin, vout, n, l, fsw) = (48.0, 5.0, 0.25, 4.7e-6, 200e3);
+        for (kind, v_pri) in [("full", vin), ("push-pull", vin), ("half", vin / 2.0)] {
+            let op = &operating_points(&bridge(kind))[0];
+            let d = vout / (n * v_pri);
+            assert!((op.duty - d).abs() < 1e-12, "{kind}: D {} vs {d}", op.duty);
+            // Inductor ripple ΔI = vout (1 − D) / (L · 2 fsw) (same chapter).
+            let di = vout * (1.0 - d) / (l * 2.0 * fsw);
+            assert!((op.current_pp - di).abs() < 1e-9 * di, "{kind}");
+            assert_eq!(op.f_ripple, 2.0 * fsw);
+        }
+        // The half bridge needs twice the duty of the full bridge.
+        let full = operating_points(&bridge("Full"))[0].duty;
+        let half = operating_points(&bridge("HALF"))[0].duty;
+        assert!((half - 2.0 * full).abs() < 1e-12);
+    }
+
+    #[test]
+    fn half_bridge_that_cannot_make_vout_names_the_key() {
+        // n·vin/2 = 0.4·24/2 = 4.8 V < 5 V: no duty cycle makes 5 V.
+        let t = "[converter]\ntopology = \"bridge\"\nbridge = \"half\"\nvin = 24\nvout = 5\niout = 10\nfsw = \"200k\"\ninductance = \"4.7u\"\nturns_ratio = 0.4\n[target]\nripple_pp = \"20m\"\n";
+        let e = Scenario::from_str(t, "t").unwrap_err().to_string();
+        assert!(
+            e.contains("converter.vout") && e.contains("half bridge"),
+            "{e}"
+        );
     }
 
     #[test]

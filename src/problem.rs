@@ -135,6 +135,7 @@ fn calibrate_module(s: &Scenario, ops: &mut [OperatingPoint]) {
     };
     let mut alone = s.clone();
     alone.target.bandwidth = c.standalone_bandwidth.or(s.target.bandwidth);
+    alone.target.bandwidth_order = s.standalone_bandwidth_order();
     for op in ops.iter_mut() {
         let mut ev = Evaluator::new(&alone, std::slice::from_ref(op), Vec::new());
         let pp = ev.ripple_pp(&[], Corner::Typical, Band::Limited);
@@ -186,7 +187,7 @@ impl Problem {
             }
         }
         let mut warnings = catalog.warnings.clone();
-        let mut warnings_pre: Vec<String> = Vec::new();
+        let warnings_pre: Vec<String> = Vec::new();
         let no_temp: Vec<&str> = eligible
             .iter()
             .map(|&i| &catalog.parts[i])
@@ -211,16 +212,6 @@ impl Problem {
         if scenario.converter.topology == Topology::Module {
             calibrate_module(&scenario, &mut ops);
             calibrate_module(&scenario, &mut region_ops);
-        }
-        if scenario.converter.inductance.is_some()
-            && scenario.converter.inductance_tolerance.0 == 0.0
-            && scenario.converter.topology != Topology::Module
-        {
-            warnings_pre.push(
-                "converter.inductance_tolerance not given: the inductance is taken as exact (power inductors are \
-                 commonly ±20 %, and a low inductance raises the ripple)"
-                    .into(),
-            );
         }
         for op in &ops {
             if op.mode == "DCM" {
@@ -255,6 +246,67 @@ impl Problem {
                     ));
                 }
             }
+        }
+        if conv.fsw.0 > 20e6 {
+            warnings.push(format!(
+                "converter.fsw is {}: above 20 MHz is unusual for a power converter; check the prefix",
+                crate::units::format_si(conv.fsw.0, "Hz")
+            ));
+        }
+        if conv.topology != Topology::Module && conv.inductance_tolerance.is_none() {
+            warnings.push(
+                "converter.inductance_tolerance not given: the nominal inductance only is used (0 %); \
+                 power inductors are commonly ±20 %"
+                    .into(),
+            );
+        }
+        if conv.bridge.is_some() && conv.topology != Topology::Bridge {
+            warnings.push(format!(
+                "converter.bridge applies to topology bridge only and is ignored for a {}",
+                conv.topology.name()
+            ));
+        }
+        let listed = |ids: &[&str]| -> String {
+            let mut t = ids.iter().take(8).copied().collect::<Vec<_>>().join(", ");
+            if ids.len() > 8 {
+                t.push_str(", …");
+            }
+            t
+        };
+        let usable = || eligible.iter().map(|&i| &catalog.parts[i]);
+        if scenario.environment.temperature_min < 0.0 {
+            let cold: Vec<&str> = usable()
+                .filter(|p| {
+                    p.technology == Technology::AluminumElectrolytic && p.esr_temp.is_none()
+                })
+                .map(|p| p.id.as_str())
+                .collect();
+            if !cold.is_empty() {
+                warnings.push(format!(
+                    "{} aluminum electrolytic part(s) give no esr_temp curve, and the environment reaches {} °C: \
+                     their ESR rises several-fold in the cold, which the room-temperature ESR used here misses: {}",
+                    cold.len(),
+                    scenario.environment.temperature_min,
+                    listed(&cold)
+                ));
+            }
+        }
+        let no_bias: Vec<&str> = usable()
+            .filter(|p| {
+                p.technology == Technology::Ceramic
+                    && p.dc_bias.is_none()
+                    && p.dielectric.as_ref().is_some_and(|(_, d)| !d.class1)
+            })
+            .map(|p| p.id.as_str())
+            .collect();
+        if !no_bias.is_empty() {
+            warnings.push(format!(
+                "{} class II ceramic part(s) give no dc_bias curve and are taken at their nominal capacitance: \
+                 at {} V the capacitance may be a fraction of nominal: {}",
+                no_bias.len(),
+                scenario.converter.vout.0,
+                listed(&no_bias)
+            ));
         }
         if scenario.converter.max_capacitance.is_none() {
             warnings.push(
@@ -297,13 +349,15 @@ impl Problem {
         let s = &self.scenario;
         let p = &self.catalog.parts[i];
         let vout = s.converter.vout.0;
+        let (esr_lo, esr_hi) =
+            p.esr_range(s.environment.temperature_min, s.environment.temperature_max);
         PartModel {
             index: i,
-            c_worst: p.c_worst(vout),
+            c_worst: p.c_low(vout, s.environment.service_hours),
             c_typical: p.c_typical(vout),
-            c_high: p.capacitance * (1.0 + p.tolerance) * p.bias_factor(vout),
-            esr_min: p.esr,
-            esr_max: p.esr,
+            c_high: p.c_high(vout),
+            esr_min: esr_lo,
+            esr_max: esr_hi,
             c_nominal: p.capacitance,
             c_limit: cap_limit_value(s, p),
             esr: p.esr,

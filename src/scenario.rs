@@ -62,35 +62,80 @@ quantity!(Hertz, Unit::Hertz);
 quantity!(Seconds, Unit::Second);
 quantity!(Fraction, Unit::Fraction);
 quantity!(Plain, Unit::Plain);
+quantity!(Money, Unit::Cost);
 
-/// Converter topology (`converter.topology`).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Topology {
-    /// Buck; `phases` interleaved phases.
-    Buck,
-    /// Forward converter (rectified secondary, output inductor).
-    Forward,
-    /// Bridge or push-pull with rectified secondary.
-    Bridge,
-    /// Flyback.
-    Flyback,
-    /// Boost.
-    Boost,
-    /// A module with its own stated standalone ripple.
-    Module,
+/// A word of the trade read in any letter case (`"Buck"`, `"COST"`); an
+/// unknown word is an error that lists the allowed names.
+macro_rules! words {
+    ($(#[$m:meta])* $name:ident { $($variant:ident = $word:literal),+ $(,)? }) => {
+        $(#[$m])*
+        #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+        #[allow(missing_docs)] // each variant is its own word
+        pub enum $name {
+            $($variant),+
+        }
+
+        impl $name {
+            /// Every allowed spelling, in lower case.
+            pub const NAMES: &'static [&'static str] = &[$($word),+];
+
+            /// The word as the scenario spells it (lower case).
+            pub fn name(self) -> &'static str {
+                match self {
+                    $($name::$variant => $word),+
+                }
+            }
+
+            /// Case-insensitive; `_` and spaces count as `-`.
+            pub fn parse(s: &str) -> Option<$name> {
+                let s = s.trim().to_ascii_lowercase().replace(['_', ' '], "-");
+                match s.as_str() {
+                    $($word => Some($name::$variant),)+
+                    _ => None,
+                }
+            }
+        }
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+                let s = String::deserialize(d)?;
+                $name::parse(&s).ok_or_else(|| de::Error::unknown_variant(&s, $name::NAMES))
+            }
+        }
+    };
 }
 
-impl Topology {
-    /// The lowercase name as in the scenario.
-    pub fn name(self) -> &'static str {
+words!(Topology {
+    Buck = "buck",
+    Forward = "forward",
+    Bridge = "bridge",
+    Flyback = "flyback",
+    Boost = "boost",
+    Module = "module",
+});
+
+words!(
+    /// How a bridge converter drives its transformer primary.
+    BridgeKind {
+        Full = "full",
+        Half = "half",
+        PushPull = "push-pull",
+    }
+);
+
+impl Default for BridgeKind {
+    fn default() -> Self {
+        BridgeKind::Full
+    }
+}
+
+impl BridgeKind {
+    /// Voltage across the primary while a switch pair conducts: `vin`
+    /// (full bridge, push-pull) or `vin / 2` (half bridge).
+    pub fn primary_voltage(self, vin: f64) -> f64 {
         match self {
-            Topology::Buck => "buck",
-            Topology::Forward => "forward",
-            Topology::Bridge => "bridge",
-            Topology::Flyback => "flyback",
-            Topology::Boost => "boost",
-            Topology::Module => "module",
+            BridgeKind::Half => vin / 2.0,
+            BridgeKind::Full | BridgeKind::PushPull => vin,
         }
     }
 }
@@ -116,11 +161,12 @@ pub struct Converter {
     pub fsw: Hertz,
     /// `inductance`: output inductor (buck, forward, bridge), inductor (boost) or primary magnetizing inductance (flyback).
     pub inductance: Option<Henries>,
-    /// Tolerance of `inductance` (fraction; the region spans L·(1 ± tol)).
-    #[serde(default)]
-    pub inductance_tolerance: Fraction,
+    /// Tolerance of the converter's inductance (`"20%"` or 0.2); absent = 0.
+    pub inductance_tolerance: Option<Fraction>,
     /// `turns_ratio`: Ns/Np (forward, bridge, flyback).
     pub turns_ratio: Option<Plain>,
+    /// Bridge kind (full, half, push-pull); only for topology `bridge`.
+    pub bridge: Option<BridgeKind>,
     /// `phases`: interleaved buck phases.
     #[serde(default = "one")]
     pub phases: u32,
@@ -136,6 +182,8 @@ pub struct Converter {
     pub standalone_ripple_pp: Option<Volts>,
     /// `standalone_bandwidth`: the bandwidth of that figure.
     pub standalone_bandwidth: Option<Hertz>,
+    /// Low-pass order of the standalone figure (default: the target's).
+    pub standalone_bandwidth_order: Option<u32>,
     /// `internal_capacitance`: capacitance already on the converter's output.
     pub internal_capacitance: Option<Farads>,
     /// `internal_esr`: ESR of the internal capacitance.
@@ -148,6 +196,27 @@ pub struct Converter {
 
 fn one() -> u32 {
     1
+}
+
+impl Converter {
+    /// The inductance tolerance as a fraction (0 when not given).
+    pub fn inductance_tolerance(&self) -> f64 {
+        self.inductance_tolerance.map_or(0.0, |t| t.0)
+    }
+
+    /// The bridge kind (full when not given).
+    pub fn bridge_kind(&self) -> BridgeKind {
+        self.bridge.unwrap_or_default()
+    }
+
+    /// `vin` on the transformer primary (the bridge kind's, else `vin`).
+    pub fn primary_voltage(&self, vin: f64) -> f64 {
+        if self.topology == Topology::Bridge {
+            self.bridge_kind().primary_voltage(vin)
+        } else {
+            vin
+        }
+    }
 }
 
 /// The `[target]` table.
@@ -176,6 +245,9 @@ pub struct Environment {
     /// `temperature_max`, °C.
     #[serde(default = "room")]
     pub temperature_max: f64,
+    /// Hours in service, for the aging of class II ceramics (0 = none).
+    #[serde(default)]
+    pub service_hours: f64,
 }
 
 fn room() -> f64 {
@@ -187,6 +259,7 @@ impl Default for Environment {
         Environment {
             temperature_min: 25.0,
             temperature_max: 25.0,
+            service_hours: 0.0,
         }
     }
 }
@@ -211,48 +284,27 @@ pub struct Board {
     pub max_lines: Option<u32>,
 }
 
-/// What the design minimises (`selection.objective`, `--objective`).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
-#[serde(rename_all = "lowercase")]
-pub enum Objective {
-    /// Total cost.
-    #[default]
-    Cost,
-    /// Total footprint area.
-    Area,
-    /// Number of parts.
-    Count,
-}
+words!(Objective {
+    Cost = "cost",
+    Area = "area",
+    Count = "count",
+});
 
-impl Objective {
-    /// `cost`, `area` or `count`.
-    pub fn name(self) -> &'static str {
-        match self {
-            Objective::Cost => "cost",
-            Objective::Area => "area",
-            Objective::Count => "count",
-        }
-    }
-    /// Read an objective name; `None` if unknown.
-    pub fn parse(s: &str) -> Option<Objective> {
-        match s {
-            "cost" => Some(Objective::Cost),
-            "area" => Some(Objective::Area),
-            "count" => Some(Objective::Count),
-            _ => None,
-        }
+impl Default for Objective {
+    fn default() -> Self {
+        Objective::Cost
     }
 }
 
-/// How the added capacitance is counted against `max_capacitance`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
-#[serde(rename_all = "lowercase")]
-pub enum CapBasis {
-    /// Nominal × (1 + tolerance), no bias.
-    #[default]
-    Nominal,
-    /// Effective capacitance with DC bias.
-    Effective,
+words!(CapBasis {
+    Nominal = "nominal",
+    Effective = "effective",
+});
+
+impl Default for CapBasis {
+    fn default() -> Self {
+        CapBasis::Nominal
+    }
 }
 
 /// The `[selection]` table.
@@ -403,6 +455,25 @@ impl Scenario {
         v
     }
 
+    /// Fundamental of the current into the bank: `fsw`, `2·fsw` for a
+    /// bridge, `phases·fsw` for an interleaved buck.
+    pub fn ripple_frequency(&self) -> f64 {
+        let c = &self.converter;
+        match c.topology {
+            Topology::Bridge => 2.0 * c.fsw.0,
+            Topology::Buck => c.phases.max(1) as f64 * c.fsw.0,
+            _ => c.fsw.0,
+        }
+    }
+
+    /// Low-pass order of a module's standalone ripple figure: the
+    /// converter's `standalone_bandwidth_order`, else the target's.
+    pub fn standalone_bandwidth_order(&self) -> u32 {
+        self.converter
+            .standalone_bandwidth_order
+            .unwrap_or(self.target.bandwidth_order)
+    }
+
     /// The ripple the search designs to: the target less the margin.
     pub fn design_target(&self) -> f64 {
         self.target.ripple_pp.0 * (1.0 - self.selection.margin.0)
@@ -415,10 +486,12 @@ impl Scenario {
 
     /// Voltage derating for a technology: scenario value or the default.
     pub fn derating(&self, t: Technology) -> f64 {
+        // Keys in any letter case ("Ceramic", "polymer_aluminum").
         self.selection
             .voltage_derating
-            .get(t.name())
-            .map_or(t.default_derating(), |f| f.0)
+            .iter()
+            .find(|(k, _)| Technology::parse(k) == Some(t))
+            .map_or(t.default_derating(), |(_, f)| f.0)
     }
 
     fn err(&self, key: &str, msg: impl fmt::Display) -> anyhow::Error {
@@ -443,10 +516,23 @@ impl Scenario {
         pos("converter.vout", c.vout.0)?;
         nonneg("converter.iout", c.iout.0)?;
         pos("converter.fsw", c.fsw.0)?;
-        if c.fsw.0 < 100.0 || c.fsw.0 > 100e6 {
+        if c.fsw.0 < 1e3 {
             return Err(self.err(
                 "converter.fsw",
-                format!("{} Hz is outside 100 Hz … 100 MHz", c.fsw.0),
+                format!(
+                    "{} is below 1 kHz, slower than any switching converter; bare numbers are hertz — did you mean \"{}\"?",
+                    units::format_si(c.fsw.0, "Hz"),
+                    units::suggest(c.fsw.0, "k")
+                ),
+            ));
+        }
+        if c.fsw.0 > 100e6 {
+            return Err(self.err(
+                "converter.fsw",
+                format!(
+                    "{} is outside 1 kHz … 100 MHz",
+                    units::format_si(c.fsw.0, "Hz")
+                ),
             ));
         }
         for (k, v) in [
@@ -481,7 +567,20 @@ impl Scenario {
                         format!("a {} needs its inductance", c.topology.name()),
                     ))
                 }
-                Some(l) => pos("converter.inductance", l.0)?,
+                Some(l) => {
+                    pos("converter.inductance", l.0)?;
+                    if !(1e-9..=10e-3).contains(&l.0) {
+                        return Err(self.err(
+                            "converter.inductance",
+                            format!(
+                                "{} is outside 1 nH … 10 mH, where a converter's inductor lies (an ESL is not meant here); \
+                                 bare numbers are henries — did you mean \"{}\"?",
+                                units::format_si(l.0, "H"),
+                                units::suggest(l.0, "u")
+                            ),
+                        ));
+                    }
+                }
             }
         }
         if c.phases == 0 || c.phases > 16 {
@@ -514,14 +613,20 @@ impl Scenario {
         for &vin in &vins {
             match c.topology {
                 Topology::Buck | Topology::Forward | Topology::Bridge => {
-                    let d = c.vout.0 / (vin * n);
+                    let d = c.vout.0 / (c.primary_voltage(vin) * n);
                     if !(d > 0.0 && d < 1.0) {
+                        let (formula, what) = if c.topology == Topology::Bridge
+                            && c.bridge_kind() == BridgeKind::Half
+                        {
+                            ("vout/((vin/2)·n)", "a half bridge".to_string())
+                        } else {
+                            ("vout/(vin·n)", format!("a {}", c.topology.name()))
+                        };
                         return Err(self.err(
                             "converter.vout",
                             format!(
-                                "duty cycle vout/(vin·n) = {:.3} at vin = {vin} V is outside (0, 1): a {} cannot make {} V from {vin} V",
+                                "duty cycle {formula} = {:.3} at vin = {vin} V is outside (0, 1): {what} cannot make {} V from {vin} V",
                                 d,
-                                c.topology.name(),
                                 c.vout.0
                             ),
                         ));
@@ -555,6 +660,22 @@ impl Scenario {
         }
         if c.topology == Topology::Boost && c.iout.0 <= 0.0 {
             return Err(self.err("converter.iout", "a boost needs a load current above zero"));
+        }
+        if let Some(t) = c.inductance_tolerance {
+            if !(0.0..0.9).contains(&t.0) {
+                return Err(self.err(
+                    "converter.inductance_tolerance",
+                    format!("{} must be at least 0 and below 0.9 (90 %)", t.0),
+                ));
+            }
+        }
+        if let Some(o) = c.standalone_bandwidth_order {
+            if o == 0 || o > 8 {
+                return Err(self.err(
+                    "converter.standalone_bandwidth_order",
+                    format!("{o} must be from 1 to 8"),
+                ));
+            }
         }
         nonneg("converter.edge_time", c.edge_time.0)?;
         if c.edge_time.0 * c.fsw.0 > 0.2 {
@@ -603,8 +724,37 @@ impl Scenario {
         }
         let t = &self.target;
         pos("target.ripple_pp", t.ripple_pp.0)?;
-        if let Some(b) = t.bandwidth {
-            pos("target.bandwidth", b.0)?;
+        if t.ripple_pp.0 >= c.vout.0 {
+            return Err(self.err(
+                "target.ripple_pp",
+                format!(
+                    "{} is at or above vout {} — a ripple limit is a small part of the output \
+                     (prefixes are case-sensitive: `m` is milli, `M` mega; bare numbers are volts) — did you mean \"{}\"?",
+                    units::format_si(t.ripple_pp.0, "V"),
+                    units::format_si(c.vout.0, "V"),
+                    units::suggest(t.ripple_pp.0, "m")
+                ),
+            ));
+        }
+        let f_ripple = self.ripple_frequency();
+        for (key, bw) in [
+            ("target.bandwidth", t.bandwidth),
+            ("converter.standalone_bandwidth", c.standalone_bandwidth),
+        ] {
+            let Some(b) = bw else { continue };
+            pos(key, b.0)?;
+            if b.0 < f_ripple {
+                return Err(self.err(
+                    key,
+                    format!(
+                        "{} is below the ripple frequency {}, so no harmonic of the ripple would be measured \
+                         (`M` is mega, `m` milli; bare numbers are hertz) — did you mean \"{}\"?",
+                        units::format_si(b.0, "Hz"),
+                        units::format_si(f_ripple, "Hz"),
+                        units::suggest(b.0, "M")
+                    ),
+                ));
+            }
         }
         if t.bandwidth_order == 0 || t.bandwidth_order > 8 {
             return Err(self.err(
@@ -626,6 +776,15 @@ impl Scenario {
             return Err(self.err(
                 "environment.temperature_min",
                 "must be finite and not above temperature_max",
+            ));
+        }
+        if !(e.service_hours >= 0.0) || !e.service_hours.is_finite() || e.service_hours > 1e7 {
+            return Err(self.err(
+                "environment.service_hours",
+                format!(
+                    "{} must be from 0 to 10 000 000 hours (0 = no aging)",
+                    e.service_hours
+                ),
             ));
         }
         let b = &self.board;
@@ -763,6 +922,94 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("converter.turns_ratio"), "{e}");
+    }
+
+    #[test]
+    fn trade_words_in_any_letter_case() {
+        let t = MIN.replace("\"buck\"", "\"Buck\"")
+            + "[selection]\nobjective = \"Cost\"\nmax_capacitance_basis = \"EFFECTIVE\"\n\
+               [selection.voltage_derating]\nCeramic = 0.5\n";
+        let s = Scenario::from_str(&t, "t.toml").unwrap();
+        assert_eq!(s.converter.topology, Topology::Buck);
+        assert_eq!(s.selection.objective, Objective::Cost);
+        assert_eq!(s.selection.max_capacitance_basis, CapBasis::Effective);
+        assert_eq!(s.derating(Technology::Ceramic), 0.5);
+        assert_eq!(Objective::parse("AREA"), Some(Objective::Area));
+        assert_eq!(BridgeKind::parse("Push-Pull"), Some(BridgeKind::PushPull));
+        assert_eq!(BridgeKind::parse("push_pull"), Some(BridgeKind::PushPull));
+        // An unknown word still lists the allowed names.
+        let e = Scenario::from_str(&MIN.replace("\"buck\"", "\"Buk\""), "t.toml")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("`Buk`") && e.contains("buck") && e.contains("module"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn plausibility_errors_name_the_key_and_suggest() {
+        for (from, to, key, hint) in [
+            (
+                "ripple_pp = \"8m\"",
+                "ripple_pp = \"8M\"",
+                "target.ripple_pp",
+                "\"8m\"",
+            ),
+            ("fsw = \"600k\"", "fsw = 600", "converter.fsw", "\"600k\""),
+            (
+                "bandwidth = \"20M\"",
+                "bandwidth = 20",
+                "target.bandwidth",
+                "\"20M\"",
+            ),
+            (
+                "inductance = \"2.2u\"",
+                "inductance = 2.2",
+                "converter.inductance",
+                "\"2.2u\"",
+            ),
+            (
+                "inductance = \"2.2u\"",
+                "inductance = \"0.3n\"",
+                "converter.inductance",
+                "1 nH",
+            ),
+        ] {
+            let e = Scenario::from_str(&MIN.replace(from, to), "t.toml")
+                .unwrap_err()
+                .to_string();
+            assert!(
+                e.contains(&format!("key `{key}`")) && e.contains(hint),
+                "{e}"
+            );
+        }
+        // The ripple frequency of a bridge is 2·fsw, of N interleaved phases N·fsw.
+        let two = MIN
+            .replace("bandwidth = \"20M\"", "bandwidth = \"1M\"")
+            .replace("inductance = \"2.2u\"", "inductance = \"2.2u\"\nphases = 2");
+        let e = Scenario::from_str(&two, "t.toml").unwrap_err().to_string();
+        assert!(e.contains("ripple frequency 1.2 MHz"), "{e}");
+    }
+
+    #[test]
+    fn v2_keys_are_read() {
+        let t = MIN.replace(
+            "inductance = \"2.2u\"",
+            "inductance = \"2.2u\"\ninductance_tolerance = \"±20%\"",
+        ) + "[environment]\nservice_hours = 50000\n";
+        let s = Scenario::from_str(&t, "t.toml").unwrap();
+        assert!((s.converter.inductance_tolerance() - 0.2).abs() < 1e-15);
+        assert_eq!(s.environment.service_hours, 50000.0);
+        assert_eq!(s.converter.bridge_kind(), BridgeKind::Full);
+        assert_eq!(s.standalone_bandwidth_order(), 1);
+        let e = Scenario::from_str(
+            &MIN.replace("iout = 6", "iout = 6\ninductance_tolerance = 1.5"),
+            "t.toml",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("converter.inductance_tolerance"), "{e}");
     }
 
     #[test]

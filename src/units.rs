@@ -26,8 +26,11 @@ pub enum Unit {
     Second,
     /// Plain number or percentage (`"10%"` = 0.10).
     Fraction,
-    /// A plain number with no unit symbol (counts, mm², mm, °C, cost).
+    /// A plain number with no unit symbol (counts, mm², mm, °C).
     Plain,
+    /// A cost: a plain number, with a currency symbol (`$0.12`, `0,05 €`)
+    /// allowed and ignored.
+    Cost,
 }
 
 impl Unit {
@@ -41,7 +44,7 @@ impl Unit {
             Unit::Ampere => &["A"],
             Unit::Hertz => &["Hz", "hz", "HZ"],
             Unit::Second => &["s"],
-            Unit::Fraction | Unit::Plain => &[],
+            Unit::Fraction | Unit::Plain | Unit::Cost => &[],
         }
     }
 
@@ -57,6 +60,7 @@ impl Unit {
             Unit::Second => "time (s)",
             Unit::Fraction => "fraction or percentage",
             Unit::Plain => "plain number",
+            Unit::Cost => "cost",
         }
     }
 }
@@ -102,10 +106,67 @@ const ALL_UNITS: &[(&str, Unit)] = &[
     ("s", Unit::Second),
 ];
 
+/// Currency symbols accepted before or after a cost. `\u{80}` is the euro
+/// sign of Windows-1252 as the Latin-1 fallback of the catalog reader
+/// decodes it.
+const CURRENCY: &[char] = &['$', '€', '£', '¥', '\u{80}'];
+
+/// A cost without its currency symbol (`"$0.12"` → `"0.12"`).
+pub fn strip_currency(text: &str) -> &str {
+    let t = text.trim();
+    let t = t.strip_prefix(CURRENCY).unwrap_or(t).trim_start();
+    let t = t.strip_suffix(CURRENCY).unwrap_or(t).trim_end();
+    t
+}
+
+/// The RKM code of IEC 60062: a prefix letter (or `R` for the unit) stands
+/// at the decimal point (`4u7` = 4.7u, `4R7` = 4.7, `0R005` = 0.005,
+/// `1M5` = 1.5M). Rewritten to the decimal form with the prefix after the
+/// number; `None` when the text is not in that form.
+fn rkm(s: &str) -> Option<String> {
+    let (sign, body) = match s.strip_prefix(['+', '-']) {
+        Some(rest) => (&s[..1], rest),
+        None => ("", s),
+    };
+    let lead = body.find(|c: char| !c.is_ascii_digit())?;
+    if lead == 0 {
+        return None;
+    }
+    let letter = body[lead..].chars().next()?;
+    if !matches!(
+        letter,
+        'p' | 'n' | 'u' | 'µ' | 'μ' | 'm' | 'k' | 'K' | 'M' | 'G' | 'R'
+    ) {
+        return None;
+    }
+    let after = &body[lead + letter.len_utf8()..];
+    let digits = after
+        .find(|c: char| !c.is_ascii_digit())
+        .unwrap_or(after.len());
+    if digits == 0 {
+        return None;
+    }
+    let (frac, unit) = after.split_at(digits);
+    let prefix = if letter == 'R' {
+        String::new()
+    } else {
+        letter.to_string()
+    };
+    Some(format!("{sign}{}.{frac}{prefix}{unit}", &body[..lead]))
+}
+
 /// Parse a textual value such as `"4.7uF"` into SI base units. An `Ok`
 /// value is always finite.
 pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
-    let v = parse_value(text, unit)?;
+    let v = match (unit, rkm(text.trim())) {
+        (Unit::Fraction | Unit::Plain | Unit::Cost, _) | (_, None) => parse_value(text, unit)?,
+        (_, Some(decimal)) => parse_value(&decimal, unit).map_err(|e| {
+            ValueError(format!(
+                "`{}` (RKM code, read as `{decimal}`): {e}",
+                text.trim()
+            ))
+        })?,
+    };
     if !v.is_finite() {
         // e.g. "1e300G": the number is finite, the scaled value is not.
         return Err(ValueError(format!(
@@ -127,6 +188,16 @@ fn article(name: &str) -> &'static str {
 
 fn parse_value(text: &str, unit: Unit) -> Result<f64, ValueError> {
     let s = text.trim();
+    let s = match unit {
+        Unit::Cost => strip_currency(s),
+        // "±10%": a tolerance is symmetric; the sign says nothing more.
+        Unit::Fraction => s
+            .strip_prefix('±')
+            .or_else(|| s.strip_prefix("+/-"))
+            .or_else(|| s.strip_prefix("+-"))
+            .map_or(s, str::trim_start),
+        _ => s,
+    };
     if s.is_empty() {
         return Err(ValueError("empty value".into()));
     }
@@ -181,6 +252,11 @@ fn parse_value(text: &str, unit: Unit) -> Result<f64, ValueError> {
     }
     if unit == Unit::Plain {
         return Err(ValueError(format!("`{s}`: expected a plain number")));
+    }
+    if unit == Unit::Cost {
+        return Err(ValueError(format!(
+            "`{s}`: expected a cost (a number, optionally with a currency symbol such as $ or €)"
+        )));
     }
     // Try: [prefix][symbol], then [symbol], then [prefix].
     for &(p, scale) in PREFIXES {
@@ -266,6 +342,39 @@ pub fn format_compact(value: f64) -> String {
     format_si(value, "").replace(' ', "").replace('µ', "u")
 }
 
+/// The number at the start of a value as written (`"4.7uF"` → `"4.7"`).
+pub fn mantissa(text: &str) -> &str {
+    let t = text.trim();
+    let end = t
+        .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == ',' || c == '+' || c == '-'))
+        .unwrap_or(t.len());
+    &t[..end]
+}
+
+/// A likely intended value for a misread one: the digits of `value` as the
+/// reader shows them, with `prefix` in place of its own prefix
+/// (`suggest(8e6, "m")` = `"8m"`, `suggest(600.0, "k")` = `"600k"`).
+pub fn suggest(value: f64, prefix: &str) -> String {
+    let t = format_compact(value);
+    let digits = t.trim_end_matches(|c: char| c.is_alphabetic());
+    format!("{digits}{prefix}")
+}
+
+/// As [`suggest`], from the text as written: its leading number with
+/// `prefix` after it (`"4.7"` → `"4.7u"`, `"22000"` → `"22000u"`).
+pub fn suggest_text(text: &str, prefix: &str) -> String {
+    let m = mantissa(text);
+    if m.is_empty() {
+        return prefix.to_string();
+    }
+    format!("{m}{prefix}")
+}
+
+/// True when the text is a bare number (no prefix, no unit symbol).
+pub fn is_bare(text: &str) -> bool {
+    text.trim().parse::<f64>().is_ok()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -293,6 +402,48 @@ mod tests {
         assert!(close(parse("1e-6", Unit::Farad).unwrap(), 1e-6));
         assert!(close(parse("12", Unit::Volt).unwrap(), 12.0));
         assert!(close(parse("12V", Unit::Volt).unwrap(), 12.0));
+    }
+
+    #[test]
+    fn rkm_code_of_iec_60062() {
+        // IEC 60062 (RKM code): the multiplier letter, or R for the unit,
+        // takes the place of the decimal point.
+        assert!(close(parse("4u7", Unit::Farad).unwrap(), 4.7e-6));
+        assert!(close(parse("2n2", Unit::Farad).unwrap(), 2.2e-9));
+        assert!(close(parse("4p7", Unit::Farad).unwrap(), 4.7e-12));
+        assert!(close(parse("1k5", Unit::Ohm).unwrap(), 1.5e3));
+        assert!(close(parse("4R7", Unit::Ohm).unwrap(), 4.7));
+        assert!(close(parse("0R005", Unit::Ohm).unwrap(), 5e-3));
+        assert!(close(parse("0R22", Unit::Ohm).unwrap(), 0.22));
+        assert!(close(parse("1M5", Unit::Ohm).unwrap(), 1.5e6));
+        assert!(close(parse("2m5", Unit::Ohm).unwrap(), 2.5e-3));
+        assert!(close(parse("3n3", Unit::Henry).unwrap(), 3.3e-9));
+        assert!(close(parse("4µ7", Unit::Farad).unwrap(), 4.7e-6));
+        // With the unit symbol after it.
+        assert!(close(parse("4u7F", Unit::Farad).unwrap(), 4.7e-6));
+        assert!(close(parse("2u2H", Unit::Henry).unwrap(), 2.2e-6));
+        // R alone after a number is still the ohm symbol; "1e5" an exponent.
+        assert!(close(parse("10R", Unit::Ohm).unwrap(), 10.0));
+        assert!(close(parse("1e5", Unit::Hertz).unwrap(), 1e5));
+        // A wrong unit after an RKM code is named.
+        let e = parse("4u7H", Unit::Farad).unwrap_err();
+        assert!(e.0.contains("inductance") && e.0.contains("RKM"), "{e}");
+        assert!(parse("4x7", Unit::Farad).is_err());
+    }
+
+    #[test]
+    fn percentages_and_costs() {
+        assert!(close(parse("±10%", Unit::Fraction).unwrap(), 0.10));
+        assert!(close(parse("± 5 %", Unit::Fraction).unwrap(), 0.05));
+        assert!(close(parse("+/-20%", Unit::Fraction).unwrap(), 0.20));
+        assert!(close(parse("$0.12", Unit::Cost).unwrap(), 0.12));
+        assert!(close(parse("€0.05", Unit::Cost).unwrap(), 0.05));
+        assert!(close(parse("0.05 €", Unit::Cost).unwrap(), 0.05));
+        assert!(close(parse("£1", Unit::Cost).unwrap(), 1.0));
+        assert!(close(parse("0.3", Unit::Cost).unwrap(), 0.3));
+        assert!(parse("$", Unit::Cost).is_err());
+        assert!(parse("0.1k", Unit::Cost).is_err());
+        assert!(parse("$0.1", Unit::Plain).is_err());
     }
 
     #[test]
@@ -332,6 +483,17 @@ mod tests {
         }
         assert_eq!(format_compact(10e-6), "10u");
         assert_eq!(format_compact(4.5e-10), "450p");
+    }
+
+    #[test]
+    fn suggestions_keep_the_digits() {
+        assert_eq!(suggest(8e6, "m"), "8m");
+        assert_eq!(suggest(600.0, "k"), "600k");
+        assert_eq!(suggest(20.0, "M"), "20M");
+        assert_eq!(suggest(2.2, "u"), "2.2u");
+        assert_eq!(suggest_text("4.7", "u"), "4.7u");
+        assert_eq!(suggest_text("5k", "m"), "5m");
+        assert!(is_bare("4.7") && !is_bare("4.7u"));
     }
 
     #[test]

@@ -35,6 +35,9 @@ enum Kind {
     Scenario,
     /// `assess --scenario good-scenario.toml --bom FILE`
     Bom,
+    /// An inductor catalog, read through `InductorCatalog::from_path` (the
+    /// inductor catalog is not wired into a command yet).
+    Inductors,
 }
 use Kind::*;
 
@@ -245,7 +248,7 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "scn-absurd-fsw.toml",
         Scenario,
-        &["key `converter.fsw`", "outside 100 Hz"],
+        &["key `converter.fsw`", "outside 1 kHz"],
     ),
     (
         "scn-negative-inductance.toml",
@@ -378,7 +381,7 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "bom-missing-count-column.csv",
         Bom,
-        &["line 1", "column `count` is missing"],
+        &["line 1", "column `count` is missing", "qty"],
     ),
     (
         "bom-missing-count-cell.csv",
@@ -398,16 +401,217 @@ const CASES: &[(&str, Kind, &[&str])] = &[
         &["line 2, column 2 (count)", "100000"],
     ),
     ("bom-not-utf8.csv", Bom, &["line 3, column 13", "not UTF-8"]),
+    // ---- plausibility: the field and the likely intended value
+    (
+        "cat-ceramic-in-farads.csv",
+        Catalog,
+        &[
+            "line 3, column 3 (capacitance)",
+            "4.7 F for a ceramic",
+            "bare numbers are farads",
+            "did you mean 4.7u?",
+        ],
+    ),
+    (
+        "cat-esr-above-10-ohm.csv",
+        Catalog,
+        &[
+            "line 3, column 5 (esr)",
+            "not a plausible ESR",
+            "did you mean 30m?",
+        ],
+    ),
+    (
+        "cat-esl-microhenry.csv",
+        Catalog,
+        &[
+            "line 2, column 6 (esl)",
+            "not a plausible ESL",
+            "did you mean 2n?",
+        ],
+    ),
+    (
+        "scn-ripple-at-vout.toml",
+        Scenario,
+        &[
+            "key `target.ripple_pp`",
+            "at or above vout",
+            "did you mean \"8m\"?",
+        ],
+    ),
+    (
+        "scn-fsw-below-1k.toml",
+        Scenario,
+        &[
+            "key `converter.fsw`",
+            "below 1 kHz",
+            "did you mean \"600k\"?",
+        ],
+    ),
+    (
+        "scn-bandwidth-below-ripple.toml",
+        Scenario,
+        &[
+            "key `target.bandwidth`",
+            "below the ripple frequency 600 kHz",
+            "did you mean \"20M\"?",
+        ],
+    ),
+    (
+        "scn-inductance-henries.toml",
+        Scenario,
+        &[
+            "key `converter.inductance`",
+            "1 nH … 10 mH",
+            "did you mean \"2.2u\"?",
+        ],
+    ),
+    // ---- v2 catalog columns
+    (
+        "cat-esr-temp-not-rising.csv",
+        Catalog,
+        &["line 2, column 9 (esr_temp)", "point 2", "rise strictly"],
+    ),
+    (
+        "cat-esr-temp-missing-colon.csv",
+        Catalog,
+        &["line 2, column 9 (esr_temp)", "point 2", "°C:factor"],
+    ),
+    (
+        "cat-esr-min-above-esr.csv",
+        Catalog,
+        &["line 2, column 9 (esr_min)", "above the part's esr"],
+    ),
+    (
+        "cat-aging-out-of-range.csv",
+        Catalog,
+        &["line 2, column 10 (aging)", "from 0 to 25"],
+    ),
+    (
+        "cat-temp-rise-high.csv",
+        Catalog,
+        &["line 2, column 9 (temp_rise)", "from 0 to 1"],
+    ),
+    (
+        "cat-header-unit-wrong.csv",
+        Catalog,
+        &[
+            "line 1, column 3 (capacitance)",
+            "header unit `uH`",
+            "inductance",
+        ],
+    ),
+    (
+        "cat-rkm-wrong-unit.csv",
+        Catalog,
+        &[
+            "line 3, column 3 (capacitance)",
+            "RKM code",
+            "`4.7uH` is an inductance",
+        ],
+    ),
+    // ---- v2 scenario keys
+    (
+        "scn-inductance-tolerance-high.toml",
+        Scenario,
+        &["key `converter.inductance_tolerance`", "below 0.9"],
+    ),
+    (
+        "scn-service-hours-negative.toml",
+        Scenario,
+        &["key `environment.service_hours`", "-1000"],
+    ),
+    (
+        "scn-unknown-bridge.toml",
+        Scenario,
+        &[
+            "bridge = \"quarter\"",
+            "unknown variant `quarter`",
+            "push-pull",
+        ],
+    ),
+    (
+        "scn-half-bridge-cannot-make-vout.toml",
+        Scenario,
+        &["key `converter.vout`", "a half bridge cannot make 5 V"],
+    ),
+    (
+        "scn-standalone-order-zero.toml",
+        Scenario,
+        &["key `converter.standalone_bandwidth_order`", "from 1 to 8"],
+    ),
+    // ---- bills of materials
+    (
+        "bom-case-mismatch.csv",
+        Bom,
+        &["line 3, column `part`", "did you mean `CX-C-1U-16V`?"],
+    ),
+    (
+        "bom-filter-position.csv",
+        Bom,
+        &[
+            "line 3, column `position`",
+            "filter positions need the filter model",
+        ],
+    ),
+    (
+        "bom-unknown-position.csv",
+        Bom,
+        &[
+            "line 2, column 3 (position)",
+            "unknown position `Upstream`",
+            "damping",
+        ],
+    ),
+    // ---- inductor catalogs
+    (
+        "ind-inductance-henries.csv",
+        Inductors,
+        &["line 3, column 2 (inductance)", "did you mean 2.2u?"],
+    ),
+    (
+        "ind-dcr-ohms.csv",
+        Inductors,
+        &["line 2, column 4 (dcr)", "did you mean 12m?"],
+    ),
+    (
+        "ind-srf-hertz.csv",
+        Inductors,
+        &["line 2, column 7 (srf)", "did you mean 60M?"],
+    ),
+    (
+        "ind-missing-saturation-column.csv",
+        Inductors,
+        &["line 1", "required column `saturation_current` is missing"],
+    ),
 ];
 
 /// Run one bad-input case and check the rules for bad input.
 fn run_bad(file: &str, kind: Kind, expect: &[&str]) -> Result<(), String> {
     let path = file.to_string();
+    if kind == Inductors {
+        let msg = match ripplebank::inductors::InductorCatalog::from_path(&root().join(file)) {
+            Ok(_) => return Err(format!("{file}: accepted, want an error")),
+            Err(e) => format!("{e:#}"),
+        };
+        let name = Path::new(file).file_name().unwrap().to_string_lossy();
+        let missing: Vec<&str> = std::iter::once(&*name)
+            .chain(std::iter::once("line "))
+            .chain(expect.iter().copied())
+            .filter(|e| !msg.contains(e))
+            .collect();
+        return if missing.is_empty() {
+            Ok(())
+        } else {
+            Err(format!("{file}: message lacks {missing:?}: {msg}"))
+        };
+    }
     let good_scn = corpus("good-scenario.toml");
     let args: Vec<&str> = match kind {
         Catalog => vec!["validate", "--scenario", &good_scn, "--catalog", &path],
         Scenario => vec!["validate", "--scenario", &path],
         Bom => vec!["assess", "--scenario", &good_scn, "--bom", &path],
+        Inductors => unreachable!("handled above"),
     };
     let out = bin().args(&args).output().map_err(|e| e.to_string())?;
     let stderr = String::from_utf8_lossy(&out.stderr);
@@ -568,6 +772,9 @@ const OK_CATALOGS: &[(&str, usize)] = &[
     ("ok-header-variants.csv", 2),
     ("ok-latin1.csv", 2),
     ("ok-blank-lines.csv", 3),
+    ("ok-header-units.csv", 3),
+    ("ok-rkm-values.csv", 3),
+    ("ok-currency-semicolon.csv", 2),
 ];
 
 #[test]
@@ -963,4 +1170,130 @@ fn ten_farads_at_ten_megahertz_matches_a_time_domain_integration() {
     }
     let want = hi - lo;
     assert!((got - want).abs() <= 1e-3 * want, "{got} vs {want}");
+}
+
+#[test]
+fn header_units_scale_bare_numbers_and_leave_written_units_alone() {
+    // `Capacitance (uF)`: 22 is 22 µF; `ESR [mOhm]`: 3 is 3 mΩ; `ESL (nH)`:
+    // 0.4 is 0.4 nH; `Tolerance (%)`: 10 is 10 %. The third row writes its
+    // own prefixes and units, which win over the header's.
+    let c = load("ok-header-units.csv");
+    let a = c.get("CX-U-22U-6V3").unwrap();
+    close(a.capacitance, 22e-6);
+    close(a.rated_voltage, 6.3);
+    close(a.esr, 3e-3);
+    close(a.esl, 0.4e-9);
+    close(a.cost, 0.08);
+    close(a.tolerance, 0.10);
+    assert_eq!(a.height, Some(1.25));
+    let b = c.get("CX-U-100U-6V3").unwrap();
+    close(b.capacitance, 100e-6);
+    close(b.esr, 12e-3);
+    close(b.esl, 2e-9);
+    assert_eq!(
+        (b.area, b.temp_min, b.temp_max),
+        (Some(42.3), Some(-55.0), Some(105.0))
+    );
+    let q = c.get("CX-U-1U-16V").unwrap();
+    close(q.capacitance, 1e-6);
+    close(q.esr, 8e-3);
+    close(q.esl, 350e-12);
+    close(q.cost, 0.01);
+    close(q.tolerance, 0.10);
+}
+
+#[test]
+fn rkm_codes_percent_signs_and_currency_read_right() {
+    // IEC 60062 RKM code: 4u7 = 4.7 µ, 2n2 = 2.2 n, 0R005 = 5 m, 0n4 = 0.4 n.
+    let c = load("ok-rkm-values.csv");
+    let a = c.get("CX-K-4U7-6V3").unwrap();
+    close(a.capacitance, 4.7e-6);
+    close(a.esr, 5e-3);
+    close(a.esl, 0.4e-9);
+    close(a.cost, 0.12);
+    close(a.tolerance, 0.10);
+    let b = c.get("CX-K-2N2-50V").unwrap();
+    close(b.capacitance, 2.2e-9);
+    close(b.cost, 0.02);
+    close(b.tolerance, 0.05);
+    let t = c.get("CX-K-330U-6V3").unwrap();
+    close(t.esr, 25e-3);
+    close(t.esl, 2.2e-9);
+    close(t.cost, 1.25);
+    // Semicolon export: `€0,05` and `0,22 €` with decimal commas.
+    let e = load("ok-currency-semicolon.csv");
+    close(e.get("CX-M-10U-6V3").unwrap().cost, 0.05);
+    close(e.get("CX-M-10U-6V3").unwrap().rated_voltage, 6.3);
+    close(e.get("CX-M-47U-6V3").unwrap().cost, 0.22);
+    close(e.get("CX-M-47U-6V3").unwrap().esl, 1.8e-9);
+}
+
+#[test]
+fn bill_of_materials_header_aliases_and_whole_decimal_counts() {
+    use ripplebank::assessment::{read_bom_rows, Position};
+    // `Item` (a line number here) loses to `Part Number`; `Qty` is the
+    // count; `4.0` is 4; an empty position is the converter's bank.
+    let rows = read_bom_rows(&root().join(CORPUS).join("good-bom-aliases.csv")).unwrap();
+    assert_eq!(rows.len(), 2);
+    assert_eq!(
+        (
+            rows[0].part.as_str(),
+            rows[0].count,
+            rows[0].line,
+            rows[0].position
+        ),
+        ("CX-A-22U-6V3", 4, 2, Position::Converter)
+    );
+    assert_eq!(
+        (rows[1].part.as_str(), rows[1].count, rows[1].position),
+        ("CX-C-1U-16V", 2, Position::Converter)
+    );
+    // Through the command line it is the same bank as good-bom.csv.
+    let run = |f: &str| {
+        let out = bin()
+            .args([
+                "assess",
+                "--json",
+                "--scenario",
+                &corpus("good-scenario.toml"),
+                "--bom",
+                &corpus(f),
+            ])
+            .output()
+            .unwrap();
+        assert!(
+            matches!(out.status.code(), Some(0 | 1)),
+            "{f}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let doc: Value = serde_json::from_slice(&out.stdout).unwrap();
+        (doc["bank"].clone(), doc["ripple_pp"].as_f64().unwrap())
+    };
+    assert_eq!(run("good-bom-aliases.csv"), run("good-bom.csv"));
+}
+
+#[test]
+fn inductor_catalog_with_header_units_reads_right() {
+    // Semicolon export with CRLF: `Inductance (uH)` 2,2 = 2.2 µH, `DCR [mOhm]`
+    // 30 = 30 mΩ, `SRF (MHz)` 60 = 60 MHz, `Tolerance (%)` 20 = 20 %; the
+    // second row writes its own units (`470n`, `0R004`, `150M`, `±10%`, `€0,30`).
+    let bytes = std::fs::read(root().join(CORPUS).join("ok-inductors-header-units.csv")).unwrap();
+    let c =
+        ripplebank::inductors::InductorCatalog::from_bytes(&bytes, "ok-inductors-header-units.csv")
+            .unwrap_or_else(|e| panic!("{e:#}"));
+    let a = c.get("LX-H-2U2").unwrap();
+    close(a.inductance, 2.2e-6);
+    close(a.tolerance, 0.20);
+    close(a.dcr, 30e-3);
+    close(a.rated_current, 5.5);
+    close(a.saturation_current, 6.5);
+    close(a.srf.unwrap(), 60e6);
+    close(a.cost, 0.18);
+    let b = c.get("LX-H-470N").unwrap();
+    close(b.inductance, 470e-9);
+    close(b.tolerance, 0.10);
+    close(b.dcr, 4e-3);
+    close(b.srf.unwrap(), 150e6);
+    close(b.cost, 0.30);
+    assert_eq!(b.height, Some(3.0));
 }

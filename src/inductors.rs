@@ -1,0 +1,385 @@
+//! Inductor catalog (CSV, any column order): the parts a post-filter's
+//! inductor is chosen from. It is read with the same reader as the
+//! capacitor catalog (units and RKM codes in cells, units in headers,
+//! semicolon exports with decimal commas, Latin-1 fallback), and every error
+//! names the file, the line and the column.
+
+use crate::catalog::{eia_case_area, read_status, Status, NO_TOLERANCE};
+use crate::sheet::{Col, Row, Sheet};
+use crate::units::{self, Unit};
+use anyhow::{bail, Result};
+use std::collections::HashMap;
+use std::path::Path;
+
+/// One inductor row.
+#[derive(Debug, Clone)]
+pub struct Inductor {
+    pub id: String,
+    /// Nominal inductance, H.
+    pub inductance: f64,
+    pub tolerance: f64,
+    pub tolerance_given: bool,
+    /// DC resistance (maximum), Ω.
+    pub dcr: f64,
+    /// Thermal (RMS) current rating, A.
+    pub rated_current: f64,
+    /// Saturation current, A.
+    pub saturation_current: f64,
+    /// Self-resonant frequency, Hz.
+    pub srf: Option<f64>,
+    pub cost: f64,
+    pub case: Option<String>,
+    /// Footprint in mm², from the `area` column or an EIA case code.
+    pub area: Option<f64>,
+    pub height: Option<f64>,
+    pub temp_min: Option<f64>,
+    pub temp_max: Option<f64>,
+    pub status: Status,
+    pub manufacturer: Option<String>,
+    pub mpn: Option<String>,
+    pub description: Option<String>,
+    /// Columns beyond the known ones, as (header, value).
+    pub extra: Vec<(String, String)>,
+    /// Line of the row in its file (1-based, the header is line 1).
+    pub line: u64,
+}
+
+impl Inductor {
+    /// Winding capacitance that resonates with the inductance at the
+    /// self-resonant frequency: `C_p = 1 / ((2π·srf)² · L)`.
+    pub fn parallel_capacitance(&self) -> Option<f64> {
+        self.srf
+            .map(|f| 1.0 / ((2.0 * std::f64::consts::PI * f).powi(2) * self.inductance))
+    }
+
+    /// Lowest and highest inductance within the tolerance.
+    pub fn inductance_range(&self) -> (f64, f64) {
+        (
+            self.inductance * (1.0 - self.tolerance),
+            self.inductance * (1.0 + self.tolerance),
+        )
+    }
+}
+
+/// A loaded inductor catalog.
+#[derive(Debug, Clone, Default)]
+pub struct InductorCatalog {
+    pub source: String,
+    pub parts: Vec<Inductor>,
+    /// Headers of the extra columns, in file order.
+    pub extra_columns: Vec<String>,
+    pub warnings: Vec<String>,
+    index: HashMap<String, usize>,
+}
+
+/// The inductor catalog's columns and what each holds.
+pub const KNOWN: &[(&str, Col)] = &[
+    ("part", Col::Text),
+    ("inductance", Col::Value(Unit::Henry)),
+    ("tolerance", Col::Value(Unit::Fraction)),
+    ("dcr", Col::Value(Unit::Ohm)),
+    ("rated_current", Col::Value(Unit::Ampere)),
+    ("saturation_current", Col::Value(Unit::Ampere)),
+    ("srf", Col::Value(Unit::Hertz)),
+    ("cost", Col::Value(Unit::Cost)),
+    ("case", Col::Text),
+    ("area", Col::Area),
+    ("height", Col::Millimetre),
+    ("temp_min", Col::Celsius),
+    ("temp_max", Col::Celsius),
+    ("status", Col::Text),
+    ("manufacturer", Col::Text),
+    ("mpn", Col::Text),
+    ("description", Col::Text),
+];
+
+pub const REQUIRED: &[&str] = &[
+    "part",
+    "inductance",
+    "dcr",
+    "rated_current",
+    "saturation_current",
+    "cost",
+];
+
+impl InductorCatalog {
+    pub fn from_path(path: &Path) -> Result<InductorCatalog> {
+        let bytes = std::fs::read(path).map_err(|e| {
+            anyhow::anyhow!("{}: cannot read the inductor catalog: {e}", path.display())
+        })?;
+        InductorCatalog::from_bytes(&bytes, &path.display().to_string())
+    }
+
+    pub fn get(&self, id: &str) -> Option<&Inductor> {
+        self.index.get(id).map(|&i| &self.parts[i])
+    }
+
+    pub fn position(&self, id: &str) -> Option<usize> {
+        self.index.get(id).copied()
+    }
+
+    /// Parse inductor-catalog text; `source` names it in messages.
+    pub fn from_bytes(bytes: &[u8], source: &str) -> Result<InductorCatalog> {
+        let sheet = Sheet::read(bytes, source, "inductor catalog", KNOWN, REQUIRED)?;
+        let mut cat = InductorCatalog {
+            source: source.to_string(),
+            extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
+            warnings: sheet.warnings.clone(),
+            ..Default::default()
+        };
+        let mut no_tol = Vec::new();
+        for row in sheet.rows() {
+            let part = read_inductor(&row)?;
+            if !part.tolerance_given {
+                no_tol.push(part.id.clone());
+            }
+            if let Some(&prev) = cat.index.get(&part.id) {
+                bail!(
+                    "{source}: line {}, column {} (part): part `{}` already defined on line {}",
+                    row.line,
+                    row.column("part"),
+                    part.id,
+                    cat.parts[prev].line
+                );
+            }
+            cat.index.insert(part.id.clone(), cat.parts.len());
+            cat.parts.push(part);
+        }
+        if cat.parts.is_empty() {
+            bail!("{source}: line 1: the inductor catalog has a header row but no parts below it");
+        }
+        if !no_tol.is_empty() {
+            let mut names = no_tol
+                .iter()
+                .take(8)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(", ");
+            if no_tol.len() > 8 {
+                names.push_str(", …");
+            }
+            cat.warnings.push(format!(
+                "{source}: {} inductor(s) {NO_TOLERANCE}: {names}",
+                no_tol.len()
+            ));
+        }
+        Ok(cat)
+    }
+}
+
+/// "bare numbers are X — did you mean" or "did you mean".
+fn hint(row: &Row, name: &str, what: &str, prefix: &str) -> String {
+    let t = row.cell(name);
+    format!(
+        "{} {}?",
+        if units::is_bare(t) {
+            format!("bare numbers are {what} — did you mean")
+        } else {
+            "did you mean".to_string()
+        },
+        units::suggest_text(t, prefix)
+    )
+}
+
+fn read_inductor(row: &Row) -> Result<Inductor> {
+    let id = row
+        .text("part")
+        .ok_or_else(|| row.err("part", "part id is empty"))?;
+    let inductance = row.req("inductance", Unit::Henry)?;
+    row.positive("inductance", inductance, false)?;
+    if !(1e-9..=10e-3).contains(&inductance) {
+        return Err(row.err(
+            "inductance",
+            format!(
+                "{} is outside 1 nH … 10 mH, where a filter or power inductor lies; {}",
+                units::format_si(inductance, "H"),
+                hint(row, "inductance", "henries", "u")
+            ),
+        ));
+    }
+    let tol = row.num("tolerance", Unit::Fraction)?;
+    if let Some(t) = tol {
+        if !(0.0..1.0).contains(&t) {
+            return Err(row.err(
+                "tolerance",
+                format!("{t} must be at least 0 and below 1 (100 %)"),
+            ));
+        }
+    }
+    let dcr = row.req("dcr", Unit::Ohm)?;
+    row.positive("dcr", dcr, true)?;
+    if dcr > 10.0 {
+        return Err(row.err(
+            "dcr",
+            format!(
+                "{} is not a plausible DC resistance for a power inductor (above 10 Ω); {}",
+                units::format_si(dcr, "Ω"),
+                hint(row, "dcr", "ohms", "m")
+            ),
+        ));
+    }
+    let current = |name: &str| -> Result<f64> {
+        let i = row.req(name, Unit::Ampere)?;
+        row.positive(name, i, false)?;
+        if i > 1000.0 {
+            return Err(row.err(
+                name,
+                format!(
+                    "{} is beyond any board-mounted inductor (above 1 kA); {}",
+                    units::format_si(i, "A"),
+                    hint(row, name, "amperes", "")
+                ),
+            ));
+        }
+        Ok(i)
+    };
+    let rated_current = current("rated_current")?;
+    let saturation_current = current("saturation_current")?;
+    let srf = row.num("srf", Unit::Hertz)?;
+    if let Some(f) = srf {
+        row.positive("srf", f, false)?;
+        if f < 1e3 {
+            return Err(row.err(
+                "srf",
+                format!(
+                    "{} is below 1 kHz, no power inductor resonates that low; {}",
+                    units::format_si(f, "Hz"),
+                    hint(row, "srf", "hertz", "M")
+                ),
+            ));
+        }
+    }
+    let cost = row.req("cost", Unit::Cost)?;
+    row.positive("cost", cost, true)?;
+    let case = row.text("case");
+    let area = match row.num("area", Unit::Plain)? {
+        Some(a) => {
+            row.positive("area", a, false)?;
+            Some(a)
+        }
+        None => case.as_deref().and_then(eia_case_area),
+    };
+    let height = row.num("height", Unit::Plain)?;
+    if let Some(h) = height {
+        row.positive("height", h, false)?;
+    }
+    let temp_min = row.num("temp_min", Unit::Plain)?;
+    let temp_max = row.num("temp_max", Unit::Plain)?;
+    if let (Some(a), Some(b)) = (temp_min, temp_max) {
+        if a >= b {
+            return Err(row.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
+        }
+    }
+    Ok(Inductor {
+        id,
+        inductance,
+        tolerance: tol.unwrap_or(0.20),
+        tolerance_given: tol.is_some(),
+        dcr,
+        rated_current,
+        saturation_current,
+        srf,
+        cost,
+        case,
+        area,
+        height,
+        temp_min,
+        temp_max,
+        status: read_status(row)?,
+        manufacturer: row.text("manufacturer"),
+        mpn: row.text("mpn"),
+        description: row.text("description"),
+        extra: row.extra(),
+        line: row.line,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const HEAD: &str =
+        "part,inductance,tolerance,dcr,rated_current,saturation_current,srf,cost,case,area,height";
+
+    #[test]
+    fn reads_rows_with_units_and_rkm() {
+        let csv = format!(
+            "{HEAD}\nL1,2u2,20%,12m,6,7.5,60M,$0.20,,16,2\nL2,470n,±10%,0R004,12.5,15,,0.3,,,\n"
+        );
+        let c = InductorCatalog::from_bytes(csv.as_bytes(), "l.csv").unwrap();
+        let a = c.get("L1").unwrap();
+        assert!((a.inductance - 2.2e-6).abs() < 1e-18);
+        assert!((a.dcr - 12e-3).abs() < 1e-15);
+        assert_eq!((a.rated_current, a.saturation_current), (6.0, 7.5));
+        assert_eq!((a.cost, a.area, a.height), (0.2, Some(16.0), Some(2.0)));
+        // C_p = 1/((2π·srf)²·L), the LC resonance formula.
+        let cp = 1.0 / ((2.0 * std::f64::consts::PI * 60e6).powi(2) * 2.2e-6);
+        assert!((a.parallel_capacitance().unwrap() - cp).abs() < 1e-9 * cp);
+        let (lo, hi) = a.inductance_range();
+        assert!((lo - 1.76e-6).abs() < 1e-18 && (hi - 2.64e-6).abs() < 1e-18);
+        let b = c.get("L2").unwrap();
+        assert!((b.dcr - 4e-3).abs() < 1e-15);
+        assert!((b.tolerance - 0.10).abs() < 1e-15);
+        assert_eq!(b.parallel_capacitance(), None);
+    }
+
+    #[test]
+    fn demo_inductor_catalog_reads() {
+        let text = include_str!("../catalogs/demo-inductors.csv");
+        let c = InductorCatalog::from_bytes(text.as_bytes(), "demo-inductors.csv").unwrap();
+        assert!((25..=35).contains(&c.parts.len()), "{}", c.parts.len());
+        assert!(c.warnings.is_empty(), "{:?}", c.warnings);
+        for p in &c.parts {
+            assert!((0.1e-6..=10e-6).contains(&p.inductance), "{}", p.id);
+            assert!(
+                p.area.is_some() && p.height.is_some() && p.srf.is_some(),
+                "{}",
+                p.id
+            );
+            assert!(
+                p.description.as_deref().unwrap_or("").contains("INVENTED"),
+                "{}",
+                p.id
+            );
+        }
+    }
+
+    #[test]
+    fn header_units_apply_to_bare_numbers() {
+        let csv = "Part,Inductance (uH),DCR [mOhm],Rated Current (A),Saturation Current (A),SRF (MHz),Cost ($)\n\
+                   L1,2.2,12,6,7.5,60,0.2\n";
+        let c = InductorCatalog::from_bytes(csv.as_bytes(), "l.csv").unwrap();
+        let a = &c.parts[0];
+        assert!((a.inductance - 2.2e-6).abs() < 1e-18);
+        assert!((a.dcr - 12e-3).abs() < 1e-15);
+        assert!((a.srf.unwrap() - 60e6).abs() < 1e-3);
+        // No tolerance given: 20 % with one warning naming the part.
+        assert_eq!(a.tolerance, 0.2);
+        assert!(
+            c.warnings.iter().any(|w| w.contains("L1")),
+            "{:?}",
+            c.warnings
+        );
+    }
+
+    #[test]
+    fn implausible_values_name_line_column_and_suggest() {
+        for (cells, want) in [
+            ("L1,2.2,20%,12m,6,7.5,,0.2,,,", "column 2 (inductance)"),
+            ("L1,2.2u,20%,12,6,7.5,,0.2,,,", "did you mean 12m?"),
+            ("L1,2.2u,20%,12m,6,7.5,60,0.2,,,", "did you mean 60M?"),
+            ("L1,2.2u,20%,12m,,7.5,,0.2,,,", "column 5 (rated_current)"),
+            ("L1,2.2u,20%,12m,6,7.5,,cheap,,,", "column 8 (cost)"),
+        ] {
+            let csv = format!("{HEAD}\n{cells}\n");
+            let e = InductorCatalog::from_bytes(csv.as_bytes(), "l.csv")
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains("l.csv: line 2, ") && e.contains(want), "{e}");
+        }
+        let e = InductorCatalog::from_bytes(b"part,inductance,cost\nL1,1u,0.1\n", "l.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("line 1") && e.contains("`dcr`"), "{e}");
+    }
+}
