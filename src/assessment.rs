@@ -582,11 +582,11 @@ pub fn assess_with(
     let worst_corner = WorstCorner {
         vin: ev.ops.get(worst.op).and_then(|o| o.vin),
         inductance: ev.ops.get(worst.op).and_then(|o| o.inductance),
-        lines: local
+        lines: bank
             .iter()
             .zip(&worst.states)
-            .map(|(&(j, _), st)| WorstLine {
-                part: problem.catalog.parts[bank[j].0].id.clone(),
+            .map(|(&(i, _), st)| WorstLine {
+                part: problem.catalog.parts[i].id.clone(),
                 capacitance: st.c,
                 esr: st.esr,
             })

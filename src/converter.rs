@@ -453,6 +453,33 @@ mod tests {
     }
 
     #[test]
+    fn interleaved_ripple_follows_the_n_phase_closed_form() {
+        // N phases shifted by T/N: with D in [k/N, (k+1)/N], k+1 phases
+        // conduct for (N·D − k)·T/N of each T/N and the summed current rises
+        // by ((k+1)·vin − N·vout)/L over that time (the inductor law, Erickson
+        // & Maksimović, ch. 2, summed over the phases), so
+        // ΔI_N = vin·T·(N·D − k)·(k + 1 − N·D)/(N·L): zero at D = k/N (the
+        // cancellation points) and largest half-way between them.
+        for phases in [2u32, 3, 4] {
+            for &vout in &[1.0, 2.5, 3.3, 4.0, 6.0, 7.9, 9.0] {
+                let mut s = buck(&format!("phases = {phases}"));
+                s.converter.vout.0 = vout;
+                let op = &operating_points(&s)[0];
+                let (vin, l, t) = (12.0, 2.2e-6, 1.0 / 600e3);
+                let n = phases as f64;
+                let d = vout / vin;
+                let k = (n * d).floor();
+                let want = vin * t * (n * d - k) * (k + 1.0 - n * d) / (n * l);
+                assert!(
+                    (op.current_pp - want).abs() < 1e-9 + 1e-9 * want,
+                    "N={phases} D={d}: {} vs {want}",
+                    op.current_pp
+                );
+            }
+        }
+    }
+
+    #[test]
     fn flyback_mean_is_zero_and_edges_keep_it_near_zero() {
         let t = "[converter]\ntopology = \"flyback\"\nvin = 48\nvout = 12\niout = 2\nfsw = \"250k\"\ninductance = \"60u\"\nturns_ratio = 0.5\nedge_time = \"30n\"\n[target]\nripple_pp = \"50m\"\n";
         let s = Scenario::from_str(t, "t").unwrap();

@@ -321,8 +321,9 @@ impl Problem {
         ) && scenario.converter.edge_time.0 == 0.0
         {
             warnings.push(format!(
-                "converter.edge_time is 0: the {}'s current jumps are ideal steps, so the ripple across the parts' ESL \
-                 depends on the harmonic count; give the commutation time (typically 10-50 ns)",
+                "converter.edge_time is 0: the {}'s current jumps are ideal steps, which the parts' ESL turns into \
+                 voltage impulses, so the full-bandwidth ripple is not finite (reported as null); give the commutation \
+                 time (typically 10-50 ns)",
                 scenario.converter.topology.name()
             ));
         }

@@ -189,7 +189,8 @@ mod plausibility {
         // Common practice, no source: the demo point-of-load buck with a
         // single small ceramic shows tens of millivolts; 1-10 µF of low-ESR
         // ceramic is the usual first remedy; about 100 µF of ceramic brings
-        // it to around 10 mV or below.
+        // it to around 10 mV (here over the whole corner region, with the
+        // inductor 20 % low).
         let p = ripplebank::load::problem(None, None, &Default::default()).unwrap();
         let id = |s: &str| p.catalog.position(s).unwrap();
         let one = assess(&p, &[(id("RB-C0603-X5R-10U-6V3"), 1)]).unwrap();
@@ -199,7 +200,7 @@ mod plausibility {
             one.ripple_pp
         );
         let hundred = assess(&p, &[(id("RB-C1206-X5R-47U-6V3"), 2)]).unwrap();
-        assert!(hundred.ripple_pp < 12e-3, "{}", hundred.ripple_pp);
+        assert!(hundred.ripple_pp < 15e-3, "{}", hundred.ripple_pp);
     }
 
     #[test]
