@@ -154,6 +154,26 @@ impl Problem {
     pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
         scenario.check_against(&catalog)?;
         let objective = scenario.selection.objective;
+        {
+            // An ideal current step through any ESL is a voltage impulse: with
+            // no bandwidth there is no finite figure to judge.
+            let c = &scenario.converter;
+            let any_esl = scenario.board.mounting_inductance.0 > 0.0
+                || c.internal_esl.0 > 0.0
+                || catalog.parts.iter().any(|p| p.esl > 0.0);
+            if matches!(c.topology, Topology::Flyback | Topology::Boost)
+                && c.edge_time.0 == 0.0
+                && scenario.target.bandwidth.is_none()
+                && any_esl
+            {
+                bail!(
+                    "{}: key `converter.edge_time`: is 0 and the target has no bandwidth: an ideal current step \
+                     through the parts' ESL is a voltage impulse, so the full-bandwidth ripple is not finite; give \
+                     the commutation time (typically 10-50 ns, e.g. edge_time = \"20n\") or a target.bandwidth",
+                    scenario.source
+                );
+            }
+        }
         let mut eligible = Vec::new();
         let mut excluded = Vec::new();
         for (i, p) in catalog.parts.iter().enumerate() {

@@ -687,17 +687,6 @@ impl Scenario {
                 ),
             ));
         }
-        if matches!(c.topology, Topology::Flyback | Topology::Boost)
-            && c.edge_time.0 == 0.0
-            && self.target.bandwidth.is_none()
-        {
-            return Err(self.err(
-                "converter.edge_time",
-                "is 0 and the target has no bandwidth: an ideal current step through the parts' ESL is a voltage \
-                 impulse, so the full-bandwidth ripple is not finite; give the commutation time (typically 10-50 ns, \
-                 e.g. edge_time = \"20n\") or a target.bandwidth",
-            ));
-        }
         if let Some(m) = c.max_capacitance {
             pos("converter.max_capacitance", m.0)?;
             if c.min_capacitance.0 > m.0 {

@@ -256,6 +256,11 @@ const CASES: &[(&str, Kind, &[&str])] = &[
         &["key `converter.inductance`", "above zero"],
     ),
     (
+        "scn-ideal-edges-no-bandwidth.toml",
+        Scenario,
+        &["key `converter.edge_time`", "not finite", "edge_time = \"20n\""],
+    ),
+    (
         "scn-edge-time-too-long.toml",
         Scenario,
         &["key `converter.edge_time`", "switching period"],
