@@ -76,7 +76,7 @@ fn rework_matches_brute_force() {
         let cat = &p.catalog;
         // Every allowed bank that meets the target, by the evaluator.
         let max_cap = p.scenario.converter.max_capacitance.unwrap().0;
-        let mut good: Vec<(Vec<(usize, u32)>, f64)> = Vec::new();
+        let mut good: Vec<(Vec<(usize, u32)>, f64, Vec<(usize, u32)>)> = Vec::new();
         for b in all_banks(e.len()) {
             let cap: f64 = b
                 .iter()
@@ -86,27 +86,17 @@ fn rework_matches_brute_force() {
             if cap > max_cap || count > 16 {
                 continue;
             }
-            // The low corner first (a quick necessary test), then the
-            // independent dense search of the corner region.
+            // The low corner first (a quick necessary test); the independent
+            // dense search of the corner region runs later, only on the banks
+            // the rule reaches (it is costly).
             if ev.ripple_check(&b, target) > target {
-                continue;
-            }
-            let (r, cur) = common::dense_region(&p, &mut ev, &b);
-            if r > target {
-                continue;
-            }
-            if !b
-                .iter()
-                .zip(&cur)
-                .all(|(&(i, _), &c)| cat.parts[e[i]].ripple_current.is_none_or(|r| c <= r))
-            {
                 continue;
             }
             let cost = b
                 .iter()
                 .map(|&(i, n)| n as f64 * cat.parts[e[i]].cost)
                 .sum();
-            good.push((b.iter().map(|&(i, n)| (e[i], n)).collect(), cost));
+            good.push((b.iter().map(|&(i, n)| (e[i], n)).collect(), cost, b.clone()));
         }
         // A released bank of two or three lines; one of its parts goes.
         let k = rng.gen_range(2..=3usize.min(e.len()));
@@ -120,34 +110,57 @@ fn rework_matches_brute_force() {
             .map(|&i| (e[i], rng.gen_range(1..=4)))
             .collect();
         let forced = vec![current[0].0];
-        let allowed: Vec<&(Vec<(usize, u32)>, f64)> = good
+        let allowed: Vec<&(Vec<(usize, u32)>, f64, Vec<(usize, u32)>)> = good
             .iter()
-            .filter(|(b, _)| !b.iter().any(|x| x.0 == forced[0]))
+            .filter(|(b, _, _)| !b.iter().any(|x| x.0 == forced[0]))
             .collect();
+        // Whether a bank holds over the dense region search (ripple and
+        // ripple currents), memoised.
+        let mut memo: std::collections::HashMap<usize, bool> = std::collections::HashMap::new();
+        let mut holds = |j: usize| -> bool {
+            *memo.entry(j).or_insert_with(|| {
+                let b = &allowed[j].2;
+                let (r, cur) = common::dense_region(&p, &mut ev, b);
+                r <= target
+                    && b.iter()
+                        .zip(&cur)
+                        .all(|(&(i, _), &c)| cat.parts[e[i]].ripple_current.is_none_or(|r| c <= r))
+            })
+        };
         // The rule: fewest changed lines, then fewest changed counts, then
         // cost, then the most same-footprint additions.
-        let best = allowed
-            .iter()
-            .map(|(b, c)| {
-                (
-                    changes(&current, b),
-                    count_changes(&current, b),
-                    *c,
-                    same_case(cat, &current, b),
-                )
-            })
-            .min_by(|x, y| {
-                x.0.cmp(&y.0)
-                    .then(x.1.cmp(&y.1))
-                    .then(x.2.partial_cmp(&y.2).unwrap())
-                    .then(y.3.cmp(&x.3))
-            });
+        let key = |j: usize| {
+            let (b, c, _) = allowed[j];
+            (
+                changes(&current, b),
+                count_changes(&current, b),
+                *c,
+                same_case(cat, &current, b),
+            )
+        };
+        let mut order: Vec<usize> = (0..allowed.len()).collect();
+        order.sort_by(|&x, &y| {
+            let (x, y) = (key(x), key(y));
+            x.0.cmp(&y.0)
+                .then(x.1.cmp(&y.1))
+                .then(x.2.partial_cmp(&y.2).unwrap())
+                .then(y.3.cmp(&x.3))
+        });
+        let best = order.iter().copied().find(|&j| holds(j)).map(key);
         // The rule without counts (lines, then cost): where it differs, the
         // count rule changed the answer.
-        let lines_then_cost = allowed
+        order.sort_by(|&x, &y| {
+            let (x, y) = (key(x), key(y));
+            x.0.cmp(&y.0).then(x.2.partial_cmp(&y.2).unwrap())
+        });
+        let lines_then_cost = order
             .iter()
-            .map(|(b, c)| (changes(&current, b), *c, count_changes(&current, b)))
-            .min_by(|x, y| x.0.cmp(&y.0).then(x.1.partial_cmp(&y.1).unwrap()));
+            .copied()
+            .find(|&j| holds(j))
+            .map(|j| {
+                let k = key(j);
+                (k.0, k.2, k.1)
+            });
         if let (Some(b), Some(l)) = (best, lines_then_cost) {
             if l.2 > b.1 {
                 count_rule_mattered += 1;
