@@ -1,8 +1,8 @@
 //! Everything the reports say about one bank: the ripple at every corner,
 //! the currents, the totals and every limit, computed by the evaluator.
 
-use crate::bank::{Band, Evaluator};
 use crate::catalog::Status;
+use crate::evaluator::{Band, Evaluator};
 use crate::problem::{cap_limit_value, Problem};
 use crate::region::{self, Named};
 use anyhow::{bail, Result};

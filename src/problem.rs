@@ -2,9 +2,9 @@
 //! which parts may be used (and why the others may not), the operating
 //! corners and the current spectra.
 
-use crate::bank::{Band, Corner, Evaluator, PartModel};
 use crate::catalog::{Catalog, Part, Status, Technology};
 use crate::converter::{self, OperatingPoint};
+use crate::evaluator::{Band, Corner, Evaluator, PartModel};
 use crate::scenario::{CapBasis, Objective, Scenario, Topology};
 use anyhow::{bail, Result};
 use serde::Serialize;

@@ -7,7 +7,7 @@
 //!    in cost, area, capacitance-limit share, rating) are dropped.
 //! 2. Every line set (which parts are used) gets a valid lower bound on its
 //!    objective from the linear necessary condition Σ n_i |Y_ik| ≥ q_k of
-//!    [`crate::bank::Evaluator::required_admittance`]; sets that cannot reach q_k even
+//!    [`crate::evaluator::Evaluator::required_admittance`]; sets that cannot reach q_k even
 //!    at their largest counts are dropped.
 //! 3. Sets are solved in order of their bound. Within a set the counts are
 //!    enumerated in objective order: all but the last count by loops, the
@@ -27,7 +27,7 @@
 //!    (`best_ripple_pp`), and each limit is relaxed in turn to find the
 //!    ones that bind.
 
-use crate::bank::{Band, LineState};
+use crate::evaluator::{Band, LineState};
 use crate::problem::Problem;
 
 /// Most searches the cutting-plane loop of [`design_for`] runs.
@@ -547,8 +547,8 @@ pub fn smallest_bank(problem: &Problem) -> Option<Found> {
         let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
         f.ripple_pp = ev.ripple_pp(
             &local,
-            crate::bank::Corner::Worst,
-            crate::bank::Band::Limited,
+            crate::evaluator::Corner::Worst,
+            crate::evaluator::Band::Limited,
         );
         f
     })

@@ -1,7 +1,7 @@
 //! The exact search: line sets, their bounds, and count enumeration.
 
 use super::{better, milp, tol, Key, Settings};
-use crate::bank::{Evaluator, PartModel};
+use crate::evaluator::{Evaluator, PartModel};
 use crate::problem::Problem;
 use crate::scenario::Objective;
 use indicatif::{ProgressBar, ProgressStyle};
@@ -121,7 +121,7 @@ impl Search {
         let mut y = Vec::with_capacity(parts.len() * n);
         for j in 0..parts.len() {
             for k in 0..n {
-                y.push(ev.y(j, k, crate::bank::Corner::Worst));
+                y.push(ev.y(j, k, crate::evaluator::Corner::Worst));
             }
         }
         let phase = ev.phase_terms(target);
@@ -291,8 +291,8 @@ impl Search {
             let Search { ev, bank_buf, .. } = self;
             let r = ev.ripple_pp(
                 bank_buf,
-                crate::bank::Corner::Typical,
-                crate::bank::Band::Limited,
+                crate::evaluator::Corner::Typical,
+                crate::evaluator::Band::Limited,
             );
             if !(r <= self.target) {
                 return false;
