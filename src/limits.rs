@@ -274,3 +274,110 @@ pub fn ineligible(s: &Scenario, p: &Part, id: LimitId) -> Option<String> {
 pub fn checks(s: &Scenario, totals: &Totals) -> Vec<Check> {
     LIMITS.iter().filter_map(|l| l.check(s, totals)).collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::{Farads, Plain};
+
+    fn demo() -> crate::problem::Problem {
+        crate::load::problem(None, None, &Default::default()).unwrap()
+    }
+
+    #[test]
+    fn every_id_has_one_entry_with_a_unique_name() {
+        for id in [
+            LimitId::MaxCapacitance,
+            LimitId::MinCapacitance,
+            LimitId::MaxCount,
+            LimitId::MaxLines,
+            LimitId::MaxArea,
+            LimitId::MaxPerPart,
+        ] {
+            assert_eq!(LIMITS.iter().filter(|l| l.id == id).count(), 1, "{id:?}");
+        }
+        for (i, a) in LIMITS.iter().enumerate() {
+            assert!(LIMITS[i + 1..].iter().all(|b| b.name != a.name));
+        }
+    }
+
+    #[test]
+    fn relax_loosens_every_limit() {
+        // Each relaxed limit is open or strictly looser than before.
+        let mut s = demo().scenario;
+        s.converter.max_capacitance = Some(Farads(100e-6));
+        s.converter.min_capacitance = Farads(10e-6);
+        s.board.max_count = Some(6);
+        s.board.max_area = Some(Plain(20.0));
+        for l in &LIMITS {
+            let before = l.value_or_open(&s);
+            let mut r = s.clone();
+            (l.relax)(&mut r);
+            let after = l.value_or_open(&r);
+            match l.bound {
+                Bound::AtMost => assert!(after > before, "{}: {before} -> {after}", l.name),
+                Bound::AtLeast => assert!(after < before, "{}: {before} -> {after}", l.name),
+            }
+        }
+    }
+
+    #[test]
+    fn count_max_is_the_largest_single_part_count_that_passes() {
+        // Brute-force enumeration: the largest n for which a bank of n of
+        // one part keeps every limit of the table on its own.
+        let p = demo();
+        let mut s = p.scenario.clone();
+        s.converter.max_capacitance = Some(Farads(150e-6));
+        s.board.max_count = Some(12);
+        s.board.max_area = Some(Plain(9.0));
+        s.selection.max_per_part = 10;
+        for &i in &p.eligible {
+            let m = p.part_model(i);
+            let passes = |n: u32| {
+                let nf = n as f64;
+                let t = Totals {
+                    cap_limit: nf * m.c_limit,
+                    cap_effective: nf * m.c_worst,
+                    count: n,
+                    lines: 1,
+                    area: nf * m.area,
+                    area_known: true,
+                };
+                LIMITS
+                    .iter()
+                    .filter(|l| l.bound == Bound::AtMost)
+                    .all(|l| l.check(&s, &t).is_none_or(|c| c.ok))
+                    && n <= s.selection.max_per_part
+            };
+            let brute = (0..=1000).rev().find(|&n| passes(n)).unwrap_or(0);
+            assert_eq!(count_max(&s, &m), brute, "part {i}");
+        }
+    }
+
+    #[test]
+    fn checks_hold_at_the_limit_and_fail_beyond() {
+        let mut s = demo().scenario;
+        s.converter.max_capacitance = Some(Farads(100e-6));
+        s.converter.min_capacitance = Farads(10e-6);
+        let at = Totals {
+            cap_limit: 100e-6,
+            cap_effective: 10e-6,
+            count: 1,
+            lines: 1,
+            area: 1.0,
+            area_known: true,
+        };
+        assert!(checks(&s, &at).iter().all(|c| c.ok));
+        let over = Totals {
+            cap_limit: 101e-6,
+            cap_effective: 9.9e-6,
+            ..at
+        };
+        let failed: Vec<String> = checks(&s, &over)
+            .into_iter()
+            .filter(|c| !c.ok)
+            .map(|c| c.name)
+            .collect();
+        assert_eq!(failed, ["max_capacitance", "min_capacitance"]);
+    }
+}
