@@ -5,7 +5,7 @@
 //! 2× 47 µF 1206); a bank is not a result here, only a workload.
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion};
-use ripplebank::bank::{Band, Corner};
+use ripplebank::evaluator::{Band, Corner};
 use ripplebank::load;
 use ripplebank::problem::Problem;
 use std::time::Duration;

@@ -1,8 +1,9 @@
 //! Everything the reports say about one bank: the ripple at every corner,
 //! the currents, the totals and every limit, computed by the evaluator.
 
-use crate::bank::{Band, Evaluator};
 use crate::catalog::Status;
+use crate::evaluator::{Band, Evaluator};
+use crate::limits::{self, LimitId, Totals};
 use crate::problem::{cap_limit_value, Problem};
 use crate::region::{self, Named};
 use anyhow::{bail, Result};
@@ -727,16 +728,8 @@ pub fn assess_with(
                 p.id
             ));
         }
-        if n > s.selection.max_per_part {
-            checks.push(Check {
-                name: format!("max_per_part {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: nf,
-                limit: s.selection.max_per_part as f64,
-                unit: "".into(),
-                ok: false,
-            });
+        if let Some(c) = limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n) {
+            checks.push(c);
         }
     }
     // Where the worst point lies, in words an engineer can act on.
@@ -826,63 +819,18 @@ pub fn assess_with(
             bound: Bound::AtMost,
         });
     }
-    if let Some(m) = s.converter.max_capacitance {
-        checks.push(Check {
-            name: "max_capacitance".into(),
-            value: climit,
-            limit: m.0,
-            unit: "F".into(),
-            ok: climit <= m.0 * (1.0 + 1e-12),
-            part: None,
-            bound: Bound::AtMost,
-        });
-    }
-    if s.converter.min_capacitance.0 > 0.0 {
-        let m = s.converter.min_capacitance.0;
-        checks.push(Check {
-            name: "min_capacitance".into(),
-            value: ceff,
-            limit: m,
-            unit: "F".into(),
-            ok: ceff >= m,
-            part: None,
-            bound: Bound::AtLeast,
-        });
-    }
-    if let Some(m) = s.board.max_count {
-        checks.push(Check {
-            name: "max_count".into(),
-            value: count as f64,
-            limit: m as f64,
-            unit: "".into(),
-            ok: count <= m,
-            part: None,
-            bound: Bound::AtMost,
-        });
-    }
-    checks.push(Check {
-        name: "max_lines".into(),
-        value: nlines as f64,
-        limit: s.max_lines() as f64,
-        unit: "".into(),
-        ok: nlines <= s.max_lines(),
-        part: None,
-        bound: Bound::AtMost,
-    });
-    if let Some(m) = s.board.max_area {
-        if area_known {
-            checks.push(Check {
-                name: "max_area".into(),
-                value: area,
-                limit: m.0,
-                unit: "mm²".into(),
-                ok: area <= m.0 * (1.0 + 1e-12),
-                part: None,
-                bound: Bound::AtMost,
-            });
-        } else {
-            warnings.push("some parts have no area: board.max_area cannot be checked".into());
-        }
+    // The linear limits, from the one table of them.
+    let totals = Totals {
+        cap_limit: climit,
+        cap_effective: ceff,
+        count,
+        lines: nlines,
+        area,
+        area_known,
+    };
+    checks.extend(limits::checks(s, &totals));
+    if s.board.max_area.is_some() && !area_known {
+        warnings.push("some parts have no area: board.max_area cannot be checked".into());
     }
     for (id, &req) in &s.selection.require {
         let have = bank

@@ -4,7 +4,7 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use ripplebank::assessment::{AssessOptions, NamedCorner};
-use ripplebank::commands::{self, Common, Outcome};
+use ripplebank::commands::{self, CommandOutput, Common};
 use ripplebank::scenario::Objective;
 use std::io::Write;
 use std::path::PathBuf;
@@ -212,7 +212,7 @@ fn main() -> ExitCode {
         }),
     };
     match result {
-        Ok(Outcome { stdout, code }) => {
+        Ok(CommandOutput { stdout, code }) => {
             // A closed stdout (a pipe into `head`) is not an error.
             let mut out = std::io::stdout().lock();
             match out.write_all(stdout.as_bytes()).and_then(|()| out.flush()) {

@@ -2,9 +2,10 @@
 //! which parts may be used (and why the others may not), the operating
 //! corners and the current spectra.
 
-use crate::bank::{Band, Corner, Evaluator, PartModel};
 use crate::catalog::{Catalog, Part, Status, Technology};
 use crate::converter::{self, OperatingPoint};
+use crate::evaluator::{Band, Corner, Evaluator, PartModel};
+use crate::limits::{self, LimitId};
 use crate::scenario::{CapBasis, Objective, Scenario, Topology};
 use anyhow::{bail, Result};
 use serde::Serialize;
@@ -97,18 +98,15 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
     if s.selection.exclude.iter().any(|e| e == &p.id) {
         return Some("excluded by the scenario or the command line".into());
     }
-    if let Some(m) = s.converter.max_capacitance {
-        let c = cap_limit_value(s, p);
-        if c > m.0 {
-            return Some(format!(
-                "one part alone ({:.3e} F) exceeds converter.max_capacitance",
-                c
-            ));
-        }
+    if let Some(r) = limits::ineligible(s, p, LimitId::MaxCapacitance) {
+        return Some(r);
     }
     // Last, so that it only speaks for parts otherwise allowed (with
-    // objective `area` it is an input error, SPEC §2).
-    if p.area.is_none() && (s.board.max_area.is_some() || objective == Objective::Area) {
+    // objective `area` it is an input error).
+    if let Some(r) = limits::ineligible(s, p, LimitId::MaxArea) {
+        return Some(r);
+    }
+    if p.area.is_none() && objective == Objective::Area {
         return Some(NO_AREA.into());
     }
     None

@@ -24,7 +24,7 @@
 //! up to 2·4^L, then about 3 × 2 × (2L·12 + 2·12) — a few hundred
 //! evaluations (a few milliseconds) for a three-line bank.
 
-use crate::bank::{Band, Bank, Evaluator, LineState};
+use crate::evaluator::{Band, Bank, Evaluator, LineState};
 use crate::problem::Problem;
 
 /// One of the named corners of the reports.

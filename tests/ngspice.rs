@@ -5,8 +5,8 @@
 //! When ngspice is not on PATH these tests print a note and pass, unless
 //! RIPPLEBANK_REQUIRE_NGSPICE=1 is set, which makes its absence an error.
 
-use ripplebank::bank::{admittance, Band, Corner};
 use ripplebank::catalog::Catalog;
+use ripplebank::evaluator::{admittance, Band, Corner};
 use ripplebank::problem::Problem;
 use ripplebank::report::spice::{self, Sweep};
 use ripplebank::scenario::Scenario;

@@ -7,8 +7,8 @@
 
 use rand::rngs::StdRng;
 use rand::{Rng, SeedableRng};
-use ripplebank::bank::Band;
 use ripplebank::catalog::Catalog;
+use ripplebank::evaluator::Band;
 use ripplebank::optimize::{self, Settings, Status};
 use ripplebank::problem::Problem;
 use ripplebank::scenario::Scenario;

@@ -14,8 +14,8 @@
 
 use anyhow::{bail, Context, Result};
 use clap::Parser;
-use ripplebank::bank::{Band, Corner};
 use ripplebank::catalog::Catalog;
+use ripplebank::evaluator::{Band, Corner};
 use ripplebank::load;
 use ripplebank::optimize::{self, Settings};
 use ripplebank::problem::Problem;

@@ -36,8 +36,13 @@ pub struct Common {
     pub quiet: bool,
 }
 
+/// The old name of [`CommandOutput`], kept only while `commands/design.rs`
+/// and `commands/tradeoff.rs` still use it; remove once they say
+/// `CommandOutput`.
+pub type Outcome = CommandOutput;
+
 /// What a command prints and its exit status.
-pub struct Outcome {
+pub struct CommandOutput {
     /// The text report or the JSON document.
     pub stdout: String,
     /// Exit status: 0 yes, 1 a well-formed question answered no.
@@ -95,7 +100,7 @@ pub(crate) fn bank_files(
 }
 
 /// `validate`: check the inputs and list the usable and the unused parts.
-pub fn validate(c: &Common) -> Result<Outcome> {
+pub fn validate(c: &Common) -> Result<CommandOutput> {
     let (p, run) = load(c, &Overrides::default())?;
     if c.json {
         let mut doc = json!({
@@ -108,7 +113,7 @@ pub fn validate(c: &Common) -> Result<Outcome> {
             "warnings": p.warnings,
         });
         run.stamp(&mut doc);
-        return Ok(Outcome {
+        return Ok(CommandOutput {
             stdout: report::json_text(doc),
             code: 0,
         });
@@ -161,7 +166,7 @@ pub fn validate(c: &Common) -> Result<Outcome> {
     if p.eligible.is_empty() {
         r.para("No part may be used: a design is impossible until the catalog or the scenario changes.");
     }
-    Ok(Outcome {
+    Ok(CommandOutput {
         stdout: text::render(&r),
         code: 0,
     })
@@ -173,7 +178,7 @@ pub fn assess(
     bank_arg: Option<&str>,
     bom: Option<&Path>,
     opts: &assessment::AssessOptions,
-) -> Result<Outcome> {
+) -> Result<CommandOutput> {
     let (p, run) = load(c, &Overrides::default())?;
     let bank = match (bank_arg, bom) {
         (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
@@ -231,7 +236,7 @@ pub fn assess(
     } else {
         text::render(&r)
     };
-    Ok(Outcome {
+    Ok(CommandOutput {
         stdout,
         code: if a.all_ok { 0 } else { 1 },
     })

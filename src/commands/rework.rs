@@ -1,7 +1,7 @@
 //! `rework`: the fewest changed line items when parts go.
 
 use super::design::binding_text;
-use super::{bank_files, bank_key, load, show_progress, Common, Outcome};
+use super::{bank_files, bank_key, load, show_progress, CommandOutput, Common};
 use crate::assessment::{self};
 use crate::load::Overrides;
 use crate::optimize;
@@ -13,7 +13,7 @@ use serde_json::json;
 use std::path::Path;
 
 /// `rework`: the fewest changed line items when parts of a bill of materials go.
-pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
+pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> {
     use crate::catalog::Status as Life;
     let (p, run) = load(c, &Overrides::default())?;
     let quiet = c.quiet;
@@ -315,5 +315,5 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<Outcome> {
     } else {
         text::render(&r)
     };
-    Ok(Outcome { stdout, code })
+    Ok(CommandOutput { stdout, code })
 }

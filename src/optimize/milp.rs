@@ -52,7 +52,7 @@ pub fn propose(
     let z: Vec<Variable> = over.iter().map(|_| vars.add(variable().binary())).collect();
     let mut obj = Expression::from(0.0);
     for (j, &i) in over.iter().enumerate() {
-        obj += s.w[0][i] * n[j] + s.line_w[0] * z[j];
+        obj += s.weights[0][i] * n[j] + s.line_w[0] * z[j];
     }
     let mut m = vars.minimise(obj).using(solver);
     m = m.with_time_limit(seconds);
@@ -109,7 +109,9 @@ pub fn propose(
     let bound: f64 = over
         .iter()
         .enumerate()
-        .map(|(j, &i)| s.w[0][i] * sol.value(n[j]).round() + s.line_w[0] * sol.value(z[j]).round())
+        .map(|(j, &i)| {
+            s.weights[0][i] * sol.value(n[j]).round() + s.line_w[0] * sol.value(z[j]).round()
+        })
         .sum();
     Some(Proposal {
         set,

@@ -7,7 +7,7 @@
 //!    in cost, area, capacitance-limit share, rating) are dropped.
 //! 2. Every line set (which parts are used) gets a valid lower bound on its
 //!    objective from the linear necessary condition Σ n_i |Y_ik| ≥ q_k of
-//!    [`crate::bank::Evaluator::required_admittance`]; sets that cannot reach q_k even
+//!    [`crate::evaluator::Evaluator::required_admittance`]; sets that cannot reach q_k even
 //!    at their largest counts are dropped.
 //! 3. Sets are solved in order of their bound. Within a set the counts are
 //!    enumerated in objective order: all but the last count by loops, the
@@ -27,7 +27,7 @@
 //!    (`best_ripple_pp`), and each limit is relaxed in turn to find the
 //!    ones that bind.
 
-use crate::bank::{Band, LineState};
+use crate::evaluator::{Band, LineState};
 use crate::problem::Problem;
 
 /// Most searches the cutting-plane loop of [`design_for`] runs.
@@ -90,9 +90,14 @@ pub struct Found {
     pub ripple_pp: f64,
 }
 
+/// The old name of [`DesignOutcome`], kept only while `commands/design.rs`
+/// and `commands/tradeoff.rs` still use it; remove once they say
+/// `DesignOutcome`.
+pub type Outcome = DesignOutcome;
+
 /// Result of a design run.
 #[derive(Debug, Clone)]
-pub struct Outcome {
+pub struct DesignOutcome {
     /// How good the answer is.
     pub status: Status,
     /// The bank, unless infeasible.
@@ -120,8 +125,9 @@ pub struct Stats {
     pub line_sets_solved: usize,
     /// Exact ripple evaluations made.
     pub evaluations: usize,
-    /// Every line set was enumerated.
-    pub exhaustive: bool,
+    /// The bank found is proven the best under the model: every line set
+    /// was enumerated, or the incumbent met a proven lower bound.
+    pub proven: bool,
     /// The search reached its evaluation budget before it finished.
     pub stopped: bool,
     /// A proven lower bound on the objective, when one is known.
@@ -226,12 +232,12 @@ fn region_cut(
 }
 
 /// Find the best bank for the scenario's target.
-pub fn design(problem: &Problem, settings: &Settings) -> Outcome {
+pub fn design(problem: &Problem, settings: &Settings) -> DesignOutcome {
     design_for(problem, problem.scenario.design_target(), settings)
 }
 
 /// Find the best bank for a given ripple target.
-pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcome {
+pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> DesignOutcome {
     let t0 = Instant::now();
     let (cands, dominated) = prune_dominated(problem, &problem.eligible);
     let mut stats = Stats {
@@ -240,7 +246,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         ..Default::default()
     };
     let mut found: Option<Found> = None;
-    let mut exhaustive = false;
+    let mut proven = false;
     let mut stopped = false;
     // Cutting planes (Blankenship & Falk 1976): search against a finite set
     // of region points, verify the best bank over the whole region, add the
@@ -258,7 +264,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         {
             s.bank_buf.clear();
             if let Some(r) = s.exact() {
-                s.inc = Some(([0.0; 3], Vec::new(), r));
+                s.incumbent = Some(([0.0; 3], Vec::new(), r));
             }
         }
         let free = s.lim.max_lines.saturating_sub(s.required.len());
@@ -269,7 +275,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         if s.required.len() <= s.lim.max_lines {
             if total <= settings.exhaustive_limit {
                 run_all_sets(&mut s, &all, free, settings, "design");
-                exhaustive = true;
+                proven = true;
             } else {
                 let mut pool = pool(&s, settings.pool);
                 // Line sets proposed by the mixed-integer relaxation join the pool;
@@ -298,8 +304,8 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
                 }
                 run_all_sets(&mut s, &pool, free, settings, "design (pool)");
                 neighbourhood(&mut s, settings);
-                if let (Some(lb), Some(inc)) = (stats.lower_bound, &s.inc) {
-                    exhaustive = inc.0[0] <= lb + tol(lb, inc.0[0]);
+                if let (Some(lb), Some(inc)) = (stats.lower_bound, &s.incumbent) {
+                    proven = inc.0[0] <= lb + tol(lb, inc.0[0]);
                 }
             }
         }
@@ -307,13 +313,13 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         stopped = s.stopped;
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
-        if let Some((key, bank, _)) = s.inc.take() {
+        if let Some((key, bank, _)) = s.incumbent.take() {
             let verdict = region_cut(problem, &mut s, &bank, target);
             if let Err(cut) = verdict {
                 if round < MAX_REGION_ROUNDS {
                     actives.push(cut);
                     found = None;
-                    exhaustive = false;
+                    proven = false;
                     continue;
                 }
                 // Out of rounds: no verified bank.
@@ -329,14 +335,14 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Outcom
         break;
     }
     stats.stopped = stopped;
-    stats.exhaustive = exhaustive && !stopped;
-    let exhaustive = stats.exhaustive;
-    let status = match (&found, exhaustive) {
+    stats.proven = proven && !stopped;
+    let proven = stats.proven;
+    let status = match (&found, proven) {
         (Some(_), true) => Status::Optimal,
         (Some(_), false) => Status::Feasible,
         (None, _) => Status::Infeasible,
     };
-    let mut out = Outcome {
+    let mut out = DesignOutcome {
         status,
         found,
         best_ripple_pp: None,
@@ -534,7 +540,7 @@ pub struct Binding {
 
 /// The cheapest bank the other limits allow, whatever its ripple (the
 /// loose end of a trade-off), with that ripple.
-pub fn smallest_bank(problem: &Problem) -> Option<Found> {
+pub fn cheapest_bank(problem: &Problem) -> Option<Found> {
     let settings = Settings {
         explain: false,
         milp_proposals: 0,
@@ -547,8 +553,8 @@ pub fn smallest_bank(problem: &Problem) -> Option<Found> {
         let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
         f.ripple_pp = ev.ripple_pp(
             &local,
-            crate::bank::Corner::Worst,
-            crate::bank::Band::Limited,
+            crate::evaluator::Corner::Worst,
+            crate::evaluator::Band::Limited,
         );
         f
     })

@@ -61,18 +61,18 @@ pub fn rework(
     let mut cuts: Vec<super::Cut> = Vec::new();
     let mut verified: Option<f64> = None;
     let mut round = 0;
-    let (mut s, found_at, exhaustive, adds, base, max_lines) = loop {
+    let (mut s, found_at, proven, adds, base, max_lines) = loop {
         round += 1;
         let mut s = super::search_with(problem, &cands, target, &cuts);
         s.budget = settings.max_evaluations;
         let local = |cat: usize| cands.iter().position(|&c| c == cat).expect("candidate");
         let kept: Vec<usize> = kept_cat.iter().map(|&i| local(i)).collect();
         let mut adds: Vec<usize> = (0..s.parts.len()).filter(|i| !kept.contains(i)).collect();
-        let mut exhaustive = true;
+        let mut proven = true;
         if adds.len() > settings.pool * 2 {
             let keep: Vec<usize> = pool(&s, settings.pool * 2);
             adds.retain(|i| keep.contains(i));
-            exhaustive = false;
+            proven = false;
         }
         let base = forced_out.len();
         let max_lines = s.lim.max_lines;
@@ -108,13 +108,13 @@ pub fn rework(
             }
             stats.line_sets_total += sets.len();
             run_sets(&mut s, sets, settings, "rework");
-            if s.inc.is_some() {
+            if s.incumbent.is_some() {
                 found_at = Some(base + extra);
                 break;
             }
         }
         // The bank found must hold over the whole corner region (cutting planes).
-        if let Some((_, bank, _)) = s.inc.clone() {
+        if let Some((_, bank, _)) = s.incumbent.clone() {
             match super::region_cut(problem, &mut s, &bank, target) {
                 Ok(v) => verified = Some(v),
                 Err(cut) if round < super::MAX_REGION_ROUNDS => {
@@ -122,18 +122,18 @@ pub fn rework(
                     continue;
                 }
                 Err(_) => {
-                    s.inc = None;
+                    s.incumbent = None;
                     found_at = None;
                 }
             }
         }
-        break (s, found_at, exhaustive, adds, base, max_lines);
+        break (s, found_at, proven, adds, base, max_lines);
     };
     stats.evaluations = s.evals;
     stats.line_sets_solved = s.sets_solved;
     stats.stopped = s.stopped;
-    stats.exhaustive = exhaustive && !s.stopped;
-    let mut found = s.inc.take().map(|(key, bank, r)| Found {
+    stats.proven = proven && !s.stopped;
+    let mut found = s.incumbent.take().map(|(key, bank, r)| Found {
         bank: bank.iter().map(|&(i, n)| (cands[i], n)).collect(),
         key,
         ripple_pp: verified.unwrap_or(r),
@@ -161,7 +161,7 @@ pub fn rework(
         );
         stats.evaluations += evals;
         if !complete {
-            stats.exhaustive = false;
+            stats.proven = false;
         }
         if let Some(b) = better {
             *f = b;
@@ -171,7 +171,7 @@ pub fn rework(
     let count_changes = found
         .as_ref()
         .map_or(0, |f| count_changes(current, &f.bank));
-    let status = match (&found, stats.exhaustive) {
+    let status = match (&found, stats.proven) {
         (Some(_), true) => Status::Optimal,
         (Some(_), false) => Status::Feasible,
         (None, _) => Status::Infeasible,

@@ -1,13 +1,15 @@
 //! The exact search: line sets, their bounds, and count enumeration.
 
 use super::{better, milp, tol, Key, Settings};
-use crate::bank::{Evaluator, PartModel};
+use crate::evaluator::{Evaluator, PartModel};
+use crate::limits::{self, LimitId};
 use crate::problem::Problem;
 use crate::scenario::Objective;
 use indicatif::{ProgressBar, ProgressStyle};
 use num_complex::Complex64;
 
-/// Limits that are linear in the counts.
+/// Limits that are linear in the counts, read from [`crate::limits::LIMITS`]
+/// (+∞ or 0 where the scenario leaves one open).
 #[derive(Debug, Clone)]
 pub(super) struct Limits {
     pub(super) max_cap: f64,
@@ -17,14 +19,27 @@ pub(super) struct Limits {
     pub(super) max_lines: usize,
 }
 
+impl Limits {
+    fn of(s: &crate::scenario::Scenario) -> Limits {
+        let v = |id| limits::limit(id).value_or_open(s);
+        Limits {
+            max_cap: v(LimitId::MaxCapacitance),
+            min_cap: v(LimitId::MinCapacitance),
+            max_count: v(LimitId::MaxCount),
+            max_area: v(LimitId::MaxArea),
+            max_lines: v(LimitId::MaxLines) as usize,
+        }
+    }
+}
+
 /// The search over one candidate list.
 pub(super) struct Search {
     pub(super) ev: Evaluator,
     /// Catalog index of each local part.
     pub(super) catalog_index: Vec<usize>,
     pub(super) parts: Vec<PartModel>,
-    /// Objective weights per part: w[j][i].
-    pub(super) w: [Vec<f64>; 3],
+    /// Objective weights per part: weights[j][i].
+    pub(super) weights: [Vec<f64>; 3],
     pub(super) line_w: Key,
     pub(super) lb: Vec<u32>,
     pub(super) ub: Vec<u32>,
@@ -32,7 +47,7 @@ pub(super) struct Search {
     pub(super) a: Vec<f64>,
     pub(super) q: Vec<f64>,
     /// Complex admittance Y_ik per part (worst corner), n harmonics each.
-    pub(super) y: Vec<Complex64>,
+    pub(super) adm: Vec<Complex64>,
     /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
     pub(super) phase: Vec<(f64, Complex64, Complex64)>,
     pub(super) n: usize,
@@ -42,7 +57,8 @@ pub(super) struct Search {
     pub(super) check_currents: bool,
     /// Also require the typical corner to pass (`selection.check_typical`).
     pub(super) check_typical: bool,
-    pub(super) inc: Option<(Key, Vec<(usize, u32)>, f64)>,
+    /// The best bank found so far: its key, bank and ripple.
+    pub(super) incumbent: Option<(Key, Vec<(usize, u32)>, f64)>,
     pub(super) evals: usize,
     pub(super) sets_solved: usize,
     pub(super) bank_buf: Vec<(usize, u32)>,
@@ -72,11 +88,11 @@ impl Search {
         let ev = problem.evaluator(candidates);
         let parts = ev.parts.clone();
         let obj = s.selection.objective;
-        let mut w: [Vec<f64>; 3] = [vec![], vec![], vec![]];
+        let mut per_part: [Vec<f64>; 3] = [vec![], vec![], vec![]];
         for p in &parts {
             let k = weights(obj, p);
             for j in 0..3 {
-                w[j].push(k[j]);
+                per_part[j].push(k[j]);
             }
         }
         let lc = s.selection.line_cost.0;
@@ -84,13 +100,7 @@ impl Search {
             Objective::Cost => [lc, 0.0, 0.0],
             _ => [0.0, lc, 0.0],
         };
-        let lim = Limits {
-            max_cap: s.converter.max_capacitance.map_or(f64::INFINITY, |c| c.0),
-            min_cap: s.converter.min_capacitance.0,
-            max_count: s.board.max_count.map_or(f64::INFINITY, |c| c as f64),
-            max_area: s.board.max_area.map_or(f64::INFINITY, |a| a.0),
-            max_lines: s.max_lines() as usize,
-        };
+        let lim = Limits::of(s);
         let mut lb = Vec::new();
         let mut ub = Vec::new();
         let mut required = Vec::new();
@@ -101,15 +111,7 @@ impl Search {
                 required.push(j);
             }
             lb.push(req.max(1));
-            let mut u = s.selection.max_per_part as f64;
-            if p.c_limit > 0.0 {
-                u = u.min((lim.max_cap / p.c_limit * (1.0 + 1e-12)).floor());
-            }
-            u = u.min(lim.max_count);
-            if p.area > 0.0 {
-                u = u.min((lim.max_area / p.area * (1.0 + 1e-12)).floor());
-            }
-            ub.push(u.max(0.0) as u32);
+            ub.push(limits::count_max(s, p));
         }
         let q = ev.required_admittance(target);
         let n = q.len();
@@ -118,10 +120,10 @@ impl Search {
             a.extend(ev.admittance_magnitudes(j));
         }
         let check_currents = parts.iter().any(|p| p.rating.is_some());
-        let mut y = Vec::with_capacity(parts.len() * n);
+        let mut adm = Vec::with_capacity(parts.len() * n);
         for j in 0..parts.len() {
             for k in 0..n {
-                y.push(ev.y(j, k, crate::bank::Corner::Worst));
+                adm.push(ev.y(j, k, crate::evaluator::Corner::Worst));
             }
         }
         let phase = ev.phase_terms(target);
@@ -129,12 +131,12 @@ impl Search {
         Search {
             active: Vec::new(),
             ratings,
-            y,
+            adm,
             phase,
             catalog_index: candidates.to_vec(),
             ev,
             parts,
-            w,
+            weights: per_part,
             line_w,
             lb,
             ub,
@@ -146,7 +148,7 @@ impl Search {
             required,
             check_currents,
             check_typical: s.selection.check_typical,
-            inc: None,
+            incumbent: None,
             evals: 0,
             sets_solved: 0,
             bank_buf: Vec::new(),
@@ -171,7 +173,7 @@ impl Search {
             cap += l * self.parts[i].c_limit;
             cnt += l;
             area += l * self.parts[i].area;
-            base += l * self.w[0][i];
+            base += l * self.weights[0][i];
             cmin_max += self.ub[i] as f64 * self.parts[i].c_worst;
         }
         if cap > self.lim.max_cap * (1.0 + 1e-12)
@@ -199,7 +201,7 @@ impl Search {
                 let ai = self.a[i * self.n + k];
                 at_lb += self.lb[i] as f64 * ai;
                 if ai > 0.0 {
-                    best_ratio = best_ratio.min(self.w[0][i] / ai);
+                    best_ratio = best_ratio.min(self.weights[0][i] / ai);
                 }
             }
             let need = self.q[k];
@@ -260,7 +262,7 @@ impl Search {
     }
 
     pub(super) fn inc_primary(&self) -> f64 {
-        self.inc.as_ref().map_or(f64::INFINITY, |i| i.0[0])
+        self.incumbent.as_ref().map_or(f64::INFINITY, |i| i.0[0])
     }
 
     /// Exact check of the bank in `bank_buf` whose admittance is in
@@ -273,7 +275,7 @@ impl Search {
         if !(r <= self.target) {
             return None;
         }
-        self.currents_ok().then_some(r)
+        self.passes_rest().then_some(r)
     }
 
     /// Exact check of the bank in `bank_buf`: ripple and ripple currents.
@@ -283,16 +285,19 @@ impl Search {
         if !(r <= self.target) {
             return None;
         }
-        self.currents_ok().then_some(r)
+        self.passes_rest().then_some(r)
     }
 
-    pub(super) fn currents_ok(&mut self) -> bool {
+    /// The checks after the worst-corner ripple, for the bank in
+    /// `bank_buf`: the typical corner (with `check_typical`), the ripple
+    /// currents, and the active points of the corner region.
+    pub(super) fn passes_rest(&mut self) -> bool {
         if self.check_typical {
             let Search { ev, bank_buf, .. } = self;
             let r = ev.ripple_pp(
                 bank_buf,
-                crate::bank::Corner::Typical,
-                crate::bank::Band::Limited,
+                crate::evaluator::Corner::Typical,
+                crate::evaluator::Band::Limited,
             );
             if !(r <= self.target) {
                 return false;
@@ -339,7 +344,7 @@ impl Search {
                 + set
                     .iter()
                     .zip(counts)
-                    .map(|(&i, &n)| n as f64 * self.w[j][i])
+                    .map(|(&i, &n)| n as f64 * self.weights[j][i])
                     .sum::<f64>();
         }
         k
@@ -385,7 +390,7 @@ impl Search {
     /// is one open interval. `None` if no count up to `hi` does.
     pub(super) fn phase_need(&self, i: usize, sum: &[Complex64], lo: f64, hi: f64) -> Option<f64> {
         let n = self.n;
-        let row = &self.y[i * n..(i + 1) * n];
+        let row = &self.adm[i * n..(i + 1) * n];
         let mut c = lo;
         loop {
             let mut moved = false;
@@ -435,12 +440,12 @@ impl Search {
         let m = set.len();
         let i = set[d];
         let pm = &self.parts[i];
-        let (c_limit, c_worst, area_i, w0) = (pm.c_limit, pm.c_worst, pm.area, self.w[0][i]);
+        let (c_limit, c_worst, area_i, w0) = (pm.c_limit, pm.c_worst, pm.area, self.weights[0][i]);
         // The later parts at their lower bounds.
         let (mut rest_key, mut rest_cap, mut rest_cnt, mut rest_area) = (0.0, 0.0, 0.0, 0.0);
         for &j in &set[d + 1..] {
             let l = self.lb[j] as f64;
-            rest_key += l * self.w[0][j];
+            rest_key += l * self.weights[0][j];
             rest_cap += l * self.parts[j].c_limit;
             rest_cnt += l;
             rest_area += l * self.parts[j].area;
@@ -502,15 +507,19 @@ impl Search {
                     .extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
                 {
                     let cf = c as f64;
-                    let row = &self.y[i * self.n..(i + 1) * self.n];
+                    let row = &self.adm[i * self.n..(i + 1) * self.n];
                     for ((yb, s0), y) in self.yb_buf.iter_mut().zip(&cstack[d]).zip(row) {
                         *yb = s0 + y * cf;
                     }
                 }
                 if let Some(r) = self.exact_from_admittance() {
                     let key = self.key_of(set, counts);
-                    if self.inc.as_ref().is_none_or(|inc| better(&key, &inc.0)) {
-                        self.inc = Some((key, self.bank_buf.clone(), r));
+                    if self
+                        .incumbent
+                        .as_ref()
+                        .is_none_or(|inc| better(&key, &inc.0))
+                    {
+                        self.incumbent = Some((key, self.bank_buf.clone(), r));
                     }
                     break;
                 }
@@ -538,7 +547,7 @@ impl Search {
             let (cur, next) = (&head[d], &mut tail[0]);
             {
                 let (ch, ct) = cstack.split_at_mut(d + 1);
-                let yrow = &self.y[row_start..row_start + self.n];
+                let yrow = &self.adm[row_start..row_start + self.n];
                 for ((nx, cu), y) in ct[0].iter_mut().zip(&ch[d]).zip(yrow) {
                     *nx = cu + y * cf;
                 }
@@ -801,7 +810,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
     let ks = milp::hard_harmonics(s, &all, 12);
     let mut idx: Vec<usize> = all.clone();
     for &k in &ks {
-        let eff = |x: usize| s.a[x * s.n + k] / s.w[0][x].max(1e-12);
+        let eff = |x: usize| s.a[x * s.n + k] / s.weights[0][x].max(1e-12);
         idx.sort_by(|&x, &y| eff(y).total_cmp(&eff(x)));
         for (rank, &i) in idx.iter().take(size).enumerate() {
             score[i] += 1.0 / (1.0 + rank as f64);
@@ -818,7 +827,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
         if need > s.ub[i] as f64 {
             f64::INFINITY
         } else {
-            need * s.w[0][i]
+            need * s.weights[0][i]
         }
     };
     let costs: Vec<f64> = all.iter().map(|&i| alone(i)).collect();
@@ -842,7 +851,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
 /// Swap, add or remove one part of the incumbent's line set while that improves.
 pub(super) fn neighbourhood(s: &mut Search, settings: &Settings) {
     loop {
-        let Some((key, bank, _)) = s.inc.clone() else {
+        let Some((key, bank, _)) = s.incumbent.clone() else {
             return;
         };
         let cur: Vec<usize> = bank.iter().map(|b| b.0).collect();
@@ -875,7 +884,7 @@ pub(super) fn neighbourhood(s: &mut Search, settings: &Settings) {
             }
         }
         run_sets(s, sets, settings, "design (neighbourhood)");
-        match &s.inc {
+        match &s.incumbent {
             Some((k2, _, _)) if better(k2, &key) => continue,
             _ => return,
         }

@@ -9,7 +9,8 @@
 //! with units and a legend drawn below the chart so it never covers data.
 
 use crate::assessment::Assessment;
-use crate::bank::{admittance, Band, Corner, Evaluator};
+use crate::evaluator::{Band, Corner, Evaluator, LineState, PartModel};
+use crate::network::{admittance, Network};
 use crate::problem::Problem;
 use crate::units::format_si;
 use anyhow::{anyhow, bail, Result};
@@ -18,7 +19,6 @@ use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use std::f64::consts::PI;
 use std::ops::Range;
 
 /// One point of a trade-off sweep, as the `tradeoff` command found it.
@@ -54,7 +54,7 @@ struct Prep {
     /// Bank in catalog indices (zero counts dropped).
     bank: Vec<(usize, u32)>,
     vin_corner: usize,
-    states: Vec<crate::bank::LineState>,
+    states: Vec<LineState>,
 }
 
 fn prep(problem: &Problem, bank: &[(usize, u32)]) -> Result<Prep> {
@@ -118,27 +118,14 @@ pub struct ImpedanceData {
     pub vin: Option<f64>,
 }
 
-/// Transfer impedance from the converter's current to the measured node
-/// for an added bank admittance `yb` at frequency `f` (the same formula as
-/// the evaluator: 1 / (Y_b + Y_int + jωLc·Y_int·Y_b)).
-fn transfer(problem: &Problem, yb: Complex64, f: f64) -> Complex64 {
-    let c = &problem.scenario.converter;
-    let yi = match c.internal_capacitance {
-        Some(ci) => admittance(c.internal_esr.0, c.internal_esl.0, ci.0, f),
-        None => Complex64::default(),
-    };
-    let w = 2.0 * PI * f;
-    let lc = problem.scenario.board.connection_inductance.0;
-    (yb + yi + Complex64::new(0.0, w * lc) * yi * yb).inv()
-}
-
 /// |Z| of the whole bank (worst capacitance) at arbitrary frequencies.
 pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -> Vec<f64> {
-    let models: Vec<(crate::bank::PartModel, f64)> = bank
+    let models: Vec<(PartModel, f64)> = bank
         .iter()
         .filter(|b| b.1 > 0)
         .map(|&(i, n)| (problem.part_model(i), n as f64))
         .collect();
+    let network = Network::from_scenario(&problem.scenario);
     freqs
         .iter()
         .map(|&f| {
@@ -146,7 +133,7 @@ pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -
                 .iter()
                 .map(|(m, n)| admittance(m.esr, m.esl, m.c_worst, f) * *n)
                 .sum();
-            transfer(problem, yb, f).norm()
+            network.transfer(yb, f).norm()
         })
         .collect()
 }
@@ -183,15 +170,11 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
             (format!("{n} × {}", cat.parts[i].id), z)
         })
         .collect();
-    let c = &problem.scenario.converter;
-    let internal = c.internal_capacitance.map(|ci| {
+    let network = &ev.network;
+    let internal = network.has_internal().then(|| {
         freqs
             .iter()
-            .map(|&f| {
-                admittance(c.internal_esr.0, c.internal_esl.0, ci.0, f)
-                    .inv()
-                    .norm()
-            })
+            .map(|&f| network.internal_admittance(f).inv().norm())
             .collect()
     });
     let bank = bank_impedance(problem, &p.bank, &freqs);

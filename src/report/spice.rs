@@ -14,8 +14,9 @@
 //! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
 //! periods just before, so that a reader can see that the run has settled.
 
-use crate::bank::{admittance, Band, LineState};
 use crate::converter::Waveform;
+use crate::evaluator::{Band, LineState};
+use crate::network::{admittance, Network};
 use crate::problem::Problem;
 use anyhow::{bail, Result};
 use num_complex::Complex64;
@@ -70,6 +71,8 @@ struct Circuit {
     bank: Vec<Branch>,
     internal: Option<Branch>,
     lc: f64,
+    /// The same circuit as the evaluator sees it.
+    network: Network,
 }
 
 /// Number formatting that every SPICE reads the same way (no SI suffixes,
@@ -86,7 +89,6 @@ fn circuit(
     states: Option<&[LineState]>,
 ) -> Result<Circuit> {
     let s = &problem.scenario;
-    let c = &s.converter;
     let mut lines = Vec::new();
     for (j, &(i, n)) in bank.iter().filter(|b| b.1 > 0).enumerate() {
         if i >= problem.catalog.parts.len() {
@@ -115,16 +117,17 @@ fn circuit(
             c: m.c_worst * nf,
         });
     }
-    let internal = c.internal_capacitance.map(|ci| Branch {
+    let network = Network::from_scenario(s);
+    let internal = network.internal.map(|b| Branch {
         label: format!(
             "converter's internal capacitance: C = {} F, ESR = {} ohm, ESL = {} H",
-            num(ci.0),
-            num(c.internal_esr.0),
-            num(c.internal_esl.0)
+            num(b.c),
+            num(b.esr),
+            num(b.esl)
         ),
-        r: c.internal_esr.0,
-        l: c.internal_esl.0,
-        c: ci.0,
+        r: b.esr,
+        l: b.esl,
+        c: b.c,
     });
     if lines.is_empty() && internal.is_none() {
         bail!("bank.cir: the bank is empty and the converter has no internal capacitance");
@@ -132,21 +135,16 @@ fn circuit(
     Ok(Circuit {
         bank: lines,
         internal,
-        lc: s.board.connection_inductance.0,
+        lc: network.connection_inductance,
+        network,
     })
 }
 
 impl Circuit {
     /// Admittance of the whole bank (added and internal) seen from the bank's node.
     fn y_total(&self, f: f64) -> Complex64 {
-        let mut y: Complex64 = self.bank.iter().map(|b| admittance(b.r, b.l, b.c, f)).sum();
-        if let Some(b) = &self.internal {
-            let yi = admittance(b.r, b.l, b.c, f);
-            // Through the connection inductance.
-            let w = 2.0 * PI * f;
-            y += yi / (Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi);
-        }
-        y
+        let y: Complex64 = self.bank.iter().map(|b| admittance(b.r, b.l, b.c, f)).sum();
+        y + self.network.internal_at_bank(f)
     }
 
     /// Slowest decay time of the bank's own modes (charge moving between

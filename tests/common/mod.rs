@@ -126,10 +126,10 @@ pub fn all_banks(n: usize) -> Vec<Vec<(usize, u32)>> {
 #[allow(dead_code)]
 pub fn dense_region(
     p: &ripplebank::problem::Problem,
-    ev: &mut ripplebank::bank::Evaluator,
+    ev: &mut ripplebank::evaluator::Evaluator,
     bank: &[(usize, u32)],
 ) -> (f64, Vec<f64>) {
-    use ripplebank::bank::{Band, LineState};
+    use ripplebank::evaluator::{Band, LineState};
     let mut vins: Vec<Option<f64>> = p.region_ops.iter().map(|o| o.vin).collect();
     let v: Vec<f64> = p.scenario.vin_corners();
     if v.len() > 1 {

@@ -1,5 +1,7 @@
-//! The evaluator (SPEC §4, §6): bank impedance at every harmonic, the
-//! output ripple in the time domain, and the ripple current of each part.
+//! The evaluator: bank impedance at every harmonic, the output ripple in
+//! the time domain, and the ripple current of each part. The circuit around
+//! the bank (internal capacitance, connection inductance) is
+//! [`crate::network`]'s.
 //!
 //! Everything that depends only on the scenario and the parts is tabulated
 //! once; evaluating a bank then costs one multiply-add per part and
@@ -7,6 +9,8 @@
 //! nothing.
 
 use crate::converter::OperatingPoint;
+use crate::network::Network;
+pub use crate::network::{admittance, OMEGA_ASYMPTOTE};
 use crate::scenario::Scenario;
 use crate::spectrum;
 use crate::timedomain::{self, Closed};
@@ -58,13 +62,6 @@ pub enum Band {
     Full,
 }
 
-/// Admittance of one capacitor: 1 / (ESR + jωL + 1/(jωC)).
-#[inline]
-pub fn admittance(esr: f64, esl: f64, c: f64, f: f64) -> Complex64 {
-    let w = 2.0 * PI * f;
-    Complex64::new(esr, w * esl - 1.0 / (w * c)).inv()
-}
-
 /// One bank line's capacitance and ESR at a point of the corner region.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LineState {
@@ -97,16 +94,15 @@ pub struct Evaluator {
     drive_limited: Vec<Vec<Complex64>>,
     /// Bandwidth filter H_k, n_full long.
     pub filter: Vec<Complex64>,
+    /// What stands between the converter's current and the measured node.
+    pub network: Network,
+    /// The network's internal admittance at every harmonic, n_full long.
     y_int: Vec<Complex64>,
-    has_int: bool,
-    lc: f64,
     y_worst: Vec<Complex64>,
     y_typical: Vec<Complex64>,
     /// Per part: admittance at [`OMEGA_ASYMPTOTE`], worst and typical corner.
     y_big_worst: Vec<Complex64>,
     y_big_typical: Vec<Complex64>,
-    /// Internal admittance at [`OMEGA_ASYMPTOTE`].
-    y_int_big: Complex64,
     /// Per vin corner: the closed-form part of the target figure's waveform
     /// (on `plan_limited`'s grid) and of the full-bandwidth one (`plan_full`).
     closed_limited: Vec<Closed>,
@@ -143,11 +139,6 @@ pub struct Evaluator {
 /// pp ≥ |V_k| / 0.65328 = 1.53073·|V_k|; rounded down to 1.53.
 pub const HARMONIC_FLOOR: f64 = 1.53;
 
-/// Angular frequency, rad/s, at which the network's transfer impedance is
-/// taken as its high-frequency asymptote `a0 + jω·a1` (far above every
-/// self-resonance: the next term is smaller by (ω_res/Ω)²).
-pub const OMEGA_ASYMPTOTE: f64 = 2.0 * PI * 1e13;
-
 /// Samples per period of the coarse pass in [`Evaluator::ripple_check`].
 const SUB: usize = 512;
 /// Samples per period of the first, cheapest pass.
@@ -176,16 +167,11 @@ impl Evaluator {
             }
         };
         let filter: Vec<Complex64> = freqs.iter().map(|&f| filt(f, bw)).collect();
-        let c = &s.converter;
-        let has_int = c.internal_capacitance.is_some();
+        let network = Network::from_scenario(s);
         let y_int: Vec<Complex64> = freqs
             .iter()
-            .map(|&f| match c.internal_capacitance {
-                Some(ci) => admittance(c.internal_esr.0, c.internal_esl.0, ci.0, f),
-                None => Complex64::new(0.0, 0.0),
-            })
+            .map(|&f| network.internal_admittance(f))
             .collect();
-        let lc = s.board.connection_inductance.0;
         let currents: Vec<Vec<Complex64>> = ops
             .iter()
             .map(|op| spectrum::harmonics(&op.waveform, n_full))
@@ -218,15 +204,6 @@ impl Evaluator {
             .iter()
             .map(|op| timedomain::closed(&op.waveform, 0, 1.0, plan_full.m))
             .collect();
-        let y_int_big = match c.internal_capacitance {
-            Some(ci) => admittance(
-                c.internal_esr.0,
-                c.internal_esl.0,
-                ci.0,
-                OMEGA_ASYMPTOTE / (2.0 * PI),
-            ),
-            None => Complex64::new(0.0, 0.0),
-        };
         let mut ev = Evaluator {
             parts: Vec::new(),
             f_ripple,
@@ -236,14 +213,12 @@ impl Evaluator {
             currents: Vec::new(),
             drive_limited: Vec::new(),
             filter,
+            network,
             y_int,
-            has_int,
-            lc,
             y_worst: Vec::new(),
             y_typical: Vec::new(),
             y_big_worst: Vec::new(),
             y_big_typical: Vec::new(),
-            y_int_big,
             closed_limited,
             closed_full,
             ops_named: (0..ops.len()).collect(),
@@ -315,37 +290,23 @@ impl Evaluator {
         self.currents.len()
     }
 
-    /// Transfer impedance from the converter's current to the bank's node,
-    /// given the added bank's admittance `yb` and the internal admittance
-    /// `yi` at angular frequency `w`: 1 / (Y_b + Y_int + jωLc·Y_int·Y_b).
-    #[inline]
-    fn transfer(&self, yb: Complex64, yi: Complex64, w: f64) -> Complex64 {
-        let d = yb + yi + Complex64::new(0.0, w * self.lc) * yi * yb;
-        d.inv()
-    }
-
+    /// Transfer impedance at harmonic `k` for the added bank's admittance
+    /// `yb` there (the network's, with its tabulated internal admittance).
     #[inline]
     fn transfer_of(&self, yb: Complex64, k: usize) -> Complex64 {
-        self.transfer(yb, self.y_int[k], 2.0 * PI * self.freqs[k])
+        self.network
+            .transfer_with(yb, self.y_int[k], 2.0 * PI * self.freqs[k])
     }
 
-    /// Record the high-frequency asymptote `a0 + jω·a1` of the transfer
-    /// impedance for the bank admittance `yb_big` at [`OMEGA_ASYMPTOTE`].
+    /// Record the network's high-frequency asymptote `a0 + jω·a1` for the
+    /// bank admittance `yb_big` at [`OMEGA_ASYMPTOTE`].
     fn set_asymptote(&mut self, yb_big: Complex64) {
-        let z = self.transfer(yb_big, self.y_int_big, OMEGA_ASYMPTOTE);
-        self.asym = if z.is_finite() {
-            let a1 = z.im / OMEGA_ASYMPTOTE;
-            // Below a femtohenry the slope is a capacitor's −1/(Ω²C) tail,
-            // not an inductance: no ESL at all.
-            (z.re, if a1.abs() < 1e-15 { 0.0 } else { a1 })
-        } else {
-            (0.0, 0.0)
-        };
+        self.asym = self.network.asymptote(yb_big);
     }
 
     /// Whether the bank has any capacitance at all (added or internal).
     pub fn is_empty(&self, bank: &Bank) -> bool {
-        !self.has_int && bank.iter().all(|&(_, n)| n == 0)
+        !self.network.has_internal() && bank.iter().all(|&(_, n)| n == 0)
     }
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {
@@ -636,7 +597,7 @@ impl Evaluator {
                 let yi = self.y_int[k];
                 (
                     HARMONIC_FLOOR * d / target,
-                    Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi,
+                    self.network.coupling_with(yi, w),
                     yi,
                 )
             })
@@ -646,10 +607,7 @@ impl Evaluator {
     fn internal_terms(&self, k: usize) -> (f64, f64) {
         let w = 2.0 * PI * self.freqs[k];
         let yi = self.y_int[k];
-        (
-            (Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.lc) * yi).norm(),
-            yi.norm(),
-        )
+        (self.network.coupling_with(yi, w).norm(), yi.norm())
     }
 
     /// |Y_ik| of one capacitor at the worst corner, for the target's harmonics.
@@ -743,8 +701,8 @@ impl Evaluator {
                 for (j, &(i, _)) in bank.iter().enumerate() {
                     let mut sum = 0.0;
                     for k in 0..n {
-                        let v = self.currents[c][k] * self.zt[k];
-                        sum += (v * self.y(i, k, corner)).norm_sqr();
+                        let y = self.y(i, k, corner);
+                        sum += Network::part_current(self.currents[c][k], self.zt[k], y).norm_sqr();
                     }
                     out[j] = out[j].max((sum / 2.0).sqrt());
                 }
@@ -887,8 +845,8 @@ impl Evaluator {
             let esl = self.parts[i].esl;
             let mut sum = 0.0;
             for k in 0..n {
-                let v = self.currents[op][k] * self.zt[k];
-                sum += (v * admittance(st.esr, esl, st.c, self.freqs[k])).norm_sqr();
+                let y = admittance(st.esr, esl, st.c, self.freqs[k]);
+                sum += Network::part_current(self.currents[op][k], self.zt[k], y).norm_sqr();
             }
             out[j] = out[j].max((sum / 2.0).sqrt());
         }
