@@ -5,9 +5,9 @@
 
 use ripplebank::assessment::assess;
 use ripplebank::bank::Band;
-use ripplebank::region::{named_states, value_at, Named};
 use ripplebank::catalog::Catalog;
 use ripplebank::problem::Problem;
+use ripplebank::region::{named_states, value_at, Named};
 use ripplebank::scenario::Scenario;
 
 mod common;
@@ -46,7 +46,10 @@ fn interleaved_buck_ripples_most_inside_its_input_range() {
     let b = bank(&p, &[("P", 2)]);
     let a = assess(&p, &b).unwrap();
     let v = a.worst_corner.vin.unwrap();
-    assert!(v > 5.7 && v < 8.2, "worst vin {v} should be inside the range");
+    assert!(
+        v > 5.7 && v < 8.2,
+        "worst vin {v} should be inside the range"
+    );
     let d = dense(&p, &b);
     assert!(a.ripple_pp >= 0.99 * d, "tool {} vs dense {d}", a.ripple_pp);
     // And clearly above what either end of the range gives, at any vertex.
@@ -88,5 +91,9 @@ fn anti_resonant_bank_is_worst_inside_its_capacitance_box() {
     let d = dense(&p, &b);
     assert!(a.ripple_pp >= 0.99 * d, "tool {} vs dense {d}", a.ripple_pp);
     let corners = a.ripple_pp_corners.low.max(a.ripple_pp_corners.high);
-    assert!(a.ripple_pp > 1.02 * corners, "{} vs corners {corners}", a.ripple_pp);
+    assert!(
+        a.ripple_pp > 1.02 * corners,
+        "{} vs corners {corners}",
+        a.ripple_pp
+    );
 }

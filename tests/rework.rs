@@ -158,7 +158,6 @@ fn rework_matches_brute_force() {
             &current,
             &forced,
             &Settings {
-                explain: false,
                 ..Default::default()
             },
         );
@@ -361,7 +360,6 @@ fn same_footprint_replacement_wins_a_tie() {
         &current,
         &[a],
         &Settings {
-            explain: false,
             ..Default::default()
         },
     );
@@ -383,7 +381,6 @@ fn same_footprint_replacement_wins_a_tie() {
     let d = optimize::design(
         &plain,
         &Settings {
-            explain: false,
             ..Default::default()
         },
     );

@@ -68,6 +68,7 @@ pub(crate) fn infeasible_doc(
         "best_ripple_pp": best_ripple_pp,
         "binding": binding.limits,
         "binding_together": binding.together,
+        "binding_detail": binding.details,
         "target_ripple_pp": p.scenario.target.ripple_pp.0,
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),

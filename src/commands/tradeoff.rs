@@ -38,6 +38,15 @@ pub(crate) fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
         .join(",")
 }
 
+/// The search settings of every trade-off point and of the default lower
+/// end: each point gets a share of the work a single design may take.
+fn point_settings() -> optimize::Settings {
+    optimize::Settings {
+        max_evaluations: 1_000_000,
+        ..Default::default()
+    }
+}
+
 /// `tradeoff`: the best bank at each of a range of ripple targets.
 pub fn tradeoff(
     c: &Common,
@@ -56,7 +65,7 @@ pub fn tradeoff(
     let lo = match from {
         Some(v) => v,
         None => {
-            let (r, _) = optimize::lowest_ripple(&p);
+            let r = optimize::lowest_ripple(&p, &point_settings()).ripple_pp;
             if !r.is_finite() {
                 anyhow::bail!(
                     "no bank can be built from the eligible parts; see `ripplebank validate`"
@@ -131,12 +140,7 @@ pub fn tradeoff(
             .expect("template")
             .progress_chars("=> "),
     );
-    // Each point gets a share of the work a single design may take.
-    let settings = optimize::Settings {
-        explain: false,
-        max_evaluations: 1_000_000,
-        ..Default::default()
-    };
+    let settings = point_settings();
     // The targets are independent searches: spread them over the cores.
     let workers = std::thread::available_parallelism()
         .map_or(1, |n| n.get())
