@@ -133,3 +133,93 @@ fn lowest_ripple_is_what_design_meets_on_a_1000_part_catalog() {
     let at = optimize::design_for(&p, low.ripple_pp, &s);
     assert!(at.found.is_some());
 }
+
+fn demo_with(
+    edit: &dyn Fn(String) -> String,
+    dir: &std::path::Path,
+    name: &str,
+) -> std::path::PathBuf {
+    let text = edit(ripplebank::load::DEMO_SCENARIO.replace(
+        "../catalogs/demo-parts.csv",
+        concat!(env!("CARGO_MANIFEST_DIR"), "/catalogs/demo-parts.csv"),
+    ));
+    let f = dir.join(name);
+    std::fs::write(&f, text).unwrap();
+    f
+}
+
+fn run_json(args: &[&str], code: i32) -> serde_json::Value {
+    let out = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(args)
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(code), "{args:?}");
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+#[test]
+fn binding_limit_says_what_the_relaxed_design_needed() {
+    // With max_count = 1 the demo cannot meet its target; relaxing that one
+    // limit can. The count the report says was needed must be the count of
+    // the design made without the limit (source: the same scenario solved
+    // without `max_count`, a separate run of `design`).
+    let dir = tempfile::tempdir().unwrap();
+    let tight = demo_with(
+        &|s| s.replace("max_count = 20", "max_count = 1"),
+        dir.path(),
+        "tight.toml",
+    );
+    let free = demo_with(
+        &|s| s.replace("max_count = 20\n", ""),
+        dir.path(),
+        "free.toml",
+    );
+    let out = dir.path().join("out");
+    let d = run_json(
+        &[
+            "design",
+            "--scenario",
+            tight.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ],
+        1,
+    );
+    assert_eq!(d["status"], "infeasible");
+    assert_eq!(d["binding"], serde_json::json!(["max_count"]));
+    let det = d["binding_detail"].as_array().unwrap();
+    assert_eq!(det.len(), 1, "{det:?}");
+    assert_eq!(det[0]["limit"], "max_count");
+    assert_eq!(det[0]["value"].as_f64(), Some(1.0));
+    let f = run_json(&["design", "--scenario", free.to_str().unwrap()], 0);
+    assert_eq!(det[0]["needed"].as_f64(), f["count"].as_f64());
+    // The text report says it in words: `max_count 1 → N`.
+    let text = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["design", "--scenario", tight.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(text.stdout).unwrap();
+    let want = format!("max_count 1 → {}", f["count"]);
+    assert!(text.contains(&want), "no `{want}` in\n{text}");
+    // --out holds the closest bank's files: its bill of materials is the
+    // closest bank of the JSON report.
+    for name in [
+        "bom.csv",
+        "bank.cir",
+        "report.json",
+        "report.html",
+        "ripple.svg",
+    ] {
+        assert!(out.join(name).is_file(), "{name} missing");
+    }
+    let bom = std::fs::read_to_string(out.join("bom.csv")).unwrap();
+    for line in d["closest"]["bank"].as_array().unwrap() {
+        let part = line["part"].as_str().unwrap();
+        assert!(bom.contains(part), "{part} not in bom.csv:\n{bom}");
+    }
+    let netlist = std::fs::read_to_string(out.join("bank.cir")).unwrap();
+    assert!(!netlist.trim().is_empty());
+}
