@@ -69,7 +69,7 @@ pub(crate) fn infeasible_doc(
         "binding": binding.limits,
         "binding_together": binding.together,
         "binding_detail": binding.details,
-        "target_ripple_pp": p.scenario.target.ripple_pp.0,
+        "target_ripple_pp": report::echoed(p.scenario.target.ripple_pp.0),
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),
     })

@@ -122,8 +122,16 @@ pub fn tradeoff(
     } else {
         (lo, lo * 2.0)
     };
+    // Targets echo the user's values (--from, --to, the scenario's target):
+    // 12 significant digits, so `10u` prints as 1e-5 (the ends exactly as given).
+    let (lo, hi) = (report::echoed(lo), report::echoed(hi));
+    let target = report::echoed(target);
     let mut targets: Vec<f64> = (0..points)
-        .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
+        .map(|j| match j {
+            0 => lo,
+            j if j == points - 1 => hi,
+            j => report::echoed(lo * (hi / lo).powf(j as f64 / (points - 1) as f64)),
+        })
         .collect();
     // The scenario's own target is always a row.
     if !targets.iter().any(|&t| (t - target).abs() <= 1e-9 * target) {
