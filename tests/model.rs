@@ -244,7 +244,7 @@ fn dcm_ripple(ipk: f64, iout: f64, t_d: f64, c: f64) -> f64 {
 #[test]
 fn flyback_dcm_charge_balance() {
     // Light load: DCM. Ipk,primary = sqrt(2·vout·iout/(L f)) (energy per
-    // cycle, SPEC §5), Ipk = Ipk,primary / n, t_d = Ipk·Ls/vout.
+    // cycle, the flyback's DCM peak), Ipk = Ipk,primary / n, t_d = Ipk·Ls/vout.
     let (vin, vout, iout, f, l, n, c): (f64, f64, f64, f64, f64, f64, f64) =
         (48.0, 12.0, 0.3, 250e3, 60e-6, 0.5, 100e-6);
     let conv = format!("topology = \"flyback\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"\nturns_ratio = {n}");
@@ -270,7 +270,7 @@ fn flyback_dcm_charge_balance() {
 
 #[test]
 fn boost_dcm_charge_balance() {
-    // Ipk = sqrt(2·iout·(vout − vin)/(L f)) (SPEC §5), t_d = Ipk·L/(vout − vin).
+    // Ipk = sqrt(2·iout·(vout − vin)/(L f)) (the boost's DCM peak from energy per cycle), t_d = Ipk·L/(vout − vin).
     let (vin, vout, iout, f, l, c): (f64, f64, f64, f64, f64, f64) =
         (5.0, 12.0, 0.05, 500e3, 4.7e-6, 47e-6);
     let conv = format!("topology = \"boost\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"");
