@@ -1063,6 +1063,8 @@ const OPTIONAL: &[&str] = &[
     "vin",
     "mode",      // null where the topology has no conduction mode (README "JSON")
     "inductors", // null: no inductor catalog is read (README "JSON")
+    // null when the bank is inductive at the ripple frequency (README "Limits on capacitance")
+    "capacitance_at_ripple_frequency",
 ];
 
 #[test]

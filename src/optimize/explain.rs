@@ -140,7 +140,7 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
         out.probes += 1;
         match design_for(problem, t, &quiet).found {
             Some(f) => {
-                let r = f.ripple_pp.min(t);
+                let r = f.ripple_pp;
                 if r < out.ripple_pp {
                     out.ripple_pp = r;
                     out.bank = Some(f.bank);
