@@ -218,6 +218,13 @@ pub struct Assessment {
     pub capacitance_effective_total: f64,
     /// Sum of typical-corner capacitances, F.
     pub capacitance_typical_total: f64,
+    /// Effective capacitance of the bank (with the converter's internal
+    /// capacitance) at the ripple frequency at the `low` corner,
+    /// 1/(ω·|Im Z|), F; null when the bank is inductive there
+    /// ([`capacitance_at_ripple`]).
+    pub capacitance_at_ripple_frequency: Option<f64>,
+    /// The ripple frequency, Hz.
+    pub ripple_frequency: f64,
     /// Ripple current of each line.
     pub ripple_current: Vec<PartCurrent>,
     /// Every limit and whether it is kept.
@@ -230,6 +237,32 @@ pub struct Assessment {
     pub all_ok: bool,
     /// Warnings about this bank and the inputs.
     pub warnings: Vec<String>,
+}
+
+/// Effective capacitance of the bank at the ripple frequency at one
+/// capacitance corner: `C_eff = 1/(ω·|Im Z_t|)` of the transfer impedance at
+/// the first harmonic, taken from the evaluator's `V_1 / (I_1·H_1)` at the
+/// first input-voltage corner (the impedance does not depend on it). Below
+/// self-resonance the ESL cancels part of the capacitive reactance,
+/// `Im Z = −(1/(ωC) − ωL)`, so `C_eff = C/(1 − ω²LC)` is above `C`. `None`
+/// when the impedance is inductive there (above self-resonance) or the
+/// current has no first harmonic.
+pub fn capacitance_at_ripple(
+    ev: &mut Evaluator,
+    bank: &[(usize, u32)],
+    corner: crate::evaluator::Corner,
+) -> Option<f64> {
+    if ev.vin_corners() == 0 || ev.n_limited == 0 || ev.is_empty(bank) {
+        return None;
+    }
+    let v1 = *ev.harmonic_voltages(bank, corner, 0).first()?;
+    let drive = ev.currents[0][0] * ev.filter[0];
+    if drive.norm() <= 0.0 {
+        return None;
+    }
+    let z = v1 / drive;
+    let w = 2.0 * std::f64::consts::PI * ev.freqs[0];
+    (z.im < 0.0 && z.is_finite()).then(|| 1.0 / (w * z.im.abs()))
 }
 
 /// The most parts of one line a bank may hold (far beyond any real bank; it
@@ -858,6 +891,7 @@ pub fn assess_with(
             current_pp: op.current_pp,
         })
         .collect();
+    let c_at_ripple = capacitance_at_ripple(ev, local, crate::evaluator::Corner::Worst);
     let meets_target = ripple_pp <= s.target.ripple_pp.0;
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
@@ -881,6 +915,8 @@ pub fn assess_with(
         capacitance_max_total: cmax,
         capacitance_effective_total: ceff,
         capacitance_typical_total: ctyp,
+        capacitance_at_ripple_frequency: c_at_ripple,
+        ripple_frequency: ev.freqs.first().copied().unwrap_or(0.0),
         ripple_current: bank
             .iter()
             .enumerate()

@@ -30,17 +30,12 @@
 pub mod assessment;
 // The evaluator's files (evaluator, converter, spectrum) are documented by
 // their owner; until every item there has a doc comment they are exempt here.
-#[allow(missing_docs)]
-pub mod evaluator;
-/// The evaluator's old module name, for `src/optimize/lowest.rs` until its
-/// owner switches it to `crate::evaluator`; not part of the public API.
-pub(crate) mod bank {
-    pub use crate::evaluator::{Band, Corner};
-}
 pub mod catalog;
 pub mod commands;
 #[allow(missing_docs)]
 pub mod converter;
+#[allow(missing_docs)]
+pub mod evaluator;
 #[allow(missing_docs)] // read and checked, not yet wired into the commands
 pub mod inductors;
 pub mod limits;

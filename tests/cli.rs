@@ -150,3 +150,61 @@ fn closed_stdout_is_not_an_error() {
         0,
     );
 }
+
+/// The number printed after `"key": ` in a JSON text.
+fn printed<'a>(text: &'a str, key: &str) -> Vec<&'a str> {
+    text.match_indices(&format!("\"{key}\": "))
+        .map(|(i, m)| {
+            let rest = &text[i + m.len()..];
+            &rest[..rest.find([',', '\n', '}']).unwrap_or(rest.len())]
+        })
+        .collect()
+}
+
+#[test]
+fn echoed_targets_print_as_written() {
+    // 10u is 10 × 10⁻⁶, which in binary floating point is
+    // 9.999999999999999e-6 (IEEE 754 double rounding, from memory); a value
+    // the user wrote is echoed as written (12 significant digits at most).
+    let dir = tempfile::tempdir().unwrap();
+    let f = dir.path().join("s.toml");
+    std::fs::write(
+        &f,
+        ripplebank::load::DEMO_SCENARIO
+            .replace("ripple_pp = \"8m\"", "ripple_pp = \"10u\"")
+            .replace(
+                "../catalogs/demo-parts.csv",
+                concat!(env!("CARGO_MANIFEST_DIR"), "/catalogs/demo-parts.csv"),
+            ),
+    )
+    .unwrap();
+    let out = bin()
+        .args(["design", "--json", "--scenario", f.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let text = String::from_utf8(out.stdout).unwrap();
+    let t = printed(&text, "target_ripple_pp");
+    assert!(!t.is_empty());
+    for x in t {
+        assert!(
+            x == "0.00001" || x == "1e-5",
+            "target_ripple_pp printed as {x}"
+        );
+    }
+    // Trade-off rows: --from 8.2m (8.2 × 10⁻³ = 0.008199999999999999 in
+    // binary) and --to 9m (0.009000000000000001) print as written.
+    let out = bin()
+        .args([
+            "tradeoff", "--json", "--from", "8.2m", "--to", "9m", "--points", "2",
+        ])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert_eq!(printed(&text, "from"), ["0.0082"]);
+    assert_eq!(printed(&text, "to"), ["0.009"]);
+    let targets = printed(&text, "target");
+    for want in ["0.0082", "0.009", "0.008"] {
+        assert!(targets.contains(&want), "{want} not in {targets:?}");
+    }
+}

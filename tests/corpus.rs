@@ -3,7 +3,8 @@
 //!
 //! Bad input: every case must end with exit status 2, a message on stderr
 //! that names the file and the line and column (catalog, bill of materials)
-//! or the key (scenario), and never a panic (project rules; SPEC §2, §3, §7).
+//! or the key (scenario), and never a panic (project rules: a bad catalog names
+//! file, line and column, a bad scenario names its key, exit status 2).
 //! Accepted catalogs: the formats spreadsheets and parts databases export.
 
 use assert_cmd::Command;
@@ -258,7 +259,11 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "scn-ideal-edges-no-bandwidth.toml",
         Scenario,
-        &["key `converter.edge_time`", "not finite", "edge_time = \"20n\""],
+        &[
+            "key `converter.edge_time`",
+            "not finite",
+            "edge_time = \"20n\"",
+        ],
     ),
     (
         "scn-edge-time-too-long.toml",
@@ -918,7 +923,7 @@ fn semicolon_export_with_decimal_commas() {
     assert_eq!(b.technology, Technology::PolymerTantalum);
     close(b.capacitance, 330e-6);
     close(b.cost, 1.25);
-    // Metric EIA code 7343 (7.3 x 4.3 mm), an extension beyond SPEC §2's imperial codes.
+    // Metric EIA code 7343 (7.3 x 4.3 mm), an extension beyond the imperial EIA case codes.
     close(b.area.unwrap(), 7.3 * 4.3);
 }
 
@@ -945,7 +950,7 @@ fn latin1_bytes_are_read_byte_for_byte() {
     let c = load("ok-latin1.csv");
     assert_eq!(c.parts.len(), 2);
     let a = c.get("CX-L-4U7-10V").unwrap();
-    // 0xB5 is MICRO SIGN in Latin-1: a valid prefix (SPEC §1).
+    // 0xB5 is MICRO SIGN in Latin-1: a valid prefix (µ and u are micro).
     close(a.capacitance, 4.7e-6);
     assert_eq!(
         a.description.as_deref(),
@@ -1067,6 +1072,8 @@ const OPTIONAL: &[&str] = &[
     "vin",
     "mode",      // null where the topology has no conduction mode (README "JSON")
     "inductors", // null: no inductor catalog is read (README "JSON")
+    // null when the bank is inductive at the ripple frequency (README "Limits on capacitance")
+    "capacitance_at_ripple_frequency",
 ];
 
 #[test]
@@ -1144,7 +1151,7 @@ fn one_picofarad_at_one_kilohertz_matches_the_charge_formula() {
 #[test]
 fn ten_farads_at_ten_megahertz_matches_a_time_domain_integration() {
     // Brute force: v(t) = ESR·i(t) + (1/C)∫(i − mean) dt for the triangle
-    // current of SPEC §5, integrated on a fine grid; compared with the
+    // current of a buck (D = vout/vin, ΔI = vout(1 − D)/(L f)), integrated on a fine grid; compared with the
     // evaluator's Fourier sum (4000 harmonics; the tail of a triangle's series
     // is below 1e-3 of ΔI at that count).
     let dir = tempfile::tempdir().unwrap();

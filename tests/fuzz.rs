@@ -1,6 +1,7 @@
 //! Property tests (proptest, bounded for CI: 256 cases each, small inputs):
 //! the readers never panic on any input, and what they accept keeps the
-//! promises of SPEC §1–§3 (finite values, positive capacitances, …).
+//! promises of the input rules (values in SI units with prefixes, the catalog
+//! columns, the scenario keys: finite values, positive capacitances, …).
 
 use proptest::prelude::*;
 use proptest::test_runner::Config;
@@ -21,7 +22,7 @@ const UNITS: [Unit; 9] = [
     Unit::Plain,
 ];
 
-/// (unit, symbols SPEC §1 allows for it)
+/// (unit, the unit symbols accepted for it)
 const SYMBOLS: [(Unit, &[&str]); 7] = [
     (Unit::Farad, &["F"]),
     (Unit::Ohm, &["Ohm", "ohm", "Ω", "R"]),
@@ -32,7 +33,7 @@ const SYMBOLS: [(Unit, &[&str]); 7] = [
     (Unit::Second, &["s"]),
 ];
 
-/// SI prefixes of SPEC §1 and their scale.
+/// SI prefixes the readers accept (case-sensitive; `meg` and `µ`/`u` too) and their scale.
 const PREFIXES: [(&str, f64); 13] = [
     ("", 1.0),
     ("f", 1e-15),
@@ -143,7 +144,7 @@ fn replace_cell(text: &str, row: usize, col: usize, tok: &str) -> String {
         .join("\n")
 }
 
-/// What a catalog that loaded must hold (SPEC §2 and the loader's checks).
+/// What a catalog that loaded must hold (the catalog column rules and the loader's checks).
 fn check_catalog(c: &Catalog) {
     assert!(!c.parts.is_empty());
     for p in &c.parts {
@@ -216,7 +217,7 @@ proptest! {
     }
 
     /// Write a value with a random SI prefix (and maybe the unit symbol),
-    /// read it back: the value within 1e-12 relative (SPEC §1).
+    /// read it back: the value within 1e-12 relative (a value with an SI prefix reads as the plain number).
     #[test]
     fn prefix_round_trip(m in 1e-3f64..1e3, neg in any::<bool>(), p in 0usize..PREFIXES.len(), u in 0usize..SYMBOLS.len(), sym in any::<bool>(), space in any::<bool>()) {
         let (unit, syms) = SYMBOLS[u];

@@ -18,7 +18,6 @@ fn solve(s: Scenario, c: Catalog) -> (Problem, Option<Assessment>) {
     let out = design(
         &p,
         &Settings {
-            explain: false,
             ..Default::default()
         },
     );

@@ -245,7 +245,7 @@ fn dcm_ripple(ipk: f64, iout: f64, t_d: f64, c: f64) -> f64 {
 #[test]
 fn flyback_dcm_charge_balance() {
     // Light load: DCM. Ipk,primary = sqrt(2·vout·iout/(L f)) (energy per
-    // cycle, SPEC §5), Ipk = Ipk,primary / n, t_d = Ipk·Ls/vout.
+    // cycle, the flyback's DCM peak), Ipk = Ipk,primary / n, t_d = Ipk·Ls/vout.
     let (vin, vout, iout, f, l, n, c): (f64, f64, f64, f64, f64, f64, f64) =
         (48.0, 12.0, 0.3, 250e3, 60e-6, 0.5, 100e-6);
     let conv = format!("topology = \"flyback\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"\nturns_ratio = {n}");
@@ -271,7 +271,7 @@ fn flyback_dcm_charge_balance() {
 
 #[test]
 fn boost_dcm_charge_balance() {
-    // Ipk = sqrt(2·iout·(vout − vin)/(L f)) (SPEC §5), t_d = Ipk·L/(vout − vin).
+    // Ipk = sqrt(2·iout·(vout − vin)/(L f)) (the boost's DCM peak from energy per cycle), t_d = Ipk·L/(vout − vin).
     let (vin, vout, iout, f, l, c): (f64, f64, f64, f64, f64, f64) =
         (5.0, 12.0, 0.05, 500e3, 4.7e-6, 47e-6);
     let conv = format!("topology = \"boost\"\nvin = {vin}\nvout = {vout}\niout = {iout}\nfsw = \"{f}\"\ninductance = \"{l}\"");
@@ -340,5 +340,40 @@ fn esl_dominated_bank_is_worst_at_its_high_capacitance_corner() {
         c.meets_target,
         "{} vs {}",
         c.ripple_pp, p.scenario.target.ripple_pp.0
+    );
+}
+
+#[test]
+fn effective_capacitance_at_the_ripple_frequency_is_the_series_rlc_reactance() {
+    // n equal capacitors of C, ESL L, ESR R in parallel: Z = (R + jωL +
+    // 1/(jωC))/n, so 1/(ω·|Im Z|) = n·C/(1 − ω²LC) below self-resonance
+    // (series RLC impedance, Erickson & Maksimović, Fundamentals of Power
+    // Electronics, ch. 8, series resonant circuit). Above resonance the bank
+    // is inductive and there is no effective capacitance.
+    let (c, l, n) = (10e-6, 2e-9, 3u32);
+    let p = problem(
+        BUCK,
+        "ripple_pp = \"50m\"",
+        &format!("C1,ceramic,{c},50,5m,{l},0.1,10%,C0G,,1206\nC2,ceramic,1u,50,5m,20n,0.1,10%,C0G,,1206\n"),
+    );
+    let a = ripple(&p, &[("C1", n)]);
+    let w = 2.0 * std::f64::consts::PI * 600e3;
+    assert_eq!(a.ripple_frequency, 600e3);
+    // C0G: no temperature drop; the low corner is C·(1 − 10 %).
+    let cl = c * 0.9;
+    let want = n as f64 * cl / (1.0 - w * w * l * cl);
+    let got = a.capacitance_at_ripple_frequency.unwrap();
+    assert!((got - want).abs() <= 1e-9 * want, "{got} vs {want}");
+    assert!(got > n as f64 * cl);
+    // 1 µF with 20 nH resonates at 1/(2π·sqrt(20n·0.9µ)) = 1.19 MHz: at a
+    // 4 MHz ripple frequency the bank is inductive.
+    let q = problem(
+        "topology = \"buck\"\nvin = 12\nvout = 3.3\niout = 6\nfsw = \"4M\"\ninductance = \"0.5u\"",
+        "ripple_pp = \"50m\"",
+        "C2,ceramic,1u,50,5m,20n,0.1,10%,C0G,,1206\n",
+    );
+    assert_eq!(
+        ripple(&q, &[("C2", 2)]).capacitance_at_ripple_frequency,
+        None
     );
 }

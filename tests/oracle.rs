@@ -99,7 +99,6 @@ fn optimizer_matches_brute_force_on_random_cases() {
         let p = Problem::new(scenario, catalog).unwrap();
         let o = oracle(&p);
         let settings = Settings {
-            explain: false,
             ..Default::default()
         };
         let d = optimize::design(&p, &settings);

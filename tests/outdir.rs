@@ -1,4 +1,4 @@
-//! `--out DIR` never loses work (SPEC §7): a failed run leaves an existing
+//! `--out DIR` never loses work (the output-folder rule): a failed run leaves an existing
 //! folder exactly as it was, a successful one writes its files and keeps the user's own,
 //! and no temporary folder is left beside it.
 

@@ -469,7 +469,13 @@ fn html_report_is_self_contained_and_embeds_every_plot() {
         .descendants()
         .filter(|n| n.has_tag_name("tr"))
         .count();
-    assert_eq!(rows, a.checks.len() + 1, "one row per check and a header");
+    // One row per check, the two capacitance information rows (low-corner
+    // total, effective capacitance at the ripple frequency) and a header.
+    assert_eq!(
+        rows,
+        a.checks.len() + 3,
+        "one row per check, two information rows and a header"
+    );
     // No scripts and nothing fetched from elsewhere.
     assert!(!doc
         .descendants()

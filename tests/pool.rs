@@ -35,14 +35,12 @@ fn pool_and_neighbourhood_stay_close_to_the_exhaustive_optimum() {
         let full = optimize::design(
             &p,
             &Settings {
-                explain: false,
                 ..Default::default()
             },
         );
         let small = optimize::design(
             &p,
             &Settings {
-                explain: false,
                 exhaustive_limit: 0,
                 pool: 5,
                 milp_proposals: 0,

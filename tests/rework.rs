@@ -153,14 +153,10 @@ fn rework_matches_brute_force() {
             let (x, y) = (key(x), key(y));
             x.0.cmp(&y.0).then(x.2.partial_cmp(&y.2).unwrap())
         });
-        let lines_then_cost = order
-            .iter()
-            .copied()
-            .find(|&j| holds(j))
-            .map(|j| {
-                let k = key(j);
-                (k.0, k.2, k.1)
-            });
+        let lines_then_cost = order.iter().copied().find(|&j| holds(j)).map(|j| {
+            let k = key(j);
+            (k.0, k.2, k.1)
+        });
         if let (Some(b), Some(l)) = (best, lines_then_cost) {
             if l.2 > b.1 {
                 count_rule_mattered += 1;
@@ -171,7 +167,6 @@ fn rework_matches_brute_force() {
             &current,
             &forced,
             &Settings {
-                explain: false,
                 ..Default::default()
             },
         );
@@ -375,7 +370,6 @@ fn same_footprint_replacement_wins_a_tie() {
         &current,
         &[a],
         &Settings {
-            explain: false,
             ..Default::default()
         },
     );
@@ -397,7 +391,6 @@ fn same_footprint_replacement_wins_a_tie() {
     let d = optimize::design(
         &plain,
         &Settings {
-            explain: false,
             ..Default::default()
         },
     );

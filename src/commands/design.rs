@@ -1,6 +1,6 @@
 //! `design`: the best bank for the scenario's target.
 
-use super::{bank_files, load, show_progress, Common, Outcome};
+use super::{bank_files, load, show_progress, CommandOutput, Common};
 use crate::assessment::{self, Assessment};
 use crate::load::Overrides;
 use crate::optimize;
@@ -11,8 +11,20 @@ use crate::run::Run;
 use crate::scenario::Objective;
 use anyhow::Result;
 
-/// Plain words for the limits that stop a design.
+/// Plain words for the limits that stop a design, each with what the
+/// relaxed design needed.
 pub(super) fn binding_text(b: &optimize::Binding) -> String {
+    let mut s = binding_names(b);
+    if !b.details.is_empty() {
+        s.push_str("  Needed with the limit relaxed:\n");
+        for d in &b.details {
+            s.push_str(&format!("    {}\n", d.text()));
+        }
+    }
+    s
+}
+
+fn binding_names(b: &optimize::Binding) -> String {
     if b.limits == ["catalog"] {
         "  Binding: no limit — even with every limit relaxed the eligible parts do not reach the target.\n".into()
     } else if b.together {
@@ -28,14 +40,19 @@ pub(super) fn binding_text(b: &optimize::Binding) -> String {
     }
 }
 
-/// The report and the JSON for a design outcome.
+/// A bank and its assessment: the design's, or when infeasible the closest.
+pub(crate) type Shown = (Vec<(usize, u32)>, Assessment);
+
+/// The report and the JSON for a design outcome (`why`: the explanation of
+/// an infeasible one), with the bank whose files `--out` writes.
 pub(crate) fn design_report(
     p: &Problem,
-    out: &optimize::Outcome,
+    out: &optimize::DesignOutcome,
+    why: Option<&optimize::Explanation>,
     what: &str,
     quiet: bool,
     run: &Run,
-) -> Result<(Report, serde_json::Value, Option<Assessment>)> {
+) -> Result<(Report, serde_json::Value, Option<Shown>)> {
     let mut r = Report::new(
         if out.found.is_some() {
             "Bank design"
@@ -76,14 +93,18 @@ pub(crate) fn design_report(
             }
             let mut doc = report::assessment_json(out.status.name(), &a, p);
             doc["search"] = serde_json::to_value(st)?;
-            (doc, Some(a))
+            (doc, Some((f.bank.clone(), a)))
         }
         None => {
             r.verdict(
                 Verdict::Infeasible,
                 format!("{what}: INFEASIBLE — no bank meets the target under every limit."),
             );
-            match out.best_ripple_pp {
+            let empty = optimize::Explanation::default();
+            let why = why.unwrap_or(&empty);
+            let best = why.lowest.ripple_pp;
+            let best = best.is_finite().then_some(best);
+            match best {
                 Some(x) => r.line(format!(
                     "  The lowest worst-corner ripple any allowed bank reached is {} against a target of {}.",
                     text::mv(x),
@@ -91,18 +112,21 @@ pub(crate) fn design_report(
                 )),
                 None => r.line("  No part may be used, so no bank can be built."),
             }
-            r.line(binding_text(&out.binding).trim_end().to_string());
-            let mut doc = super::infeasible_doc(p, out.best_ripple_pp, &out.binding);
+            r.line(binding_text(&why.binding).trim_end().to_string());
+            let mut doc = super::infeasible_doc(p, best, &why.binding);
             doc["search"] = serde_json::to_value(st)?;
-            if let Some(b) = &out.best_ripple_bank {
+            doc["lowest_search"] = serde_json::to_value(&why.lowest)?;
+            let mut shown = None;
+            if let Some(b) = &why.lowest.bank {
                 let a = assessment::assess(p, b)?;
                 r.para("Closest bank (lowest ripple found)");
                 for s in model::assessment(&a, quiet) {
                     r.push(s);
                 }
                 doc["closest"] = report::assessment_json("closest", &a, p);
+                shown = Some((b.clone(), a));
             }
-            (doc, None)
+            (doc, shown)
         }
     };
     r.para(format!(
@@ -121,7 +145,11 @@ pub(crate) fn design_report(
 }
 
 /// `design`: the best bank for the scenario's target (`objective` overrides the scenario's).
-pub fn design(c: &Common, objective: Option<Objective>, exclude: &[String]) -> Result<Outcome> {
+pub fn design(
+    c: &Common,
+    objective: Option<Objective>,
+    exclude: &[String],
+) -> Result<CommandOutput> {
     let o = Overrides {
         objective,
         exclude: exclude.to_vec(),
@@ -132,11 +160,16 @@ pub fn design(c: &Common, objective: Option<Objective>, exclude: &[String]) -> R
         ..Default::default()
     };
     let out = optimize::design(&p, &settings);
-    let (rep, doc, a) = design_report(&p, &out, "Design", c.quiet, &run)?;
+    let why = out
+        .found
+        .is_none()
+        .then(|| optimize::explain(&p, p.scenario.design_target(), &settings));
+    let (rep, doc, shown) = design_report(&p, &out, why.as_ref(), "Design", c.quiet, &run)?;
     if let Some(dir) = &c.out {
-        let files = match (&out.found, &a) {
-            (Some(f), Some(a)) => bank_files(&p, &f.bank, a, &doc, &rep)?,
-            _ => {
+        // An infeasible design writes the closest bank's files.
+        let files = match &shown {
+            Some((bank, a)) => bank_files(&p, bank, a, &doc, &rep)?,
+            None => {
                 let mut files = OutFiles::default();
                 files.add("report.json", report::json_text(doc.clone()));
                 files.add("report.html", report::html::render(&rep, &[]));
@@ -151,5 +184,5 @@ pub fn design(c: &Common, objective: Option<Objective>, exclude: &[String]) -> R
     } else {
         text::render(&rep)
     };
-    Ok(Outcome { stdout, code })
+    Ok(CommandOutput { stdout, code })
 }

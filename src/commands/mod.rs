@@ -36,11 +36,6 @@ pub struct Common {
     pub quiet: bool,
 }
 
-/// The old name of [`CommandOutput`], kept only while `commands/design.rs`
-/// and `commands/tradeoff.rs` still use it; remove once they say
-/// `CommandOutput`.
-pub type Outcome = CommandOutput;
-
 /// What a command prints and its exit status.
 pub struct CommandOutput {
     /// The text report or the JSON document.
@@ -73,7 +68,8 @@ pub(crate) fn infeasible_doc(
         "best_ripple_pp": best_ripple_pp,
         "binding": binding.limits,
         "binding_together": binding.together,
-        "target_ripple_pp": p.scenario.target.ripple_pp.0,
+        "binding_detail": binding.details,
+        "target_ripple_pp": report::echoed(p.scenario.target.ripple_pp.0),
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),
     })

@@ -70,13 +70,7 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
             sc.selection.exclude.push(p.catalog.parts[i].id.clone());
         }
         let fp = Problem::new(sc, p.catalog.clone())?;
-        let out = optimize::design(
-            &fp,
-            &optimize::Settings {
-                explain: false,
-                ..settings.clone()
-            },
-        );
+        let out = optimize::design(&fp, &settings);
         out.found.map(|f| (out.status, f))
     };
     let mut r = Report::new("Bank rework", Some(&run));
@@ -157,7 +151,8 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
     let code;
     if status == optimize::Status::Infeasible {
         r.verdict(Verdict::Infeasible, "Rework: INFEASIBLE — no bank reachable by changing line items meets the target under every limit.");
-        let (lowest, closest) = optimize::lowest_ripple(&p);
+        let low = optimize::lowest_ripple(&p, &settings);
+        let (lowest, closest) = (low.ripple_pp, low.bank);
         if lowest.is_finite() {
             r.line(format!(
                 "  The lowest worst-corner ripple any allowed bank reached is {}.",

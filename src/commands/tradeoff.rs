@@ -1,6 +1,6 @@
 //! `tradeoff`: cost, area and count against the ripple target.
 
-use super::{load, show_progress, Common, Outcome};
+use super::{load, show_progress, CommandOutput, Common};
 use crate::assessment::{self};
 use crate::load::Overrides;
 use crate::optimize;
@@ -38,13 +38,22 @@ pub(crate) fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
         .join(",")
 }
 
+/// The search settings of every trade-off point and of the default lower
+/// end: each point gets a share of the work a single design may take.
+fn point_settings() -> optimize::Settings {
+    optimize::Settings {
+        max_evaluations: 1_000_000,
+        ..Default::default()
+    }
+}
+
 /// `tradeoff`: the best bank at each of a range of ripple targets.
 pub fn tradeoff(
     c: &Common,
     from: Option<&str>,
     to: Option<&str>,
     points: usize,
-) -> Result<Outcome> {
+) -> Result<CommandOutput> {
     use indicatif::{ProgressBar, ProgressStyle};
     let (p, run) = load(c, &Overrides::default())?;
     if !(2..=200).contains(&points) {
@@ -56,7 +65,7 @@ pub fn tradeoff(
     let lo = match from {
         Some(v) => v,
         None => {
-            let (r, _) = optimize::lowest_ripple(&p);
+            let r = optimize::lowest_ripple(&p, &point_settings()).ripple_pp;
             if !r.is_finite() {
                 anyhow::bail!(
                     "no bank can be built from the eligible parts; see `ripplebank validate`"
@@ -113,8 +122,16 @@ pub fn tradeoff(
     } else {
         (lo, lo * 2.0)
     };
+    // Targets echo the user's values (--from, --to, the scenario's target):
+    // 12 significant digits, so `10u` prints as 1e-5 (the ends exactly as given).
+    let (lo, hi) = (report::echoed(lo), report::echoed(hi));
+    let target = report::echoed(target);
     let mut targets: Vec<f64> = (0..points)
-        .map(|j| lo * (hi / lo).powf(j as f64 / (points - 1) as f64))
+        .map(|j| match j {
+            0 => lo,
+            j if j == points - 1 => hi,
+            j => report::echoed(lo * (hi / lo).powf(j as f64 / (points - 1) as f64)),
+        })
         .collect();
     // The scenario's own target is always a row.
     if !targets.iter().any(|&t| (t - target).abs() <= 1e-9 * target) {
@@ -131,12 +148,7 @@ pub fn tradeoff(
             .expect("template")
             .progress_chars("=> "),
     );
-    // Each point gets a share of the work a single design may take.
-    let settings = optimize::Settings {
-        explain: false,
-        max_evaluations: 1_000_000,
-        ..Default::default()
-    };
+    let settings = point_settings();
     // The targets are independent searches: spread them over the cores.
     let workers = std::thread::available_parallelism()
         .map_or(1, |n| n.get())
@@ -144,7 +156,7 @@ pub fn tradeoff(
     // Each worker takes the next unsolved target, so tight (slow) and loose
     // (fast) targets share the cores evenly.
     let next = std::sync::atomic::AtomicUsize::new(0);
-    let slots: std::sync::Mutex<Vec<Option<optimize::Outcome>>> =
+    let slots: std::sync::Mutex<Vec<Option<optimize::DesignOutcome>>> =
         std::sync::Mutex::new(vec![None; targets.len()]);
     std::thread::scope(|scope| {
         for _ in 0..workers {
@@ -159,7 +171,7 @@ pub fn tradeoff(
     });
     pb.finish_and_clear();
     let slots = slots.into_inner().expect("no worker panics");
-    let mut results: Vec<(f64, optimize::Outcome)> = targets
+    let mut results: Vec<(f64, optimize::DesignOutcome)> = targets
         .iter()
         .copied()
         .zip(slots.into_iter().map(|o| o.expect("every target solved")))
@@ -355,5 +367,5 @@ pub fn tradeoff(
     } else {
         text::render(&r)
     };
-    Ok(Outcome { stdout, code })
+    Ok(CommandOutput { stdout, code })
 }

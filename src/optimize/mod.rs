@@ -23,9 +23,9 @@
 //!    swaps, adds or removes one part at a time over the whole catalog; the
 //!    result is `optimal` only if it meets the mixed-integer lower bound,
 //!    else `feasible`.
-//! 5. With no design, the same search minimises the ripple instead
-//!    (`best_ripple_pp`), and each limit is relaxed in turn to find the
-//!    ones that bind.
+//! 5. With no design, [`explain`] (called by the commands, not here) finds
+//!    the lowest ripple by bisection on the target with this same search,
+//!    and relaxes each limit in turn to find the ones that bind.
 
 use crate::evaluator::{Band, LineState};
 use crate::problem::Problem;
@@ -90,11 +90,6 @@ pub struct Found {
     pub ripple_pp: f64,
 }
 
-/// The old name of [`DesignOutcome`], kept only while `commands/design.rs`
-/// and `commands/tradeoff.rs` still use it; remove once they say
-/// `DesignOutcome`.
-pub type Outcome = DesignOutcome;
-
 /// Result of a design run.
 #[derive(Debug, Clone)]
 pub struct DesignOutcome {
@@ -102,12 +97,6 @@ pub struct DesignOutcome {
     pub status: Status,
     /// The bank, unless infeasible.
     pub found: Option<Found>,
-    /// When infeasible: the lowest ripple any allowed bank reaches, V.
-    pub best_ripple_pp: Option<f64>,
-    /// When infeasible: the bank that reaches it.
-    pub best_ripple_bank: Option<Vec<(usize, u32)>>,
-    /// When infeasible: the limits that stop a design.
-    pub binding: Binding,
     /// What the search did.
     pub stats: Stats,
 }
@@ -148,8 +137,6 @@ pub struct Settings {
     pub exhaustive_limit: usize,
     /// Pool size for large catalogs.
     pub pool: usize,
-    /// With no design: search the lowest ripple and the binding limits.
-    pub explain: bool,
     /// Largest candidate list given whole to the mixed-integer model.
     pub milp_parts: usize,
     /// Line sets the mixed-integer model proposes (with no-good cuts).
@@ -167,7 +154,6 @@ impl Default for Settings {
             progress: false,
             exhaustive_limit: 1_500_000,
             pool: 36,
-            explain: true,
             milp_parts: 120,
             milp_proposals: 2,
             milp_seconds: 2.0,
@@ -176,12 +162,12 @@ impl Default for Settings {
     }
 }
 
-mod lowest;
+mod explain;
 mod milp;
 mod rework;
 mod search;
 
-pub use lowest::min_ripple;
+pub use explain::{binding, explain, lowest_ripple, Binding, BindingDetail, Explanation, Lowest};
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
@@ -345,204 +331,16 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
     let mut out = DesignOutcome {
         status,
         found,
-        best_ripple_pp: None,
-        best_ripple_bank: None,
-        binding: Binding::default(),
         stats,
     };
-    if status == Status::Infeasible && settings.explain {
-        let (r, bank) = min_ripple(problem, &cands);
-        out.best_ripple_pp = r.is_finite().then_some(r);
-        out.best_ripple_bank = bank;
-        out.binding = binding(problem, target);
-    }
     out.stats.seconds = t0.elapsed().as_secs_f64();
     out
-}
-
-/// Relax each limit in turn; those whose removal lets the target be met bind.
-pub fn binding(problem: &Problem, target: f64) -> Binding {
-    use crate::scenario::{Plain, Scenario};
-    let base = &problem.scenario;
-    type Relax = Box<dyn Fn(&mut Scenario)>;
-    let mut tries: Vec<(&str, Relax)> = Vec::new();
-    if base.converter.max_capacitance.is_some() {
-        tries.push((
-            "max_capacitance",
-            Box::new(|s: &mut Scenario| s.converter.max_capacitance = None),
-        ));
-    }
-    if base.board.max_count.is_some() {
-        tries.push((
-            "max_count",
-            Box::new(|s: &mut Scenario| s.board.max_count = None),
-        ));
-    }
-    if base.board.max_area.is_some() {
-        tries.push((
-            "max_area",
-            Box::new(|s: &mut Scenario| s.board.max_area = None),
-        ));
-    }
-    tries.push((
-        "max_lines",
-        Box::new(|s: &mut Scenario| s.board.max_lines = Some(s.max_lines() + 2)),
-    ));
-    tries.push((
-        "max_per_part",
-        Box::new(|s: &mut Scenario| {
-            s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000)
-        }),
-    ));
-    if base.board.max_height.is_some() {
-        tries.push((
-            "max_height",
-            Box::new(|s: &mut Scenario| s.board.max_height = Some(Plain(1e9))),
-        ));
-    }
-    if !base.selection.exclude.is_empty() {
-        tries.push((
-            "exclude",
-            Box::new(|s: &mut Scenario| s.selection.exclude.clear()),
-        ));
-    }
-    if !base.selection.allow_nrnd {
-        tries.push((
-            "status nrnd",
-            Box::new(|s: &mut Scenario| s.selection.allow_nrnd = true),
-        ));
-    }
-    if !base.selection.require.is_empty() {
-        tries.push((
-            "require",
-            Box::new(|s: &mut Scenario| s.selection.require.clear()),
-        ));
-    }
-    if base.converter.min_capacitance.0 > 0.0 {
-        tries.push((
-            "min_capacitance",
-            Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0),
-        ));
-    }
-    let mut out = Vec::new();
-    let quick = Settings {
-        progress: false,
-        exhaustive_limit: 20_000,
-        pool: 24,
-        explain: false,
-        milp_proposals: 1,
-        milp_seconds: 1.0,
-        max_evaluations: 150_000,
-        ..Settings::default()
-    };
-    for (name, relax) in &tries {
-        let mut sc = base.clone();
-        relax(&mut sc);
-        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
-            continue;
-        };
-        if design_for(&p, target, &quick).found.is_some() {
-            out.push(name.to_string());
-        }
-    }
-    let all_relax = tries;
-    // Ripple-current ratings: ignore them.
-    let mut p = Problem {
-        scenario: base.clone(),
-        catalog: problem.catalog.clone(),
-        eligible: problem.eligible.clone(),
-        excluded: vec![],
-        ops: problem.ops.clone(),
-        region_ops: problem.region_ops.clone(),
-        warnings: vec![],
-    };
-    if p.eligible
-        .iter()
-        .any(|&i| p.catalog.parts[i].ripple_current.is_some())
-    {
-        for part in p.catalog.parts.iter_mut() {
-            part.ripple_current = None;
-        }
-        if design_for(&p, target, &quick).found.is_some() {
-            out.push("ripple_current".into());
-        }
-    }
-    if out.is_empty() {
-        // No single limit: relax them all at once. If that reaches the
-        // target, the limits its bank breaks bind together; if not, the
-        // eligible parts themselves cannot reach it.
-        let mut sc = base.clone();
-        for (_, relax) in &all_relax {
-            relax(&mut sc);
-        }
-        let mut cat = problem.catalog.clone();
-        for part in cat.parts.iter_mut() {
-            part.ripple_current = None;
-        }
-        let found = Problem::new(sc, cat)
-            .ok()
-            .and_then(|p| design_for(&p, target, &quick).found);
-        match found.and_then(|f| {
-            crate::assessment::assess(problem, &f.bank)
-                .ok()
-                .map(|a| (f, a))
-        }) {
-            Some((f, a)) => {
-                let mut names: Vec<String> = Vec::new();
-                let mut add = |n: &str| {
-                    if !names.iter().any(|x| x == n) {
-                        names.push(n.to_string());
-                    }
-                };
-                for c in a.checks.iter().filter(|c| !c.ok) {
-                    let n = c.name.split(' ').next().unwrap_or("");
-                    match n {
-                        "height" => add("max_height"),
-                        "ripple_pp" | "voltage" | "temperature_min" | "temperature_max" => {}
-                        other => add(other),
-                    }
-                }
-                for &(i, _) in &f.bank {
-                    let part = &problem.catalog.parts[i];
-                    if let Some(r) =
-                        crate::problem::ineligibility(base, part, base.selection.objective)
-                    {
-                        if r.contains("excluded") {
-                            add("exclude");
-                        } else if r.contains("nrnd") {
-                            add("status nrnd");
-                        }
-                    }
-                }
-                return Binding {
-                    limits: names,
-                    together: true,
-                };
-            }
-            None => out.push("catalog".into()),
-        }
-    }
-    Binding {
-        limits: out,
-        together: false,
-    }
-}
-
-/// The limits that stop a design.
-#[derive(Debug, Clone, Default, Serialize)]
-pub struct Binding {
-    /// Limit names; `["catalog"]` when even relaxing every limit does not
-    /// reach the target.
-    pub limits: Vec<String>,
-    /// No single limit binds: relaxing these together reaches the target.
-    pub together: bool,
 }
 
 /// The cheapest bank the other limits allow, whatever its ripple (the
 /// loose end of a trade-off), with that ripple.
 pub fn cheapest_bank(problem: &Problem) -> Option<Found> {
     let settings = Settings {
-        explain: false,
         milp_proposals: 0,
         ..Settings::default()
     };
@@ -558,13 +356,6 @@ pub fn cheapest_bank(problem: &Problem) -> Option<Found> {
         );
         f
     })
-}
-
-/// The lowest worst-corner ripple found over the eligible parts (dominated
-/// parts dropped first), and that bank.
-pub fn lowest_ripple(problem: &Problem) -> (f64, Option<Vec<(usize, u32)>>) {
-    let (cands, _) = prune_dominated(problem, &problem.eligible);
-    min_ripple(problem, &cands)
 }
 
 #[cfg(test)]

@@ -36,12 +36,24 @@ pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value
         "excluded".into(),
         serde_json::to_value(&problem.excluded).expect("serialisable"),
     );
+    o.insert("target_ripple_pp".into(), json!(echoed(a.target_ripple_pp)));
     o.insert("scenario".into(), json!(problem.scenario.name));
     o.insert(
         "objective".into(),
         json!(problem.scenario.selection.objective.name()),
     );
     v
+}
+
+/// A value echoed from the user's input (a target, a range end), rounded to
+/// 12 significant digits so that it prints as written: `10u` parses to
+/// 9.999999999999999e-6 and prints as 1e-5. Computed values are printed in
+/// full (shortest round-trip form) and do not pass through here.
+pub fn echoed(x: f64) -> f64 {
+    if !x.is_finite() || x == 0.0 {
+        return x;
+    }
+    format!("{x:.11e}").parse().unwrap_or(x)
 }
 
 /// Replace NaN and infinities (never valid JSON) by null, recursively.

@@ -433,12 +433,41 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
             ]
         })
         .collect();
+    let mut rows = rows;
+    // The bank's capacitance at the low corner and what it acts as at the
+    // ripple frequency (information, not limits).
+    rows.push(vec![
+        "C added, at the low corner".into(),
+        format_si(a.capacitance_effective_total, "F"),
+        "—".into(),
+        "—".into(),
+        "info".into(),
+    ]);
+    rows.push(vec![
+        format!(
+            "C_eff at {} (1/(ω·|Im Z|))",
+            format_si(a.ripple_frequency, "Hz")
+        ),
+        a.capacitance_at_ripple_frequency
+            .map_or("inductive".into(), |c| format_si(c, "F")),
+        "—".into(),
+        "—".into(),
+        "info".into(),
+    ]);
     out.push(Section {
         heading: Some("Limits".into()),
-        items: vec![Item::Table(Table::new(
-            &["check", "value", "must be", "limit", "result"],
-            rows,
-        ))],
+        items: vec![
+            Item::Table(Table::new(
+                &["check", "value", "must be", "limit", "result"],
+                rows,
+            )),
+            Item::Line(
+                "C_eff is the bank's capacitance as the ripple sees it: below self-resonance the ESL cancels part of \
+                 the capacitive reactance, so C_eff = C/(1 − ω²·L·C) exceeds C and the ripple can be below the hand \
+                 estimate ΔI/(8·f·C)."
+                    .into(),
+            ),
+        ],
         ..Default::default()
     });
     if let Some(w) = warnings(&a.warnings) {

@@ -1,0 +1,563 @@
+//! Why a target cannot be met: the lowest ripple any allowed bank reaches
+//! and the limits that stop a design. Called by the commands (never by
+//! [`super::design_for`]), after a design came back infeasible, and by
+//! `tradeoff` for its default lower end.
+//!
+//! The lowest ripple is found by bisection on the target with
+//! [`super::design_for`] itself, so every probe is the same search as
+//! `design` and every bank it returns is verified over the whole corner
+//! region:
+//!
+//! 1. upper bracket: a greedy descent (from each promising line set, add the
+//!    part that lowers the ripple most while the limits allow), its bank
+//!    verified over the corner region ([`crate::region::worst`]);
+//! 2. lower bracket: the harmonic floor (pp ≥ 1.53·|V_k|) with the largest
+//!    admittance sum any allowed bank can have at each harmonic (every part
+//!    at its count limit, no more than `max_count` parts and `max_lines`
+//!    lines): no bank can go below it;
+//! 3. probes at the geometric middle of the bracket: a bank found lowers the
+//!    upper end to that bank's verified ripple, no bank raises the lower end
+//!    to the probe; stop when the bracket is within [`BISECT_TOLERANCE`] or
+//!    after [`MAX_PROBES`] probes.
+//!
+//! The figure reported is the verified ripple of the best bank found, so it
+//! is never above a target `design` meets with the same settings, and
+//! (bracket tolerance) at most 0.5 % below the lowest one it meets.
+
+use super::search::{binomial_sum, line_sets, prune_dominated, Search};
+use super::{design_for, Settings};
+use crate::evaluator::Band;
+use crate::problem::Problem;
+use serde::Serialize;
+use serde_json::{json, Value};
+
+/// The bisection stops when the upper end is within this fraction of the lower.
+pub const BISECT_TOLERANCE: f64 = 0.005;
+/// Most `design_for` probes of the bisection.
+pub const MAX_PROBES: usize = 14;
+
+/// The lowest ripple found, with how it was found.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Lowest {
+    /// The lowest worst-over-the-region ripple any allowed bank reached, V
+    /// (infinite when no bank can be built).
+    pub ripple_pp: f64,
+    /// That bank (catalog indices and counts).
+    #[serde(skip)]
+    pub bank: Option<Vec<(usize, u32)>>,
+    /// The greedy descent's verified figure (the first upper bracket), V.
+    pub greedy_pp: f64,
+    /// The proven lower bound (harmonic floor), V.
+    pub floor_pp: f64,
+    /// Lower end of the final bracket: `design` found no bank there, V.
+    pub bracket_low: f64,
+    /// `design_for` probes made.
+    pub probes: usize,
+    /// Wall time, s.
+    pub seconds: f64,
+}
+
+/// Why a design is infeasible.
+#[derive(Debug, Clone, Default)]
+pub struct Explanation {
+    /// The lowest ripple any allowed bank reaches.
+    pub lowest: Lowest,
+    /// The limits that stop a design.
+    pub binding: Binding,
+}
+
+/// The lowest ripple and the binding limits for an infeasible `target`.
+pub fn explain(problem: &Problem, target: f64, settings: &Settings) -> Explanation {
+    Explanation {
+        lowest: lowest_ripple(problem, settings),
+        binding: binding(problem, target),
+    }
+}
+
+/// Verified ripple of a bank (catalog indices) over the whole corner region.
+fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
+    let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+    let mut ev = problem.evaluator(&parts);
+    let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+    if ev.is_empty(&local) {
+        return f64::INFINITY;
+    }
+    crate::region::worst(problem, &mut ev, &local, Band::Limited).value
+}
+
+/// The lowest worst-over-the-region ripple any allowed bank reaches (see the
+/// module notes), searched with `settings` (those of the design it explains).
+pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
+    let t0 = std::time::Instant::now();
+    let (cands, _) = prune_dominated(problem, &problem.eligible);
+    let mut out = Lowest {
+        ripple_pp: f64::INFINITY,
+        greedy_pp: f64::INFINITY,
+        ..Default::default()
+    };
+    let internal = problem.scenario.converter.internal_capacitance.is_some();
+    if cands.is_empty() && !internal {
+        return out;
+    }
+    let (greedy, floor) = if cands.is_empty() {
+        (Some(Vec::new()), 0.0)
+    } else {
+        greedy_and_floor(problem, &cands)
+    };
+    out.floor_pp = floor;
+    if let Some(b) = greedy {
+        out.greedy_pp = verified(problem, &b);
+        if out.greedy_pp.is_finite() {
+            out.ripple_pp = out.greedy_pp;
+            out.bank = Some(b);
+        }
+    }
+    let quiet = Settings {
+        progress: false,
+        ..settings.clone()
+    };
+    let mut lo = floor.max(0.0);
+    let mut hi = out.ripple_pp;
+    if !hi.is_finite() {
+        // No greedy bank: start from a loose target.
+        hi = f64::INFINITY;
+    }
+    while out.probes < MAX_PROBES {
+        let t = if !hi.is_finite() {
+            if lo > 0.0 {
+                lo * 4.0
+            } else {
+                break;
+            }
+        } else if lo > 0.0 {
+            (lo * hi).sqrt()
+        } else {
+            hi * 0.5
+        };
+        if hi.is_finite() && hi <= lo * (1.0 + BISECT_TOLERANCE) {
+            break;
+        }
+        out.probes += 1;
+        match design_for(problem, t, &quiet).found {
+            Some(f) => {
+                let r = f.ripple_pp;
+                if r < out.ripple_pp {
+                    out.ripple_pp = r;
+                    out.bank = Some(f.bank);
+                }
+                hi = out.ripple_pp;
+            }
+            None => lo = t,
+        }
+    }
+    out.bracket_low = lo;
+    out.seconds = t0.elapsed().as_secs_f64();
+    out
+}
+
+/// The greedy descent's best bank (catalog indices) and the harmonic floor
+/// of any allowed bank.
+fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u32)>>, f64) {
+    let mut s = Search::new(problem, cands, f64::INFINITY);
+    let floor = floor_of(&s);
+    let free = s.lim.max_lines.saturating_sub(s.required.len());
+    let all: Vec<usize> = (0..s.parts.len()).collect();
+    let sets = if binomial_sum(all.len(), free) <= 20_000 {
+        line_sets(&s.required.clone(), &all, free)
+    } else {
+        // Rank parts by their admittance at the most demanding harmonic.
+        let mut order = all.clone();
+        let k = (0..s.n)
+            .max_by(|&x, &y| s.q[x].total_cmp(&s.q[y]))
+            .unwrap_or(0);
+        order.sort_by(|&x, &y| {
+            (s.ub[y] as f64 * s.a[y * s.n + k]).total_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
+        });
+        order.truncate(24);
+        line_sets(&s.required.clone(), &order, free)
+    };
+    // Optimistic floor per set, then greedy descent in floor order.
+    let mut floored: Vec<(f64, Vec<usize>)> = sets
+        .into_iter()
+        .filter(|set| set.iter().all(|&i| s.ub[i] >= s.lb[i]))
+        .map(|set| {
+            let mut sum = vec![0.0; s.n];
+            for &i in &set {
+                for k in 0..s.n {
+                    sum[k] += s.ub[i] as f64 * s.a[i * s.n + k];
+                }
+            }
+            (s.ev.ripple_floor_for(&sum), set)
+        })
+        .collect();
+    floored.sort_by(|x, y| x.0.total_cmp(&y.0));
+    let mut best = f64::INFINITY;
+    let mut best_bank = None;
+    for (f, set) in floored.iter().take(MIN_RIPPLE_SETS) {
+        if *f >= best {
+            break;
+        }
+        if let Some((r, bank)) = descend(&mut s, set) {
+            if r < best {
+                best = r;
+                best_bank = Some(bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect());
+            }
+        }
+    }
+    (best_bank, floor)
+}
+
+/// Harmonic floor of every allowed bank: at each harmonic the largest
+/// Σ n_i |Y_ik| is at most the smaller of (a) the `max_lines` largest
+/// `ub_i·|Y_ik|` and (b) the `max_count` largest single admittances taken
+/// with multiplicity `ub_i`; [`crate::evaluator::Evaluator::ripple_floor_for`]
+/// turns that into a ripple no bank can go below.
+fn floor_of(s: &Search) -> f64 {
+    let np = s.parts.len();
+    let mut sum = vec![0.0; s.n];
+    let mut col: Vec<(f64, u32)> = Vec::with_capacity(np);
+    for k in 0..s.n {
+        col.clear();
+        col.extend((0..np).map(|i| (s.a[i * s.n + k], s.ub[i])));
+        col.sort_by(|x, y| y.0.total_cmp(&x.0));
+        let mut by_line: Vec<f64> = col.iter().map(|&(a, u)| a * u as f64).collect();
+        by_line.sort_by(|x, y| y.total_cmp(x));
+        let lines: f64 = by_line.iter().take(s.lim.max_lines).sum();
+        let mut left = s.lim.max_count;
+        let mut units = 0.0;
+        for &(a, u) in &col {
+            if left <= 0.0 {
+                break;
+            }
+            let take = (u as f64).min(left);
+            units += take * a;
+            left -= take;
+        }
+        sum[k] = lines.min(units);
+    }
+    s.ev.ripple_floor_for(&sum)
+}
+
+/// Line sets the lowest-ripple search descends from (in floor order).
+pub(super) const MIN_RIPPLE_SETS: usize = 400;
+
+/// Greedy: from the lower bounds, add the part that lowers the ripple most
+/// while the limits allow; stop when nothing helps.
+pub(super) fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
+    let mut counts: Vec<u32> = set.iter().map(|&i| s.lb[i]).collect();
+    let fits = |s: &Search, counts: &[u32]| -> bool {
+        let (mut cap, mut cnt, mut area) = (0.0, 0.0, 0.0);
+        for (&i, &n) in set.iter().zip(counts) {
+            cap += n as f64 * s.parts[i].c_limit;
+            cnt += n as f64;
+            area += n as f64 * s.parts[i].area;
+            if n > s.ub[i] {
+                return false;
+            }
+        }
+        cap <= s.lim.max_cap * (1.0 + 1e-12)
+            && cnt <= s.lim.max_count
+            && area <= s.lim.max_area * (1.0 + 1e-12)
+    };
+    if !fits(s, &counts) {
+        return None;
+    }
+    let eval = |s: &mut Search, counts: &[u32]| -> f64 {
+        s.bank_buf.clear();
+        s.bank_buf
+            .extend(set.iter().zip(counts).map(|(&a, &b)| (a, b)));
+        s.evals += 1;
+        let Search { ev, bank_buf, .. } = s;
+        ev.ripple_pp(
+            bank_buf,
+            crate::evaluator::Corner::Worst,
+            crate::evaluator::Band::Limited,
+        )
+    };
+    let mut cur = eval(s, &counts);
+    loop {
+        let mut best: Option<(f64, usize)> = None;
+        for j in 0..set.len() {
+            counts[j] += 1;
+            if fits(s, &counts) {
+                let r = eval(s, &counts);
+                if r < cur && best.is_none_or(|b| r < b.0) {
+                    best = Some((r, j));
+                }
+            }
+            counts[j] -= 1;
+        }
+        match best {
+            Some((r, j)) => {
+                counts[j] += 1;
+                cur = r;
+            }
+            None => break,
+        }
+    }
+    Some((
+        cur,
+        set.iter().zip(&counts).map(|(&a, &b)| (a, b)).collect(),
+    ))
+}
+
+/// Relax each limit in turn; those whose removal lets the target be met bind.
+pub fn binding(problem: &Problem, target: f64) -> Binding {
+    use crate::scenario::{Plain, Scenario};
+    let base = &problem.scenario;
+    type Relax = Box<dyn Fn(&mut Scenario)>;
+    let mut tries: Vec<(&str, Relax)> = Vec::new();
+    if base.converter.max_capacitance.is_some() {
+        tries.push((
+            "max_capacitance",
+            Box::new(|s: &mut Scenario| s.converter.max_capacitance = None),
+        ));
+    }
+    if base.board.max_count.is_some() {
+        tries.push((
+            "max_count",
+            Box::new(|s: &mut Scenario| s.board.max_count = None),
+        ));
+    }
+    if base.board.max_area.is_some() {
+        tries.push((
+            "max_area",
+            Box::new(|s: &mut Scenario| s.board.max_area = None),
+        ));
+    }
+    tries.push((
+        "max_lines",
+        Box::new(|s: &mut Scenario| s.board.max_lines = Some(s.max_lines() + 2)),
+    ));
+    tries.push((
+        "max_per_part",
+        Box::new(|s: &mut Scenario| {
+            s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000)
+        }),
+    ));
+    if base.board.max_height.is_some() {
+        tries.push((
+            "max_height",
+            Box::new(|s: &mut Scenario| s.board.max_height = Some(Plain(1e9))),
+        ));
+    }
+    if !base.selection.exclude.is_empty() {
+        tries.push((
+            "exclude",
+            Box::new(|s: &mut Scenario| s.selection.exclude.clear()),
+        ));
+    }
+    if !base.selection.allow_nrnd {
+        tries.push((
+            "status nrnd",
+            Box::new(|s: &mut Scenario| s.selection.allow_nrnd = true),
+        ));
+    }
+    if !base.selection.require.is_empty() {
+        tries.push((
+            "require",
+            Box::new(|s: &mut Scenario| s.selection.require.clear()),
+        ));
+    }
+    if base.converter.min_capacitance.0 > 0.0 {
+        tries.push((
+            "min_capacitance",
+            Box::new(|s: &mut Scenario| s.converter.min_capacitance.0 = 0.0),
+        ));
+    }
+    let mut out = Vec::new();
+    let mut details = Vec::new();
+    let quick = Settings {
+        progress: false,
+        exhaustive_limit: 20_000,
+        pool: 24,
+        milp_proposals: 1,
+        milp_seconds: 1.0,
+        max_evaluations: 150_000,
+        ..Settings::default()
+    };
+    for (name, relax) in &tries {
+        let mut sc = base.clone();
+        relax(&mut sc);
+        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
+            continue;
+        };
+        if let Some(f) = design_for(&p, target, &quick).found {
+            out.push(name.to_string());
+            details.extend(details_of(problem, &f.bank, Some(name)));
+        }
+    }
+    let all_relax = tries;
+    // Ripple-current ratings: ignore them.
+    let mut p = Problem {
+        scenario: base.clone(),
+        catalog: problem.catalog.clone(),
+        eligible: problem.eligible.clone(),
+        excluded: vec![],
+        ops: problem.ops.clone(),
+        region_ops: problem.region_ops.clone(),
+        warnings: vec![],
+    };
+    if p.eligible
+        .iter()
+        .any(|&i| p.catalog.parts[i].ripple_current.is_some())
+    {
+        for part in p.catalog.parts.iter_mut() {
+            part.ripple_current = None;
+        }
+        if let Some(f) = design_for(&p, target, &quick).found {
+            out.push("ripple_current".into());
+            details.extend(details_of(problem, &f.bank, Some("ripple_current")));
+        }
+    }
+    if out.is_empty() {
+        // No single limit: relax them all at once. If that reaches the
+        // target, the limits its bank breaks bind together; if not, the
+        // eligible parts themselves cannot reach it.
+        let mut sc = base.clone();
+        for (_, relax) in &all_relax {
+            relax(&mut sc);
+        }
+        let mut cat = problem.catalog.clone();
+        for part in cat.parts.iter_mut() {
+            part.ripple_current = None;
+        }
+        let found = Problem::new(sc, cat)
+            .ok()
+            .and_then(|p| design_for(&p, target, &quick).found);
+        match found {
+            Some(f) => {
+                let details = details_of(problem, &f.bank, None);
+                let mut names: Vec<String> = Vec::new();
+                for d in &details {
+                    if !names.contains(&d.limit) {
+                        names.push(d.limit.clone());
+                    }
+                }
+                return Binding {
+                    limits: names,
+                    together: true,
+                    details,
+                };
+            }
+            None => out.push("catalog".into()),
+        }
+    }
+    Binding {
+        limits: out,
+        together: false,
+        details,
+    }
+}
+
+/// The limits that stop a design.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Binding {
+    /// Limit names; `["catalog"]` when even relaxing every limit does not
+    /// reach the target.
+    pub limits: Vec<String>,
+    /// No single limit binds: relaxing these together reaches the target.
+    pub together: bool,
+    /// For each binding limit, what the relaxed design's bank needed.
+    pub details: Vec<BindingDetail>,
+}
+
+/// One binding limit and by how much: the scenario's value and the value
+/// the bank found with that limit relaxed has (JSON `binding_detail`).
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct BindingDetail {
+    /// The limit's name, as in `binding`.
+    pub limit: String,
+    /// The part a per-part limit belongs to (height, ripple current,
+    /// count per part, exclusion, status).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub part: Option<String>,
+    /// The scenario's (or the catalog's) value of the limit.
+    pub value: Value,
+    /// What the relaxed design's bank needed.
+    pub needed: Value,
+    /// Unit of `value` and `needed` (`F`, `A`, `mm²`, `mm` or empty).
+    pub unit: String,
+}
+
+impl BindingDetail {
+    /// `max_count 12 → 17`, `max_height 3 mm → 5.8 mm (P4)`.
+    pub fn text(&self) -> String {
+        let f = |v: &Value| match v.as_f64() {
+            Some(x) => match self.unit.as_str() {
+                "F" | "A" | "V" => crate::units::format_si(x, &self.unit),
+                "" => format!("{}", (x * 1000.0).round() / 1000.0),
+                u => format!("{} {u}", (x * 100.0).round() / 100.0),
+            },
+            None => v.as_str().unwrap_or("").to_string(),
+        };
+        let part = self
+            .part
+            .as_ref()
+            .map_or(String::new(), |p| format!(" ({p})"));
+        format!(
+            "{} {} → {}{part}",
+            self.limit,
+            f(&self.value),
+            f(&self.needed)
+        )
+    }
+}
+
+/// The limits a bank (found with limits relaxed) breaks in the original
+/// problem, each with the scenario's value and the bank's; `only` keeps one
+/// limit name.
+fn details_of(problem: &Problem, bank: &[(usize, u32)], only: Option<&str>) -> Vec<BindingDetail> {
+    let mut out = Vec::new();
+    let mut push = |limit: &str, part: Option<String>, value: Value, needed: Value, unit: &str| {
+        if only.is_some_and(|o| o != limit) {
+            return;
+        }
+        out.push(BindingDetail {
+            limit: limit.to_string(),
+            part,
+            value,
+            needed,
+            unit: unit.to_string(),
+        });
+    };
+    if let Ok(a) = crate::assessment::assess(problem, bank) {
+        for c in a.checks.iter().filter(|c| !c.ok) {
+            let (head, rest) = c.name.split_once(' ').unwrap_or((c.name.as_str(), ""));
+            let name = match head {
+                "height" => "max_height",
+                "ripple_pp" | "voltage" | "temperature_min" | "temperature_max" => continue,
+                other => other,
+            };
+            let part = c
+                .part
+                .clone()
+                .or_else(|| (!rest.is_empty()).then(|| rest.to_string()));
+            push(name, part, json!(c.limit), json!(c.value), &c.unit);
+        }
+    }
+    let base = &problem.scenario;
+    for &(i, n) in bank {
+        let part = &problem.catalog.parts[i];
+        if let Some(r) = crate::problem::ineligibility(base, part, base.selection.objective) {
+            if r.contains("excluded") {
+                push(
+                    "exclude",
+                    Some(part.id.clone()),
+                    json!("excluded"),
+                    json!(format!("{n} used")),
+                    "",
+                );
+            } else if r.contains("nrnd") {
+                push(
+                    "status nrnd",
+                    Some(part.id.clone()),
+                    json!("not allowed"),
+                    json!(format!("{n} used")),
+                    "",
+                );
+            }
+        }
+    }
+    out
+}
