@@ -1,4 +1,4 @@
-//! Parts catalog (SPEC §2): CSV with a header row, any column order.
+//! Parts catalog: CSV with a header row, any column order.
 //!
 //! Every error names the file, the line and the column. Extra columns are
 //! kept and carried through to the bill of materials.
@@ -56,7 +56,7 @@ impl Technology {
         Technology::ALL.into_iter().find(|t| t.name() == s)
     }
 
-    /// Default voltage derating (SPEC §4, common practice, no source):
+    /// Default voltage derating (common practice, no source):
     /// 0.5 for MnO2 tantalum, 0.8 for every other technology.
     pub fn default_derating(self) -> f64 {
         match self {
@@ -470,7 +470,7 @@ pub struct Part {
     pub mpn: Option<String>,
     /// Free description, carried to the bill of materials.
     pub description: Option<String>,
-    /// Columns the catalog has beyond SPEC §2, as (header, value).
+    /// Columns the catalog has beyond the known ones, as (header, value).
     pub extra: Vec<(String, String)>,
     /// Line of the row in its file (1-based, header is line 1).
     pub line: u64,
@@ -563,7 +563,7 @@ impl Part {
         self.c_low(vdc, 0.0)
     }
 
-    /// Typical corner: `C_nom · k_bias(vdc)` (SPEC §4).
+    /// Typical corner: `C_nom · k_bias(vdc)`.
     pub fn c_typical(&self, vdc: f64) -> f64 {
         self.capacitance * self.bias_factor(vdc)
     }

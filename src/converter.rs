@@ -1,4 +1,4 @@
-//! Capacitor current waveforms of each topology (SPEC §5).
+//! Capacitor current waveforms of each topology.
 //!
 //! A waveform is one period of a piecewise-linear current, given by its
 //! vertices. Two vertices at the same time are a jump. The DC part is kept
@@ -105,7 +105,7 @@ impl Waveform {
     }
 
     /// Replace every jump by a linear ramp of `edge` seconds centred on it;
-    /// the ramp's ends take the ideal waveform's values there (SPEC §5). A
+    /// the ramp's ends take the ideal waveform's values there. A
     /// ramp is shortened to half of a neighbouring segment if it would not fit.
     pub fn with_edges(&self, edge: f64) -> Waveform {
         if edge <= 0.0 {
@@ -233,7 +233,7 @@ pub fn operating_point_at(s: &Scenario, vin: Option<f64>, l: Option<f64>) -> Ope
 }
 
 /// The rectifier current of a flyback or boost: zero while the switch is
-/// on, then a jump to `ipk` and a linear ramp down (SPEC §5).
+/// on, then a jump to `ipk` and a linear ramp down.
 enum Pulse {
     /// Ramps down to `imin` at the end of the period.
     Continuous { t_on: f64, ipk: f64, imin: f64 },
@@ -302,7 +302,7 @@ fn operating_point(s: &Scenario, vin: Option<f64>, l: f64) -> OperatingPoint {
                 fsw
             };
             let ratio = if c.topology == Topology::Buck { 1.0 } else { n };
-            // A half bridge puts vin/2 on the primary (SPEC §5).
+            // A half bridge puts vin/2 on the primary.
             let d = vout / (c.primary_voltage(vin) * ratio);
             let di = vout * (1.0 - d) / (l * f);
             let w = triangle(1.0 / f, d, di).interleave(c.phases);

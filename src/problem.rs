@@ -179,7 +179,7 @@ impl Problem {
             if objective == Objective::Area && why.as_deref() == Some(NO_AREA) {
                 bail!(
                     "{}: line {}, column `area`: part `{}` has no area and no EIA case code to derive it from, \
-                     which objective `area` needs (SPEC §2); give its area or exclude it",
+                     which objective `area` needs; give its area or exclude it",
                     catalog.source,
                     p.line,
                     p.id

@@ -1,4 +1,4 @@
-//! Scenario (SPEC §3): the converter, the target, the environment, the
+//! Scenario: the converter, the target, the environment, the
 //! board and the selection rules, in TOML. Unknown keys are errors.
 
 use crate::catalog::Technology;
@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 
 macro_rules! quantity {
     ($name:ident, $unit:expr) => {
-        /// A value read with SI prefixes (SPEC §1), stored in SI base units.
+        /// A value read with SI prefixes, stored in SI base units.
         #[derive(Debug, Clone, Copy, PartialEq, Default)]
         pub struct $name(pub f64);
 
@@ -373,7 +373,7 @@ pub struct Scenario {
     /// `name`.
     #[serde(default)]
     pub name: String,
-    /// Free text about the product (an extension of SPEC §3).
+    /// Free text about the product (an extension of the scenario format).
     #[serde(default)]
     pub description: String,
     /// `catalog`: path relative to the scenario file.
@@ -442,7 +442,7 @@ impl Scenario {
         })
     }
 
-    /// Every given input-voltage value is a corner (SPEC §3).
+    /// Every given input-voltage value is a corner.
     pub fn vin_corners(&self) -> Vec<f64> {
         let c = &self.converter;
         let mut v: Vec<f64> = [c.vin_min, c.vin, c.vin_max]

@@ -1,4 +1,4 @@
-//! Physical values with SI prefixes and unit symbols (SPEC §1).
+//! Physical values with SI prefixes and unit symbols.
 //!
 //! A value is either a plain number in SI base units or a string such as
 //! `"4.7uF"`, `"600kHz"`, `"2.5mOhm"` or `"1meg"`. Prefixes are
@@ -385,7 +385,7 @@ mod tests {
 
     #[test]
     fn spec_examples() {
-        // The examples listed in SPEC §1.
+        // The examples of the value forms the tool accepts.
         assert!(close(parse("4.7u", Unit::Farad).unwrap(), 4.7e-6));
         assert!(close(parse("4.7uF", Unit::Farad).unwrap(), 4.7e-6));
         assert!(close(parse("4.7µF", Unit::Farad).unwrap(), 4.7e-6));
