@@ -553,3 +553,27 @@ fn tradeoff_plots_mark_where_the_bank_changes() {
     let t = texts(&parse(&out[0].1));
     assert!(t.iter().any(|s| s.contains("no bank meets any")), "{t:?}");
 }
+
+#[test]
+fn impedance_band_spans_the_capacitance_box() {
+    // Well below resonance the bank is a capacitor: |Z| ≈ 1/(2πf·ΣC), so the
+    // high-corner curve sits below the low-corner one by ΣC_low/ΣC_high
+    // (series RLC far below resonance, any circuits text, e.g. Hayt &
+    // Kemmerly); 3 % allows for ESR and ESL at f_ripple/10.
+    let p = demo();
+    let b = bank(&p, &format!("{BIG}=3,{SMALL}=2"));
+    let d = plots::impedance_data(&p, &b).unwrap();
+    let (mut c_low, mut c_high) = (0.0, 0.0);
+    for &(i, n) in &b {
+        let m = p.part_model(i);
+        c_low += n as f64 * m.c_worst;
+        c_high += n as f64 * m.c_high;
+    }
+    let ratio = d.bank_high[0] / d.bank[0];
+    assert!(
+        (ratio / (c_low / c_high) - 1.0).abs() < 0.03,
+        "{ratio} vs {}",
+        c_low / c_high
+    );
+    assert!(d.bank_high.len() == d.freqs.len());
+}

@@ -55,7 +55,7 @@ fn rework_matches_brute_force() {
     let mut rng = StdRng::seed_from_u64(0x2e_0012);
     let mut compared = 0;
     let mut count_rule_mattered = 0;
-    for case in 0..120 {
+    for case in 0..40 {
         let nparts = rng.gen_range(3..=6);
         let cat_text = random_catalog(&mut rng, nparts);
         let conv = random_converter(&mut rng);
@@ -213,7 +213,7 @@ fn rework_matches_brute_force() {
         count_rule_mattered >= 1,
         "no case where counting count changes changes the answer"
     );
-    assert!(compared >= 40, "too few comparable cases: {compared}");
+    assert!(compared >= 12, "too few comparable cases: {compared}");
 }
 
 #[test]

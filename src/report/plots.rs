@@ -106,6 +106,10 @@ pub struct ImpedanceData {
     pub internal: Option<Vec<f64>>,
     /// |Z| the converter's current sees (the whole bank, worst capacitance), Ω.
     pub bank: Vec<f64>,
+    /// The same at the region's high corner (every line at its highest
+    /// capacitance and lowest ESR): with `bank`, the band the bank's |Z|
+    /// spans over the corner region's capacitance box.
+    pub bank_high: Vec<f64>,
     /// (f_k, |Z(f_k)|) at each harmonic of the target figure, from the evaluator.
     pub harmonics: Vec<(f64, f64)>,
     /// (f_k, Z_needed): the impedance at which harmonic k alone would make the
@@ -120,6 +124,17 @@ pub struct ImpedanceData {
 
 /// |Z| of the whole bank (worst capacitance) at arbitrary frequencies.
 pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -> Vec<f64> {
+    bank_impedance_at(problem, bank, freqs, false)
+}
+
+/// |Z| of the whole bank at the low corner (`high = false`: worst
+/// capacitance) or the high corner (highest capacitance, lowest ESR).
+pub fn bank_impedance_at(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    freqs: &[f64],
+    high: bool,
+) -> Vec<f64> {
     let models: Vec<(PartModel, f64)> = bank
         .iter()
         .filter(|b| b.1 > 0)
@@ -131,7 +146,13 @@ pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -
         .map(|&f| {
             let yb: Complex64 = models
                 .iter()
-                .map(|(m, n)| admittance(m.esr, m.esl, m.c_worst, f) * *n)
+                .map(|(m, n)| {
+                    if high {
+                        admittance(m.esr_min, m.esl, m.c_high, f) * *n
+                    } else {
+                        admittance(m.esr, m.esl, m.c_worst, f) * *n
+                    }
+                })
                 .sum();
             network.transfer(yb, f).norm()
         })
@@ -178,6 +199,7 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
             .collect()
     });
     let bank = bank_impedance(problem, &p.bank, &freqs);
+    let bank_high = bank_impedance_at(problem, &p.bank, &freqs, true);
     let target = problem.scenario.target.ripple_pp.0;
     let nl = ev.n_limited;
     let harmonics = (0..nl).map(|k| (ev.freqs[k], zt[k])).collect();
@@ -192,6 +214,7 @@ fn impedance_of(p: &mut Prep, problem: &Problem) -> ImpedanceData {
         groups,
         internal,
         bank,
+        bank_high,
         harmonics,
         needed,
         vin_corner: p.vin_corner,
@@ -627,6 +650,7 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         curves.push(z);
     }
     curves.push(&d.bank);
+    curves.push(&d.bank_high);
     let (clo, chi) = min_max(
         curves
             .iter()
@@ -675,9 +699,14 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         ));
     }
     entries.push(entry(
-        "whole bank, as the converter's current sees it",
+        "whole bank, as the converter's current sees it (lowest capacitance)",
         INK,
         Mark::Line(4),
+    ));
+    entries.push(entry(
+        "whole bank at its highest capacitance and lowest ESR (the band between: the corner region)",
+        INK,
+        Mark::Dashed,
     ));
     entries.push(entry(
         "the bank at each harmonic of the ripple current",
@@ -733,6 +762,13 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         for run in log_runs(&d.freqs, &d.bank, ylo, yhi) {
             chart
                 .draw_series(LineSeries::new(run, INK.stroke_width(4)))
+                .map_err(pe)?;
+        }
+        // The high corner, dashed: the band between the two is the bank's
+        // |Z| over the capacitance box of the corner region.
+        for run in log_runs(&d.freqs, &d.bank_high, ylo, yhi) {
+            chart
+                .draw_series(DashedLineSeries::new(run, 10, 6, INK.stroke_width(2)))
                 .map_err(pe)?;
         }
         for (j, g) in d.groups.iter().enumerate() {
