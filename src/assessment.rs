@@ -543,6 +543,12 @@ pub fn bom_to_bank(
     Ok(out)
 }
 
+/// Relative rounding allowed when a ripple figure is compared with its
+/// limit (the optimizer's region check uses the same): a module's current is
+/// calibrated to its standalone ripple, which the converter alone must then
+/// meet at a target equal to it.
+pub const RIPPLE_ROUNDING: f64 = 1e-9;
+
 /// A voltage in millivolts with sensible digits.
 fn text_mv(v: f64) -> String {
     crate::units::format_si(v, "V")
@@ -825,7 +831,7 @@ pub fn assess_with(
             value: ripple_pp,
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
-            ok: ripple_pp <= s.target.ripple_pp.0,
+            ok: ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING),
             part: None,
             bound: Bound::AtMost,
         },
@@ -836,7 +842,7 @@ pub fn assess_with(
             value: ripple_pp,
             limit: s.design_target(),
             unit: "V".into(),
-            ok: ripple_pp <= s.design_target(),
+            ok: ripple_pp <= s.design_target() * (1.0 + RIPPLE_ROUNDING),
             part: None,
             bound: Bound::AtMost,
         });
@@ -892,7 +898,7 @@ pub fn assess_with(
         })
         .collect();
     let c_at_ripple = capacitance_at_ripple(ev, local, crate::evaluator::Corner::Worst);
-    let meets_target = ripple_pp <= s.target.ripple_pp.0;
+    let meets_target = ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING);
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
         corner: opts.corner,
