@@ -635,14 +635,21 @@ impl Evaluator {
             Band::Full => self.n_full,
         };
         self.fill_transfer(bank, corner, n);
-        self.load_remainder(vin_corner, band, n);
-        if !self.pp_from_buf(n, band, vin_corner).is_finite() {
+        self.samples_filled(band, vin_corner)
+    }
+
+    /// The grid samples of the exact waveform at operating point `op` for
+    /// the transfer last filled (empty when the figure is not finite).
+    fn samples_filled(&mut self, band: Band, op: usize) -> Vec<f64> {
+        let n = self.harmonics_of(band);
+        self.load_remainder(op, band, n);
+        if !self.pp_from_buf(n, band, op).is_finite() {
             return Vec::new();
         }
         let (m, closed) = if band == Band::Full {
-            (self.plan_full.m, &self.closed_full[vin_corner])
+            (self.plan_full.m, &self.closed_full[op])
         } else {
-            (self.plan_limited.m, &self.closed_limited[vin_corner])
+            (self.plan_limited.m, &self.closed_limited[op])
         };
         let (a0, a1) = self.asym;
         self.buf[..m]
@@ -792,22 +799,7 @@ impl Evaluator {
         }
         let n = self.harmonics_of(band);
         self.fill_states(bank, states, n);
-        self.load_remainder(op, band, n);
-        if !self.pp_from_buf(n, band, op).is_finite() {
-            return Vec::new();
-        }
-        let (m, closed) = if band == Band::Full {
-            (self.plan_full.m, &self.closed_full[op])
-        } else {
-            (self.plan_limited.m, &self.closed_limited[op])
-        };
-        let (a0, a1) = self.asym;
-        self.buf[..m]
-            .iter()
-            .zip(&closed.g0)
-            .zip(&closed.g1)
-            .map(|((x, g0), g1)| x.re + a0 * g0 + a1 * g1)
-            .collect()
+        self.samples_filled(band, op)
     }
 
     /// Harmonic voltage phasors V_k of the target figure with each line at
