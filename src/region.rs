@@ -275,6 +275,26 @@ fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
     out
 }
 
+/// Evaluate one set of line states at each of `ops`, recording every point.
+fn push_points(
+    ev: &mut Evaluator,
+    bank: &Bank,
+    states: &[LineState],
+    ops: &[usize],
+    band: Band,
+    seen: &mut Vec<Worst>,
+) {
+    ev.fill_states(bank, states, ev.harmonics_of(band));
+    for &op in ops {
+        let value = ev.pp_filled(op, band);
+        seen.push(Worst {
+            value,
+            op,
+            states: states.to_vec(),
+        });
+    }
+}
+
 /// The worst point of the region for `bank` and its figure (see the module
 /// documentation for the method). Adds operating points to `ev`.
 pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> Worst {
@@ -286,21 +306,12 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
     if ev.is_empty(bank) {
         return empty;
     }
-    let n = ev.harmonics_of(band);
     let ops = ev.ops_region.clone();
     // 1. Named corners at every starting point.
     let mut seen: Vec<Worst> = Vec::new();
     for which in [Named::Low, Named::High, Named::Typical] {
         let st = named_states(ev, bank, which);
-        ev.fill_states(bank, &st, n);
-        for &op in &ops {
-            let v = ev.pp_filled(op, band);
-            seen.push(Worst {
-                value: v,
-                op,
-                states: st.clone(),
-            });
-        }
+        push_points(ev, bank, &st, &ops, band, &mut seen);
     }
     if seen.iter().any(|w| !w.value.is_finite()) {
         return seen
@@ -320,15 +331,7 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         }
     }
     for st in vertices(ev, bank) {
-        ev.fill_states(bank, &st, n);
-        for &op in &top_ops {
-            let v = ev.pp_filled(op, band);
-            seen.push(Worst {
-                value: v,
-                op,
-                states: st.clone(),
-            });
-        }
+        push_points(ev, bank, &st, &top_ops, band, &mut seen);
     }
     seen.sort_by(|a, b| b.value.total_cmp(&a.value));
     seen.dedup_by(|a, b| a.op == b.op && a.states == b.states);
