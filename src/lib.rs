@@ -36,6 +36,7 @@ pub mod commands;
 pub mod converter;
 #[allow(missing_docs)]
 pub mod evaluator;
+pub mod filter;
 #[allow(missing_docs)] // read and checked, not yet wired into the commands
 pub mod inductors;
 pub mod limits;
