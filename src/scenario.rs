@@ -1161,8 +1161,18 @@ impl Scenario {
 
     /// Check that the parts named in `exclude` and `require` exist.
     pub fn check_against(&self, catalog: &crate::catalog::Catalog) -> Result<()> {
+        self.check_against_parts(catalog, None)
+    }
+
+    /// As [`Scenario::check_against`]; `exclude` may name inductors of the
+    /// inductor catalog too.
+    pub fn check_against_parts(
+        &self,
+        catalog: &crate::catalog::Catalog,
+        inductors: Option<&crate::inductors::InductorCatalog>,
+    ) -> Result<()> {
         for p in &self.selection.exclude {
-            if catalog.get(p).is_none() {
+            if catalog.get(p).is_none() && inductors.is_none_or(|l| l.get(p).is_none()) {
                 bail!(
                     "{}: key `selection.exclude`: part `{p}` is not in the catalog {}",
                     self.source,
