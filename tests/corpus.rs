@@ -559,10 +559,7 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "bom-filter-position.csv",
         Bom,
-        &[
-            "line 3, column `position`",
-            "filter positions need the filter model",
-        ],
+        &["line 3, column `position`", "no row in position `inductor`"],
     ),
     (
         "bom-unknown-position.csv",

@@ -352,8 +352,12 @@ pub fn bom_to_design(
         return Ok((bank, None));
     }
     let Some((inductor, count, iline)) = inductor else {
+        let first = rows
+            .iter()
+            .find(|r| matches!(r.position, Position::Load | Position::Damping))
+            .map_or(1, |r| r.line);
         bail!(
-            "{src}: line 1, column `position`: rows in position `load` or `damping` but no row in position \
+            "{src}: line {first}, column `position`: a row in position `load` or `damping` but no row in position \
              `inductor`: a filter needs its inductor"
         );
     };
@@ -613,7 +617,7 @@ mod tests {
     fn bill_of_materials_filter_errors_name_line_and_column() {
         let head = format!("part,count,position\n{CAP},2,converter\n");
         for (body, want) in [
-            (format!("{CAP},3,load\n"), "line 1, column `position`: rows in position `load` or `damping` but no row in position `inductor`"),
+            (format!("{CAP},3,load\n"), "line 3, column `position`: a row in position `load` or `damping` but no row in position `inductor`"),
             (format!("{IND},1,inductor\n"), "line 3, column `position`: an inductor but no load-side bank"),
             (format!("{IND},1,inductor\nRB-L4040-2U2,1,inductor\n{CAP},1,load\n"), "line 4, column `position`: a second inductor row (the first is on line 3)"),
             (format!("{IND},9,inductor\n{CAP},1,load\n"), "line 3, column `count`: 9 inductors in parallel"),
