@@ -27,6 +27,7 @@
 use super::search::{binomial_sum, line_sets, prune_dominated, Search};
 use super::{design_for, Settings};
 use crate::evaluator::Band;
+use crate::limits::LimitId;
 use crate::problem::Problem;
 use serde::Serialize;
 use serde_json::{json, Value};
@@ -160,31 +161,32 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
 fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u32)>>, f64) {
     let mut s = Search::new(problem, cands, f64::INFINITY);
     let floor = floor_of(&s);
-    let free = s.lim.max_lines.saturating_sub(s.required.len());
+    let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
     let all: Vec<usize> = (0..s.parts.len()).collect();
     let sets = if binomial_sum(all.len(), free) <= 20_000 {
-        line_sets(&s.required.clone(), &all, free)
+        line_sets(&s.required_parts.clone(), &all, free)
     } else {
         // Rank parts by their admittance at the most demanding harmonic.
         let mut order = all.clone();
-        let k = (0..s.n)
-            .max_by(|&x, &y| s.q[x].total_cmp(&s.q[y]))
+        let k = (0..s.harmonics)
+            .max_by(|&x, &y| s.required[x].total_cmp(&s.required[y]))
             .unwrap_or(0);
         order.sort_by(|&x, &y| {
-            (s.ub[y] as f64 * s.a[y * s.n + k]).total_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
+            (s.count_max[y] as f64 * s.adm_mag[y * s.harmonics + k])
+                .total_cmp(&(s.count_max[x] as f64 * s.adm_mag[x * s.harmonics + k]))
         });
         order.truncate(24);
-        line_sets(&s.required.clone(), &order, free)
+        line_sets(&s.required_parts.clone(), &order, free)
     };
     // Optimistic floor per set, then greedy descent in floor order.
     let mut floored: Vec<(f64, Vec<usize>)> = sets
         .into_iter()
-        .filter(|set| set.iter().all(|&i| s.ub[i] >= s.lb[i]))
+        .filter(|set| set.iter().all(|&i| s.count_max[i] >= s.count_min[i]))
         .map(|set| {
-            let mut sum = vec![0.0; s.n];
+            let mut sum = vec![0.0; s.harmonics];
             for &i in &set {
-                for k in 0..s.n {
-                    sum[k] += s.ub[i] as f64 * s.a[i * s.n + k];
+                for k in 0..s.harmonics {
+                    sum[k] += s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
                 }
             }
             (s.ev.ripple_floor_for(&sum), set)
@@ -214,16 +216,16 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
 /// turns that into a ripple no bank can go below.
 fn floor_of(s: &Search) -> f64 {
     let np = s.parts.len();
-    let mut sum = vec![0.0; s.n];
+    let mut sum = vec![0.0; s.harmonics];
     let mut col: Vec<(f64, u32)> = Vec::with_capacity(np);
-    for k in 0..s.n {
+    for k in 0..s.harmonics {
         col.clear();
-        col.extend((0..np).map(|i| (s.a[i * s.n + k], s.ub[i])));
+        col.extend((0..np).map(|i| (s.adm_mag[i * s.harmonics + k], s.count_max[i])));
         col.sort_by(|x, y| y.0.total_cmp(&x.0));
         let mut by_line: Vec<f64> = col.iter().map(|&(a, u)| a * u as f64).collect();
         by_line.sort_by(|x, y| y.total_cmp(x));
         let lines: f64 = by_line.iter().take(s.lim.max_lines).sum();
-        let mut left = s.lim.max_count;
+        let mut left = s.lim.value(LimitId::MaxCount);
         let mut units = 0.0;
         for &(a, u) in &col {
             if left <= 0.0 {
@@ -244,20 +246,9 @@ pub(super) const MIN_RIPPLE_SETS: usize = 400;
 /// Greedy: from the lower bounds, add the part that lowers the ripple most
 /// while the limits allow; stop when nothing helps.
 pub(super) fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
-    let mut counts: Vec<u32> = set.iter().map(|&i| s.lb[i]).collect();
+    let mut counts: Vec<u32> = set.iter().map(|&i| s.count_min[i]).collect();
     let fits = |s: &Search, counts: &[u32]| -> bool {
-        let (mut cap, mut cnt, mut area) = (0.0, 0.0, 0.0);
-        for (&i, &n) in set.iter().zip(counts) {
-            cap += n as f64 * s.parts[i].c_limit;
-            cnt += n as f64;
-            area += n as f64 * s.parts[i].area;
-            if n > s.ub[i] {
-                return false;
-            }
-        }
-        cap <= s.lim.max_cap * (1.0 + 1e-12)
-            && cnt <= s.lim.max_count
-            && area <= s.lim.max_area * (1.0 + 1e-12)
+        set.iter().zip(counts).all(|(&i, &n)| n <= s.count_max[i]) && s.lim.upper_hold(set, counts)
     };
     if !fits(s, &counts) {
         return None;

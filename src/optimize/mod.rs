@@ -27,7 +27,9 @@
 //!    the lowest ripple by bisection on the target with this same search,
 //!    and relaxes each limit in turn to find the ones that bind.
 
+use crate::assessment::RIPPLE_ROUNDING;
 use crate::evaluator::{Band, LineState};
+use crate::limits::LimitId;
 use crate::problem::Problem;
 
 /// Most searches the cutting-plane loop of [`design_for`] runs.
@@ -198,7 +200,7 @@ fn region_cut(
     target: f64,
 ) -> Result<f64, Cut> {
     let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
-    if w.value <= target * (1.0 + 1e-9) {
+    if w.value <= target * (1.0 + RIPPLE_ROUNDING) {
         return Ok(w.value);
     }
     let mut st: Vec<LineState> = s
@@ -244,27 +246,27 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
         let mut s = search_with(problem, &cands, target, &actives);
         s.budget = settings.max_evaluations;
         // The converter alone (no added parts), when it has capacitance of its own.
-        if s.required.is_empty()
+        if s.required_parts.is_empty()
             && problem.scenario.converter.internal_capacitance.is_some()
-            && s.lim.min_cap <= 0.0
+            && s.lim.value(LimitId::MinCapacitance) <= 0.0
         {
             s.bank_buf.clear();
             // A module's current is calibrated so that the converter alone
             // shows standalone_ripple_pp; a target equal to it must pass
-            // despite rounding (the same 1e-9 the region check allows).
+            // despite rounding (the same allowance as the region check).
             let exact_target = s.target;
-            s.target = exact_target * (1.0 + 1e-9);
+            s.target = exact_target * (1.0 + RIPPLE_ROUNDING);
             if let Some(r) = s.exact() {
                 s.incumbent = Some(([0.0; 3], Vec::new(), r));
             }
             s.target = exact_target;
         }
-        let free = s.lim.max_lines.saturating_sub(s.required.len());
+        let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
         let all: Vec<usize> = (0..s.parts.len()).collect();
-        let total =
-            binomial_sum(all.len() - s.required.len(), free) + usize::from(!s.required.is_empty());
+        let total = binomial_sum(all.len() - s.required_parts.len(), free)
+            + usize::from(!s.required_parts.is_empty());
         stats.line_sets_total = total;
-        if s.required.len() <= s.lim.max_lines {
+        if s.required_parts.len() <= s.lim.max_lines {
             if total <= settings.exhaustive_limit {
                 run_all_sets(&mut s, &all, free, settings, "design");
                 proven = true;
