@@ -47,6 +47,7 @@ use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
 use crate::region::{golden, named_states_of, vertices_of, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
+use serde::Serialize;
 use rustfft::{Fft, FftPlanner};
 use std::f64::consts::PI;
 use std::sync::Arc;
@@ -638,23 +639,37 @@ pub struct StepWorst {
     pub states: Vec<LineState>,
 }
 
-/// Everything the reports say about a bank's load step.
-#[derive(Debug, Clone, PartialEq)]
+/// Everything the reports say about a bank's load step (JSON `transient`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StepFigures {
-    /// The scenario's load step.
-    pub spec: Spec,
+    /// The step of load current, A.
+    pub load_step: f64,
+    /// The limit, V.
+    pub max_deviation: f64,
     /// The largest deviation over the corner region, V.
     pub deviation: f64,
-    /// Where it occurs.
-    pub states: Vec<LineState>,
-    /// The peak |Z_open| from `f_c` to `0.35 / rise_time` there, Ω.
+    /// The target impedance `max_deviation / load_step`, Ω.
+    pub z_target: f64,
+    /// The peak |Z| seen from the load node with the converter open, from
+    /// `loop_crossover` to `0.35 / rise_time`, at the worst point, Ω.
     pub z_peak: f64,
     /// Its frequency, Hz.
     pub z_peak_frequency: f64,
-    /// The step response there, `(t, v)`.
-    pub response: Vec<(f64, f64)>,
     /// The deviation keeps the limit.
     pub ok: bool,
+    /// The loop crossover the model used, Hz.
+    pub loop_crossover: f64,
+    /// The 10–90 % rise time of the step, s.
+    pub rise_time: f64,
+    /// The settled deviation `ΔI/(2π·f_c·C)` of the bank's lowest total
+    /// capacitance (the converter's own included), V.
+    pub settled: f64,
+    /// Where the worst deviation occurs: each line's capacitance and ESR.
+    #[serde(skip)]
+    pub states: Vec<LineState>,
+    /// The step response there, `(t, v)` (s, V from the level before).
+    #[serde(skip)]
+    pub response: Vec<(f64, f64)>,
 }
 
 /// Relative rounding the load-step check allows (the optimizer's region
@@ -668,13 +683,24 @@ pub fn figures(s: &Scenario, parts: &[PartModel], bank: &Bank) -> Option<StepFig
     let w = m.worst(parts, bank);
     let (z_peak, z_f) = m.z_peak(bank, &w.states);
     let response = m.response(bank, &w.states);
+    let sp = m.spec;
+    let c_low: f64 = bank
+        .iter()
+        .map(|&(i, n)| n as f64 * parts[i].c_worst)
+        .sum::<f64>()
+        + m.network.internal.map_or(0.0, |b| b.c);
     Some(StepFigures {
-        spec: m.spec,
-        ok: w.deviation <= m.spec.max_deviation * (1.0 + ROUNDING),
+        load_step: sp.load_step,
+        max_deviation: sp.max_deviation,
+        ok: w.deviation <= sp.max_deviation * (1.0 + ROUNDING),
         deviation: w.deviation,
-        states: w.states,
+        z_target: sp.z_target(),
         z_peak,
         z_peak_frequency: z_f,
+        loop_crossover: sp.crossover,
+        rise_time: sp.rise_time,
+        settled: if c_low > 0.0 { sp.settled(c_low) } else { f64::INFINITY },
+        states: w.states,
         response,
     })
 }

@@ -24,7 +24,9 @@ impl Limits {
         let v = |id| limits::limit(id).value_or_open(s);
         Limits {
             max_cap: v(LimitId::MaxCapacitance),
-            min_cap: v(LimitId::MinCapacitance),
+            // The least capacitance: min_capacitance, and the floors of
+            // limits that are not linear (the load step's settled value).
+            min_cap: v(LimitId::MinCapacitance).max(limits::capacitance_floor(s)),
             max_count: v(LimitId::MaxCount),
             max_area: v(LimitId::MaxArea),
             max_lines: v(LimitId::MaxLines) as usize,
@@ -71,6 +73,12 @@ pub(super) struct Search {
     pub(super) ratings: Vec<Option<f64>>,
     /// Exact evaluations allowed; past it the search stops (result `feasible`).
     pub(super) budget: usize,
+    /// The load-step model over the candidates, with `[transient]`.
+    pub(super) step: Option<crate::transient::StepModel>,
+    /// Points of the corner region every candidate's load step is also
+    /// checked at (per local part, its state there).
+    pub(super) step_cuts: Vec<Vec<crate::evaluator::LineState>>,
+    pub(super) step_buf: Vec<crate::evaluator::LineState>,
     pub(super) stopped: bool,
 }
 
@@ -128,7 +136,11 @@ impl Search {
         }
         let phase = ev.phase_terms(target);
         let ratings = parts.iter().map(|p| p.rating).collect();
+        let step = crate::transient::StepModel::new(s, &parts);
         Search {
+            step,
+            step_cuts: Vec::new(),
+            step_buf: Vec::new(),
             active: Vec::new(),
             ratings,
             adm,
@@ -331,6 +343,19 @@ impl Search {
                 ..
             } = self;
             if !crate::region::screen(ev, bank_buf, *target, active, ratings) {
+                return false;
+            }
+        }
+        // The load step: its `low` corner, its cuts and the box's vertices.
+        if let Some(m) = self.step.as_mut() {
+            let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
+            if !m.screen(
+                &self.parts,
+                &self.bank_buf,
+                limit,
+                &self.step_cuts,
+                &mut self.step_buf,
+            ) {
                 return false;
             }
         }
