@@ -24,7 +24,7 @@
 //! up to 2·4^L, then about 3 × 2 × (2L·12 + 2·12) — a few hundred
 //! evaluations (a few milliseconds) for a three-line bank.
 
-use crate::evaluator::{Band, Bank, Evaluator, LineState};
+use crate::evaluator::{Band, Bank, Evaluator, LineState, PartModel};
 use crate::problem::Problem;
 
 /// One of the named corners of the reports.
@@ -51,9 +51,14 @@ impl Named {
 
 /// The line states of a named corner.
 pub fn named_states(ev: &Evaluator, bank: &Bank, which: Named) -> Vec<LineState> {
+    named_states_of(&ev.parts, bank, which)
+}
+
+/// As [`named_states`], for a bank over the part list `parts`.
+pub(crate) fn named_states_of(parts: &[PartModel], bank: &Bank, which: Named) -> Vec<LineState> {
     bank.iter()
         .map(|&(i, _)| {
-            let p = &ev.parts[i];
+            let p = &parts[i];
             match which {
                 Named::Low => LineState {
                     c: p.c_worst,
@@ -172,7 +177,7 @@ fn bracket(v: &[f64], x: f64) -> (f64, f64) {
 
 /// Golden-section search for the maximum of `f` on `[a, b]`; returns the
 /// best argument and value seen (ends included).
-fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, f64) {
+pub(crate) fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, f64) {
     let r = 0.5 * (5f64.sqrt() - 1.0);
     let (mut lo, mut hi) = (a, b);
     let mut best = (a, f(a));
@@ -217,8 +222,8 @@ fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, 
 }
 
 /// The choices of one line at the box's vertices.
-fn vertex_options(ev: &Evaluator, i: usize) -> Vec<LineState> {
-    let p = &ev.parts[i];
+fn vertex_options(parts: &[PartModel], i: usize) -> Vec<LineState> {
+    let p = &parts[i];
     let mut cs = vec![p.c_worst];
     if p.c_high != p.c_worst {
         cs.push(p.c_high);
@@ -239,7 +244,12 @@ fn vertex_options(ev: &Evaluator, i: usize) -> Vec<LineState> {
 /// Every vertex of the bank's box, or (past 256) the named corners'
 /// single-line flips.
 fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
-    let opts: Vec<Vec<LineState>> = bank.iter().map(|&(i, _)| vertex_options(ev, i)).collect();
+    vertices_of(&ev.parts, bank)
+}
+
+/// As [`vertices`], for a bank over the part list `parts`.
+pub(crate) fn vertices_of(parts: &[PartModel], bank: &Bank) -> Vec<Vec<LineState>> {
+    let opts: Vec<Vec<LineState>> = bank.iter().map(|&(i, _)| vertex_options(parts, i)).collect();
     let total: usize = opts.iter().map(|o| o.len()).product();
     let mut out = Vec::new();
     if total <= 256 {
@@ -261,7 +271,7 @@ fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
         }
     } else {
         for base in [Named::Low, Named::High] {
-            let b = named_states(ev, bank, base);
+            let b = named_states_of(parts, bank, base);
             out.push(b.clone());
             for (j, o) in opts.iter().enumerate() {
                 for st in o {

@@ -65,6 +65,9 @@ pub struct Explanation {
     pub lowest: Lowest,
     /// The limits that stop a design.
     pub binding: Binding,
+    /// With a load step: the lowest deviation any bank meeting every other
+    /// limit reaches.
+    pub lowest_deviation: Option<LowestDeviation>,
 }
 
 /// The lowest ripple and the binding limits for an infeasible `target`.
@@ -72,10 +75,12 @@ pub fn explain(problem: &Problem, target: f64, settings: &Settings) -> Explanati
     Explanation {
         lowest: lowest_ripple(problem, settings),
         binding: binding(problem, target),
+        lowest_deviation: lowest_deviation(problem, settings),
     }
 }
 
-/// Verified ripple of a bank (catalog indices) over the whole corner region.
+/// Verified ripple of a bank (catalog indices) over the whole corner
+/// region; infinite when the bank misses the scenario's load step.
 fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
     let mut ev = problem.evaluator(&parts);
@@ -83,7 +88,123 @@ fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
     if ev.is_empty(&local) {
         return f64::INFINITY;
     }
+    if let Some(d) = verified_deviation(problem, &ev.parts, &local) {
+        if !(d <= problem.scenario.transient.as_ref().map_or(f64::INFINITY, |t| t.max_deviation.0)
+            * (1.0 + crate::transient::ROUNDING))
+        {
+            return f64::INFINITY;
+        }
+    }
     crate::region::worst(problem, &mut ev, &local, Band::Limited).value
+}
+
+/// The load step's deviation of a bank over the corner region (`None`
+/// without `[transient]`).
+fn verified_deviation(
+    problem: &Problem,
+    parts: &[crate::evaluator::PartModel],
+    local: &[(usize, u32)],
+) -> Option<f64> {
+    let mut m = crate::transient::StepModel::new(&problem.scenario, parts)?;
+    Some(m.worst(parts, local).deviation)
+}
+
+/// The lowest load-step deviation found, with its bank.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct LowestDeviation {
+    /// The lowest deviation over the corner region any bank meeting every
+    /// other limit reached (the ripple target left out), V.
+    pub deviation: f64,
+    /// That bank (catalog indices and counts).
+    #[serde(skip)]
+    pub bank: Option<Vec<(usize, u32)>>,
+    /// Lower end of the final bracket, V: the settled value of the most
+    /// capacitance the limits allow, or a probe `design` found no bank for.
+    pub bracket_low: f64,
+    /// `design_for` probes made.
+    pub probes: usize,
+}
+
+/// The lowest load-step deviation any bank meeting every limit but the
+/// ripple target reaches: bisection on `max_deviation` with
+/// [`super::design_for`] at an open ripple target, from the cheapest bank
+/// without the step (upper end) and the settled value of the most
+/// capacitance the count limits allow (lower end). `None` without
+/// `[transient]`.
+pub fn lowest_deviation(problem: &Problem, settings: &Settings) -> Option<LowestDeviation> {
+    let spec = crate::transient::Spec::of(&problem.scenario)?;
+    let quiet = Settings {
+        progress: false,
+        milp_proposals: 0,
+        ..settings.clone()
+    };
+    let with_limit = |t: Option<f64>| -> Option<Problem> {
+        let mut sc = problem.scenario.clone();
+        match t {
+            Some(t) => {
+                if let Some(tr) = sc.transient.as_mut() {
+                    tr.max_deviation.0 = t;
+                }
+            }
+            None => sc.transient = None,
+        }
+        Problem::new(sc, problem.catalog.clone()).ok()
+    };
+    let deviation_of = |bank: &[(usize, u32)]| -> f64 {
+        let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+        let models: Vec<crate::evaluator::PartModel> =
+            parts.iter().map(|&i| problem.part_model(i)).collect();
+        let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+        verified_deviation(problem, &models, &local).unwrap_or(f64::INFINITY)
+    };
+    let mut out = LowestDeviation {
+        deviation: f64::INFINITY,
+        ..Default::default()
+    };
+    // Upper end: the cheapest bank with the step left open.
+    let open = with_limit(None)?;
+    if let Some(f) = design_for(&open, f64::MAX, &quiet).found {
+        out.deviation = deviation_of(&f.bank);
+        out.bank = Some(f.bank);
+    }
+    // Lower end: the most low-corner capacitance any allowed bank can have
+    // (each part at its count limit, at most `max_lines` lines), settled.
+    let (cands, _) = prune_dominated(problem, &problem.eligible);
+    let s = Search::new(problem, &cands, f64::INFINITY);
+    let mut caps: Vec<f64> = (0..s.parts.len())
+        .map(|i| s.count_max[i] as f64 * s.parts[i].c_worst)
+        .collect();
+    caps.sort_by(|a, b| b.total_cmp(a));
+    let own = problem.scenario.converter.internal_capacitance.map_or(0.0, |c| c.0);
+    let c_max: f64 = caps.iter().take(s.lim.max_lines).sum::<f64>() + own;
+    let mut lo = if c_max > 0.0 { spec.settled(c_max) } else { 0.0 };
+    while out.probes < MAX_PROBES && out.deviation.is_finite() {
+        if out.deviation <= lo * (1.0 + BISECT_TOLERANCE) {
+            break;
+        }
+        let t = if lo > 0.0 {
+            (lo * out.deviation).sqrt()
+        } else {
+            out.deviation * 0.5
+        };
+        out.probes += 1;
+        let Some(p) = with_limit(Some(t)) else { break };
+        match design_for(&p, f64::MAX, &quiet).found {
+            Some(f) => {
+                let d = deviation_of(&f.bank);
+                if d < out.deviation {
+                    out.deviation = d;
+                    out.bank = Some(f.bank);
+                } else {
+                    // Cannot happen (the bank meets t < the upper end); stop.
+                    break;
+                }
+            }
+            None => lo = t,
+        }
+    }
+    out.bracket_low = lo;
+    Some(out)
 }
 
 /// The lowest worst-over-the-region ripple any allowed bank reaches (see the
@@ -349,6 +470,10 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
             "require",
             Box::new(|s: &mut Scenario| s.selection.require.clear()),
         ));
+    }
+    if base.transient.is_some() {
+        let relax = crate::limits::limit(crate::limits::LimitId::MaxDeviation).relax;
+        tries.push(("max_deviation", Box::new(relax)));
     }
     if base.converter.min_capacitance.0 > 0.0 {
         tries.push((

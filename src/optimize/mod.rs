@@ -169,40 +169,44 @@ mod milp;
 mod rework;
 mod search;
 
-pub use explain::{binding, explain, lowest_ripple, Binding, BindingDetail, Explanation, Lowest};
+pub use explain::{
+    binding, explain, lowest_deviation, lowest_ripple, Binding, BindingDetail, Explanation, Lowest,
+    LowestDeviation,
+};
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
-/// A point of the corner region to check every candidate at: an operating
-/// point and the state of every candidate part there.
-pub(crate) type Cut = (crate::converter::OperatingPoint, Vec<LineState>);
+/// A point of the corner region to check every candidate at: for the
+/// ripple, an operating point and the state of every candidate part there;
+/// for the load step, the state of every candidate part.
+#[derive(Debug, Clone)]
+pub(crate) enum Cut {
+    /// A point where a bank's ripple broke the target.
+    Ripple(crate::converter::OperatingPoint, Vec<LineState>),
+    /// A point where a bank's load-step deviation broke its limit.
+    Step(Vec<LineState>),
+}
 
 /// A search over `cands` that also checks every cut.
 fn search_with(problem: &Problem, cands: &[usize], target: f64, cuts: &[Cut]) -> Search {
     let mut s = Search::new(problem, cands, target);
-    for (op, st) in cuts {
-        let idx = s.ev.add_op(op);
-        s.active.push(crate::region::Active {
-            op: idx,
-            states: st.clone(),
-        });
+    for cut in cuts {
+        match cut {
+            Cut::Ripple(op, st) => {
+                let idx = s.ev.add_op(op);
+                s.active.push(crate::region::Active {
+                    op: idx,
+                    states: st.clone(),
+                });
+            }
+            Cut::Step(st) => s.step_cuts.push(st.clone()),
+        }
     }
     s
 }
 
-/// Verify a bank (local indices of `s`) over the whole corner region: its
-/// worst figure when it holds, else the cut at the point that breaks it
-/// (the bank's lines at their states there, every other part at `low`).
-fn region_cut(
-    problem: &Problem,
-    s: &mut Search,
-    bank: &[(usize, u32)],
-    target: f64,
-) -> Result<f64, Cut> {
-    let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
-    if w.value <= target * (1.0 + RIPPLE_ROUNDING) {
-        return Ok(w.value);
-    }
+/// Every candidate part at its `low` state, the bank's lines at `states`.
+fn cut_states(s: &Search, bank: &[(usize, u32)], states: &[LineState]) -> Vec<LineState> {
     let mut st: Vec<LineState> = s
         .parts
         .iter()
@@ -212,11 +216,35 @@ fn region_cut(
         })
         .collect();
     for (j, &(i, _)) in bank.iter().enumerate() {
-        if let Some(x) = w.states.get(j) {
+        if let Some(x) = states.get(j) {
             st[i] = *x;
         }
     }
-    Err((s.ev.ops[w.op].clone(), st))
+    st
+}
+
+/// Verify a bank (local indices of `s`) over the whole corner region: its
+/// worst ripple when it holds (and the load step's deviation, when the
+/// scenario has one, holds too), else the cut at the point that breaks it
+/// (the bank's lines at their states there, every other part at `low`).
+fn region_cut(
+    problem: &Problem,
+    s: &mut Search,
+    bank: &[(usize, u32)],
+    target: f64,
+) -> Result<f64, Cut> {
+    let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
+    if w.value > target * (1.0 + RIPPLE_ROUNDING) {
+        return Err(Cut::Ripple(s.ev.ops[w.op].clone(), cut_states(s, bank, &w.states)));
+    }
+    if let Some(m) = s.step.as_mut() {
+        let limit = m.spec.max_deviation;
+        let sw = m.worst(&s.parts, bank);
+        if !(sw.deviation <= limit * (1.0 + crate::transient::ROUNDING)) {
+            return Err(Cut::Step(cut_states(s, bank, &sw.states)));
+        }
+    }
+    Ok(w.value)
 }
 
 /// Find the best bank for the scenario's target.
@@ -239,7 +267,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
     // Cutting planes (Blankenship & Falk 1976): search against a finite set
     // of region points, verify the best bank over the whole region, add the
     // point that breaks it and search again.
-    let mut actives: Vec<(crate::converter::OperatingPoint, Vec<LineState>)> = Vec::new();
+    let mut actives: Vec<Cut> = Vec::new();
     let mut round = 0;
     while !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
         round += 1;

@@ -66,6 +66,18 @@ impl Limits {
                 Linear::Lines => out.max_lines = out.max_lines.min(value as usize),
                 // Per-part counts are in the count bounds (`limits::count_max`).
                 Linear::EachCount => {}
+                // A non-linear limit's necessary condition: the bank's
+                // lowest capacitance at least the floor.
+                Linear::Floor(need) => {
+                    if let Some(v) = need(s).filter(|&v| v > 0.0) {
+                        out.at_least.push(SumLimit {
+                            id: l.id,
+                            coef: parts.iter().map(|p| p.c_worst).collect(),
+                            value: v,
+                            slack: l.slack,
+                        });
+                    }
+                }
             }
         }
         out
@@ -144,6 +156,12 @@ pub(super) struct Search {
     pub(super) ratings: Vec<Option<f64>>,
     /// Exact evaluations allowed; past it the search stops (result `feasible`).
     pub(super) budget: usize,
+    /// The load-step model over the candidates, with `[transient]`.
+    pub(super) step: Option<crate::transient::StepModel>,
+    /// Points of the corner region every candidate's load step is also
+    /// checked at (per local part, its state there).
+    pub(super) step_cuts: Vec<Vec<crate::evaluator::LineState>>,
+    pub(super) step_buf: Vec<crate::evaluator::LineState>,
     pub(super) stopped: bool,
 }
 
@@ -201,7 +219,11 @@ impl Search {
         }
         let phase_terms = ev.phase_terms(target);
         let ratings = parts.iter().map(|p| p.rating).collect();
+        let step = crate::transient::StepModel::new(s, &parts);
         Search {
+            step,
+            step_cuts: Vec::new(),
+            step_buf: Vec::new(),
             active: Vec::new(),
             ratings,
             adm_worst,
@@ -400,6 +422,19 @@ impl Search {
                 ..
             } = self;
             if !crate::region::screen(ev, bank_buf, *target, active, ratings) {
+                return false;
+            }
+        }
+        // The load step: its `low` corner, its cuts and the box's vertices.
+        if let Some(m) = self.step.as_mut() {
+            let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
+            if !m.screen(
+                &self.parts,
+                &self.bank_buf,
+                limit,
+                &self.step_cuts,
+                &mut self.step_buf,
+            ) {
                 return false;
             }
         }
