@@ -10,6 +10,12 @@ use anyhow::{bail, Result};
 use serde::Serialize;
 use std::path::Path;
 
+mod filter_args;
+pub use filter_args::{
+    bom_to_design, parse_damping_arg, parse_damping_resistance, parse_filter_args,
+    parse_inductor_arg, FilterArgs, MAX_DAMPING_RESISTANCE, MAX_PARALLEL_INDUCTORS,
+};
+
 /// One line of a bank with its details.
 #[derive(Debug, Clone, Serialize)]
 pub struct BankLine {
@@ -273,29 +279,35 @@ pub const MAX_COUNT_PER_PART: u32 = 100_000;
 
 /// Parse `PART=N,PART=N` into catalog indices and counts.
 pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>> {
+    parse_bank_arg_as(problem, text, "--bank")
+}
+
+/// As [`parse_bank_arg`], with errors naming the argument `arg`
+/// (`--load-bank`).
+pub fn parse_bank_arg_as(problem: &Problem, text: &str, arg: &str) -> Result<Vec<(usize, u32)>> {
     let mut out: Vec<(usize, u32)> = Vec::new();
     for item in text.split(',').map(str::trim).filter(|s| !s.is_empty()) {
         let Some((id, n)) = item.split_once('=') else {
-            bail!("--bank: `{item}` is not of the form PART=N");
+            bail!("{arg}: `{item}` is not of the form PART=N");
         };
         let (id, n) = (id.trim(), n.trim());
         let n: u32 = n
             .parse()
-            .map_err(|_| anyhow::anyhow!("--bank: count `{n}` of `{id}` is not a whole number"))?;
+            .map_err(|_| anyhow::anyhow!("{arg}: count `{n}` of `{id}` is not a whole number"))?;
         let Some(i) = problem.catalog.position(id) else {
             bail!(
-                "--bank: part `{id}` is not in the catalog {}{}",
+                "{arg}: part `{id}` is not in the catalog {}{}",
                 problem.catalog.source,
                 did_you_mean(problem, id)
             );
         };
         add(&mut out, i, n);
         if out.iter().any(|&(_, n)| n > MAX_COUNT_PER_PART) {
-            bail!("--bank: more than {MAX_COUNT_PER_PART} of `{id}` is not a bank");
+            bail!("{arg}: more than {MAX_COUNT_PER_PART} of `{id}` is not a bank");
         }
     }
     if out.is_empty() {
-        bail!("--bank: no parts given (write PART=N,PART=N)");
+        bail!("{arg}: no parts given (write PART=N,PART=N)");
     }
     Ok(out)
 }
@@ -493,14 +505,13 @@ pub fn read_bom_rows(path: &Path) -> Result<Vec<BomRow>> {
 pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
     let rows = read_bom_rows(path)?;
     if let Some(r) = rows.iter().find(|r| r.position != Position::Converter) {
-        bail!(
-            "{}: line {}, column `position`: `{}` is in position `{}`: filter positions need the filter model, \
-             which this version does not evaluate; list the converter-side bank only",
+        return Err(crate::filter::not_yet_wired(&format!(
+            "{}: line {}, column `position`: `{}` in position `{}`",
             path.display(),
             r.line,
             r.part,
             r.position.name()
-        );
+        )));
     }
     Ok(rows
         .into_iter()

@@ -55,3 +55,13 @@ pub struct FilterDesign {
     /// The damping leg, if any.
     pub damping: Option<DampingLeg>,
 }
+
+/// The one place that stops a command needing the filter's evaluator
+/// before it is wired in: the inputs were read and checked, the figures
+/// cannot be computed yet. `what` names the request.
+pub fn not_yet_wired(what: &str) -> anyhow::Error {
+    anyhow::anyhow!(
+        "{what}: the inputs are valid, but the post-filter's evaluation is not yet wired into this version; \
+         nothing was computed and no file was written"
+    )
+}

@@ -14,10 +14,13 @@ use std::path::Path;
 /// One inductor row.
 #[derive(Debug, Clone)]
 pub struct Inductor {
+    /// Unique part id (`part`).
     pub id: String,
     /// Nominal inductance, H.
     pub inductance: f64,
+    /// Inductance tolerance as a fraction (default 0.20).
     pub tolerance: f64,
+    /// Whether the row gave a tolerance (else 20 % with a warning).
     pub tolerance_given: bool,
     /// DC resistance (maximum), Ω.
     pub dcr: f64,
@@ -27,16 +30,25 @@ pub struct Inductor {
     pub saturation_current: f64,
     /// Self-resonant frequency, Hz.
     pub srf: Option<f64>,
+    /// Unit cost, in the catalog's currency.
     pub cost: f64,
+    /// Case code or size as written (`4040`, `F8x8x5`).
     pub case: Option<String>,
     /// Footprint in mm², from the `area` column or an EIA case code.
     pub area: Option<f64>,
+    /// Height above the board, mm.
     pub height: Option<f64>,
+    /// Lowest rated temperature, °C.
     pub temp_min: Option<f64>,
+    /// Highest rated temperature, °C.
     pub temp_max: Option<f64>,
+    /// `active`, `nrnd` or `obsolete`.
     pub status: Status,
+    /// Carried to the bill of materials.
     pub manufacturer: Option<String>,
+    /// Carried to the bill of materials.
     pub mpn: Option<String>,
+    /// Carried to the bill of materials.
     pub description: Option<String>,
     /// Columns beyond the known ones, as (header, value).
     pub extra: Vec<(String, String)>,
@@ -59,15 +71,54 @@ impl Inductor {
             self.inductance * (1.0 + self.tolerance),
         )
     }
+
+    /// DC voltage drop of `count` equal inductors in parallel carrying
+    /// `iout` between them, at the catalog's (highest) DCR: `iout · DCR / count`.
+    pub fn dc_drop(&self, iout: f64, count: u32) -> f64 {
+        iout * self.dcr / count.max(1) as f64
+    }
+
+    /// Peak current in one of `count` equal inductors in parallel: its
+    /// share of the load plus half its own peak-to-peak ripple current,
+    /// `iout / count + ΔI_L / 2` (`ripple_pp` is one inductor's ripple).
+    pub fn peak_current(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+        iout / count.max(1) as f64 + ripple_pp / 2.0
+    }
+
+    /// Saturation margin, A: `saturation_current − (iout / count + ΔI_L / 2)`;
+    /// below zero the inductor saturates at the peak of its ripple.
+    pub fn saturation_margin(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+        self.saturation_current - self.peak_current(iout, ripple_pp, count)
+    }
+
+    /// RMS current in one of `count` inductors with a triangular ripple of
+    /// `ripple_pp` on its DC share: `sqrt(I_dc² + ΔI²/12)`.
+    pub fn rms_current(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+        let i = iout / count.max(1) as f64;
+        (i * i + ripple_pp * ripple_pp / 12.0).sqrt()
+    }
+
+    /// Thermal margin, A: `rated_current − I_rms` (see [`Inductor::rms_current`]).
+    pub fn rated_margin(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+        self.rated_current - self.rms_current(iout, ripple_pp, count)
+    }
+
+    /// The rated temperature range; a bound not given is `None`.
+    pub fn temperature_range(&self) -> (Option<f64>, Option<f64>) {
+        (self.temp_min, self.temp_max)
+    }
 }
 
 /// A loaded inductor catalog.
 #[derive(Debug, Clone, Default)]
 pub struct InductorCatalog {
+    /// Where the catalog came from, for messages.
     pub source: String,
+    /// The inductors, in file order.
     pub parts: Vec<Inductor>,
     /// Headers of the extra columns, in file order.
     pub extra_columns: Vec<String>,
+    /// Warnings about the file (missing tolerances, misspelled columns).
     pub warnings: Vec<String>,
     index: HashMap<String, usize>,
 }
@@ -93,6 +144,7 @@ pub const KNOWN: &[(&str, Col)] = &[
     ("description", Col::Text),
 ];
 
+/// The columns every inductor catalog must have.
 pub const REQUIRED: &[&str] = &[
     "part",
     "inductance",
@@ -103,6 +155,7 @@ pub const REQUIRED: &[&str] = &[
 ];
 
 impl InductorCatalog {
+    /// Read an inductor catalog file; errors name the file, line and column.
     pub fn from_path(path: &Path) -> Result<InductorCatalog> {
         let bytes = std::fs::read(path).map_err(|e| {
             anyhow::anyhow!("{}: cannot read the inductor catalog: {e}", path.display())
@@ -110,10 +163,12 @@ impl InductorCatalog {
         InductorCatalog::from_bytes(&bytes, &path.display().to_string())
     }
 
+    /// The inductor with this id.
     pub fn get(&self, id: &str) -> Option<&Inductor> {
         self.index.get(id).map(|&i| &self.parts[i])
     }
 
+    /// The index of the inductor with this id.
     pub fn position(&self, id: &str) -> Option<usize> {
         self.index.get(id).copied()
     }
@@ -202,7 +257,17 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
         if !(0.0..1.0).contains(&t) {
             return Err(row.err(
                 "tolerance",
-                format!("{t} must be at least 0 and below 1 (100 %)"),
+                format!(
+                    "{t} must be at least 0 and below 1 (100 %){}",
+                    if t >= 1.0 && t <= 100.0 && units::is_bare(row.cell("tolerance")) {
+                        format!(
+                            "; bare numbers are fractions — did you mean \"{}%\"?",
+                            row.cell("tolerance")
+                        )
+                    } else {
+                        String::new()
+                    }
+                ),
             ));
         }
     }
@@ -381,5 +446,169 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("line 1") && e.contains("`dcr`"), "{e}");
+    }
+
+    fn one(csv: &str) -> Result<InductorCatalog> {
+        InductorCatalog::from_bytes(csv.as_bytes(), "l.csv")
+    }
+
+    #[test]
+    fn spreadsheet_quirks_are_read() {
+        // A semicolon export with decimal commas, a byte-order mark, CRLF
+        // line ends, headers in another case with spaces and units.
+        let csv = "\u{feff}Part ; Inductance (µH);Tolerance (%);DCR (mOhm);Rated Current;Saturation Current;Cost\r\n\
+                   L1;2,2;20;12,5;6;7,5;0,20\r\n\r\nL2;0,47;10;4;12;15;0,30\r\n";
+        let c = one(csv).unwrap_or_else(|e| panic!("{e:#}"));
+        let a = c.get("L1").unwrap();
+        assert!((a.inductance - 2.2e-6).abs() < 1e-18);
+        assert!((a.tolerance - 0.2).abs() < 1e-15);
+        assert!((a.dcr - 12.5e-3).abs() < 1e-15);
+        assert_eq!(
+            (a.rated_current, a.saturation_current, a.cost),
+            (6.0, 7.5, 0.2)
+        );
+        // The blank line is skipped, and L2 keeps its true line number.
+        assert_eq!(c.get("L2").unwrap().line, 4);
+        assert!(c.warnings.is_empty(), "{:?}", c.warnings);
+        // A Windows-1252 export (° as the single byte 0xB0) is read as Latin-1.
+        let mut latin =
+            b"part,inductance,dcr,rated_current,saturation_current,cost,temp_max (".to_vec();
+        latin.push(0xB0);
+        latin.extend_from_slice(b"C)\nL1,1u,5m,3,4,0.1,125\n");
+        let c = InductorCatalog::from_bytes(&latin, "l.csv").unwrap_or_else(|e| panic!("{e:#}"));
+        assert_eq!(c.parts[0].temp_max, Some(125.0));
+        // Extra columns are carried; a near-miss of a known column is warned about.
+        let c = one(
+            "part,inductance,dcr,rated_current,saturation_current,cost,satus,shield\n\
+                     L1,1u,5m,3,4,0.1,obsolete,yes\n",
+        )
+        .unwrap();
+        assert_eq!(
+            c.parts[0].extra[1],
+            ("shield".to_string(), "yes".to_string())
+        );
+        assert!(
+            c.warnings
+                .iter()
+                .any(|w| w.contains("did you mean `status`")),
+            "{:?}",
+            c.warnings
+        );
+    }
+
+    #[test]
+    fn malformed_rows_name_file_line_and_column() {
+        const H: &str = "part,inductance,dcr,rated_current,saturation_current,cost";
+        for (body, want) in [
+            ("L1,2.2uF,5m,3,4,0.1", "line 2, column 2 (inductance)"),
+            ("L1,1u,-5m,3,4,0.1", "line 2, column 3 (dcr)"),
+            ("L1,1u,5m,3,0,0.1", "line 2, column 5 (saturation_current)"),
+            (
+                "L1,1u,5m,3,4",
+                "line 2, column 6: 5 fields where the header has 6",
+            ),
+            (
+                "L1,1u,5m,3,4,0.1,9",
+                "line 2, column 7: 7 fields where the header has 6",
+            ),
+            (",1u,5m,3,4,0.1", "line 2, column 1 (part)"),
+            (
+                "L1,1u,5m,3,4,0.1\nL1,2u,5m,3,4,0.1",
+                "line 3, column 1 (part): part `L1` already defined on line 2",
+            ),
+            ("L1,1u,5m,2kA,4,0.1", "line 2, column 4 (rated_current)"),
+        ] {
+            let e = one(&format!("{H}\n{body}\n")).unwrap_err().to_string();
+            assert!(e.starts_with("l.csv: ") && e.contains(want), "{body}: {e}");
+        }
+        for (head, body, want) in [
+            (
+                "part,inductance (uF),dcr,rated_current,saturation_current,cost",
+                "L1,1,5m,3,4,0.1",
+                "line 1, column 2 (inductance): header unit",
+            ),
+            (
+                "part,inductance,dcr,rated_current,saturation_current,cost,status",
+                "L1,1u,5m,3,4,0.1,gone",
+                "line 2, column 7 (status): unknown status `gone`",
+            ),
+            (
+                "part,inductance,dcr,rated_current,saturation_current,cost,temp_min,temp_max",
+                "L1,1u,5m,3,4,0.1,125,-40",
+                "line 2, column 8 (temp_max)",
+            ),
+            (
+                "part,inductance,dcr,rated_current,saturation_current,cost,tolerance",
+                "L1,1u,5m,3,4,0.1,20",
+                "did you mean \"20%\"?",
+            ),
+            (
+                "part,inductance,dcr,rated_current,saturation_current,cost,height",
+                "L1,1u,5m,3,4,0.1,0",
+                "line 2, column 7 (height)",
+            ),
+            (
+                "part,inductance,inductance,dcr,rated_current,saturation_current,cost",
+                "L1,1u,1u,5m,3,4,0.1",
+                "line 1, column 3: column `inductance` appears twice",
+            ),
+            (
+                "part,inductance,dcr,rated_current,saturation_current,cost",
+                "",
+                "line 1: the inductor catalog has a header row but no parts",
+            ),
+        ] {
+            let e = one(&format!("{head}\n{body}\n")).unwrap_err().to_string();
+            assert!(
+                e.starts_with("l.csv: ") && e.contains(want),
+                "{head} / {body}: {e}"
+            );
+        }
+        let e = one("").unwrap_err().to_string();
+        assert!(
+            e.contains("l.csv: line 1: the inductor catalog is empty"),
+            "{e}"
+        );
+        // A UTF-16 export (byte-order mark FF FE, every ASCII letter followed by NUL).
+        let utf16: Vec<u8> = [0xFF, 0xFE]
+            .into_iter()
+            .chain("part,inductance\n".bytes().flat_map(|b| [b, 0]))
+            .collect();
+        let e = InductorCatalog::from_bytes(&utf16, "l.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("l.csv: line 1, column ") && e.contains("a NUL byte"),
+            "{e}"
+        );
+        let e = InductorCatalog::from_path(Path::new("/nonexistent/l.csv"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("/nonexistent/l.csv: cannot read the inductor catalog"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn current_and_drop_figures_follow_their_closed_forms() {
+        let c =
+            one("part,inductance,dcr,rated_current,saturation_current,cost\nL1,1u,8m,5,6,0.1\n")
+                .unwrap();
+        let l = &c.parts[0];
+        // Ohm's law: 4 A through 8 mΩ drops 32 mV; two in parallel share it.
+        assert!((l.dc_drop(4.0, 1) - 0.032).abs() < 1e-15);
+        assert!((l.dc_drop(4.0, 2) - 0.016).abs() < 1e-15);
+        // Peak of a triangle riding on DC: I_dc + ΔI/2.
+        assert!((l.peak_current(4.0, 1.0, 1) - 4.5).abs() < 1e-15);
+        assert!((l.saturation_margin(4.0, 1.0, 1) - 1.5).abs() < 1e-15);
+        assert!((l.saturation_margin(10.0, 1.0, 2) - 0.5).abs() < 1e-15);
+        assert!(l.saturation_margin(6.0, 0.2, 1) < 0.0);
+        // Erickson & Maksimović, Fundamentals of Power Electronics, appendix A
+        // (RMS values of converter waveforms): DC plus a triangle of
+        // peak-to-peak ΔI has I_rms = sqrt(I² + ΔI²/12).
+        let rms = (16.0f64 + 3.0 * 3.0 / 12.0).sqrt();
+        assert!((l.rms_current(4.0, 3.0, 1) - rms).abs() < 1e-12);
+        assert!((l.rated_margin(4.0, 3.0, 1) - (5.0 - rms)).abs() < 1e-12);
     }
 }

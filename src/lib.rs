@@ -34,10 +34,10 @@ pub mod catalog;
 pub mod commands;
 #[allow(missing_docs)]
 pub mod converter;
+pub mod eseries;
 #[allow(missing_docs)]
 pub mod evaluator;
 pub mod filter;
-#[allow(missing_docs)] // read and checked, not yet wired into the commands
 pub mod inductors;
 pub mod limits;
 pub mod load;

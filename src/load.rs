@@ -1,11 +1,13 @@
 //! Loading a scenario and its catalog, with the bundled demo as default.
 
 use crate::catalog::Catalog;
+use crate::filter::FilterUse;
+use crate::inductors::InductorCatalog;
 use crate::problem::Problem;
 use crate::run::{Input, Inputs};
 use crate::scenario::{Objective, Scenario};
 use anyhow::{bail, Result};
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// The bundled demo scenario (invented data) used when no `--scenario` is given.
 pub const DEMO_SCENARIO: &str = include_str!("../scenarios/pol-buck-3v3.toml");
@@ -19,14 +21,28 @@ pub const DEMO_CATALOG_NAME: &str = "catalogs/demo-parts.csv (bundled demo)";
 pub const DEMO_SCENARIO_INPUT: &str = "(bundled) scenarios/pol-buck-3v3.toml";
 /// The path the bundled demo catalog is reported under in `inputs`.
 pub const DEMO_CATALOG_INPUT: &str = "(bundled) catalogs/demo-parts.csv";
+/// The bundled demo inductor catalog (invented data), used when a filter is
+/// considered and neither `[filter] inductors` nor `--inductors` names one.
+pub const DEMO_INDUCTORS: &str = include_str!("../catalogs/demo-inductors.csv");
+/// The name the bundled demo inductor catalog goes by in messages.
+pub const DEMO_INDUCTORS_NAME: &str = "catalogs/demo-inductors.csv (bundled demo)";
+/// The path the bundled demo inductor catalog is reported under in `inputs`.
+pub const DEMO_INDUCTORS_INPUT: &str = "(bundled) catalogs/demo-inductors.csv";
 
 /// Options that adjust a scenario from the command line.
 #[derive(Debug, Default, Clone)]
 pub struct Overrides {
     /// `--objective`: replaces `selection.objective`.
     pub objective: Option<Objective>,
-    /// `--exclude`: added to `selection.exclude`.
+    /// `--exclude`: added to `selection.exclude` (capacitors or inductors).
     pub exclude: Vec<String>,
+    /// `--filter`: replaces `[filter] use`.
+    pub filter: Option<FilterUse>,
+    /// `--inductors`: the inductor catalog, instead of `[filter] inductors`.
+    pub inductors: Option<PathBuf>,
+    /// The command needs an inductor catalog whatever `[filter] use` says
+    /// (`assess` of a filtered design).
+    pub need_inductors: bool,
 }
 
 /// The bytes of a file that has just been read successfully, for its hash.
@@ -100,17 +116,76 @@ pub fn problem_and_inputs(
     catalog: Option<&Path>,
     o: &Overrides,
 ) -> Result<(Problem, Inputs)> {
-    let (mut s, c, inputs) = scenario_catalog_inputs(scenario, catalog)?;
+    let (mut s, c, mut inputs) = scenario_catalog_inputs(scenario, catalog)?;
     if let Some(obj) = o.objective {
         s.selection.objective = obj;
     }
+    if let Some(f) = o.filter {
+        s.filter.usage = f;
+    }
+    let (inductors, input, demo_note) = inductor_catalog(&s, scenario.is_some(), o)?;
+    inputs.inductors = input;
     for e in &o.exclude {
-        if c.get(e).is_none() {
-            bail!("--exclude: part `{e}` is not in the catalog {}", c.source);
+        if c.get(e).is_none() && inductors.as_ref().is_none_or(|l| l.get(e).is_none()) {
+            bail!(
+                "--exclude: part `{e}` is not in the catalog {}{}",
+                c.source,
+                inductors.as_ref().map_or(String::new(), |l| format!(
+                    " nor in the inductor catalog {}",
+                    l.source
+                ))
+            );
         }
         if !s.selection.exclude.contains(e) {
             s.selection.exclude.push(e.clone());
         }
     }
-    Ok((Problem::new(s, c)?, inputs))
+    let mut p = Problem::with_inductors(s, c, inductors)?;
+    if let Some(n) = demo_note {
+        p.warnings.push(n);
+    }
+    Ok((p, inputs))
+}
+
+/// The inductor catalog of a run: `--inductors`, else `[filter] inductors`
+/// (relative to the scenario), else the bundled demo when a filter is
+/// considered (`use` auto or on) or the command needs one; else none. With
+/// the input's path and hash, and a note when a scenario file of the user's
+/// gets the bundled demo inductors.
+pub fn inductor_catalog(
+    s: &Scenario,
+    user_scenario: bool,
+    o: &Overrides,
+) -> Result<(Option<InductorCatalog>, Option<Input>, Option<String>)> {
+    if let Some(p) = &o.inductors {
+        let l = InductorCatalog::from_path(p)?;
+        return Ok((Some(l), input_of(p), None));
+    }
+    if let Some(p) = s.inductors_path() {
+        if !p.is_file() {
+            bail!(
+                "{}: key `filter.inductors`: `{}` (that is {}) is not a readable file; fix the path (relative to the \
+                 scenario) or give --inductors",
+                s.source,
+                s.filter.inductors.as_deref().unwrap_or(""),
+                p.display()
+            );
+        }
+        let l = InductorCatalog::from_path(&p)?;
+        return Ok((Some(l), input_of(&p), None));
+    }
+    if s.filter.usage == FilterUse::Off && !o.need_inductors {
+        return Ok((None, None, None));
+    }
+    let l = InductorCatalog::from_bytes(DEMO_INDUCTORS.as_bytes(), DEMO_INDUCTORS_NAME)?;
+    let note = user_scenario.then(|| {
+        "no inductor catalog given (filter.inductors or --inductors): the bundled demo inductor catalog of \
+         invented parts is used; give your own before building hardware"
+            .to_string()
+    });
+    Ok((
+        Some(l),
+        Some(Input::new(DEMO_INDUCTORS_INPUT, DEMO_INDUCTORS.as_bytes())),
+        note,
+    ))
 }

@@ -3,8 +3,10 @@
 #![forbid(unsafe_code)]
 
 use clap::{Parser, Subcommand, ValueEnum};
+use ripplebank::assessment::FilterArgs;
 use ripplebank::assessment::{AssessOptions, NamedCorner};
 use ripplebank::commands::{self, CommandOutput, Common};
+use ripplebank::filter::FilterUse;
 use ripplebank::scenario::Objective;
 use std::io::Write;
 use std::path::PathBuf;
@@ -27,6 +29,27 @@ impl From<ObjectiveArg> for Objective {
             ObjectiveArg::Cost => Objective::Cost,
             ObjectiveArg::Area => Objective::Area,
             ObjectiveArg::Count => Objective::Count,
+        }
+    }
+}
+
+/// `--filter`: whether the design may add an LC post-filter.
+#[derive(Clone, Copy, ValueEnum)]
+enum FilterArg {
+    /// Capacitors only
+    Off,
+    /// Design both, with and without a filter, and keep the better
+    Auto,
+    /// A design with a filter only
+    On,
+}
+
+impl From<FilterArg> for FilterUse {
+    fn from(f: FilterArg) -> FilterUse {
+        match f {
+            FilterArg::Off => FilterUse::Off,
+            FilterArg::Auto => FilterUse::Auto,
+            FilterArg::On => FilterUse::On,
         }
     }
 }
@@ -56,6 +79,10 @@ struct Input {
     /// Parts catalog CSV (default: the scenario's `catalog`)
     #[arg(long, value_name = "F")]
     catalog: Option<PathBuf>,
+    /// Inductor catalog CSV for a post-filter (default: the scenario's `[filter] inductors`,
+    /// else the bundled demo when a filter is considered)
+    #[arg(long, value_name = "F")]
+    inductors: Option<PathBuf>,
 }
 
 #[derive(clap::Args, Clone)]
@@ -81,21 +108,35 @@ enum Cmd {
         /// What to minimise (default: the scenario's selection.objective)
         #[arg(long, value_enum, ignore_case = true)]
         objective: Option<ObjectiveArg>,
-        /// Never use this part (repeatable)
+        /// Never use this part or inductor (repeatable)
         #[arg(long, value_name = "PART")]
         exclude: Vec<String>,
+        /// Whether to add an LC post-filter (default: the scenario's `[filter] use`, else off)
+        #[arg(long, value_enum, ignore_case = true)]
+        filter: Option<FilterArg>,
         #[command(flatten)]
         output: Output,
     },
     /// Evaluate a given bank against the target and every limit
     #[command(group(clap::ArgGroup::new("which_bank").required(true).args(["bank", "bom"])))]
     Assess {
-        /// The bank as PART=N,PART=N
+        /// The bank as PART=N,PART=N (with a filter: the converter-side bank)
         #[arg(long)]
         bank: Option<String>,
-        /// The bank as a bill of materials CSV (columns part, count)
+        /// The design as a bill of materials CSV (columns part, count; optional position:
+        /// converter, inductor, load, damping, with the damping resistor as a row `R 0R22`)
         #[arg(long, value_name = "F")]
         bom: Option<PathBuf>,
+        /// The filter inductor from the inductor catalog; N equal inductors in parallel (default 1)
+        #[arg(long, value_name = "PART[=N]", requires = "bank")]
+        inductor: Option<String>,
+        /// The filter's load-side bank as PART=N,PART=N
+        #[arg(long, value_name = "PART=N,...", requires = "bank")]
+        load_bank: Option<String>,
+        /// The damping leg across the load-side bank: a resistor (0R22, 220m) in series with
+        /// N capacitors PART (default 1)
+        #[arg(long, value_name = "R,PART[=N]", requires = "bank")]
+        damping: Option<String>,
         /// The corner to judge the bank at (worst: the whole corner region)
         #[arg(long, value_enum, ignore_case = true, default_value_t = NamedCorner::Worst)]
         corner: NamedCorner,
@@ -117,6 +158,9 @@ enum Cmd {
         /// Number of targets (the scenario's own target is added when it is not one of them)
         #[arg(long, default_value_t = 8)]
         points: usize,
+        /// Whether to add an LC post-filter (default: the scenario's `[filter] use`, else off)
+        #[arg(long, value_enum, ignore_case = true)]
+        filter: Option<FilterArg>,
         #[command(flatten)]
         output: Output,
     },
@@ -147,6 +191,8 @@ fn common(input: Input, output: Output) -> Common {
     Common {
         scenario: input.scenario,
         catalog: input.catalog,
+        inductors: input.inductors,
+        filter: None,
         out: output.out,
         json: output.json,
         quiet: output.quiet,
@@ -167,15 +213,22 @@ fn main() -> ExitCode {
             input,
             objective,
             exclude,
+            filter,
             output,
         } => commands::design(
-            &common(input, output),
+            &Common {
+                filter: filter.map(FilterUse::from),
+                ..common(input, output)
+            },
             objective.map(Objective::from),
             &exclude,
         ),
         Cmd::Assess {
             bank,
             bom,
+            inductor,
+            load_bank,
+            damping,
             corner,
             input,
             output,
@@ -184,15 +237,24 @@ fn main() -> ExitCode {
             bank.as_deref(),
             bom.as_deref(),
             &AssessOptions { corner },
+            &FilterArgs {
+                inductor: inductor.as_deref(),
+                load_bank: load_bank.as_deref(),
+                damping: damping.as_deref(),
+            },
         ),
         Cmd::Tradeoff {
             input,
             from,
             to,
             points,
+            filter,
             output,
         } => commands::tradeoff(
-            &common(input, output),
+            &Common {
+                filter: filter.map(FilterUse::from),
+                ..common(input, output)
+            },
             from.as_deref(),
             to.as_deref(),
             points,
@@ -206,6 +268,8 @@ fn main() -> ExitCode {
         Cmd::Validate { input, json } => commands::validate(&Common {
             scenario: input.scenario,
             catalog: input.catalog,
+            inductors: input.inductors,
+            filter: None,
             out: None,
             json,
             quiet: false,

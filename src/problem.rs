@@ -5,6 +5,8 @@
 use crate::catalog::{Catalog, Part, Status, Technology};
 use crate::converter::{self, OperatingPoint};
 use crate::evaluator::{Band, Corner, Evaluator, PartModel};
+use crate::filter::FilterUse;
+use crate::inductors::{Inductor, InductorCatalog};
 use crate::limits::{self, LimitId};
 use crate::scenario::{CapBasis, Objective, Scenario, Topology};
 use anyhow::{bail, Result};
@@ -29,6 +31,13 @@ pub struct Problem {
     pub eligible: Vec<usize>,
     /// Every part that may not be used, with its reason.
     pub excluded: Vec<Excluded>,
+    /// The inductor catalog, when a post-filter may be designed or assessed
+    /// (`[filter] inductors`, `--inductors`, or the bundled demo catalog).
+    pub inductors: Option<InductorCatalog>,
+    /// Inductor catalog indices of the inductors that may be used.
+    pub inductors_eligible: Vec<usize>,
+    /// Every inductor that may not be used, with its reason.
+    pub inductors_excluded: Vec<Excluded>,
     /// The converter's operating points (one per input-voltage corner).
     pub ops: Vec<OperatingPoint>,
     /// The operating points the corner region's search starts from: the
@@ -112,6 +121,118 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
     None
 }
 
+/// Why an inductor may not be used as the post-filter's inductor in this
+/// scenario, or `None` if it may. The current checks take the most
+/// inductors the scenario allows in parallel (`filter.max_inductor_count`,
+/// sharing the load equally); the saturation check with the inductor's own
+/// ripple current needs a design and is the evaluator's
+/// ([`Inductor::saturation_margin`]).
+pub fn inductor_ineligibility(s: &Scenario, l: &Inductor, objective: Objective) -> Option<String> {
+    let iout = s.converter.iout.0;
+    let n = s.filter.max_inductor_count.max(1);
+    let in_parallel = if n > 1 {
+        format!(" ({n} in parallel, filter.max_inductor_count)")
+    } else {
+        String::new()
+    };
+    match l.status {
+        Status::Obsolete => return Some("status obsolete".into()),
+        Status::Nrnd if !s.selection.allow_nrnd => {
+            return Some(
+                "status nrnd (not recommended for new designs; set selection.allow_nrnd)".into(),
+            )
+        }
+        _ => {}
+    }
+    let env = &s.environment;
+    if let Some(t) = l.temp_min {
+        if t > env.temperature_min {
+            return Some(format!(
+                "rated down to {t} °C only; the environment reaches {} °C",
+                env.temperature_min
+            ));
+        }
+    }
+    if let Some(t) = l.temp_max {
+        if t < env.temperature_max {
+            return Some(format!(
+                "rated up to {t} °C only; the environment reaches {} °C",
+                env.temperature_max
+            ));
+        }
+    }
+    if let Some(h) = s.board.max_height {
+        match l.height {
+            Some(lh) if lh > h.0 => {
+                return Some(format!(
+                    "height {lh} mm is above board.max_height {} mm",
+                    h.0
+                ))
+            }
+            None => {
+                return Some(format!(
+                    "no height given, and board.max_height is {} mm",
+                    h.0
+                ))
+            }
+            _ => {}
+        }
+    }
+    if s.selection.exclude.iter().any(|e| e == &l.id) {
+        return Some("excluded by the scenario or the command line".into());
+    }
+    let fmt_a = |i: f64| crate::units::format_si(i, "A");
+    if l.rated_current * (n as f64) < iout {
+        return Some(format!(
+            "rated current {} is below iout {}{in_parallel}",
+            fmt_a(l.rated_current),
+            fmt_a(iout)
+        ));
+    }
+    if l.saturation_current * (n as f64) < iout {
+        return Some(format!(
+            "saturation current {} is below iout {}{in_parallel}, before any ripple",
+            fmt_a(l.saturation_current),
+            fmt_a(iout)
+        ));
+    }
+    if let Some(v) = s.filter.max_dc_drop {
+        let drop = l.dc_drop(iout, n);
+        if drop > v.0 {
+            return Some(format!(
+                "DC drop iout · DCR = {} · {} = {}{in_parallel} is above filter.max_dc_drop {}",
+                fmt_a(iout),
+                crate::units::format_si(l.dcr / n as f64, "Ω"),
+                crate::units::format_si(drop, "V"),
+                crate::units::format_si(v.0, "V")
+            ));
+        }
+    }
+    if let Some(f) = l.srf {
+        let fr = s.ripple_frequency();
+        if f <= fr {
+            return Some(format!(
+                "self-resonant frequency {} is at or below the ripple frequency {}: the inductor is capacitive \
+                 there and does not filter",
+                crate::units::format_si(f, "Hz"),
+                crate::units::format_si(fr, "Hz")
+            ));
+        }
+    }
+    if let (Some(max), Some(a)) = (s.board.max_area, l.area) {
+        if a > max.0 {
+            return Some(format!(
+                "area {a} mm² alone is above board.max_area {} mm²",
+                max.0
+            ));
+        }
+    }
+    if l.area.is_none() && objective == Objective::Area {
+        return Some(NO_AREA.into());
+    }
+    None
+}
+
 /// Reason for a part with no footprint where one is needed.
 pub const NO_AREA: &str = "no area and no EIA case code to derive it from";
 
@@ -150,7 +271,18 @@ fn calibrate_module(s: &Scenario, ops: &mut [OperatingPoint]) {
 impl Problem {
     /// Check the scenario against the catalog, sort the parts into eligible and excluded, and compute the operating points.
     pub fn new(scenario: Scenario, catalog: Catalog) -> Result<Problem> {
-        scenario.check_against(&catalog)?;
+        Problem::with_inductors(scenario, catalog, None)
+    }
+
+    /// As [`Problem::new`], with the inductor catalog a post-filter's
+    /// inductor is chosen from; its inductors are sorted into eligible and
+    /// excluded like the capacitors.
+    pub fn with_inductors(
+        scenario: Scenario,
+        catalog: Catalog,
+        inductors: Option<InductorCatalog>,
+    ) -> Result<Problem> {
+        scenario.check_against_parts(&catalog, inductors.as_ref())?;
         let objective = scenario.selection.objective;
         {
             // An ideal current step through any ESL is a voltage impulse: with
@@ -352,11 +484,40 @@ impl Problem {
             warnings.push("converter.standalone_bandwidth not given: the standalone ripple is taken at the target's bandwidth".into());
         }
         warnings.extend(warnings_pre);
+        let mut inductors_eligible = Vec::new();
+        let mut inductors_excluded = Vec::new();
+        if let Some(lc) = &inductors {
+            for (i, l) in lc.parts.iter().enumerate() {
+                if objective == Objective::Area
+                    && l.area.is_none()
+                    && scenario.filter.usage != FilterUse::Off
+                {
+                    bail!(
+                        "{}: line {}, column `area`: inductor `{}` has no area and no EIA case code to derive it \
+                         from, which objective `area` needs; give its area or exclude it",
+                        lc.source,
+                        l.line,
+                        l.id
+                    );
+                }
+                match inductor_ineligibility(&scenario, l, objective) {
+                    None => inductors_eligible.push(i),
+                    Some(reason) => inductors_excluded.push(Excluded {
+                        part: l.id.clone(),
+                        reason,
+                    }),
+                }
+            }
+            warnings.extend(filter_warnings(&scenario, lc, &inductors_eligible));
+        }
         Ok(Problem {
             scenario,
             catalog,
             eligible,
             excluded,
+            inductors,
+            inductors_eligible,
+            inductors_excluded,
             ops,
             region_ops,
             warnings,
@@ -408,8 +569,69 @@ impl Problem {
         op.remove(0)
     }
 
+    /// The inductor of inductor catalog index `i` (panics without a catalog:
+    /// a filter design only exists with one).
+    pub fn inductor(&self, i: usize) -> &Inductor {
+        &self.inductors.as_ref().expect("an inductor catalog").parts[i]
+    }
+
     /// The technology of catalog part `i`.
     pub fn technology(&self, i: usize) -> Technology {
         self.catalog.parts[i].technology
     }
+}
+
+/// Warnings about a filter's inputs: the inductor catalog's own, inductors
+/// with no temperature range, and filter limits not given.
+fn filter_warnings(s: &Scenario, lc: &InductorCatalog, eligible: &[usize]) -> Vec<String> {
+    let mut w = lc.warnings.clone();
+    let no_temp: Vec<&str> = eligible
+        .iter()
+        .map(|&i| &lc.parts[i])
+        .filter(|l| l.temperature_range() == (None, None))
+        .map(|l| l.id.as_str())
+        .collect();
+    if !no_temp.is_empty() {
+        w.push(format!(
+            "{} usable inductor(s) give no temperature range (no temp_min/temp_max) and are assumed to cover the \
+             environment: {}",
+            no_temp.len(),
+            no_temp.iter().take(5).copied().collect::<Vec<_>>().join(", ")
+                + if no_temp.len() > 5 { ", …" } else { "" }
+        ));
+    }
+    let f = &s.filter;
+    if f.usage == FilterUse::Off {
+        return w;
+    }
+    if f.min_corner_frequency.is_none() {
+        w.push(
+            "filter.min_corner_frequency not given: the filter's corner is not kept above the converter's loop \
+             crossover (a corner well above it, tens of kHz, is common practice, no source; follow the converter \
+             maker's guidance)"
+                .into(),
+        );
+    }
+    if f.max_output_impedance.is_none() {
+        w.push(
+            "filter.max_output_impedance not given: the filter's resonance peak in output impedance is not bounded, \
+             and an underdamped filter rings on load steps"
+                .into(),
+        );
+    }
+    if f.max_dc_drop.is_none() {
+        w.push(
+            "filter.max_dc_drop not given: the inductor's DC drop (iout · DCR) is outside the converter's \
+             regulation and is not bounded"
+                .into(),
+        );
+    }
+    if s.converter.iout.0 <= 0.0 {
+        w.push(
+            "converter.iout is 0: the filter inductor's current ratings and DC drop are not checked; give the \
+             load current"
+                .into(),
+        );
+    }
+    w
 }

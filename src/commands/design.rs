@@ -168,8 +168,15 @@ pub fn design(
     let o = Overrides {
         objective,
         exclude: exclude.to_vec(),
+        ..Default::default()
     };
     let (p, run) = load(c, &o)?;
+    if p.scenario.filter.usage != crate::filter::FilterUse::Off {
+        return Err(crate::filter::not_yet_wired(&format!(
+            "design with filter use `{}`",
+            p.scenario.filter.usage.name()
+        )));
+    }
     let settings = optimize::Settings {
         progress: show_progress(c),
         ..Default::default()

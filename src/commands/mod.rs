@@ -28,6 +28,11 @@ pub struct Common {
     pub scenario: Option<PathBuf>,
     /// `--catalog`: the catalog file (default: the scenario's).
     pub catalog: Option<PathBuf>,
+    /// `--inductors`: the inductor catalog (default: `[filter] inductors`,
+    /// else the bundled demo when a filter is considered).
+    pub inductors: Option<PathBuf>,
+    /// `--filter`: replaces `[filter] use` (design, tradeoff).
+    pub filter: Option<crate::filter::FilterUse>,
     /// `--out`: the folder for output files.
     pub out: Option<PathBuf>,
     /// `--json`: one JSON document on stdout instead of the text report.
@@ -45,7 +50,14 @@ pub struct CommandOutput {
 }
 
 pub(crate) fn load(c: &Common, o: &Overrides) -> Result<(Problem, Run)> {
-    let (p, inputs) = load::problem_and_inputs(c.scenario.as_deref(), c.catalog.as_deref(), o)?;
+    let mut o = o.clone();
+    if o.inductors.is_none() {
+        o.inductors = c.inductors.clone();
+    }
+    if o.filter.is_none() {
+        o.filter = c.filter;
+    }
+    let (p, inputs) = load::problem_and_inputs(c.scenario.as_deref(), c.catalog.as_deref(), &o)?;
     Ok((p, Run::now(inputs)))
 }
 
@@ -109,6 +121,16 @@ pub fn validate(c: &Common) -> Result<CommandOutput> {
             "excluded": p.excluded,
             "warnings": p.warnings,
         });
+        if let Some(lc) = &p.inductors {
+            doc["inductor_catalog"] = json!(lc.source);
+            doc["inductors"] = json!(lc.parts.len());
+            doc["inductors_eligible"] = json!(p
+                .inductors_eligible
+                .iter()
+                .map(|&i| lc.parts[i].id.clone())
+                .collect::<Vec<_>>());
+            doc["inductors_excluded"] = json!(p.inductors_excluded);
+        }
         run.stamp(&mut doc);
         return Ok(CommandOutput {
             stdout: report::json_text(doc),
@@ -157,6 +179,9 @@ pub fn validate(c: &Common) -> Result<CommandOutput> {
             r.push(x);
         }
     }
+    if let Some(lc) = &p.inductors {
+        inductor_lists(&mut r, &p, lc, c.quiet);
+    }
     if let Some(w) = model::warnings(&p.warnings) {
         r.push(w);
     }
@@ -169,22 +194,103 @@ pub fn validate(c: &Common) -> Result<CommandOutput> {
     })
 }
 
-/// `assess`: a given bank against the target and every limit.
+/// The usable inductors and, unless quiet, every other one with its reason.
+fn inductor_lists(
+    r: &mut Report,
+    p: &Problem,
+    lc: &crate::inductors::InductorCatalog,
+    quiet: bool,
+) {
+    use crate::units::format_si;
+    r.section(format!(
+        "Inductors that may be used ({}): {} of {}",
+        lc.source,
+        p.inductors_eligible.len(),
+        lc.parts.len()
+    ));
+    r.table(Table::new(
+        &["inductor", "L", "DCR", "rated", "saturation", "SRF"],
+        p.inductors_eligible
+            .iter()
+            .map(|&i| {
+                let l = &lc.parts[i];
+                vec![
+                    l.id.clone(),
+                    format_si(l.inductance, "H"),
+                    format_si(l.dcr, "Ω"),
+                    format_si(l.rated_current, "A"),
+                    format_si(l.saturation_current, "A"),
+                    l.srf.map_or("-".into(), |f| format_si(f, "Hz")),
+                ]
+            })
+            .collect(),
+    ));
+    if !quiet && !p.inductors_excluded.is_empty() {
+        r.section(format!(
+            "Inductors not used: {}",
+            p.inductors_excluded.len()
+        ));
+        r.table(Table::new(
+            &["inductor", "reason"],
+            p.inductors_excluded
+                .iter()
+                .map(|e| vec![e.part.clone(), e.reason.clone()])
+                .collect(),
+        ));
+    }
+}
+
+/// `assess`: a given bank (and filter, if given) against the target and
+/// every limit.
 pub fn assess(
     c: &Common,
     bank_arg: Option<&str>,
     bom: Option<&Path>,
     opts: &assessment::AssessOptions,
+    filter_args: &assessment::FilterArgs,
 ) -> Result<CommandOutput> {
-    let (p, run) = load(c, &Overrides::default())?;
-    let bank = match (bank_arg, bom) {
-        (Some(b), _) => assessment::parse_bank_arg(&p, b)?,
-        (None, Some(f)) => {
-            let rows = assessment::read_bom(f)?;
-            assessment::bom_to_bank(&p, &rows, &f.display().to_string())?
-        }
-        (None, None) => anyhow::bail!("assess needs --bank PART=N,... or --bom FILE"),
+    // A bill of materials is read first: its filter rows need the inductors.
+    let bom_rows = match (bank_arg, bom) {
+        (None, Some(f)) => Some(assessment::read_bom_rows(f)?),
+        _ => None,
     };
+    let need_inductors = filter_args.any()
+        || bom_rows.as_ref().is_some_and(|rows| {
+            rows.iter()
+                .any(|r| r.position != assessment::Position::Converter)
+        });
+    let o = Overrides {
+        need_inductors,
+        ..Default::default()
+    };
+    let (p, run) = load(c, &o)?;
+    if bank_arg.is_some() && bom.is_some() {
+        anyhow::bail!("--bank and --bom: give one of them");
+    }
+    if bom.is_some() && filter_args.any() {
+        anyhow::bail!(
+            "--bom with --inductor, --load-bank or --damping: a bill of materials holds the filter in its \
+             `position` column; give one or the other"
+        );
+    }
+    let (bank, filter) = match (bank_arg, bom, bom_rows) {
+        (Some(b), _, _) => (
+            assessment::parse_bank_arg(&p, b)?,
+            assessment::parse_filter_args(
+                &p,
+                filter_args.inductor,
+                filter_args.load_bank,
+                filter_args.damping,
+            )?,
+        ),
+        (None, Some(f), Some(rows)) => {
+            assessment::bom_to_design(&p, &rows, &f.display().to_string())?
+        }
+        _ => anyhow::bail!("assess needs --bank PART=N,... or --bom FILE"),
+    };
+    if filter.is_some() {
+        return Err(crate::filter::not_yet_wired("assess of a filtered design"));
+    }
     if bank.iter().all(|b| b.1 == 0) {
         match bom {
             Some(f) => anyhow::bail!(

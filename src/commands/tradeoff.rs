@@ -56,6 +56,12 @@ pub fn tradeoff(
 ) -> Result<CommandOutput> {
     use indicatif::{ProgressBar, ProgressStyle};
     let (p, run) = load(c, &Overrides::default())?;
+    if p.scenario.filter.usage != crate::filter::FilterUse::Off {
+        return Err(crate::filter::not_yet_wired(&format!(
+            "tradeoff with filter use `{}`",
+            p.scenario.filter.usage.name()
+        )));
+    }
     if !(2..=200).contains(&points) {
         anyhow::bail!("--points: {points} must be from 2 to 200");
     }
