@@ -214,6 +214,14 @@ fn region_cut(
             st[i] = *x;
         }
     }
+    // A post-filter's lines follow, at their states there (`low` if none).
+    for j in bank.len()..s.ev.line_count(bank) {
+        let m = s.ev.line_model(bank, j);
+        st.push(w.states.get(j).copied().unwrap_or(LineState {
+            c: m.c_worst,
+            esr: m.esr_max,
+        }));
+    }
     Err((s.ev.ops[w.op].clone(), st))
 }
 
