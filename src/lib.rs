@@ -34,6 +34,7 @@ pub mod catalog;
 pub mod commands;
 #[allow(missing_docs)]
 pub mod converter;
+pub mod eseries;
 #[allow(missing_docs)]
 pub mod evaluator;
 pub mod filter;

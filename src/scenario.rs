@@ -2,6 +2,8 @@
 //! board and the selection rules, in TOML. Unknown keys are errors.
 
 use crate::catalog::Technology;
+use crate::eseries::ESeries;
+use crate::filter::{DampingMode, FilterUse};
 use crate::units::{self, Unit};
 use anyhow::{bail, Result};
 use serde::de::{self, Deserializer, Visitor};
@@ -75,6 +77,14 @@ macro_rules! words {
             $($variant),+
         }
 
+        words_for!($name { $($variant = $word),+ });
+    };
+}
+
+/// The words of an enum defined elsewhere (`NAMES`, `name`, `parse` and a
+/// case-insensitive `Deserialize`).
+macro_rules! words_for {
+    ($name:ty { $($variant:ident = $word:literal),+ $(,)? }) => {
         impl $name {
             /// Every allowed spelling, in lower case.
             pub const NAMES: &'static [&'static str] = &[$($word),+];
@@ -82,7 +92,7 @@ macro_rules! words {
             /// The word as the scenario spells it (lower case).
             pub fn name(self) -> &'static str {
                 match self {
-                    $($name::$variant => $word),+
+                    $(<$name>::$variant => $word),+
                 }
             }
 
@@ -90,20 +100,41 @@ macro_rules! words {
             pub fn parse(s: &str) -> Option<$name> {
                 let s = s.trim().to_ascii_lowercase().replace(['_', ' '], "-");
                 match s.as_str() {
-                    $($word => Some($name::$variant),)+
+                    $($word => Some(<$name>::$variant),)+
                     _ => None,
                 }
             }
         }
 
+        words_deserialize!($name);
+    };
+}
+
+/// A case-insensitive `Deserialize` through the type's `parse` and `NAMES`.
+macro_rules! words_deserialize {
+    ($name:ty) => {
         impl<'de> Deserialize<'de> for $name {
             fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
                 let s = String::deserialize(d)?;
-                $name::parse(&s).ok_or_else(|| de::Error::unknown_variant(&s, $name::NAMES))
+                <$name>::parse(&s).ok_or_else(|| de::Error::unknown_variant(&s, <$name>::NAMES))
             }
         }
     };
 }
+
+words_for!(FilterUse {
+    Off = "off",
+    Auto = "auto",
+    On = "on",
+});
+
+words_for!(DampingMode {
+    None = "none",
+    Rc = "rc",
+    Auto = "auto",
+});
+
+words_deserialize!(ESeries);
 
 words!(Topology {
     Buck = "buck",
@@ -366,6 +397,119 @@ impl Default for Selection {
     }
 }
 
+/// The `[filter]` table: an optional LC post-filter after the converter's
+/// own output bank (converter-side bank → inductor → load-side bank with an
+/// optional R–C damping leg). Every limit is optional; absent means not
+/// checked.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Filter {
+    /// `use`: whether `design` considers a filter (off, auto, on; default
+    /// off). `--filter` overrides it.
+    #[serde(rename = "use", default)]
+    pub usage: FilterUse,
+    /// `inductors`: the inductor catalog, relative to the scenario file
+    /// (`--inductors` overrides; default the bundled demo catalog).
+    pub inductors: Option<String>,
+    /// `min_corner_frequency`: the filter's corner `1/(2π·sqrt(L·C_load))`
+    /// (typical load-side capacitance) must be at least this, Hz.
+    pub min_corner_frequency: Option<Hertz>,
+    /// `max_output_impedance`: bound on the peak over frequency of the
+    /// impedance seen from the load node with the converter-side node held
+    /// by the converter, Ω.
+    pub max_output_impedance: Option<Ohms>,
+    /// `max_dc_drop`: bound on `iout · DCR` at the inductor's highest DCR, V.
+    pub max_dc_drop: Option<Volts>,
+    /// `damping`: none, rc or auto (default auto).
+    #[serde(default)]
+    pub damping: DampingMode,
+    /// `damping_resistors`: the IEC 60063 series the damping resistor is
+    /// taken from (default E24).
+    #[serde(default)]
+    pub damping_resistors: ESeries,
+    /// `damping_resistor_cost`: unit cost of one damping resistor (default
+    /// 0.002, common practice, no source).
+    #[serde(default = "damping_resistor_cost")]
+    pub damping_resistor_cost: Money,
+    /// `sense`: where the converter's remote sense connects; only
+    /// `converter` (the converter side of the filter) is supported.
+    #[serde(default = "converter_sense")]
+    pub sense: String,
+    /// `count_load_side`: capacitance after the inductor counts toward
+    /// `converter.max_capacitance` too (default false: only the
+    /// converter-side bank stands inside the converter's loop).
+    #[serde(default)]
+    pub count_load_side: bool,
+    /// Extension: the most equal inductors in parallel (default 1).
+    #[serde(default = "one")]
+    pub max_inductor_count: u32,
+    /// Extension: the most distinct parts in the load-side bank (default:
+    /// `board.max_lines`).
+    pub load_max_lines: Option<u32>,
+    /// Extension: the most parts in the load-side bank (default: no limit
+    /// beyond `board.max_count` for the whole design).
+    pub load_max_count: Option<u32>,
+    /// Extension: the lowest damping resistor considered, Ω (default 10 mΩ).
+    #[serde(default = "damping_resistance_min")]
+    pub damping_resistance_min: Ohms,
+    /// Extension: the highest damping resistor considered, Ω (default 10 Ω).
+    #[serde(default = "damping_resistance_max")]
+    pub damping_resistance_max: Ohms,
+}
+
+/// Default unit cost of one damping resistor (common practice, no source).
+pub const DAMPING_RESISTOR_COST: f64 = 0.002;
+
+fn damping_resistor_cost() -> Money {
+    Money(DAMPING_RESISTOR_COST)
+}
+
+fn converter_sense() -> String {
+    "converter".into()
+}
+
+fn damping_resistance_min() -> Ohms {
+    Ohms(10e-3)
+}
+
+fn damping_resistance_max() -> Ohms {
+    Ohms(10.0)
+}
+
+impl Default for Filter {
+    fn default() -> Self {
+        Filter {
+            usage: FilterUse::Off,
+            inductors: None,
+            min_corner_frequency: None,
+            max_output_impedance: None,
+            max_dc_drop: None,
+            damping: DampingMode::Auto,
+            damping_resistors: ESeries::E24,
+            damping_resistor_cost: damping_resistor_cost(),
+            sense: converter_sense(),
+            count_load_side: false,
+            max_inductor_count: 1,
+            load_max_lines: None,
+            load_max_count: None,
+            damping_resistance_min: damping_resistance_min(),
+            damping_resistance_max: damping_resistance_max(),
+        }
+    }
+}
+
+impl Filter {
+    /// The damping resistor values the search may use: the series' values
+    /// from `damping_resistance_min` to `damping_resistance_max`, Ω.
+    pub fn damping_resistor_values(&self) -> Vec<f64> {
+        crate::eseries::values(
+            self.damping_resistors,
+            self.damping_resistance_min.0,
+            self.damping_resistance_max.0,
+        )
+    }
+}
+
 /// A scenario file.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -391,6 +535,9 @@ pub struct Scenario {
     /// `[selection]`.
     #[serde(default)]
     pub selection: Selection,
+    /// `[filter]`: the optional LC post-filter (absent: `use = "off"`).
+    #[serde(default)]
+    pub filter: Filter,
     /// Where the scenario came from (for messages and relative paths).
     #[serde(skip)]
     pub source: String,
@@ -435,6 +582,17 @@ impl Scenario {
     /// Path of the catalog named by the scenario, relative to its file.
     pub fn catalog_path(&self) -> Option<PathBuf> {
         let c = self.catalog.as_ref()?;
+        let p = Path::new(c);
+        Some(match (&self.dir, p.is_absolute()) {
+            (Some(d), false) => d.join(p),
+            _ => p.to_path_buf(),
+        })
+    }
+
+    /// Path of the inductor catalog named by `[filter] inductors`, relative
+    /// to the scenario's file.
+    pub fn inductors_path(&self) -> Option<PathBuf> {
+        let c = self.filter.inductors.as_ref()?;
         let p = Path::new(c);
         Some(match (&self.dir, p.is_absolute()) {
             (Some(d), false) => d.join(p),
@@ -844,6 +1002,160 @@ impl Scenario {
                 ));
             }
         }
+        self.check_filter()
+    }
+
+    /// Physical sanity of the `[filter]` table, each error naming its key.
+    fn check_filter(&self) -> Result<()> {
+        let f = &self.filter;
+        let vout = self.converter.vout.0;
+        let sense = f.sense.trim().to_ascii_lowercase();
+        if sense != "converter" {
+            return Err(self.err(
+                "filter.sense",
+                format!(
+                    "`{}` is not supported: only \"converter\" is. A remote-sense point after the filter puts the \
+                     filter's inductor and load-side bank inside the converter's control loop, where their resonance \
+                     adds phase lag that can make the loop unstable, and the design here assumes the converter \
+                     holds the converter-side node; connect the sense on the converter side of the filter and set \
+                     sense = \"converter\"",
+                    f.sense
+                ),
+            ));
+        }
+        if let Some(fc) = f.min_corner_frequency {
+            if !(fc.0 > 0.0) || !fc.0.is_finite() {
+                return Err(self.err(
+                    "filter.min_corner_frequency",
+                    format!("{} must be above zero", fc.0),
+                ));
+            }
+            if fc.0 < 1e3 {
+                return Err(self.err(
+                    "filter.min_corner_frequency",
+                    format!(
+                        "{} is below 1 kHz, far below any converter's loop crossover where a post-filter's corner \
+                         belongs; bare numbers are hertz — did you mean \"{}\"?",
+                        units::format_si(fc.0, "Hz"),
+                        units::suggest(fc.0, "k")
+                    ),
+                ));
+            }
+            let fr = self.ripple_frequency();
+            if fc.0 >= fr {
+                return Err(self.err(
+                    "filter.min_corner_frequency",
+                    format!(
+                        "{} is at or above the ripple frequency {}: a filter whose corner lies there does not \
+                         attenuate the ripple (its resonance amplifies it); the corner belongs between the loop \
+                         crossover and the ripple frequency",
+                        units::format_si(fc.0, "Hz"),
+                        units::format_si(fr, "Hz")
+                    ),
+                ));
+            }
+        }
+        if let Some(z) = f.max_output_impedance {
+            if !(z.0 > 0.0) || !z.0.is_finite() {
+                return Err(self.err(
+                    "filter.max_output_impedance",
+                    format!("{} must be above zero", z.0),
+                ));
+            }
+            if z.0 > 10.0 {
+                return Err(self.err(
+                    "filter.max_output_impedance",
+                    format!(
+                        "{} is not a plausible bound on a power rail's output impedance (above 10 Ω); bare numbers \
+                         are ohms — did you mean \"{}\"?",
+                        units::format_si(z.0, "Ω"),
+                        units::suggest(z.0, "m")
+                    ),
+                ));
+            }
+        }
+        if let Some(v) = f.max_dc_drop {
+            if !(v.0 > 0.0) || !v.0.is_finite() {
+                return Err(self.err("filter.max_dc_drop", format!("{} must be above zero", v.0)));
+            }
+            if v.0 >= vout {
+                return Err(self.err(
+                    "filter.max_dc_drop",
+                    format!(
+                        "{} is at or above vout {}: a filter's DC drop is a small part of the output; bare numbers \
+                         are volts — did you mean \"{}\"?",
+                        units::format_si(v.0, "V"),
+                        units::format_si(vout, "V"),
+                        units::suggest(v.0, "m")
+                    ),
+                ));
+            }
+        }
+        let cost = f.damping_resistor_cost.0;
+        if !(cost >= 0.0) || !cost.is_finite() {
+            return Err(self.err(
+                "filter.damping_resistor_cost",
+                format!("{cost} must be zero or more"),
+            ));
+        }
+        if f.max_inductor_count == 0 || f.max_inductor_count > 8 {
+            return Err(self.err(
+                "filter.max_inductor_count",
+                format!(
+                    "{} must be from 1 to 8 (equal inductors in parallel)",
+                    f.max_inductor_count
+                ),
+            ));
+        }
+        if f.load_max_lines == Some(0) {
+            return Err(self.err("filter.load_max_lines", "must be at least 1"));
+        }
+        if f.load_max_count == Some(0) {
+            return Err(self.err(
+                "filter.load_max_count",
+                "must be at least 1 (a filter needs a load-side bank)",
+            ));
+        }
+        let (rlo, rhi) = (f.damping_resistance_min.0, f.damping_resistance_max.0);
+        for (key, r) in [
+            ("filter.damping_resistance_min", rlo),
+            ("filter.damping_resistance_max", rhi),
+        ] {
+            if !(r > 0.0) || !r.is_finite() {
+                return Err(self.err(key, format!("{r} must be above zero")));
+            }
+            if r > 1e3 {
+                return Err(self.err(
+                    key,
+                    format!(
+                        "{} is far above any damping resistor of a power rail's filter (above 1 kΩ; a damping \
+                         resistor is near sqrt(L/C), milliohms to ohms); bare numbers are ohms",
+                        units::format_si(r, "Ω"),
+                    ),
+                ));
+            }
+        }
+        if rlo > rhi {
+            return Err(self.err(
+                "filter.damping_resistance_min",
+                format!(
+                    "{} is above damping_resistance_max {}",
+                    units::format_si(rlo, "Ω"),
+                    units::format_si(rhi, "Ω")
+                ),
+            ));
+        }
+        if f.damping != DampingMode::None && f.damping_resistor_values().is_empty() {
+            return Err(self.err(
+                "filter.damping_resistance_min",
+                format!(
+                    "no {} value lies from {} to {}: widen the range or choose a finer series",
+                    f.damping_resistors.label(),
+                    units::format_si(rlo, "Ω"),
+                    units::format_si(rhi, "Ω")
+                ),
+            ));
+        }
         Ok(())
     }
 
@@ -1010,6 +1322,98 @@ mod tests {
         .unwrap_err()
         .to_string();
         assert!(e.contains("converter.inductance_tolerance"), "{e}");
+    }
+
+    #[test]
+    fn filter_table_defaults_and_words() {
+        let s = Scenario::from_str(MIN, "t.toml").unwrap();
+        let f = &s.filter;
+        assert_eq!(f.usage, FilterUse::Off);
+        assert_eq!(f.damping, DampingMode::Auto);
+        assert_eq!(f.damping_resistors, ESeries::E24);
+        assert_eq!(f.damping_resistor_cost.0, DAMPING_RESISTOR_COST);
+        assert!(!f.count_load_side && f.max_inductor_count == 1);
+        assert_eq!(s.inductors_path(), None);
+        let t = MIN.to_string()
+            + "[filter]\nuse = \"AUTO\"\ninductors = \"l.csv\"\nmin_corner_frequency = \"50kHz\"\n\
+               max_output_impedance = \"50mOhm\"\nmax_dc_drop = \"30m\"\ndamping = \"RC\"\n\
+               damping_resistors = \"e12\"\ndamping_resistor_cost = \"$0.004\"\nsense = \"Converter\"\n\
+               count_load_side = true\nmax_inductor_count = 2\nload_max_lines = 2\n\
+               damping_resistance_min = \"0R1\"\ndamping_resistance_max = \"2R2\"\n";
+        let mut s = Scenario::from_str(&t, "t.toml").unwrap();
+        let f = &s.filter;
+        assert_eq!(f.usage, FilterUse::Auto);
+        assert_eq!(f.damping, DampingMode::Rc);
+        assert_eq!(f.damping_resistors, ESeries::E12);
+        assert_eq!(f.min_corner_frequency.unwrap().0, 50e3);
+        assert!((f.max_output_impedance.unwrap().0 - 0.05).abs() < 1e-15);
+        assert!((f.max_dc_drop.unwrap().0 - 0.03).abs() < 1e-15);
+        assert_eq!(f.damping_resistor_cost.0, 0.004);
+        assert!(f.count_load_side && f.max_inductor_count == 2 && f.load_max_lines == Some(2));
+        // IEC 60063 E12 from 0.1 Ω to 2.2 Ω: 0.1 … 0.82, 1 … 2.2.
+        let r = f.damping_resistor_values();
+        assert_eq!(r.len(), 17, "{r:?}");
+        assert!((r[0] - 0.1).abs() < 1e-15 && (r[16] - 2.2).abs() < 1e-15);
+        s.dir = Some(PathBuf::from("/x/scen"));
+        assert_eq!(s.inductors_path(), Some(PathBuf::from("/x/scen/l.csv")));
+        // Unknown words list the allowed ones; unknown keys are named.
+        for (bad, want) in [
+            ("use = \"maybe\"", "auto"),
+            ("damping = \"lc\"", "rc"),
+            ("damping_resistors = \"E192\"", "e96"),
+            ("dampng = \"rc\"", "dampng"),
+        ] {
+            let e = Scenario::from_str(&(MIN.to_string() + "[filter]\n" + bad + "\n"), "t.toml")
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains(want) && e.contains("line"), "{e}");
+        }
+    }
+
+    #[test]
+    fn filter_sense_after_the_filter_is_refused_with_the_reason() {
+        let e = Scenario::from_str(
+            &(MIN.to_string() + "[filter]\nsense = \"load\"\n"),
+            "t.toml",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("key `filter.sense`") && e.contains("inside the converter's control loop"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn filter_plausibility_errors_name_the_key_and_suggest() {
+        for (line, key, hint) in [
+            ("min_corner_frequency = 50", "filter.min_corner_frequency", "\"50k\""),
+            ("min_corner_frequency = \"2M\"", "filter.min_corner_frequency", "ripple frequency 600 kHz"),
+            ("max_output_impedance = 50", "filter.max_output_impedance", "\"50m\""),
+            ("max_output_impedance = \"-1m\"", "filter.max_output_impedance", "above zero"),
+            ("max_dc_drop = 30", "filter.max_dc_drop", "\"30m\""),
+            ("max_dc_drop = \"30mA\"", "max_dc_drop", "voltage"),
+            ("damping_resistor_cost = -1", "filter.damping_resistor_cost", "zero or more"),
+            ("max_inductor_count = 0", "filter.max_inductor_count", "1 to 8"),
+            ("load_max_count = 0", "filter.load_max_count", "at least 1"),
+            ("damping_resistance_max = \"10k\"", "filter.damping_resistance_max", "1 kΩ"),
+            ("damping_resistance_min = 20", "filter.damping_resistance_min", "above damping_resistance_max"),
+            (
+                "damping_resistors = \"E6\"\ndamping_resistance_min = \"1.6\"\ndamping_resistance_max = \"2\"",
+                "filter.damping_resistance_min",
+                "no E6 value",
+            ),
+        ] {
+            let e = Scenario::from_str(&(MIN.to_string() + "[filter]\n" + line + "\n"), "t.toml")
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains(key) && e.contains(hint), "{line}: {e}");
+        }
+        // Without damping no resistor range is needed.
+        let t = MIN.to_string()
+            + "[filter]\ndamping = \"none\"\ndamping_resistors = \"E6\"\ndamping_resistance_min = \"1.6\"\n\
+               damping_resistance_max = \"2\"\n";
+        assert!(Scenario::from_str(&t, "t.toml").is_ok());
     }
 
     #[test]
