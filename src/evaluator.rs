@@ -131,6 +131,20 @@ impl TailLine {
     }
 }
 
+/// The output impedance of a post-filter at `f` with its lines at
+/// `states`: the load node's impedance with the bank's node held at a fixed
+/// voltage, `1 / (Y_load + 1/Z_s)` (None without lines).
+pub fn tail_output_impedance(tail: &[TailLine], states: &[LineState], f: f64) -> Option<Complex64> {
+    if tail.is_empty() {
+        return None;
+    }
+    let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+    for (t, st) in tail.iter().zip(states) {
+        t.add_at(st, f, &mut y_load, &mut zs);
+    }
+    Some((y_load + zs.inv()).inv())
+}
+
 /// A post-filter's terms `(ty, h)` of [`crate::network::tail_terms`] at
 /// every harmonic and at the asymptote, for one state of its lines.
 #[derive(Debug, Clone, Default)]
@@ -494,18 +508,39 @@ impl Evaluator {
         (crate::network::tail_terms(y_load, zs), y_load)
     }
 
+    /// A lower bound on the target figure with the post-filter `tail` (its
+    /// lines at `low`) behind any bank whose admittance at harmonic k is at
+    /// most `ymax[k]` in magnitude: max_k 1.53·|D_k·h_k| / (ymax_k·|G_k| +
+    /// |Y_int + G_k·ty_k|) (the argument of [`Evaluator::required_admittance`]).
+    /// Used to drop filters no allowed bank can make pass.
+    pub fn tail_ripple_floor(&self, tail: &[TailLine], ymax: &[f64]) -> f64 {
+        let mut best: f64 = 0.0;
+        for k in 0..self.n_limited.min(ymax.len()) {
+            let f = self.freqs[k];
+            let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+            for t in tail {
+                let st = LineState {
+                    c: t.model.c_worst,
+                    esr: t.model.esr_max,
+                };
+                t.add_at(&st, f, &mut y_load, &mut zs);
+            }
+            let (ty, h) = crate::network::tail_terms(y_load, zs);
+            let w = 2.0 * PI * f;
+            let yi = self.y_int[k];
+            let g = self.network.coupling_with(yi, w);
+            let y = ymax[k] * g.norm() + (yi + g * ty).norm();
+            let d = self.peak_drive(k) * h.norm();
+            best = best.max(if y > 0.0 { HARMONIC_FLOOR * d / y } else { f64::INFINITY });
+        }
+        best
+    }
+
     /// The filter's output impedance at `f`: the load node's impedance with
     /// the converter's side held at a fixed voltage (bank node shorted),
     /// `1 / (Y_load + 1/Z_s)`, its lines at `states` (None without a filter).
     pub fn output_impedance(&self, states: &[LineState], f: f64) -> Option<Complex64> {
-        if self.tail.is_empty() {
-            return None;
-        }
-        let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
-        for (t, st) in self.tail.iter().zip(states) {
-            t.add_at(st, f, &mut y_load, &mut zs);
-        }
-        Some((y_load + zs.inv()).inv())
+        tail_output_impedance(&self.tail, states, f)
     }
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {

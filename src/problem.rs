@@ -39,6 +39,10 @@ pub struct Problem {
     pub warnings: Vec<String>,
     /// The inductor catalog a post-filter is chosen from, when one is loaded.
     pub inductors: Option<crate::inductors::InductorCatalog>,
+    /// Inductor catalog indices a filter may use.
+    pub inductors_eligible: Vec<usize>,
+    /// Every inductor that may not be used, with its reason.
+    pub inductors_excluded: Vec<Excluded>,
     /// A post-filter fixed behind every bank this problem evaluates (the
     /// filter search sets it; `None`: capacitors only).
     pub filter: Option<crate::filter::FilterDesign>,
@@ -367,6 +371,8 @@ impl Problem {
             region_ops,
             warnings,
             inductors: None,
+            inductors_eligible: Vec::new(),
+            inductors_excluded: Vec::new(),
             filter: None,
         })
     }

@@ -383,6 +383,8 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
             continue;
         };
         p.inductors = problem.inductors.clone();
+        p.inductors_eligible = problem.inductors_eligible.clone();
+        p.inductors_excluded = problem.inductors_excluded.clone();
         p.filter = problem.filter.clone();
         if let Some(f) = design_for(&p, target, &quick).found {
             out.push(name.to_string());
@@ -400,6 +402,8 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         region_ops: problem.region_ops.clone(),
         warnings: vec![],
         inductors: problem.inductors.clone(),
+        inductors_eligible: problem.inductors_eligible.clone(),
+        inductors_excluded: problem.inductors_excluded.clone(),
         filter: problem.filter.clone(),
     };
     if p.eligible
