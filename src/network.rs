@@ -130,6 +130,23 @@ impl Network {
         two_node_transfer(yi, Complex64::new(0.0, w * self.connection_inductance), yb)
     }
 
+    /// Transfer impedance to the measured node with a post-filter behind
+    /// the bank's node: the filter adds the admittance `ty` at the bank's
+    /// node and divides its voltage by `1/h` on the way to the load node
+    /// ([`tail_terms`]), so `Z = h / (G·(Y_b + ty) + Y_int)`. With `ty = 0`
+    /// and `h = 1` it is [`Network::transfer_with`].
+    #[inline]
+    pub fn transfer_tail(
+        &self,
+        yb: Complex64,
+        yi: Complex64,
+        w: f64,
+        ty: Complex64,
+        h: Complex64,
+    ) -> Complex64 {
+        h * (self.coupling_with(yi, w) * (yb + ty) + yi).inv()
+    }
+
     /// Transfer impedance for the added bank's admittance `yb` at `f`, Hz.
     pub fn transfer(&self, yb: Complex64, f: f64) -> Complex64 {
         self.transfer_with(yb, self.internal_admittance(f), 2.0 * PI * f)
@@ -180,7 +197,13 @@ impl Network {
     /// [`OMEGA_ASYMPTOTE`]: a resistance and an inductance. (0, 0) when the
     /// network has nothing at all.
     pub fn asymptote(&self, yb_big: Complex64) -> (f64, f64) {
-        let z = self.transfer_with(yb_big, self.internal_big, OMEGA_ASYMPTOTE);
+        self.asymptote_tail(yb_big, Complex64::default(), Complex64::new(1.0, 0.0))
+    }
+
+    /// As [`Network::asymptote`] with a post-filter's terms `(ty, h)` at
+    /// [`OMEGA_ASYMPTOTE`] ([`Network::transfer_tail`]).
+    pub fn asymptote_tail(&self, yb_big: Complex64, ty: Complex64, h: Complex64) -> (f64, f64) {
+        let z = self.transfer_tail(yb_big, self.internal_big, OMEGA_ASYMPTOTE, ty, h);
         if z.is_finite() {
             let a1 = z.im / OMEGA_ASYMPTOTE;
             // Below a femtohenry the slope is a capacitor's −1/(Ω²C) tail,
@@ -190,6 +213,18 @@ impl Network {
             (0.0, 0.0)
         }
     }
+}
+
+/// What a post-filter stage does to the bank's node, for the load-side
+/// node's total admittance `y_load` (load-side bank and damping) and the
+/// series impedance `zs` of the filter inductor: the admittance it adds at
+/// the bank's node, `Y_load / (1 + Zs·Y_load)`, and the voltage ratio from
+/// the bank's node to the load node, `1 / (1 + Zs·Y_load)` (a series
+/// impedance into a shunt admittance: a voltage divider).
+#[inline]
+pub fn tail_terms(y_load: Complex64, zs: Complex64) -> (Complex64, Complex64) {
+    let h = (Complex64::new(1.0, 0.0) + zs * y_load).inv();
+    (y_load * h, h)
 }
 
 /// Voltage at node 2 per ampere injected at node 1, for node 1's admittance

@@ -495,9 +495,13 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
     for (name, relax) in &tries {
         let mut sc = base.clone();
         relax(&mut sc);
-        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
+        let Ok(mut p) = Problem::new(sc, problem.catalog.clone()) else {
             continue;
         };
+        p.inductors = problem.inductors.clone();
+        p.inductors_eligible = problem.inductors_eligible.clone();
+        p.inductors_excluded = problem.inductors_excluded.clone();
+        p.filter = problem.filter.clone();
         if let Some(f) = design_for(&p, target, &quick).found {
             out.push(name.to_string());
             details.extend(details_of(problem, &f.bank, Some(name)));
@@ -516,6 +520,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         ops: problem.ops.clone(),
         region_ops: problem.region_ops.clone(),
         warnings: vec![],
+        filter: problem.filter.clone(),
     };
     if p.eligible
         .iter()

@@ -148,6 +148,10 @@ pub struct Settings {
     /// Exact evaluations allowed in one search; past it the search stops
     /// and the result is `feasible` at best.
     pub max_evaluations: usize,
+    /// Only banks whose objective is below this are of interest (the
+    /// filter search's incumbent minus a filter's own share): the search
+    /// starts with it as its bound and finds nothing above it.
+    pub cutoff: Option<f64>,
 }
 
 impl Default for Settings {
@@ -160,11 +164,13 @@ impl Default for Settings {
             milp_proposals: 2,
             milp_seconds: 2.0,
             max_evaluations: 3_000_000,
+            cutoff: None,
         }
     }
 }
 
 mod explain;
+mod filtered;
 mod milp;
 mod rework;
 mod search;
@@ -173,6 +179,7 @@ pub use explain::{
     binding, explain, lowest_deviation, lowest_ripple, Binding, BindingDetail, Explanation, Lowest,
     LowestDeviation,
 };
+pub use filtered::{design_filtered, FilterOutcome};
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
@@ -219,6 +226,14 @@ fn cut_states(s: &Search, bank: &[(usize, u32)], states: &[LineState]) -> Vec<Li
         if let Some(x) = states.get(j) {
             st[i] = *x;
         }
+    }
+    // A post-filter's lines follow, at their states there (`low` if none).
+    for j in bank.len()..s.ev.line_count(bank) {
+        let m = s.ev.line_model(bank, j);
+        st.push(states.get(j).copied().unwrap_or(LineState {
+            c: m.c_worst,
+            esr: m.esr_max,
+        }));
     }
     st
 }
@@ -273,6 +288,10 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
         round += 1;
         let mut s = search_with(problem, &cands, target, &actives);
         s.budget = settings.max_evaluations;
+        if let Some(c) = settings.cutoff {
+            // A bound, not a bank: an empty bank of infinite ripple.
+            s.incumbent = Some(([c, f64::INFINITY, f64::INFINITY], Vec::new(), f64::INFINITY));
+        }
         // The converter alone (no added parts), when it has capacitance of its own.
         if s.required_parts.is_empty()
             && problem.scenario.converter.internal_capacitance.is_some()
@@ -335,7 +354,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
         stopped = s.stopped;
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
-        if let Some((key, bank, _)) = s.incumbent.take() {
+        if let Some((key, bank, _)) = s.incumbent.take().filter(|i| i.2.is_finite()) {
             let verdict = region_cut(problem, &mut s, &bank, target);
             if let Err(cut) = verdict {
                 if round < MAX_REGION_ROUNDS {
