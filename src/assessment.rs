@@ -243,6 +243,8 @@ pub struct Assessment {
     pub all_ok: bool,
     /// Warnings about this bank and the inputs.
     pub warnings: Vec<String>,
+    /// The load step's figures (`None` without `[transient]`; JSON null).
+    pub transient: Option<crate::transient::StepFigures>,
 }
 
 /// Effective capacitance of the bank at the ripple frequency at one
@@ -870,6 +872,7 @@ pub fn assess_with(
         });
     }
     // The linear limits, from the one table of them.
+    let transient = crate::transient::figures(s, &ev.parts, local);
     let totals = Totals {
         cap_limit: climit,
         cap_effective: ceff,
@@ -877,6 +880,7 @@ pub fn assess_with(
         lines: nlines,
         area,
         area_known,
+        deviation: transient.as_ref().map(|t| t.deviation),
     };
     checks.extend(limits::checks(s, &totals));
     if s.board.max_area.is_some() && !area_known {
@@ -948,5 +952,6 @@ pub fn assess_with(
         meets_target,
         all_ok,
         warnings,
+        transient,
     }
 }

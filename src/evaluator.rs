@@ -74,6 +74,87 @@ pub struct LineState {
 /// A bank: (local part index, count) pairs.
 pub type Bank = [(usize, u32)];
 
+/// Where a part of a post-filter sits.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum TailRole {
+    /// A capacitor of the load-side bank.
+    Load,
+    /// A damping capacitor: the line's capacitors in parallel, in series
+    /// with one resistor (Ω).
+    Damping {
+        /// The damping resistor, Ω.
+        resistance: f64,
+    },
+    /// The filter inductor (the line's inductors in parallel): its model's
+    /// `c_*` fields hold the inductance range, its `esr*` fields the DCR,
+    /// and this its winding capacitance, F.
+    Inductor {
+        /// Parallel (winding) capacitance of one inductor, F.
+        cp: f64,
+    },
+}
+
+/// One line of a post-filter: a part model, its count and its place.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TailLine {
+    /// The part (for an inductor: inductance in `c_*`, DCR in `esr*`).
+    pub model: PartModel,
+    /// Parts in parallel.
+    pub count: u32,
+    /// Where it sits.
+    pub role: TailRole,
+}
+
+impl TailLine {
+    /// Add this line's share at `f` to the load-side admittance `y_load`
+    /// and the inductor's impedance `zs`, with the line at `st`.
+    #[inline]
+    fn add_at(&self, st: &LineState, f: f64, y_load: &mut Complex64, zs: &mut Complex64) {
+        let n = self.count as f64;
+        match self.role {
+            TailRole::Load => *y_load += admittance(st.esr, self.model.esl, st.c, f) * n,
+            TailRole::Damping { resistance } => {
+                // One resistor in series with n capacitors in parallel.
+                let zc = admittance(st.esr, self.model.esl, st.c, f).inv() / n;
+                *y_load += (Complex64::new(resistance, 0.0) + zc).inv();
+            }
+            TailRole::Inductor { cp } => {
+                let z = crate::network::SeriesInductor {
+                    l: st.c,
+                    dcr: st.esr,
+                    cp,
+                }
+                .impedance(f);
+                *zs += z / n;
+            }
+        }
+    }
+}
+
+/// The output impedance of a post-filter at `f` with its lines at
+/// `states`: the load node's impedance with the bank's node held at a fixed
+/// voltage, `1 / (Y_load + 1/Z_s)` (None without lines).
+pub fn tail_output_impedance(tail: &[TailLine], states: &[LineState], f: f64) -> Option<Complex64> {
+    if tail.is_empty() {
+        return None;
+    }
+    let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+    for (t, st) in tail.iter().zip(states) {
+        t.add_at(st, f, &mut y_load, &mut zs);
+    }
+    Some((y_load + zs.inv()).inv())
+}
+
+/// A post-filter's terms `(ty, h)` of [`crate::network::tail_terms`] at
+/// every harmonic and at the asymptote, for one state of its lines.
+#[derive(Debug, Clone, Default)]
+struct TailTable {
+    ty: Vec<Complex64>,
+    h: Vec<Complex64>,
+    ty_big: Complex64,
+    h_big: Complex64,
+}
+
 struct Plan {
     m: usize,
     fft: Arc<dyn Fft<f64>>,
@@ -123,6 +204,18 @@ pub struct Evaluator {
     /// Coarse inverse FFT: every `m / SUB` th sample of the target figure.
     plan_sub: Arc<dyn Fft<f64>>,
     plan_first: Arc<dyn Fft<f64>>,
+    /// The post-filter behind the bank, if any (fixed for this evaluator).
+    tail: Vec<TailLine>,
+    /// The filter's terms with its lines at `low` and at `typical`.
+    tail_low: TailTable,
+    tail_typical: TailTable,
+    /// Per harmonic of the last transfer filled: the voltage ratio from the
+    /// bank's node to the measured node (1 without a filter) and the load
+    /// node's total admittance (0 without one).
+    hk: Vec<Complex64>,
+    yl: Vec<Complex64>,
+    /// The bank's and the filter's terms at the asymptote, last filled.
+    big: (Complex64, Complex64, Complex64),
     // Scratch, reused by every call.
     zt: Vec<Complex64>,
     buf: Vec<Complex64>,
@@ -227,6 +320,12 @@ impl Evaluator {
             order_lim,
             tau,
             asym: (0.0, 0.0),
+            tail: Vec::new(),
+            tail_low: TailTable::default(),
+            tail_typical: TailTable::default(),
+            hk: vec![Complex64::new(1.0, 0.0); n_full],
+            yl: vec![Complex64::default(); n_full],
+            big: (Complex64::default(), Complex64::default(), Complex64::new(1.0, 0.0)),
             zt: vec![Complex64::default(); n_full],
             buf: vec![Complex64::default(); plan_full.m.max(plan_limited.m)],
             fft_scratch: vec![Complex64::default(); scratch_len],
@@ -292,21 +391,156 @@ impl Evaluator {
 
     /// Transfer impedance at harmonic `k` for the added bank's admittance
     /// `yb` there (the network's, with its tabulated internal admittance).
+    /// With a post-filter, the voltage at the load node, its lines at the
+    /// named state of `corner`.
     #[inline]
-    fn transfer_of(&self, yb: Complex64, k: usize) -> Complex64 {
+    fn transfer_of(&self, yb: Complex64, k: usize, corner: Corner) -> Complex64 {
+        let w = 2.0 * PI * self.freqs[k];
+        if self.tail.is_empty() {
+            return self.network.transfer_with(yb, self.y_int[k], w);
+        }
+        let t = self.tail_table(corner);
         self.network
-            .transfer_with(yb, self.y_int[k], 2.0 * PI * self.freqs[k])
+            .transfer_tail(yb, self.y_int[k], w, t.ty[k], t.h[k])
+    }
+
+    fn tail_table(&self, corner: Corner) -> &TailTable {
+        match corner {
+            Corner::Worst => &self.tail_low,
+            Corner::Typical => &self.tail_typical,
+        }
     }
 
     /// Record the network's high-frequency asymptote `a0 + jω·a1` for the
-    /// bank admittance `yb_big` at [`OMEGA_ASYMPTOTE`].
-    fn set_asymptote(&mut self, yb_big: Complex64) {
-        self.asym = self.network.asymptote(yb_big);
+    /// bank admittance `yb_big` at [`OMEGA_ASYMPTOTE`], the filter's lines
+    /// at the named state of `corner`.
+    fn set_asymptote(&mut self, yb_big: Complex64, corner: Corner) {
+        let (ty, h) = if self.tail.is_empty() {
+            (Complex64::default(), Complex64::new(1.0, 0.0))
+        } else {
+            let t = self.tail_table(corner);
+            (t.ty_big, t.h_big)
+        };
+        self.set_asymptote_tail(yb_big, ty, h);
     }
 
-    /// Whether the bank has any capacitance at all (added or internal).
+    fn set_asymptote_tail(&mut self, yb_big: Complex64, ty: Complex64, h: Complex64) {
+        self.big = (yb_big, ty, h);
+        self.asym = self.network.asymptote_tail(yb_big, ty, h);
+    }
+
+    /// Whether the bank has any capacitance at all (added, internal or
+    /// behind a post-filter).
     pub fn is_empty(&self, bank: &Bank) -> bool {
-        !self.network.has_internal() && bank.iter().all(|&(_, n)| n == 0)
+        !self.network.has_internal() && self.tail.is_empty() && bank.iter().all(|&(_, n)| n == 0)
+    }
+
+    /// Put a post-filter behind the bank: every figure is then taken at the
+    /// load node, with the bank on the converter's side of the inductor.
+    /// Allocates: once per evaluator.
+    pub fn set_tail(&mut self, tail: Vec<TailLine>) {
+        self.tail = tail;
+        let low: Vec<LineState> = self
+            .tail
+            .iter()
+            .map(|t| LineState {
+                c: t.model.c_worst,
+                esr: t.model.esr_max,
+            })
+            .collect();
+        let typical: Vec<LineState> = self
+            .tail
+            .iter()
+            .map(|t| LineState {
+                c: t.model.c_typical,
+                esr: t.model.esr,
+            })
+            .collect();
+        self.tail_low = self.tail_table_at(&low);
+        self.tail_typical = self.tail_table_at(&typical);
+    }
+
+    /// The post-filter's lines (empty without one).
+    pub fn tail(&self) -> &[TailLine] {
+        &self.tail
+    }
+
+    /// Lines of `bank` and of the post-filter behind it: the length of a
+    /// full set of line states.
+    pub fn line_count(&self, bank: &Bank) -> usize {
+        bank.len() + self.tail.len()
+    }
+
+    /// The model of line `j` of `bank` followed by the filter's lines.
+    pub fn line_model<'a>(&'a self, bank: &Bank, j: usize) -> &'a PartModel {
+        if j < bank.len() {
+            &self.parts[bank[j].0]
+        } else {
+            &self.tail[j - bank.len()].model
+        }
+    }
+
+    fn tail_table_at(&self, states: &[LineState]) -> TailTable {
+        let mut t = TailTable {
+            ty: Vec::with_capacity(self.n_full),
+            h: Vec::with_capacity(self.n_full),
+            ..Default::default()
+        };
+        for &f in &self.freqs {
+            let (ty, h) = self.tail_terms_at(states, f).0;
+            t.ty.push(ty);
+            t.h.push(h);
+        }
+        let ((ty, h), _) = self.tail_terms_at(states, OMEGA_ASYMPTOTE / (2.0 * PI));
+        t.ty_big = ty;
+        t.h_big = h;
+        t
+    }
+
+    /// The filter's `(ty, h)` at `f` with its lines at `states`, and the
+    /// load node's total admittance there.
+    #[inline]
+    fn tail_terms_at(&self, states: &[LineState], f: f64) -> ((Complex64, Complex64), Complex64) {
+        let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+        for (t, st) in self.tail.iter().zip(states) {
+            t.add_at(st, f, &mut y_load, &mut zs);
+        }
+        (crate::network::tail_terms(y_load, zs), y_load)
+    }
+
+    /// A lower bound on the target figure with the post-filter `tail` (its
+    /// lines at `low`) behind any bank whose admittance at harmonic k is at
+    /// most `ymax[k]` in magnitude: max_k 1.53·|D_k·h_k| / (ymax_k·|G_k| +
+    /// |Y_int + G_k·ty_k|) (the argument of [`Evaluator::required_admittance`]).
+    /// Used to drop filters no allowed bank can make pass.
+    pub fn tail_ripple_floor(&self, tail: &[TailLine], ymax: &[f64]) -> f64 {
+        let mut best: f64 = 0.0;
+        for k in 0..self.n_limited.min(ymax.len()) {
+            let f = self.freqs[k];
+            let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+            for t in tail {
+                let st = LineState {
+                    c: t.model.c_worst,
+                    esr: t.model.esr_max,
+                };
+                t.add_at(&st, f, &mut y_load, &mut zs);
+            }
+            let (ty, h) = crate::network::tail_terms(y_load, zs);
+            let w = 2.0 * PI * f;
+            let yi = self.y_int[k];
+            let g = self.network.coupling_with(yi, w);
+            let y = ymax[k] * g.norm() + (yi + g * ty).norm();
+            let d = self.peak_drive(k) * h.norm();
+            best = best.max(if y > 0.0 { HARMONIC_FLOOR * d / y } else { f64::INFINITY });
+        }
+        best
+    }
+
+    /// The filter's output impedance at `f`: the load node's impedance with
+    /// the converter's side held at a fixed voltage (bank node shorted),
+    /// `1 / (Y_load + 1/Z_s)`, its lines at `states` (None without a filter).
+    pub fn output_impedance(&self, states: &[LineState], f: f64) -> Option<Complex64> {
+        tail_output_impedance(&self.tail, states, f)
     }
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {
@@ -331,9 +565,16 @@ impl Evaluator {
             }
         }
         for k in 0..n {
-            self.zt[k] = self.transfer_of(self.zt[k], k);
+            self.zt[k] = self.transfer_of(self.zt[k], k, corner);
         }
-        self.set_asymptote(yb_big);
+        if !self.tail.is_empty() {
+            let t = match corner {
+                Corner::Worst => &self.tail_low,
+                Corner::Typical => &self.tail_typical,
+            };
+            self.hk[..n].copy_from_slice(&t.h[..n]);
+        }
+        self.set_asymptote(yb_big, corner);
     }
 
     /// Write the remaining series `D_k · (Z_k − a0 − jω_k·a1)` of vin
@@ -465,13 +706,16 @@ impl Evaluator {
             return f64::INFINITY;
         }
         for k in 0..n {
-            self.zt[k] = self.transfer_of(yb[k], k);
+            self.zt[k] = self.transfer_of(yb[k], k, Corner::Worst);
+        }
+        if !self.tail.is_empty() {
+            self.hk[..n].copy_from_slice(&self.tail_low.h[..n]);
         }
         let mut yb_big = Complex64::default();
         for &(i, cnt) in bank {
             yb_big += self.y_big_worst[i] * cnt as f64;
         }
-        self.set_asymptote(yb_big);
+        self.set_asymptote(yb_big, Corner::Worst);
         self.check_filled(limit)
     }
 
@@ -562,9 +806,9 @@ impl Evaluator {
     pub fn required_admittance(&self, target: f64) -> Vec<f64> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self.peak_drive(k);
-                let (g, yi) = self.internal_terms(k);
-                ((HARMONIC_FLOOR * d / target - yi) / g).max(0.0)
+                let (g, offset, h) = self.offset_terms(k);
+                let d = self.peak_drive(k) * h.norm();
+                ((HARMONIC_FLOOR * d / target - offset.norm()) / g.norm()).max(0.0)
             })
             .collect()
     }
@@ -574,9 +818,9 @@ impl Evaluator {
     pub fn ripple_floor_for(&self, sum_a: &[f64]) -> f64 {
         let mut best: f64 = 0.0;
         for k in 0..self.n_limited {
-            let d = self.peak_drive(k);
-            let (g, yi) = self.internal_terms(k);
-            let y = sum_a[k] * g + yi;
+            let (g, offset, h) = self.offset_terms(k);
+            let d = self.peak_drive(k) * h.norm();
+            let y = sum_a[k] * g.norm() + offset.norm();
             best = best.max(if y > 0.0 {
                 HARMONIC_FLOOR * d / y
             } else {
@@ -587,27 +831,31 @@ impl Evaluator {
     }
 
     /// Per harmonic of the target figure: r_k = max over corners of
-    /// |D_k| / target (the total admittance a passing bank must have at k),
-    /// G_k = 1 + jωLc·Y_int and Y_int, so that Y_tot = Y_b·G_k + Y_int.
+    /// |D_k|·|h_k| / target (the total admittance a passing bank must have
+    /// at k), G_k = 1 + jωLc·Y_int and the offset Y_int + G_k·ty_k, so that
+    /// the measured voltage is D_k·h_k / (Y_b·G_k + offset). Without a
+    /// post-filter h = 1 and ty = 0; with one, its lines at `low` (a
+    /// necessary condition there is one for the whole region).
     pub fn phase_terms(&self, target: f64) -> Vec<(f64, Complex64, Complex64)> {
         (0..self.n_limited)
             .map(|k| {
-                let d = self.peak_drive(k);
-                let w = 2.0 * PI * self.freqs[k];
-                let yi = self.y_int[k];
-                (
-                    HARMONIC_FLOOR * d / target,
-                    self.network.coupling_with(yi, w),
-                    yi,
-                )
+                let (g, offset, h) = self.offset_terms(k);
+                let d = self.peak_drive(k) * h.norm();
+                (HARMONIC_FLOOR * d / target, g, offset)
             })
             .collect()
     }
 
-    fn internal_terms(&self, k: usize) -> (f64, f64) {
+    /// `(G_k, Y_int + G_k·ty_k, h_k)` at harmonic k, the filter at `low`.
+    fn offset_terms(&self, k: usize) -> (Complex64, Complex64, Complex64) {
         let w = 2.0 * PI * self.freqs[k];
         let yi = self.y_int[k];
-        (self.network.coupling_with(yi, w).norm(), yi.norm())
+        let g = self.network.coupling_with(yi, w);
+        if self.tail.is_empty() {
+            (g, yi, Complex64::new(1.0, 0.0))
+        } else {
+            (g, yi + g * self.tail_low.ty[k], self.tail_low.h[k])
+        }
     }
 
     /// |Y_ik| of one capacitor at the worst corner, for the target's harmonics.
@@ -709,7 +957,8 @@ impl Evaluator {
                     let mut sum = 0.0;
                     for k in 0..n {
                         let y = self.y(i, k, corner);
-                        sum += Network::part_current(self.currents[c][k], self.zt[k], y).norm_sqr();
+                        let z = self.zt[k] / self.hk[k];
+                        sum += Network::part_current(self.currents[c][k], z, y).norm_sqr();
                     }
                     out[j] = out[j].max((sum / 2.0).sqrt());
                 }
@@ -759,10 +1008,40 @@ impl Evaluator {
                 *z += admittance(st.esr, esl, st.c, f) * c;
             }
         }
-        for k in 0..n {
-            self.zt[k] = self.transfer_of(self.zt[k], k);
+        if self.tail.is_empty() {
+            for k in 0..n {
+                self.zt[k] = self.transfer_of(self.zt[k], k, Corner::Worst);
+            }
+            self.set_asymptote(yb_big, Corner::Worst);
+            return;
         }
-        self.set_asymptote(yb_big);
+        // The filter's lines at their own states (after the bank's; at
+        // `low` when only the bank's are given).
+        let nb = bank.len();
+        let low: [LineState; 0] = [];
+        let tail_states: &[LineState] = if states.len() >= nb + self.tail.len() {
+            &states[nb..nb + self.tail.len()]
+        } else {
+            &low
+        };
+        for k in 0..n {
+            let f = self.freqs[k];
+            let ((ty, h), yl) = if tail_states.is_empty() {
+                ((self.tail_low.ty[k], self.tail_low.h[k]), Complex64::default())
+            } else {
+                self.tail_terms_at(tail_states, f)
+            };
+            let w = 2.0 * PI * f;
+            self.zt[k] = self.network.transfer_tail(self.zt[k], self.y_int[k], w, ty, h);
+            self.hk[k] = h;
+            self.yl[k] = yl;
+        }
+        let ((ty, h), _) = if tail_states.is_empty() {
+            ((self.tail_low.ty_big, self.tail_low.h_big), Complex64::default())
+        } else {
+            self.tail_terms_at(tail_states, f_big)
+        };
+        self.set_asymptote_tail(yb_big, ty, h);
     }
 
     /// Peak-to-peak at operating point `op` of the transfer last filled by
@@ -838,10 +1117,94 @@ impl Evaluator {
             let mut sum = 0.0;
             for k in 0..n {
                 let y = admittance(st.esr, esl, st.c, self.freqs[k]);
-                sum += Network::part_current(self.currents[op][k], self.zt[k], y).norm_sqr();
+                // The bank's node: the measured voltage over the filter's ratio.
+                let z = self.zt[k] / self.hk[k];
+                sum += Network::part_current(self.currents[op][k], z, y).norm_sqr();
             }
             out[j] = out[j].max((sum / 2.0).sqrt());
         }
+        // The filter's lines, when states and room for them are given.
+        let nb = bank.len();
+        let nt = self.tail.len();
+        if nt == 0 || states.len() < nb + nt || out.len() < nb + nt {
+            return;
+        }
+        for (t, (line, st)) in self.tail.iter().zip(&states[nb..nb + nt]).enumerate() {
+            let mut sum = 0.0;
+            for k in 0..n {
+                let i = self.tail_part_current(line, st, k) * self.currents[op][k];
+                sum += i.norm_sqr();
+            }
+            out[nb + t] = out[nb + t].max((sum / 2.0).sqrt());
+        }
+    }
+
+    /// Current in one part of a filter line per ampere of converter current
+    /// at harmonic `k`, for the transfer last filled by
+    /// [`Evaluator::fill_states`] (its load-node admittance included).
+    #[inline]
+    fn tail_part_current(&self, line: &TailLine, st: &LineState, k: usize) -> Complex64 {
+        let f = self.freqs[k];
+        let v = self.zt[k];
+        let n = line.count as f64;
+        match line.role {
+            TailRole::Load => v * admittance(st.esr, line.model.esl, st.c, f),
+            TailRole::Damping { resistance } => {
+                let zc = admittance(st.esr, line.model.esl, st.c, f).inv() / n;
+                v * (Complex64::new(resistance, 0.0) + zc).inv() / n
+            }
+            TailRole::Inductor { .. } => v * self.yl[k] / n,
+        }
+    }
+
+    /// Peak-to-peak ripple current of one filter inductor at operating point
+    /// `op` for the transfer last filled by [`Evaluator::fill_states`] with
+    /// the full harmonic set (0 without a filter). The inductor's current is
+    /// smooth (the filter has removed the converter's steps), so its
+    /// series converges fast; it is summed on the full grid.
+    pub fn inductor_ripple_filled(&mut self, states: &[LineState], op: usize, bank_len: usize) -> f64 {
+        let nt = self.tail.len();
+        let Some(t) = self
+            .tail
+            .iter()
+            .position(|l| matches!(l.role, TailRole::Inductor { .. }))
+        else {
+            return 0.0;
+        };
+        if states.len() < bank_len + nt {
+            return 0.0;
+        }
+        let n = self.n_full;
+        let m = self.plan_full.m;
+        let line = self.tail[t].clone();
+        let st = states[bank_len + t];
+        self.buf[..m].iter_mut().for_each(|x| *x = Complex64::default());
+        for k in 0..n {
+            self.buf[k + 1] = self.tail_part_current(&line, &st, k) * self.currents[op][k];
+        }
+        let buf = &mut self.buf[..m];
+        self.plan_full.fft.process_with_scratch(buf, &mut self.fft_scratch);
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for x in buf.iter() {
+            lo = lo.min(x.re);
+            hi = hi.max(x.re);
+        }
+        (hi - lo).max(0.0)
+    }
+
+    /// Switch the transfer last filled to the bank's (converter-side) node:
+    /// afterwards [`Evaluator::pp_filled`] gives the ripple there. Without
+    /// a filter nothing changes.
+    pub fn to_converter_node(&mut self, n: usize) {
+        if self.tail.is_empty() {
+            return;
+        }
+        for k in 0..n.min(self.n_full) {
+            self.zt[k] /= self.hk[k];
+            self.hk[k] = Complex64::new(1.0, 0.0);
+        }
+        let (yb, ty, _) = self.big;
+        self.set_asymptote_tail(yb, ty, Complex64::new(1.0, 0.0));
     }
 }
 

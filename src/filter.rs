@@ -65,3 +65,256 @@ pub fn not_yet_wired(what: &str) -> anyhow::Error {
          no file was written"
     )
 }
+
+use crate::evaluator::{tail_output_impedance, Evaluator, LineState, TailLine, TailRole};
+use crate::problem::Problem;
+use crate::scenario::Objective;
+use serde::Serialize;
+use std::f64::consts::PI;
+
+/// Points per decade of the output-impedance sweep.
+const Z_POINTS_PER_DECADE: usize = 30;
+
+/// Erickson & Maksimović, Fundamentals of Power Electronics, ch. 10
+/// (input filter design, parallel R–C damping): with `n = C_b/C` the
+/// ratio of the damping capacitance to the filter's, the resistance that
+/// minimises the peak output impedance, `Q_opt·R0` with `R0 = sqrt(L/C)`
+/// and `Q_opt = sqrt((2+n)(4+3n) / (2n²(4+n)))`.
+pub fn optimal_damping_resistance(l: f64, c: f64, n: f64) -> f64 {
+    let q = ((2.0 + n) * (4.0 + 3.0 * n) / (2.0 * n * n * (4.0 + n))).sqrt();
+    q * (l / c).sqrt()
+}
+
+/// The same source's peak output impedance with that optimum:
+/// `R0·sqrt(2(2+n))/n`.
+pub fn optimal_damping_peak(l: f64, c: f64, n: f64) -> f64 {
+    (l / c).sqrt() * (2.0 * (2.0 + n)).sqrt() / n
+}
+
+/// The filter's own figures (those that do not depend on the
+/// converter-side bank), the worst over its lines' region where it has one.
+#[derive(Debug, Clone, Serialize)]
+pub struct TailFigures {
+    /// `f0 = 1/(2π·sqrt(L·C_load))`, nominal inductance (over the parallel
+    /// count) and the load-side bank's typical capacitance, Hz.
+    pub corner_frequency: f64,
+    /// Peak of the output impedance (converter side held) around the
+    /// resonance, f0/100 to 10·f0, the largest over the filter's lines'
+    /// corners, Ω.
+    pub peak_output_impedance: f64,
+    /// Where that peak is, Hz.
+    pub peak_frequency: f64,
+    /// `iout · DCR` of the parallel inductors, V.
+    pub dc_drop: f64,
+    /// Output current per inductor, A (its DC share).
+    pub dc_current: f64,
+}
+
+/// Lowest and highest catalog values of the filter's lines.
+fn corner_states(tail: &[TailLine]) -> Vec<Vec<LineState>> {
+    // Every vertex of the filter lines' box: C (or L) low/high × ESR (or
+    // DCR) low/high per line, at most 4^lines (the filter has three lines).
+    let opts: Vec<Vec<LineState>> = tail
+        .iter()
+        .map(|t| {
+            let m = &t.model;
+            let mut v = Vec::new();
+            for c in [m.c_worst, m.c_high] {
+                for esr in [m.esr_max, m.esr_min] {
+                    let s = LineState { c, esr };
+                    if !v.contains(&s) {
+                        v.push(s);
+                    }
+                }
+            }
+            v
+        })
+        .collect();
+    let mut out = vec![Vec::new()];
+    for o in &opts {
+        let mut next = Vec::with_capacity(out.len() * o.len());
+        for base in &out {
+            for s in o {
+                let mut b = base.clone();
+                b.push(*s);
+                next.push(b);
+            }
+        }
+        out = next;
+    }
+    out
+}
+
+/// The corner frequency of a filter: nominal inductance over the count,
+/// the load-side bank's typical capacitance (0 without a filter).
+pub fn corner_frequency(tail: &[TailLine]) -> f64 {
+    let (mut l, mut c) = (0.0, 0.0);
+    for t in tail {
+        match t.role {
+            TailRole::Load => c += t.model.c_typical * t.count as f64,
+            TailRole::Inductor { .. } => l = t.model.c_typical / t.count as f64,
+            TailRole::Damping { .. } => {}
+        }
+    }
+    if l > 0.0 && c > 0.0 {
+        1.0 / (2.0 * PI * (l * c).sqrt())
+    } else {
+        0.0
+    }
+}
+
+/// The filter's own figures for its evaluator lines
+/// ([`Problem::tail_lines`]).
+pub fn tail_figures(problem: &Problem, tail: &[TailLine]) -> TailFigures {
+    let iout = problem.scenario.converter.iout.0;
+    let f0 = corner_frequency(tail);
+    let (mut dcr, mut count) = (0.0, 1.0);
+    for t in tail {
+        if let TailRole::Inductor { .. } = t.role {
+            dcr = t.model.esr_max;
+            count = t.count.max(1) as f64;
+        }
+    }
+    let (peak, at) = if f0 > 0.0 {
+        peak_output_impedance(tail, f0 / 100.0, f0 * 10.0)
+    } else {
+        (0.0, 0.0)
+    };
+    TailFigures {
+        corner_frequency: f0,
+        peak_output_impedance: peak,
+        peak_frequency: at,
+        dc_drop: iout * dcr / count,
+        dc_current: iout / count,
+    }
+}
+
+/// Largest |Z_out| between `f_lo` and `f_hi` over the filter lines'
+/// corners, and its frequency: a logarithmic sweep, then a golden-section
+/// refinement around each corner's largest sample.
+pub fn peak_output_impedance(tail: &[TailLine], f_lo: f64, f_hi: f64) -> (f64, f64) {
+    let decades = (f_hi / f_lo).log10().max(0.0);
+    let n = ((decades * Z_POINTS_PER_DECADE as f64).ceil() as usize).max(2);
+    let mut best = (0.0_f64, f_lo);
+    for st in corner_states(tail) {
+        let z = |f: f64| tail_output_impedance(tail, &st, f).map_or(0.0, |z| z.norm());
+        let mut top = (0.0, 0usize);
+        let fs: Vec<f64> = (0..=n)
+            .map(|i| f_lo * (f_hi / f_lo).powf(i as f64 / n as f64))
+            .collect();
+        for (i, &f) in fs.iter().enumerate() {
+            let v = z(f);
+            if v > top.0 {
+                top = (v, i);
+            }
+        }
+        let (a, b) = (
+            fs[top.1.saturating_sub(1)].ln(),
+            fs[(top.1 + 1).min(n)].ln(),
+        );
+        // Golden section on ln f (the peak is smooth and single there).
+        let r = 0.5 * (5f64.sqrt() - 1.0);
+        let (mut lo, mut hi) = (a, b);
+        let mut x1 = hi - r * (hi - lo);
+        let mut x2 = lo + r * (hi - lo);
+        let (mut f1, mut f2) = (z(x1.exp()), z(x2.exp()));
+        for _ in 0..40 {
+            if f1 >= f2 {
+                hi = x2;
+                x2 = x1;
+                f2 = f1;
+                x1 = hi - r * (hi - lo);
+                f1 = z(x1.exp());
+            } else {
+                lo = x1;
+                x1 = x2;
+                f1 = f2;
+                x2 = lo + r * (hi - lo);
+                f2 = z(x2.exp());
+            }
+        }
+        for (v, f) in [(top.0, fs[top.1]), (f1, x1.exp()), (f2, x2.exp())] {
+            if v > best.0 {
+                best = (v, f);
+            }
+        }
+    }
+    best
+}
+
+/// The filter's parts in the objective's terms: `(cost, area, count)`.
+pub fn tail_totals(problem: &Problem, f: &FilterDesign) -> (f64, f64, u32) {
+    let cat = &problem.catalog.parts;
+    let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
+    for &(i, n) in &f.load_bank {
+        cost += cat[i].cost * n as f64;
+        area += cat[i].area.unwrap_or(0.0) * n as f64;
+        count += n;
+    }
+    if let Some(d) = &f.damping {
+        let p = &cat[d.capacitor];
+        cost += p.cost * d.count as f64 + problem.scenario.filter.damping_resistor_cost.0;
+        area += p.area.unwrap_or(0.0) * d.count as f64;
+        count += d.count + 1;
+    }
+    if let Some(ind) = problem.inductors.as_ref().and_then(|c| c.parts.get(f.inductor)) {
+        cost += ind.cost * f.count as f64;
+        area += ind.area.unwrap_or(0.0) * f.count as f64;
+        count += f.count;
+    }
+    (cost, area, count)
+}
+
+/// The filter's share of the objective key (primary, then tie-breakers),
+/// in the same terms as a bank's.
+pub fn tail_key(problem: &Problem, f: &FilterDesign) -> [f64; 3] {
+    let (cost, area, count) = tail_totals(problem, f);
+    let lines = (f.load_bank.len() + usize::from(f.damping.is_some()) + 1) as f64;
+    let lc = problem.scenario.selection.line_cost.0 * lines;
+    match problem.scenario.selection.objective {
+        Objective::Cost => [cost + lc, area, count as f64],
+        Objective::Area => [area, cost + lc, count as f64],
+        Objective::Count => [count as f64, cost + lc, area],
+    }
+}
+
+/// The inductor's current, the worst over the region for `bank`
+/// (converter-side, local indices of `ev`) at the worst point found for the
+/// ripple and at the filter's named corners: peak-to-peak ripple and the
+/// peak (DC share plus half the ripple), per inductor, A.
+pub fn inductor_current(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    bank: &[(usize, u32)],
+    worst: Option<&crate::region::Worst>,
+) -> (f64, f64) {
+    let iout = problem.scenario.converter.iout.0;
+    let count = ev
+        .tail()
+        .iter()
+        .find_map(|t| matches!(t.role, TailRole::Inductor { .. }).then_some(t.count.max(1)))
+        .unwrap_or(1) as f64;
+    let n = ev.n_full;
+    let ops = ev.ops_region.clone();
+    let mut sets: Vec<(Vec<LineState>, Vec<usize>)> = Vec::new();
+    for which in [
+        crate::region::Named::Low,
+        crate::region::Named::High,
+        crate::region::Named::Typical,
+    ] {
+        sets.push((crate::region::named_states(ev, bank, which), ops.clone()));
+    }
+    if let Some(w) = worst {
+        if w.states.len() == ev.line_count(bank) {
+            sets.push((w.states.clone(), vec![w.op]));
+        }
+    }
+    let mut pp: f64 = 0.0;
+    for (st, ops) in &sets {
+        ev.fill_states(bank, st, n);
+        for &op in ops {
+            pp = pp.max(ev.inductor_ripple_filled(st, op, bank.len()));
+        }
+    }
+    (pp, iout / count + pp / 2.0)
+}

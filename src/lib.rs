@@ -54,4 +54,5 @@ pub mod sheet;
 #[allow(missing_docs)]
 pub mod spectrum;
 pub mod timedomain;
+pub mod transient;
 pub mod units;

@@ -28,6 +28,9 @@ pub enum LimitId {
     MaxArea,
     /// `selection.max_per_part`: n of each part at most.
     MaxPerPart,
+    /// `transient.max_deviation`: the load step's deviation at most (its
+    /// linear part: the least total capacitance, Σ n·C_low at least).
+    MaxDeviation,
 }
 
 /// What a limit constrains, linearly in the counts `n_i` (and the line
@@ -40,6 +43,10 @@ pub enum Linear {
     Lines,
     /// Each `n_i` on its own against the limit.
     EachCount,
+    /// A necessary condition of a limit that is not itself linear: the
+    /// bank's lowest capacitance `Σ_i n_i·C_low,i` at least `need(scenario)`
+    /// (the exact check is the figure's).
+    Floor(fn(&Scenario) -> Option<f64>),
 }
 
 /// The figures of an assessed bank that the limits are checked against.
@@ -57,6 +64,9 @@ pub struct Totals {
     pub area: f64,
     /// Every part's area is known.
     pub area_known: bool,
+    /// The load step's deviation over the corner region, V (`None`
+    /// without `[transient]`).
+    pub deviation: Option<f64>,
 }
 
 /// One linear limit.
@@ -89,7 +99,7 @@ fn never(_: &Scenario, _: &Part) -> Option<String> {
 }
 
 /// The linear limits, in the order of the report's rows.
-pub const LIMITS: [Limit; 6] = [
+pub const LIMITS: [Limit; 7] = [
     Limit {
         id: LimitId::MaxCapacitance,
         name: "max_capacitance",
@@ -170,7 +180,41 @@ pub const LIMITS: [Limit; 6] = [
         ineligible: never,
         relax: |s| s.selection.max_per_part = s.selection.max_per_part.saturating_mul(4).min(10000),
     },
+    Limit {
+        id: LimitId::MaxDeviation,
+        name: "max_deviation",
+        bound: Bound::AtMost,
+        unit: "V",
+        slack: crate::transient::ROUNDING,
+        value: |s| s.transient.as_ref().map(|t| t.max_deviation.0),
+        // No bank settles below ΔI/(ω_c·C_total): its lowest capacitance
+        // (the converter's own included) must reach ΔI/(ω_c·max_deviation).
+        linear: Linear::Floor(deviation_floor),
+        figure: |t| t.deviation,
+        ineligible: never,
+        relax: |s| s.transient = None,
+    },
 ];
+
+/// The least Σ n·C_low of a bank meeting `transient.max_deviation`: the
+/// settled deviation `ΔI/(ω_c·C)` of its lowest total capacitance, less the
+/// converter's own capacitance (with the check's rounding allowed).
+fn deviation_floor(s: &Scenario) -> Option<f64> {
+    let spec = crate::transient::Spec::of(s)?;
+    let own = s.converter.internal_capacitance.map_or(0.0, |c| c.0);
+    Some(spec.capacitance_floor() / (1.0 + crate::transient::ROUNDING) - own)
+}
+
+/// The least Σ n·C_low the table's floors ask of a bank (0 when none does).
+pub fn capacitance_floor(s: &Scenario) -> f64 {
+    LIMITS
+        .iter()
+        .filter_map(|l| match l.linear {
+            Linear::Floor(need) => need(s),
+            _ => None,
+        })
+        .fold(0.0, f64::max)
+}
 
 /// The table's entry for `id`.
 pub fn limit(id: LimitId) -> &'static Limit {
@@ -216,7 +260,7 @@ impl Limit {
                     f64::INFINITY
                 }
             }
-            Linear::Lines => f64::INFINITY,
+            Linear::Lines | Linear::Floor(_) => f64::INFINITY,
             Linear::EachCount => m,
         }
     }
@@ -293,6 +337,7 @@ mod tests {
             LimitId::MaxLines,
             LimitId::MaxArea,
             LimitId::MaxPerPart,
+            LimitId::MaxDeviation,
         ] {
             assert_eq!(LIMITS.iter().filter(|l| l.id == id).count(), 1, "{id:?}");
         }
@@ -309,6 +354,12 @@ mod tests {
         s.converter.min_capacitance = Farads(10e-6);
         s.board.max_count = Some(6);
         s.board.max_area = Some(Plain(20.0));
+        s.transient = Some(crate::scenario::Transient {
+            load_step: crate::scenario::Amperes(3.0),
+            max_deviation: crate::scenario::Volts(0.05),
+            loop_crossover: crate::scenario::Hertz(40e3),
+            rise_time: crate::scenario::Seconds(1e-6),
+        });
         for l in &LIMITS {
             let before = l.value_or_open(&s);
             let mut r = s.clone();
@@ -342,6 +393,7 @@ mod tests {
                     lines: 1,
                     area: nf * m.area,
                     area_known: true,
+                    deviation: None,
                 };
                 LIMITS
                     .iter()
@@ -352,6 +404,33 @@ mod tests {
             let brute = (0..=1000).rev().find(|&n| passes(n)).unwrap_or(0);
             assert_eq!(count_max(&s, &m), brute, "part {i}");
         }
+    }
+
+    #[test]
+    fn deviation_floor_is_the_settled_value_of_the_lowest_capacitance() {
+        // Closed form of the load-step model: a bank settles at
+        // ΔI/(2π·f_c·C) (pure capacitance), so meeting 50 mV on a 5 A step
+        // at 40 kHz needs C ≥ 5/(2π·40e3·0.05) = 397.9 µF, less the
+        // converter's own capacitance.
+        let mut s = demo().scenario;
+        assert_eq!(capacitance_floor(&s), 0.0);
+        s.transient = Some(crate::scenario::Transient {
+            load_step: crate::scenario::Amperes(5.0),
+            max_deviation: crate::scenario::Volts(0.05),
+            loop_crossover: crate::scenario::Hertz(40e3),
+            rise_time: crate::scenario::Seconds(1e-6),
+        });
+        let want = 5.0 / (2.0 * std::f64::consts::PI * 40e3 * 0.05);
+        assert!((capacitance_floor(&s) - want).abs() < 1e-6 * want);
+        s.converter.internal_capacitance = Some(Farads(100e-6));
+        assert!((capacitance_floor(&s) - (want - 100e-6)).abs() < 1e-6 * want);
+        // The exact check is the deviation's.
+        let t = Totals {
+            deviation: Some(0.051),
+            ..Totals::default()
+        };
+        let row = limit(LimitId::MaxDeviation).check(&s, &t).unwrap();
+        assert!(!row.ok && row.name == "max_deviation");
     }
 
     #[test]
@@ -366,6 +445,7 @@ mod tests {
             lines: 1,
             area: 1.0,
             area_known: true,
+            deviation: None,
         };
         assert!(checks(&s, &at).iter().all(|c| c.ok));
         let over = Totals {

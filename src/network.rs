@@ -130,6 +130,23 @@ impl Network {
         two_node_transfer(yi, Complex64::new(0.0, w * self.connection_inductance), yb)
     }
 
+    /// Transfer impedance to the measured node with a post-filter behind
+    /// the bank's node: the filter adds the admittance `ty` at the bank's
+    /// node and divides its voltage by `1/h` on the way to the load node
+    /// ([`tail_terms`]), so `Z = h / (G·(Y_b + ty) + Y_int)`. With `ty = 0`
+    /// and `h = 1` it is [`Network::transfer_with`].
+    #[inline]
+    pub fn transfer_tail(
+        &self,
+        yb: Complex64,
+        yi: Complex64,
+        w: f64,
+        ty: Complex64,
+        h: Complex64,
+    ) -> Complex64 {
+        h * (self.coupling_with(yi, w) * (yb + ty) + yi).inv()
+    }
+
     /// Transfer impedance for the added bank's admittance `yb` at `f`, Hz.
     pub fn transfer(&self, yb: Complex64, f: f64) -> Complex64 {
         self.transfer_with(yb, self.internal_admittance(f), 2.0 * PI * f)
@@ -152,12 +169,41 @@ impl Network {
         current * z_t * y_part
     }
 
+    /// Impedance seen at the bank's node with the converter's current source
+    /// open, for the added bank's admittance `yb` and the internal admittance
+    /// `yi` at angular frequency `w`: `1 / (Y_b + Y_int/(1 + jωLc·Y_int))`
+    /// (what the load sees; the load-step response's own path).
+    #[inline]
+    pub fn open_impedance_with(&self, yb: Complex64, yi: Complex64, w: f64) -> Complex64 {
+        (yb + yi / self.coupling_with(yi, w)).inv()
+    }
+
+    /// The two impedances of a load step at the bank's node, `(Z_t, Z_open)`:
+    /// the voltage there per ampere of converter current
+    /// ([`Network::transfer_with`]) and per ampere drawn by a load there with
+    /// the converter open ([`Network::open_impedance_with`]).
+    #[inline]
+    pub fn step_impedances_with(
+        &self,
+        yb: Complex64,
+        yi: Complex64,
+        w: f64,
+    ) -> (Complex64, Complex64) {
+        (self.transfer_with(yb, yi, w), self.open_impedance_with(yb, yi, w))
+    }
+
     /// The high-frequency asymptote `(a0, a1)` of the transfer impedance,
     /// `Z_t → a0 + jω·a1`, for the added bank's admittance `yb_big` at
     /// [`OMEGA_ASYMPTOTE`]: a resistance and an inductance. (0, 0) when the
     /// network has nothing at all.
     pub fn asymptote(&self, yb_big: Complex64) -> (f64, f64) {
-        let z = self.transfer_with(yb_big, self.internal_big, OMEGA_ASYMPTOTE);
+        self.asymptote_tail(yb_big, Complex64::default(), Complex64::new(1.0, 0.0))
+    }
+
+    /// As [`Network::asymptote`] with a post-filter's terms `(ty, h)` at
+    /// [`OMEGA_ASYMPTOTE`] ([`Network::transfer_tail`]).
+    pub fn asymptote_tail(&self, yb_big: Complex64, ty: Complex64, h: Complex64) -> (f64, f64) {
+        let z = self.transfer_tail(yb_big, self.internal_big, OMEGA_ASYMPTOTE, ty, h);
         if z.is_finite() {
             let a1 = z.im / OMEGA_ASYMPTOTE;
             // Below a femtohenry the slope is a capacitor's −1/(Ω²C) tail,
@@ -167,6 +213,18 @@ impl Network {
             (0.0, 0.0)
         }
     }
+}
+
+/// What a post-filter stage does to the bank's node, for the load-side
+/// node's total admittance `y_load` (load-side bank and damping) and the
+/// series impedance `zs` of the filter inductor: the admittance it adds at
+/// the bank's node, `Y_load / (1 + Zs·Y_load)`, and the voltage ratio from
+/// the bank's node to the load node, `1 / (1 + Zs·Y_load)` (a series
+/// impedance into a shunt admittance: a voltage divider).
+#[inline]
+pub fn tail_terms(y_load: Complex64, zs: Complex64) -> (Complex64, Complex64) {
+    let h = (Complex64::new(1.0, 0.0) + zs * y_load).inv();
+    (y_load * h, h)
 }
 
 /// Voltage at node 2 per ampere injected at node 1, for node 1's admittance
@@ -251,6 +309,41 @@ impl Ladder {
         let y_node = y_conv + yi / g + y2 / div;
         let z_conv = (g * y_node).inv();
         (z_conv, z_conv / div)
+    }
+
+    /// Impedance seen at the load-side node with the converter's current
+    /// source open, for the converter-side bank's admittance `y_conv` and the
+    /// load-side bank's `y_load` at `f`: the load-side admittance (bank and
+    /// damping) in parallel with the inductor in series with everything at
+    /// the converter-side node.
+    pub fn open_impedance_at_load(&self, y_conv: Complex64, y_load: Complex64, f: f64) -> Complex64 {
+        self.step_impedances(y_conv, y_load, f).1
+    }
+
+    /// The two impedances of a load step at the load-side node,
+    /// `(Z_t, Z_open)`: the voltage there per ampere of converter current
+    /// ([`Ladder::transfer`]'s second value) and per ampere drawn by a load
+    /// there with the converter open ([`Ladder::open_impedance_at_load`]).
+    pub fn step_impedances(
+        &self,
+        y_conv: Complex64,
+        y_load: Complex64,
+        f: f64,
+    ) -> (Complex64, Complex64) {
+        let w = 2.0 * PI * f;
+        let yi = self.front.internal_admittance(f);
+        let g = self.front.coupling_with(yi, w);
+        let zs = self.inductor.impedance(f);
+        let y2 = y_load
+            + self
+                .damping
+                .map_or(Complex64::default(), |d| d.admittance(f));
+        let y1 = y_conv + yi / g;
+        let div = Complex64::new(1.0, 0.0) + zs * y2;
+        let z_conv = (g * (y1 + y2 / div)).inv();
+        // Seen from the load node: Y2 in parallel with Zs + 1/Y1.
+        let z_open = (y2 + (zs + y1.inv()).inv()).inv();
+        (z_conv / div, z_open)
     }
 
     /// The load node's transfer impedance alone (the measured figure).
@@ -373,6 +466,89 @@ mod tests {
         let (zc, zl) = ladder.transfer(ya, yl, f);
         let want = front.transfer(ya + yl + yd, f);
         assert!(close(zc, want, 1e-12) && close(zl, want, 1e-12));
+    }
+
+    #[test]
+    fn open_impedance_is_the_node_impedance_without_the_source() {
+        // Nodal analysis with the current source removed (Hayt & Kemmerly,
+        // Engineering Circuit Analysis, nodal analysis): the bank's node sees
+        // Y_b in parallel with jωLc in series with the internal branch.
+        let net = Network::new(
+            Some(Branch {
+                esr: 5e-3,
+                esl: 1e-9,
+                c: 10e-6,
+            }),
+            2e-9,
+        );
+        for f in [1e3, 5e4, 1e6, 3e7] {
+            let w = 2.0 * PI * f;
+            let yb = admittance(3e-3, 0.5e-9, 47e-6, f) * 2.0;
+            let yi = net.internal_admittance(f);
+            let want = (yb + (Complex64::new(0.0, w * 2e-9) + yi.inv()).inv()).inv();
+            let (zt, zo) = net.step_impedances_with(yb, yi, w);
+            assert!(close(zo, want, 1e-9), "f = {f}");
+            assert!(close(zt, net.transfer(yb, f), 1e-12));
+        }
+        // Without a connection inductance both are the parallel impedance.
+        let flat = Network::new(net.internal, 0.0);
+        let f = 2e5;
+        let yb = admittance(3e-3, 0.5e-9, 47e-6, f);
+        let (zt, zo) = flat.step_impedances_with(yb, flat.internal_admittance(f), 2.0 * PI * f);
+        assert!(close(zt, zo, 1e-12));
+    }
+
+    #[test]
+    fn ladder_open_impedance_by_nodal_analysis() {
+        // The load node with the source removed: Y_load ∥ (Zs + 1/Y_front),
+        // Y_front the converter-side bank plus Lc and the internal branch in
+        // series (Hayt & Kemmerly, nodal analysis); the transfer to the load
+        // is the one of `transfer`. A zero inductor gives the front network's
+        // open impedance with both banks in parallel.
+        let front = Network::new(
+            Some(Branch {
+                esr: 5e-3,
+                esl: 1e-9,
+                c: 10e-6,
+            }),
+            1e-9,
+        );
+        let ind = SeriesInductor {
+            l: 0.47e-6,
+            dcr: 4e-3,
+            cp: 3e-12,
+        };
+        let ladder = Ladder {
+            front: front.clone(),
+            inductor: ind,
+            damping: None,
+        };
+        for f in [2e3, 1e5, 2e6, 4e7] {
+            let w = 2.0 * PI * f;
+            let yc = admittance(3e-3, 0.4e-9, 22e-6, f) * 2.0;
+            let yl = admittance(2e-3, 0.3e-9, 47e-6, f) * 3.0;
+            let yi = front.internal_admittance(f);
+            let yfront = yc + (Complex64::new(0.0, w * 1e-9) + yi.inv()).inv();
+            let want = (yl + (ind.impedance(f) + yfront.inv()).inv()).inv();
+            let (zt, zo) = ladder.step_impedances(yc, yl, f);
+            assert!(close(zo, want, 1e-9), "f = {f}");
+            assert!(close(zt, ladder.transfer_to_load(yc, yl, f), 1e-12));
+        }
+        let short = Ladder {
+            front: front.clone(),
+            inductor: SeriesInductor {
+                l: 0.0,
+                dcr: 0.0,
+                cp: 0.0,
+            },
+            damping: None,
+        };
+        let f = 3e5;
+        let yc = admittance(3e-3, 0.4e-9, 22e-6, f);
+        let yl = admittance(2e-3, 0.3e-9, 47e-6, f);
+        let w = 2.0 * PI * f;
+        let want = front.open_impedance_with(yc + yl, front.internal_admittance(f), w);
+        assert!(close(short.open_impedance_at_load(yc, yl, f), want, 1e-12));
     }
 
     #[test]

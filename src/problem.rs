@@ -4,7 +4,7 @@
 
 use crate::catalog::{Catalog, Part, Status, Technology};
 use crate::converter::{self, OperatingPoint};
-use crate::evaluator::{Band, Corner, Evaluator, PartModel};
+use crate::evaluator::{Band, Corner, Evaluator, PartModel, TailLine, TailRole};
 use crate::filter::FilterUse;
 use crate::inductors::{Inductor, InductorCatalog};
 use crate::limits::{self, LimitId};
@@ -22,6 +22,7 @@ pub struct Excluded {
 }
 
 /// Everything the evaluator and the optimizer need, prepared once.
+#[derive(Clone)]
 pub struct Problem {
     /// The scenario, with command-line overrides applied.
     pub scenario: Scenario,
@@ -45,6 +46,9 @@ pub struct Problem {
     pub region_ops: Vec<OperatingPoint>,
     /// Warnings about the inputs.
     pub warnings: Vec<String>,
+    /// A post-filter fixed behind every bank this problem evaluates (the
+    /// filter search sets it; `None`: capacitors only).
+    pub filter: Option<crate::filter::FilterDesign>,
 }
 
 /// Why a part may not be used in this scenario, or `None` if it may.
@@ -521,6 +525,7 @@ impl Problem {
             ops,
             region_ops,
             warnings,
+            filter: None,
         })
     }
 
@@ -556,7 +561,49 @@ impl Problem {
         let mut ev = Evaluator::new(&self.scenario, &all, models);
         ev.ops_named = (0..self.ops.len()).collect();
         ev.ops_region = (self.ops.len()..all.len()).collect();
+        if let Some(f) = &self.filter {
+            ev.set_tail(self.tail_lines(f));
+        }
         ev
+    }
+
+    /// The same problem with a post-filter fixed behind the bank.
+    pub fn with_filter(&self, filter: crate::filter::FilterDesign) -> Problem {
+        let mut p = self.clone();
+        p.filter = Some(filter);
+        p
+    }
+
+    /// The evaluator's lines of a post-filter: the load-side bank, the
+    /// damping leg and the inductor, in that order.
+    pub fn tail_lines(&self, f: &crate::filter::FilterDesign) -> Vec<TailLine> {
+        let mut out = Vec::new();
+        for &(i, n) in &f.load_bank {
+            out.push(TailLine {
+                model: self.part_model(i),
+                count: n,
+                role: TailRole::Load,
+            });
+        }
+        if let Some(d) = &f.damping {
+            out.push(TailLine {
+                model: self.part_model(d.capacitor),
+                count: d.count,
+                role: TailRole::Damping {
+                    resistance: d.resistance,
+                },
+            });
+        }
+        if let Some(ind) = self.inductors.as_ref().and_then(|c| c.parts.get(f.inductor)) {
+            out.push(TailLine {
+                model: inductor_model(ind, f.inductor),
+                count: f.count.max(1),
+                role: TailRole::Inductor {
+                    cp: ind.parallel_capacitance().unwrap_or(0.0),
+                },
+            });
+        }
+        out
     }
 
     /// The operating point at one input voltage and converter inductance
@@ -634,6 +681,28 @@ fn filter_warnings(s: &Scenario, lc: &InductorCatalog, eligible: &[usize]) -> Ve
         );
     }
     w
+}
+
+/// The evaluator's model of a filter inductor: the inductance range in the
+/// capacitance fields (`low` is the lowest inductance, the least
+/// attenuation), the DCR (the catalog's maximum) in the ESR fields.
+pub fn inductor_model(ind: &crate::inductors::Inductor, index: usize) -> PartModel {
+    let (lo, hi) = ind.inductance_range();
+    PartModel {
+        index,
+        c_worst: lo,
+        c_typical: ind.inductance,
+        c_high: hi,
+        esr_min: ind.dcr,
+        esr_max: ind.dcr,
+        c_nominal: ind.inductance,
+        c_limit: 0.0,
+        esr: ind.dcr,
+        esl: 0.0,
+        cost: ind.cost,
+        area: ind.area.unwrap_or(0.0),
+        rating: None,
+    }
 }
 
 #[cfg(test)]

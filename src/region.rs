@@ -24,7 +24,7 @@
 //! up to 2·4^L, then about 3 × 2 × (2L·12 + 2·12) — a few hundred
 //! evaluations (a few milliseconds) for a three-line bank.
 
-use crate::evaluator::{Band, Bank, Evaluator, LineState};
+use crate::evaluator::{Band, Bank, Evaluator, LineState, PartModel};
 use crate::problem::Problem;
 
 /// One of the named corners of the reports.
@@ -51,9 +51,21 @@ impl Named {
 
 /// The line states of a named corner.
 pub fn named_states(ev: &Evaluator, bank: &Bank, which: Named) -> Vec<LineState> {
-    bank.iter()
-        .map(|&(i, _)| {
-            let p = &ev.parts[i];
+    let models: Vec<&PartModel> = (0..ev.line_count(bank)).map(|j| ev.line_model(bank, j)).collect();
+    named_of_models(&models, which)
+}
+
+/// As [`named_states`], for a bank over the part list `parts` (no filter).
+pub(crate) fn named_states_of(parts: &[PartModel], bank: &Bank, which: Named) -> Vec<LineState> {
+    let models: Vec<&PartModel> = bank.iter().map(|&(i, _)| &parts[i]).collect();
+    named_of_models(&models, which)
+}
+
+/// The named corner's state of each line of `models`.
+fn named_of_models(models: &[&PartModel], which: Named) -> Vec<LineState> {
+    models
+        .iter()
+        .map(|p| {
             match which {
                 Named::Low => LineState {
                     c: p.c_worst,
@@ -172,7 +184,7 @@ fn bracket(v: &[f64], x: f64) -> (f64, f64) {
 
 /// Golden-section search for the maximum of `f` on `[a, b]`; returns the
 /// best argument and value seen (ends included).
-fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, f64) {
+pub(crate) fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, f64) {
     let r = 0.5 * (5f64.sqrt() - 1.0);
     let (mut lo, mut hi) = (a, b);
     let mut best = (a, f(a));
@@ -217,8 +229,7 @@ fn golden(a: f64, b: f64, iters: usize, mut f: impl FnMut(f64) -> f64) -> (f64, 
 }
 
 /// The choices of one line at the box's vertices.
-fn vertex_options(ev: &Evaluator, i: usize) -> Vec<LineState> {
-    let p = &ev.parts[i];
+fn vertex_options(p: &PartModel) -> Vec<LineState> {
     let mut cs = vec![p.c_worst];
     if p.c_high != p.c_worst {
         cs.push(p.c_high);
@@ -239,7 +250,20 @@ fn vertex_options(ev: &Evaluator, i: usize) -> Vec<LineState> {
 /// Every vertex of the bank's box, or (past 256) the named corners'
 /// single-line flips.
 fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
-    let opts: Vec<Vec<LineState>> = bank.iter().map(|&(i, _)| vertex_options(ev, i)).collect();
+    let models: Vec<&PartModel> = (0..ev.line_count(bank)).map(|j| ev.line_model(bank, j)).collect();
+    vertices_of_models(&models)
+}
+
+/// As [`vertices`], for a bank over the part list `parts` (no filter).
+pub(crate) fn vertices_of(parts: &[PartModel], bank: &Bank) -> Vec<Vec<LineState>> {
+    let models: Vec<&PartModel> = bank.iter().map(|&(i, _)| &parts[i]).collect();
+    vertices_of_models(&models)
+}
+
+/// Every vertex of the box of the lines `models`, or (past 256) the named
+/// corners' single-line flips.
+fn vertices_of_models(models: &[&PartModel]) -> Vec<Vec<LineState>> {
+    let opts: Vec<Vec<LineState>> = models.iter().map(|p| vertex_options(p)).collect();
     let total: usize = opts.iter().map(|o| o.len()).product();
     let mut out = Vec::new();
     if total <= 256 {
@@ -261,7 +285,7 @@ fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
         }
     } else {
         for base in [Named::Low, Named::High] {
-            let b = named_states(ev, bank, base);
+            let b = named_of_models(models, base);
             out.push(b.clone());
             for (j, o) in opts.iter().enumerate() {
                 for st in o {
@@ -347,8 +371,8 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         let mut cur = start;
         for _round in 0..2 {
             let before = cur.value;
-            for j in 0..bank.len() {
-                let p = ev.parts[bank[j].0].clone();
+            for j in 0..ev.line_count(bank) {
+                let p = ev.line_model(bank, j).clone();
                 for coord in 0..2 {
                     let (lo, hi) = if coord == 0 {
                         (p.c_worst, p.c_high)
@@ -427,7 +451,8 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
 }
 
 /// A point the optimizer checks every candidate at: an operating point
-/// and, per local part of the evaluator, its capacitance and ESR there.
+/// and, per local part of the evaluator, its capacitance and ESR there,
+/// followed by the state of every post-filter line.
 #[derive(Debug, Clone)]
 pub struct Active {
     /// Operating point index in the evaluator.
@@ -451,10 +476,13 @@ pub fn screen(
         return false;
     }
     let n = ev.n_limited;
-    let mut st: Vec<LineState> = Vec::with_capacity(bank.len());
+    let mut st: Vec<LineState> = Vec::with_capacity(ev.line_count(bank));
+    let nt = ev.tail().len();
     for a in active {
         st.clear();
         st.extend(bank.iter().map(|&(i, _)| a.states[i]));
+        // The filter's lines follow every local part's state.
+        st.extend_from_slice(&a.states[a.states.len() - nt..]);
         ev.fill_states(bank, &st, n);
         if !(ev.pp_filled(a.op, Band::Limited) <= limit) {
             return false;
@@ -462,7 +490,7 @@ pub fn screen(
     }
     let ops = ev.ops_region.clone();
     let check_currents = bank.iter().any(|&(i, _)| ratings[i].is_some());
-    let mut cur = vec![0.0; bank.len()];
+    let mut cur = vec![0.0; ev.line_count(bank)];
     for v in vertices(ev, bank) {
         ev.fill_states(bank, &v, n);
         for &op in &ops {
@@ -493,7 +521,7 @@ pub fn screen(
 /// starting points at every vertex of the box, the named corners and the
 /// worst ripple point `w`.
 pub fn currents(ev: &mut Evaluator, bank: &Bank, w: Option<&Worst>) -> Vec<f64> {
-    let mut out = vec![0.0; bank.len()];
+    let mut out = vec![0.0; ev.line_count(bank)];
     if ev.is_empty(bank) {
         return out;
     }
@@ -508,7 +536,7 @@ pub fn currents(ev: &mut Evaluator, bank: &Bank, w: Option<&Worst>) -> Vec<f64> 
         }
     }
     if let Some(w) = w {
-        if w.states.len() == bank.len() {
+        if w.states.len() == ev.line_count(bank) {
             ev.fill_states(bank, &w.states, n);
             ev.currents_filled(bank, &w.states, w.op, &mut out);
         }

@@ -397,6 +397,25 @@ impl Default for Selection {
     }
 }
 
+/// The `[transient]` table: the load-step limit.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Transient {
+    /// `load_step`: the step of load current, A.
+    pub load_step: Amperes,
+    /// `max_deviation`: the largest allowed excursion of the output, V.
+    pub max_deviation: Volts,
+    /// `loop_crossover`: the converter's control-loop crossover frequency, Hz.
+    pub loop_crossover: Hertz,
+    /// `rise_time`: 10–90 % time of the load step, s (default 1 µs).
+    #[serde(default = "one_microsecond")]
+    pub rise_time: Seconds,
+}
+
+fn one_microsecond() -> Seconds {
+    Seconds(1e-6)
+}
+
 /// The `[filter]` table: an optional LC post-filter after the converter's
 /// own output bank (converter-side bank → inductor → load-side bank with an
 /// optional R–C damping leg). Every limit is optional; absent means not
@@ -535,6 +554,9 @@ pub struct Scenario {
     /// `[selection]`.
     #[serde(default)]
     pub selection: Selection,
+    /// `[transient]`: the optional load-step limit.
+    #[serde(default)]
+    pub transient: Option<Transient>,
     /// `[filter]`: the optional LC post-filter (absent: `use = "off"`).
     #[serde(default)]
     pub filter: Filter,
@@ -966,6 +988,9 @@ impl Scenario {
                 "must be at least 1 (no bank could be placed)",
             ));
         }
+        if let Some(tr) = &self.transient {
+            self.check_transient(tr)?;
+        }
         let s = &self.selection;
         nonneg("selection.line_cost", s.line_cost.0)?;
         if s.max_per_part == 0 || s.max_per_part > 10000 {
@@ -1153,6 +1178,90 @@ impl Scenario {
                     f.damping_resistors.label(),
                     units::format_si(rlo, "Ω"),
                     units::format_si(rhi, "Ω")
+                ),
+            ));
+        }
+        Ok(())
+    }
+
+    /// Plausibility of `[transient]`, each error naming its key.
+    fn check_transient(&self, tr: &Transient) -> Result<()> {
+        let fin = |key: &str, v: f64| -> Result<()> {
+            if !(v > 0.0) || !v.is_finite() {
+                return Err(self.err(key, format!("{v} must be above zero")));
+            }
+            Ok(())
+        };
+        fin("transient.load_step", tr.load_step.0)?;
+        if tr.load_step.0 > 1000.0 {
+            return Err(self.err(
+                "transient.load_step",
+                format!(
+                    "{} is above 1 kA, more than any point-of-load step; bare numbers are amperes — did you mean \"{}\"?",
+                    units::format_si(tr.load_step.0, "A"),
+                    units::suggest(tr.load_step.0, "m")
+                ),
+            ));
+        }
+        fin("transient.max_deviation", tr.max_deviation.0)?;
+        let vout = self.converter.vout.0;
+        if tr.max_deviation.0 >= vout {
+            return Err(self.err(
+                "transient.max_deviation",
+                format!(
+                    "{} is at or above vout {} — a load-step limit is a small part of the output \
+                     (prefixes are case-sensitive: `m` is milli, `M` mega; bare numbers are volts) — did you mean \"{}\"?",
+                    units::format_si(tr.max_deviation.0, "V"),
+                    units::format_si(vout, "V"),
+                    units::suggest(tr.max_deviation.0, "m")
+                ),
+            ));
+        }
+        fin("transient.loop_crossover", tr.loop_crossover.0)?;
+        let fc = tr.loop_crossover.0;
+        if fc < 100.0 {
+            return Err(self.err(
+                "transient.loop_crossover",
+                format!(
+                    "{} is below 100 Hz, slower than any switching converter's loop; bare numbers are hertz — did you mean \"{}\"?",
+                    units::format_si(fc, "Hz"),
+                    units::suggest(fc, "k")
+                ),
+            ));
+        }
+        let fsw = self.converter.fsw.0;
+        if fc >= 0.5 * fsw {
+            return Err(self.err(
+                "transient.loop_crossover",
+                format!(
+                    "{} is at or above half the switching frequency {}: a switching converter's loop crosses over well below that \
+                     (common practice, no source: fsw/10 … fsw/5) — `M` is mega, `m` milli; did you mean \"{}\"?",
+                    units::format_si(fc, "Hz"),
+                    units::format_si(fsw, "Hz"),
+                    units::suggest(fc, "k")
+                ),
+            ));
+        }
+        let tr_s = tr.rise_time.0;
+        fin("transient.rise_time", tr_s)?;
+        if tr_s < 1e-9 {
+            return Err(self.err(
+                "transient.rise_time",
+                format!(
+                    "{} is below 1 ns, faster than a load step reaches its capacitors through a board \
+                     (the 10–90 % time; the default is 1 µs) — did you mean \"{}\"?",
+                    units::format_si(tr_s, "s"),
+                    units::suggest(tr_s * 1e3, "u")
+                ),
+            ));
+        }
+        if tr_s > 1e-3 {
+            return Err(self.err(
+                "transient.rise_time",
+                format!(
+                    "{} is above 1 ms; bare numbers are seconds — did you mean \"{}\"?",
+                    units::format_si(tr_s, "s"),
+                    units::suggest(tr_s, "u")
                 ),
             ));
         }

@@ -78,6 +78,7 @@ pub(crate) fn infeasible_doc(
         "excluded": p.excluded,
         "warnings": p.warnings,
         "best_ripple_pp": best_ripple_pp,
+        "transient": null,
         "binding": binding.limits,
         "binding_together": binding.together,
         "binding_detail": binding.details,

@@ -27,6 +27,7 @@
 use super::search::{binomial_sum, line_sets, prune_dominated, Search};
 use super::{design_for, Settings};
 use crate::evaluator::Band;
+use crate::limits::LimitId;
 use crate::problem::Problem;
 use serde::Serialize;
 use serde_json::{json, Value};
@@ -64,6 +65,9 @@ pub struct Explanation {
     pub lowest: Lowest,
     /// The limits that stop a design.
     pub binding: Binding,
+    /// With a load step: the lowest deviation any bank meeting every other
+    /// limit reaches.
+    pub lowest_deviation: Option<LowestDeviation>,
 }
 
 /// The lowest ripple and the binding limits for an infeasible `target`.
@@ -71,10 +75,12 @@ pub fn explain(problem: &Problem, target: f64, settings: &Settings) -> Explanati
     Explanation {
         lowest: lowest_ripple(problem, settings),
         binding: binding(problem, target),
+        lowest_deviation: lowest_deviation(problem, settings),
     }
 }
 
-/// Verified ripple of a bank (catalog indices) over the whole corner region.
+/// Verified ripple of a bank (catalog indices) over the whole corner
+/// region; infinite when the bank misses the scenario's load step.
 fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
     let mut ev = problem.evaluator(&parts);
@@ -82,7 +88,123 @@ fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
     if ev.is_empty(&local) {
         return f64::INFINITY;
     }
+    if let Some(d) = verified_deviation(problem, &ev.parts, &local) {
+        if !(d <= problem.scenario.transient.as_ref().map_or(f64::INFINITY, |t| t.max_deviation.0)
+            * (1.0 + crate::transient::ROUNDING))
+        {
+            return f64::INFINITY;
+        }
+    }
     crate::region::worst(problem, &mut ev, &local, Band::Limited).value
+}
+
+/// The load step's deviation of a bank over the corner region (`None`
+/// without `[transient]`).
+fn verified_deviation(
+    problem: &Problem,
+    parts: &[crate::evaluator::PartModel],
+    local: &[(usize, u32)],
+) -> Option<f64> {
+    let mut m = crate::transient::StepModel::new(&problem.scenario, parts)?;
+    Some(m.worst(parts, local).deviation)
+}
+
+/// The lowest load-step deviation found, with its bank.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct LowestDeviation {
+    /// The lowest deviation over the corner region any bank meeting every
+    /// other limit reached (the ripple target left out), V.
+    pub deviation: f64,
+    /// That bank (catalog indices and counts).
+    #[serde(skip)]
+    pub bank: Option<Vec<(usize, u32)>>,
+    /// Lower end of the final bracket, V: the settled value of the most
+    /// capacitance the limits allow, or a probe `design` found no bank for.
+    pub bracket_low: f64,
+    /// `design_for` probes made.
+    pub probes: usize,
+}
+
+/// The lowest load-step deviation any bank meeting every limit but the
+/// ripple target reaches: bisection on `max_deviation` with
+/// [`super::design_for`] at an open ripple target, from the cheapest bank
+/// without the step (upper end) and the settled value of the most
+/// capacitance the count limits allow (lower end). `None` without
+/// `[transient]`.
+pub fn lowest_deviation(problem: &Problem, settings: &Settings) -> Option<LowestDeviation> {
+    let spec = crate::transient::Spec::of(&problem.scenario)?;
+    let quiet = Settings {
+        progress: false,
+        milp_proposals: 0,
+        ..settings.clone()
+    };
+    let with_limit = |t: Option<f64>| -> Option<Problem> {
+        let mut sc = problem.scenario.clone();
+        match t {
+            Some(t) => {
+                if let Some(tr) = sc.transient.as_mut() {
+                    tr.max_deviation.0 = t;
+                }
+            }
+            None => sc.transient = None,
+        }
+        Problem::new(sc, problem.catalog.clone()).ok()
+    };
+    let deviation_of = |bank: &[(usize, u32)]| -> f64 {
+        let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+        let models: Vec<crate::evaluator::PartModel> =
+            parts.iter().map(|&i| problem.part_model(i)).collect();
+        let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+        verified_deviation(problem, &models, &local).unwrap_or(f64::INFINITY)
+    };
+    let mut out = LowestDeviation {
+        deviation: f64::INFINITY,
+        ..Default::default()
+    };
+    // Upper end: the cheapest bank with the step left open.
+    let open = with_limit(None)?;
+    if let Some(f) = design_for(&open, f64::MAX, &quiet).found {
+        out.deviation = deviation_of(&f.bank);
+        out.bank = Some(f.bank);
+    }
+    // Lower end: the most low-corner capacitance any allowed bank can have
+    // (each part at its count limit, at most `max_lines` lines), settled.
+    let (cands, _) = prune_dominated(problem, &problem.eligible);
+    let s = Search::new(problem, &cands, f64::INFINITY);
+    let mut caps: Vec<f64> = (0..s.parts.len())
+        .map(|i| s.count_max[i] as f64 * s.parts[i].c_worst)
+        .collect();
+    caps.sort_by(|a, b| b.total_cmp(a));
+    let own = problem.scenario.converter.internal_capacitance.map_or(0.0, |c| c.0);
+    let c_max: f64 = caps.iter().take(s.lim.max_lines).sum::<f64>() + own;
+    let mut lo = if c_max > 0.0 { spec.settled(c_max) } else { 0.0 };
+    while out.probes < MAX_PROBES && out.deviation.is_finite() {
+        if out.deviation <= lo * (1.0 + BISECT_TOLERANCE) {
+            break;
+        }
+        let t = if lo > 0.0 {
+            (lo * out.deviation).sqrt()
+        } else {
+            out.deviation * 0.5
+        };
+        out.probes += 1;
+        let Some(p) = with_limit(Some(t)) else { break };
+        match design_for(&p, f64::MAX, &quiet).found {
+            Some(f) => {
+                let d = deviation_of(&f.bank);
+                if d < out.deviation {
+                    out.deviation = d;
+                    out.bank = Some(f.bank);
+                } else {
+                    // Cannot happen (the bank meets t < the upper end); stop.
+                    break;
+                }
+            }
+            None => lo = t,
+        }
+    }
+    out.bracket_low = lo;
+    Some(out)
 }
 
 /// The lowest worst-over-the-region ripple any allowed bank reaches (see the
@@ -160,31 +282,32 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
 fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u32)>>, f64) {
     let mut s = Search::new(problem, cands, f64::INFINITY);
     let floor = floor_of(&s);
-    let free = s.lim.max_lines.saturating_sub(s.required.len());
+    let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
     let all: Vec<usize> = (0..s.parts.len()).collect();
     let sets = if binomial_sum(all.len(), free) <= 20_000 {
-        line_sets(&s.required.clone(), &all, free)
+        line_sets(&s.required_parts.clone(), &all, free)
     } else {
         // Rank parts by their admittance at the most demanding harmonic.
         let mut order = all.clone();
-        let k = (0..s.n)
-            .max_by(|&x, &y| s.q[x].total_cmp(&s.q[y]))
+        let k = (0..s.harmonics)
+            .max_by(|&x, &y| s.required[x].total_cmp(&s.required[y]))
             .unwrap_or(0);
         order.sort_by(|&x, &y| {
-            (s.ub[y] as f64 * s.a[y * s.n + k]).total_cmp(&(s.ub[x] as f64 * s.a[x * s.n + k]))
+            (s.count_max[y] as f64 * s.adm_mag[y * s.harmonics + k])
+                .total_cmp(&(s.count_max[x] as f64 * s.adm_mag[x * s.harmonics + k]))
         });
         order.truncate(24);
-        line_sets(&s.required.clone(), &order, free)
+        line_sets(&s.required_parts.clone(), &order, free)
     };
     // Optimistic floor per set, then greedy descent in floor order.
     let mut floored: Vec<(f64, Vec<usize>)> = sets
         .into_iter()
-        .filter(|set| set.iter().all(|&i| s.ub[i] >= s.lb[i]))
+        .filter(|set| set.iter().all(|&i| s.count_max[i] >= s.count_min[i]))
         .map(|set| {
-            let mut sum = vec![0.0; s.n];
+            let mut sum = vec![0.0; s.harmonics];
             for &i in &set {
-                for k in 0..s.n {
-                    sum[k] += s.ub[i] as f64 * s.a[i * s.n + k];
+                for k in 0..s.harmonics {
+                    sum[k] += s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
                 }
             }
             (s.ev.ripple_floor_for(&sum), set)
@@ -214,16 +337,16 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
 /// turns that into a ripple no bank can go below.
 fn floor_of(s: &Search) -> f64 {
     let np = s.parts.len();
-    let mut sum = vec![0.0; s.n];
+    let mut sum = vec![0.0; s.harmonics];
     let mut col: Vec<(f64, u32)> = Vec::with_capacity(np);
-    for k in 0..s.n {
+    for k in 0..s.harmonics {
         col.clear();
-        col.extend((0..np).map(|i| (s.a[i * s.n + k], s.ub[i])));
+        col.extend((0..np).map(|i| (s.adm_mag[i * s.harmonics + k], s.count_max[i])));
         col.sort_by(|x, y| y.0.total_cmp(&x.0));
         let mut by_line: Vec<f64> = col.iter().map(|&(a, u)| a * u as f64).collect();
         by_line.sort_by(|x, y| y.total_cmp(x));
         let lines: f64 = by_line.iter().take(s.lim.max_lines).sum();
-        let mut left = s.lim.max_count;
+        let mut left = s.lim.value(LimitId::MaxCount);
         let mut units = 0.0;
         for &(a, u) in &col {
             if left <= 0.0 {
@@ -244,20 +367,9 @@ pub(super) const MIN_RIPPLE_SETS: usize = 400;
 /// Greedy: from the lower bounds, add the part that lowers the ripple most
 /// while the limits allow; stop when nothing helps.
 pub(super) fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize, u32)>)> {
-    let mut counts: Vec<u32> = set.iter().map(|&i| s.lb[i]).collect();
+    let mut counts: Vec<u32> = set.iter().map(|&i| s.count_min[i]).collect();
     let fits = |s: &Search, counts: &[u32]| -> bool {
-        let (mut cap, mut cnt, mut area) = (0.0, 0.0, 0.0);
-        for (&i, &n) in set.iter().zip(counts) {
-            cap += n as f64 * s.parts[i].c_limit;
-            cnt += n as f64;
-            area += n as f64 * s.parts[i].area;
-            if n > s.ub[i] {
-                return false;
-            }
-        }
-        cap <= s.lim.max_cap * (1.0 + 1e-12)
-            && cnt <= s.lim.max_count
-            && area <= s.lim.max_area * (1.0 + 1e-12)
+        set.iter().zip(counts).all(|(&i, &n)| n <= s.count_max[i]) && s.lim.upper_hold(set, counts)
     };
     if !fits(s, &counts) {
         return None;
@@ -359,6 +471,10 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
             Box::new(|s: &mut Scenario| s.selection.require.clear()),
         ));
     }
+    if base.transient.is_some() {
+        let relax = crate::limits::limit(crate::limits::LimitId::MaxDeviation).relax;
+        tries.push(("max_deviation", Box::new(relax)));
+    }
     if base.converter.min_capacitance.0 > 0.0 {
         tries.push((
             "min_capacitance",
@@ -379,9 +495,13 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
     for (name, relax) in &tries {
         let mut sc = base.clone();
         relax(&mut sc);
-        let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
+        let Ok(mut p) = Problem::new(sc, problem.catalog.clone()) else {
             continue;
         };
+        p.inductors = problem.inductors.clone();
+        p.inductors_eligible = problem.inductors_eligible.clone();
+        p.inductors_excluded = problem.inductors_excluded.clone();
+        p.filter = problem.filter.clone();
         if let Some(f) = design_for(&p, target, &quick).found {
             out.push(name.to_string());
             details.extend(details_of(problem, &f.bank, Some(name)));
@@ -400,6 +520,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         ops: problem.ops.clone(),
         region_ops: problem.region_ops.clone(),
         warnings: vec![],
+        filter: problem.filter.clone(),
     };
     if p.eligible
         .iter()

@@ -1,5 +1,5 @@
-//! The mixed-integer relaxation: integer counts n_i ≤ ub_i·z_i, binary
-//! line items z_i, every linear limit, and the necessary condition
+//! The mixed-integer relaxation: integer counts n_i ≤ count_max_i·z_i,
+//! binary line items z_i, every linear limit of [`crate::limits::LIMITS`], and the necessary condition
 //! Σ n_i |Y_ik| ≥ q_k at the most demanding harmonics. Every passing bank
 //! satisfies it, so its optimum is a lower bound on the true optimum; its
 //! line set is a proposal for the exact search. `cuts` exclude line sets
@@ -19,19 +19,19 @@ pub struct Proposal {
 
 /// The harmonics where the condition is hardest to meet.
 pub fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
-    let mut d: Vec<(f64, usize)> = (0..s.n)
-        .filter(|&k| s.q[k] > 0.0)
+    let mut d: Vec<(f64, usize)> = (0..s.harmonics)
+        .filter(|&k| s.required[k] > 0.0)
         .map(|k| {
             let best = over
                 .iter()
-                .map(|&i| s.ub[i] as f64 * s.a[i * s.n + k])
+                .map(|&i| s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k])
                 .fold(0.0, f64::max);
-            (s.q[k] / best.max(1e-300), k)
+            (s.required[k] / best.max(1e-300), k)
         })
         .collect();
     d.sort_by(|x, y| y.0.total_cmp(&x.0));
     let mut ks: Vec<usize> = d.iter().take(count).map(|x| x.1).collect();
-    if s.q.first().is_some_and(|&q| q > 0.0) && !ks.contains(&0) {
+    if s.required.first().is_some_and(|&q| q > 0.0) && !ks.contains(&0) {
         ks.push(0);
     }
     ks
@@ -47,7 +47,7 @@ pub fn propose(
     let mut vars = variables!();
     let n: Vec<Variable> = over
         .iter()
-        .map(|&i| vars.add(variable().integer().min(0.0).max(s.ub[i] as f64)))
+        .map(|&i| vars.add(variable().integer().min(0.0).max(s.count_max[i] as f64)))
         .collect();
     let z: Vec<Variable> = over.iter().map(|_| vars.add(variable().binary())).collect();
     let mut obj = Expression::from(0.0);
@@ -64,31 +64,30 @@ pub fn propose(
         e
     };
     for (j, &i) in over.iter().enumerate() {
-        m = m.with(constraint!(n[j] <= s.ub[i] as f64 * z[j]));
-        m = m.with(constraint!(n[j] >= s.lb[i] as f64 * z[j]));
-        if s.required.contains(&i) {
+        m = m.with(constraint!(n[j] <= s.count_max[i] as f64 * z[j]));
+        m = m.with(constraint!(n[j] >= s.count_min[i] as f64 * z[j]));
+        if s.required_parts.contains(&i) {
             m = m.with(constraint!(z[j] >= 1.0));
         }
     }
     let zsum: Expression = z.iter().fold(Expression::from(0.0), |e, &v| e + v);
-    m = m.with(constraint!(zsum.clone() <= s.lim.max_lines as f64));
+    if s.lim.max_lines < usize::MAX {
+        m = m.with(constraint!(zsum.clone() <= s.lim.max_lines as f64));
+    }
     m = m.with(constraint!(zsum >= 1.0));
-    if s.lim.max_cap.is_finite() {
-        m = m.with(constraint!(sum(&|i| s.parts[i].c_limit) <= s.lim.max_cap));
+    // The linear limits of the table, as the search reads them.
+    for row in &s.lim.at_most {
+        m = m.with(constraint!(sum(&|i| row.coef[i]) <= row.value));
     }
-    if s.lim.max_count.is_finite() {
-        m = m.with(constraint!(sum(&|_| 1.0) <= s.lim.max_count));
-    }
-    if s.lim.max_area.is_finite() {
-        m = m.with(constraint!(sum(&|i| s.parts[i].area) <= s.lim.max_area));
-    }
-    if s.lim.min_cap > 0.0 {
-        m = m.with(constraint!(sum(&|i| s.parts[i].c_worst) >= s.lim.min_cap));
+    for row in &s.lim.at_least {
+        m = m.with(constraint!(sum(&|i| row.coef[i]) >= row.value));
     }
     for &k in harmonics {
         // Scaled to order one for the solver's tolerances.
-        let scale = 1.0 / s.q[k];
-        m = m.with(constraint!(sum(&|i| s.a[i * s.n + k] * scale) >= 1.0));
+        let scale = 1.0 / s.required[k];
+        m = m.with(constraint!(
+            sum(&|i| s.adm_mag[i * s.harmonics + k] * scale) >= 1.0
+        ));
     }
     for cut in cuts {
         let mut e = Expression::from(0.0);

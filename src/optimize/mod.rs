@@ -27,7 +27,9 @@
 //!    the lowest ripple by bisection on the target with this same search,
 //!    and relaxes each limit in turn to find the ones that bind.
 
+use crate::assessment::RIPPLE_ROUNDING;
 use crate::evaluator::{Band, LineState};
+use crate::limits::LimitId;
 use crate::problem::Problem;
 
 /// Most searches the cutting-plane loop of [`design_for`] runs.
@@ -146,6 +148,10 @@ pub struct Settings {
     /// Exact evaluations allowed in one search; past it the search stops
     /// and the result is `feasible` at best.
     pub max_evaluations: usize,
+    /// Only banks whose objective is below this are of interest (the
+    /// filter search's incumbent minus a filter's own share): the search
+    /// starts with it as its bound and finds nothing above it.
+    pub cutoff: Option<f64>,
 }
 
 impl Default for Settings {
@@ -158,49 +164,56 @@ impl Default for Settings {
             milp_proposals: 2,
             milp_seconds: 2.0,
             max_evaluations: 3_000_000,
+            cutoff: None,
         }
     }
 }
 
 mod explain;
+mod filtered;
 mod milp;
 mod rework;
 mod search;
 
-pub use explain::{binding, explain, lowest_ripple, Binding, BindingDetail, Explanation, Lowest};
+pub use explain::{
+    binding, explain, lowest_deviation, lowest_ripple, Binding, BindingDetail, Explanation, Lowest,
+    LowestDeviation,
+};
+pub use filtered::{design_filtered, FilterOutcome};
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
-/// A point of the corner region to check every candidate at: an operating
-/// point and the state of every candidate part there.
-pub(crate) type Cut = (crate::converter::OperatingPoint, Vec<LineState>);
+/// A point of the corner region to check every candidate at: for the
+/// ripple, an operating point and the state of every candidate part there;
+/// for the load step, the state of every candidate part.
+#[derive(Debug, Clone)]
+pub(crate) enum Cut {
+    /// A point where a bank's ripple broke the target.
+    Ripple(crate::converter::OperatingPoint, Vec<LineState>),
+    /// A point where a bank's load-step deviation broke its limit.
+    Step(Vec<LineState>),
+}
 
 /// A search over `cands` that also checks every cut.
 fn search_with(problem: &Problem, cands: &[usize], target: f64, cuts: &[Cut]) -> Search {
     let mut s = Search::new(problem, cands, target);
-    for (op, st) in cuts {
-        let idx = s.ev.add_op(op);
-        s.active.push(crate::region::Active {
-            op: idx,
-            states: st.clone(),
-        });
+    for cut in cuts {
+        match cut {
+            Cut::Ripple(op, st) => {
+                let idx = s.ev.add_op(op);
+                s.active.push(crate::region::Active {
+                    op: idx,
+                    states: st.clone(),
+                });
+            }
+            Cut::Step(st) => s.step_cuts.push(st.clone()),
+        }
     }
     s
 }
 
-/// Verify a bank (local indices of `s`) over the whole corner region: its
-/// worst figure when it holds, else the cut at the point that breaks it
-/// (the bank's lines at their states there, every other part at `low`).
-fn region_cut(
-    problem: &Problem,
-    s: &mut Search,
-    bank: &[(usize, u32)],
-    target: f64,
-) -> Result<f64, Cut> {
-    let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
-    if w.value <= target * (1.0 + 1e-9) {
-        return Ok(w.value);
-    }
+/// Every candidate part at its `low` state, the bank's lines at `states`.
+fn cut_states(s: &Search, bank: &[(usize, u32)], states: &[LineState]) -> Vec<LineState> {
     let mut st: Vec<LineState> = s
         .parts
         .iter()
@@ -210,11 +223,43 @@ fn region_cut(
         })
         .collect();
     for (j, &(i, _)) in bank.iter().enumerate() {
-        if let Some(x) = w.states.get(j) {
+        if let Some(x) = states.get(j) {
             st[i] = *x;
         }
     }
-    Err((s.ev.ops[w.op].clone(), st))
+    // A post-filter's lines follow, at their states there (`low` if none).
+    for j in bank.len()..s.ev.line_count(bank) {
+        let m = s.ev.line_model(bank, j);
+        st.push(states.get(j).copied().unwrap_or(LineState {
+            c: m.c_worst,
+            esr: m.esr_max,
+        }));
+    }
+    st
+}
+
+/// Verify a bank (local indices of `s`) over the whole corner region: its
+/// worst ripple when it holds (and the load step's deviation, when the
+/// scenario has one, holds too), else the cut at the point that breaks it
+/// (the bank's lines at their states there, every other part at `low`).
+fn region_cut(
+    problem: &Problem,
+    s: &mut Search,
+    bank: &[(usize, u32)],
+    target: f64,
+) -> Result<f64, Cut> {
+    let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
+    if w.value > target * (1.0 + RIPPLE_ROUNDING) {
+        return Err(Cut::Ripple(s.ev.ops[w.op].clone(), cut_states(s, bank, &w.states)));
+    }
+    if let Some(m) = s.step.as_mut() {
+        let limit = m.spec.max_deviation;
+        let sw = m.worst(&s.parts, bank);
+        if !(sw.deviation <= limit * (1.0 + crate::transient::ROUNDING)) {
+            return Err(Cut::Step(cut_states(s, bank, &sw.states)));
+        }
+    }
+    Ok(w.value)
 }
 
 /// Find the best bank for the scenario's target.
@@ -237,34 +282,38 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
     // Cutting planes (Blankenship & Falk 1976): search against a finite set
     // of region points, verify the best bank over the whole region, add the
     // point that breaks it and search again.
-    let mut actives: Vec<(crate::converter::OperatingPoint, Vec<LineState>)> = Vec::new();
+    let mut actives: Vec<Cut> = Vec::new();
     let mut round = 0;
     while !cands.is_empty() || problem.scenario.converter.internal_capacitance.is_some() {
         round += 1;
         let mut s = search_with(problem, &cands, target, &actives);
         s.budget = settings.max_evaluations;
+        if let Some(c) = settings.cutoff {
+            // A bound, not a bank: an empty bank of infinite ripple.
+            s.incumbent = Some(([c, f64::INFINITY, f64::INFINITY], Vec::new(), f64::INFINITY));
+        }
         // The converter alone (no added parts), when it has capacitance of its own.
-        if s.required.is_empty()
+        if s.required_parts.is_empty()
             && problem.scenario.converter.internal_capacitance.is_some()
-            && s.lim.min_cap <= 0.0
+            && s.lim.value(LimitId::MinCapacitance) <= 0.0
         {
             s.bank_buf.clear();
             // A module's current is calibrated so that the converter alone
             // shows standalone_ripple_pp; a target equal to it must pass
-            // despite rounding (the same 1e-9 the region check allows).
+            // despite rounding (the same allowance as the region check).
             let exact_target = s.target;
-            s.target = exact_target * (1.0 + 1e-9);
+            s.target = exact_target * (1.0 + RIPPLE_ROUNDING);
             if let Some(r) = s.exact() {
                 s.incumbent = Some(([0.0; 3], Vec::new(), r));
             }
             s.target = exact_target;
         }
-        let free = s.lim.max_lines.saturating_sub(s.required.len());
+        let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
         let all: Vec<usize> = (0..s.parts.len()).collect();
-        let total =
-            binomial_sum(all.len() - s.required.len(), free) + usize::from(!s.required.is_empty());
+        let total = binomial_sum(all.len() - s.required_parts.len(), free)
+            + usize::from(!s.required_parts.is_empty());
         stats.line_sets_total = total;
-        if s.required.len() <= s.lim.max_lines {
+        if s.required_parts.len() <= s.lim.max_lines {
             if total <= settings.exhaustive_limit {
                 run_all_sets(&mut s, &all, free, settings, "design");
                 proven = true;
@@ -305,7 +354,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
         stopped = s.stopped;
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
-        if let Some((key, bank, _)) = s.incumbent.take() {
+        if let Some((key, bank, _)) = s.incumbent.take().filter(|i| i.2.is_finite()) {
             let verdict = region_cut(problem, &mut s, &bank, target);
             if let Err(cut) = verdict {
                 if round < MAX_REGION_ROUNDS {

@@ -96,7 +96,7 @@ pub fn rework(
                     for added in combinations(&adds, a) {
                         let mut set = stay.clone();
                         set.extend(added);
-                        if set.is_empty() || !s.required.iter().all(|q| set.contains(q)) {
+                        if set.is_empty() || !s.required_parts.iter().all(|q| set.contains(q)) {
                             continue;
                         }
                         sets.push(set);

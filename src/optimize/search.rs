@@ -1,34 +1,113 @@
 //! The exact search: line sets, their bounds, and count enumeration.
 
 use super::{better, milp, tol, Key, Settings};
+use crate::assessment::Bound;
 use crate::evaluator::{Evaluator, PartModel};
-use crate::limits::{self, LimitId};
+use crate::limits::{self, LimitId, Linear};
 use crate::problem::Problem;
 use crate::scenario::Objective;
 use indicatif::{ProgressBar, ProgressStyle};
 use num_complex::Complex64;
 
-/// Limits that are linear in the counts, read from [`crate::limits::LIMITS`]
-/// (+∞ or 0 where the scenario leaves one open).
+/// A limit of [`crate::limits::LIMITS`] on a sum over the parts,
+/// Σ coef_i · n_i, as the search reads it.
+#[derive(Debug, Clone)]
+pub(super) struct SumLimit {
+    /// Which entry of the table.
+    pub(super) id: LimitId,
+    /// The entry's coefficient for each local part.
+    pub(super) coef: Vec<f64>,
+    /// The limit's value in the scenario.
+    pub(super) value: f64,
+    /// The entry's relative slack (rounding of sums of products).
+    pub(super) slack: f64,
+}
+
+/// Most entries of the table (the size of the fixed per-limit arrays of
+/// the count enumeration).
+pub(super) const MAX_SUMS: usize = limits::LIMITS.len();
+
+/// The limits of [`crate::limits::LIMITS`] that constrain the search, read
+/// entry by entry from the table (open limits are left out): the sums with
+/// an upper and with a lower limit, and the number of lines.
 #[derive(Debug, Clone)]
 pub(super) struct Limits {
-    pub(super) max_cap: f64,
-    pub(super) min_cap: f64,
-    pub(super) max_count: f64,
-    pub(super) max_area: f64,
+    /// Σ coef·n ≤ value.
+    pub(super) at_most: Vec<SumLimit>,
+    /// Σ coef·n ≥ value.
+    pub(super) at_least: Vec<SumLimit>,
+    /// Most lines (distinct parts).
     pub(super) max_lines: usize,
 }
 
 impl Limits {
-    fn of(s: &crate::scenario::Scenario) -> Limits {
-        let v = |id| limits::limit(id).value_or_open(s);
-        Limits {
-            max_cap: v(LimitId::MaxCapacitance),
-            min_cap: v(LimitId::MinCapacitance),
-            max_count: v(LimitId::MaxCount),
-            max_area: v(LimitId::MaxArea),
-            max_lines: v(LimitId::MaxLines) as usize,
+    fn of(s: &crate::scenario::Scenario, parts: &[PartModel]) -> Limits {
+        let mut out = Limits {
+            at_most: Vec::new(),
+            at_least: Vec::new(),
+            max_lines: usize::MAX,
+        };
+        for l in &limits::LIMITS {
+            let Some(value) = (l.value)(s) else { continue };
+            match l.linear {
+                Linear::Sum(coef) => {
+                    let row = SumLimit {
+                        id: l.id,
+                        coef: parts.iter().map(coef).collect(),
+                        value,
+                        slack: l.slack,
+                    };
+                    match l.bound {
+                        Bound::AtMost => out.at_most.push(row),
+                        Bound::AtLeast if value > 0.0 => out.at_least.push(row),
+                        Bound::AtLeast => {}
+                    }
+                }
+                Linear::Lines => out.max_lines = out.max_lines.min(value as usize),
+                // Per-part counts are in the count bounds (`limits::count_max`).
+                Linear::EachCount => {}
+                // A non-linear limit's necessary condition: the bank's
+                // lowest capacitance at least the floor.
+                Linear::Floor(need) => {
+                    if let Some(v) = need(s).filter(|&v| v > 0.0) {
+                        out.at_least.push(SumLimit {
+                            id: l.id,
+                            coef: parts.iter().map(|p| p.c_worst).collect(),
+                            value: v,
+                            slack: l.slack,
+                        });
+                    }
+                }
+            }
         }
+        out
+    }
+
+    /// The value of limit `id` in the search, or the value that does not
+    /// constrain (+∞ for an upper limit, 0 for a lower one).
+    pub(super) fn value(&self, id: LimitId) -> f64 {
+        if let Some(r) = self.at_most.iter().find(|r| r.id == id) {
+            return r.value;
+        }
+        if let Some(r) = self.at_least.iter().find(|r| r.id == id) {
+            return r.value;
+        }
+        match limits::limit(id).bound {
+            Bound::AtMost => f64::INFINITY,
+            Bound::AtLeast => 0.0,
+        }
+    }
+
+    /// Whether counts `counts` of parts `set` keep every upper limit.
+    pub(super) fn upper_hold(&self, set: &[usize], counts: &[u32]) -> bool {
+        self.at_most.iter().all(|r| {
+            let used: f64 = set
+                .iter()
+                .zip(counts)
+                .map(|(&i, &n)| n as f64 * r.coef[i])
+                .sum();
+            used <= r.value * (1.0 + r.slack)
+        })
     }
 }
 
@@ -41,19 +120,25 @@ pub(super) struct Search {
     /// Objective weights per part: weights[j][i].
     pub(super) weights: [Vec<f64>; 3],
     pub(super) line_w: Key,
-    pub(super) lb: Vec<u32>,
-    pub(super) ub: Vec<u32>,
+    /// Smallest count of each part when it is used (its required count, or 1).
+    pub(super) count_min: Vec<u32>,
+    /// Largest count of each part every limit allows ([`limits::count_max`]).
+    pub(super) count_max: Vec<u32>,
     /// |Y_ik| of each part, n harmonics each.
-    pub(super) a: Vec<f64>,
-    pub(super) q: Vec<f64>,
+    pub(super) adm_mag: Vec<f64>,
+    /// r_k of the necessary condition Σ n_i |Y_ik| ≥ r_k per harmonic
+    /// ([`Evaluator::required_admittance`]).
+    pub(super) required: Vec<f64>,
     /// Complex admittance Y_ik per part (worst corner), n harmonics each.
-    pub(super) adm: Vec<Complex64>,
+    pub(super) adm_worst: Vec<Complex64>,
     /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
-    pub(super) phase: Vec<(f64, Complex64, Complex64)>,
-    pub(super) n: usize,
+    pub(super) phase_terms: Vec<(f64, Complex64, Complex64)>,
+    /// Harmonics of the target figure.
+    pub(super) harmonics: usize,
     pub(super) target: f64,
     pub(super) lim: Limits,
-    pub(super) required: Vec<usize>,
+    /// Local indices of the parts the scenario requires.
+    pub(super) required_parts: Vec<usize>,
     pub(super) check_currents: bool,
     /// Also require the typical corner to pass (`selection.check_typical`).
     pub(super) check_typical: bool,
@@ -71,6 +156,12 @@ pub(super) struct Search {
     pub(super) ratings: Vec<Option<f64>>,
     /// Exact evaluations allowed; past it the search stops (result `feasible`).
     pub(super) budget: usize,
+    /// The load-step model over the candidates, with `[transient]`.
+    pub(super) step: Option<crate::transient::StepModel>,
+    /// Points of the corner region every candidate's load step is also
+    /// checked at (per local part, its state there).
+    pub(super) step_cuts: Vec<Vec<crate::evaluator::LineState>>,
+    pub(super) step_buf: Vec<crate::evaluator::LineState>,
     pub(super) stopped: bool,
 }
 
@@ -100,59 +191,63 @@ impl Search {
             Objective::Cost => [lc, 0.0, 0.0],
             _ => [0.0, lc, 0.0],
         };
-        let lim = Limits::of(s);
-        let mut lb = Vec::new();
-        let mut ub = Vec::new();
-        let mut required = Vec::new();
+        let lim = Limits::of(s, &parts);
+        let mut count_min = Vec::new();
+        let mut count_max = Vec::new();
+        let mut required_parts = Vec::new();
         for (j, p) in parts.iter().enumerate() {
             let id = &problem.catalog.parts[p.index].id;
             let req = s.selection.require.get(id).copied().unwrap_or(0);
             if req > 0 {
-                required.push(j);
+                required_parts.push(j);
             }
-            lb.push(req.max(1));
-            ub.push(limits::count_max(s, p));
+            count_min.push(req.max(1));
+            count_max.push(limits::count_max(s, p));
         }
-        let q = ev.required_admittance(target);
-        let n = q.len();
-        let mut a = Vec::with_capacity(parts.len() * n);
+        let required = ev.required_admittance(target);
+        let harmonics = required.len();
+        let mut adm_mag = Vec::with_capacity(parts.len() * harmonics);
         for j in 0..parts.len() {
-            a.extend(ev.admittance_magnitudes(j));
+            adm_mag.extend(ev.admittance_magnitudes(j));
         }
         let check_currents = parts.iter().any(|p| p.rating.is_some());
-        let mut adm = Vec::with_capacity(parts.len() * n);
+        let mut adm_worst = Vec::with_capacity(parts.len() * harmonics);
         for j in 0..parts.len() {
-            for k in 0..n {
-                adm.push(ev.y(j, k, crate::evaluator::Corner::Worst));
+            for k in 0..harmonics {
+                adm_worst.push(ev.y(j, k, crate::evaluator::Corner::Worst));
             }
         }
-        let phase = ev.phase_terms(target);
+        let phase_terms = ev.phase_terms(target);
         let ratings = parts.iter().map(|p| p.rating).collect();
+        let step = crate::transient::StepModel::new(s, &parts);
         Search {
+            step,
+            step_cuts: Vec::new(),
+            step_buf: Vec::new(),
             active: Vec::new(),
             ratings,
-            adm,
-            phase,
+            adm_worst,
+            phase_terms,
             catalog_index: candidates.to_vec(),
             ev,
             parts,
             weights: per_part,
             line_w,
-            lb,
-            ub,
-            a,
-            q,
-            n,
+            count_min,
+            count_max,
+            adm_mag,
+            required,
+            harmonics,
             target,
             lim,
-            required,
+            required_parts,
             check_currents,
             check_typical: s.selection.check_typical,
             incumbent: None,
             evals: 0,
             sets_solved: 0,
             bank_buf: Vec::new(),
-            yb_buf: vec![Complex64::default(); n],
+            yb_buf: vec![Complex64::default(); harmonics],
             cur_buf: Vec::new(),
             budget: usize::MAX,
             stopped: false,
@@ -162,50 +257,52 @@ impl Search {
     /// Valid lower bound on the primary objective of line set `set`, or
     /// `None` if the set cannot meet the necessary condition or the limits.
     pub(super) fn set_bound(&self, set: &[usize]) -> Option<f64> {
-        if set.iter().any(|&i| self.ub[i] < self.lb[i]) {
+        if set.iter().any(|&i| self.count_max[i] < self.count_min[i]) {
             return None;
         }
-        let (mut cap, mut cnt, mut area, mut base) =
-            (0.0, 0.0, 0.0, set.len() as f64 * self.line_w[0]);
-        let mut cmin_max = 0.0;
+        let mut base = set.len() as f64 * self.line_w[0];
         for &i in set {
-            let l = self.lb[i] as f64;
-            cap += l * self.parts[i].c_limit;
-            cnt += l;
-            area += l * self.parts[i].area;
-            base += l * self.weights[0][i];
-            cmin_max += self.ub[i] as f64 * self.parts[i].c_worst;
+            base += self.count_min[i] as f64 * self.weights[0][i];
         }
-        if cap > self.lim.max_cap * (1.0 + 1e-12)
-            || cnt > self.lim.max_count
-            || area > self.lim.max_area * (1.0 + 1e-12)
-        {
-            return None;
+        // Upper limits at the smallest counts, and what is left of each.
+        let mut left = [0.0; MAX_SUMS];
+        for (r, row) in self.lim.at_most.iter().enumerate() {
+            let used: f64 = set
+                .iter()
+                .map(|&i| self.count_min[i] as f64 * row.coef[i])
+                .sum();
+            if used > row.value * (1.0 + row.slack) {
+                return None;
+            }
+            left[r] = row.value - used;
         }
-        if cmin_max < self.lim.min_cap {
-            return None;
+        // Lower limits at the largest counts.
+        for row in &self.lim.at_least {
+            let most: f64 = set
+                .iter()
+                .map(|&i| self.count_max[i] as f64 * row.coef[i])
+                .sum();
+            if most < row.value {
+                return None;
+            }
         }
         let mut extra: f64 = 0.0;
-        let left = [
-            self.lim.max_count - cnt,
-            self.lim.max_cap - cap,
-            self.lim.max_area - area,
-        ];
         let items: Vec<(usize, f64)> = set
             .iter()
-            .map(|&i| (i, (self.ub[i] - self.lb[i]) as f64))
+            .map(|&i| (i, (self.count_max[i] - self.count_min[i]) as f64))
             .collect();
-        for k in 0..self.n {
+        let left = &left[..self.lim.at_most.len()];
+        for k in 0..self.harmonics {
             let (mut at_lb, mut best_ratio) = (0.0, f64::INFINITY);
             for &i in set {
-                let ai = self.a[i * self.n + k];
-                at_lb += self.lb[i] as f64 * ai;
+                let ai = self.adm_mag[i * self.harmonics + k];
+                at_lb += self.count_min[i] as f64 * ai;
                 if ai > 0.0 {
                     best_ratio = best_ratio.min(self.weights[0][i] / ai);
                 }
             }
-            let need = self.q[k];
-            if need > at_lb && at_lb + self.capacity(&items, &left, k) < need * (1.0 - 1e-9) {
+            let need = self.required[k];
+            if need > at_lb && at_lb + self.capacity(&items, left, k) < need * (1.0 - 1e-9) {
                 return None;
             }
             if need > at_lb {
@@ -216,39 +313,33 @@ impl Search {
     }
 
     /// Upper bound on Σ a_ik·x_i over 0 ≤ x_i ≤ room_i under each of the
-    /// remaining count, capacitance-limit and area budgets `left`: the
-    /// smallest of the fractional-knapsack optima, one budget at a time
-    /// (each drops the other budgets, so each is a valid upper bound).
-    pub(super) fn capacity(&self, items: &[(usize, f64)], left: &[f64; 3], k: usize) -> f64 {
+    /// remaining budgets `left` of the upper limits (`lim.at_most`, in
+    /// order): the smallest of the fractional-knapsack optima, one budget
+    /// at a time (each drops the other budgets, so each is a valid upper
+    /// bound).
+    pub(super) fn capacity(&self, items: &[(usize, f64)], left: &[f64], k: usize) -> f64 {
+        let n = self.harmonics;
         let mut best = items
             .iter()
-            .map(|&(i, room)| room * self.a[i * self.n + k])
+            .map(|&(i, room)| room * self.adm_mag[i * n + k])
             .sum::<f64>();
-        for (r, &budget) in left.iter().enumerate() {
-            if !budget.is_finite() {
-                continue;
-            }
-            let weight = |i: usize| match r {
-                0 => 1.0,
-                1 => self.parts[i].c_limit,
-                _ => self.parts[i].area,
-            };
+        if items.len() > 8 {
+            return best;
+        }
+        for (row, &budget) in self.lim.at_most.iter().zip(left) {
             // Items in order of value per unit of this resource.
             let mut order: [(f64, usize, f64); 8] = [(0.0, 0, 0.0); 8];
-            let m = items.len().min(8);
-            if items.len() > 8 {
-                continue;
-            }
+            let m = items.len();
             for (j, &(i, room)) in items.iter().enumerate() {
-                let w = weight(i);
-                let v = self.a[i * self.n + k];
+                let w = row.coef[i];
+                let v = self.adm_mag[i * n + k];
                 order[j] = (if w > 0.0 { v / w } else { f64::INFINITY }, i, room);
             }
             order[..m].sort_by(|x, y| y.0.total_cmp(&x.0));
             let (mut b, mut total) = (budget.max(0.0), 0.0);
             for &(_, i, room) in &order[..m] {
-                let w = weight(i);
-                let v = self.a[i * self.n + k];
+                let w = row.coef[i];
+                let v = self.adm_mag[i * n + k];
                 let take = if w > 0.0 { room.min(b / w) } else { room };
                 total += take * v;
                 b -= take * w;
@@ -334,6 +425,19 @@ impl Search {
                 return false;
             }
         }
+        // The load step: its `low` corner, its cuts and the box's vertices.
+        if let Some(m) = self.step.as_mut() {
+            let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
+            if !m.screen(
+                &self.parts,
+                &self.bank_buf,
+                limit,
+                &self.step_cuts,
+                &mut self.step_buf,
+            ) {
+                return false;
+            }
+        }
         true
     }
 
@@ -355,12 +459,13 @@ impl Search {
         self.sets_solved += 1;
         let m = set.len();
         // rest_ub[d][k] = Σ_{j>d} ub_j a_jk
-        let n = self.n;
+        let n = self.harmonics;
         let mut rest_ub = vec![vec![0.0; n]; m];
         for d in (0..m.saturating_sub(1)).rev() {
             let i = set[d + 1];
             for k in 0..n {
-                rest_ub[d][k] = rest_ub[d + 1][k] + self.ub[i] as f64 * self.a[i * n + k];
+                rest_ub[d][k] =
+                    rest_ub[d + 1][k] + self.count_max[i] as f64 * self.adm_mag[i * n + k];
             }
         }
         let mut stack = vec![vec![0.0; n]; m + 1];
@@ -368,10 +473,8 @@ impl Search {
         let mut counts = vec![0u32; m];
         let start = Partial {
             key0: m as f64 * self.line_w[0],
-            cap: 0.0,
-            cnt: 0.0,
-            area: 0.0,
-            cmin: 0.0,
+            used_most: [0.0; MAX_SUMS],
+            used_least: [0.0; MAX_SUMS],
         };
         self.rec(
             set,
@@ -389,13 +492,13 @@ impl Search {
     /// (phases kept): |A + c·B|² ≥ r² is a quadratic in c whose failing set
     /// is one open interval. `None` if no count up to `hi` does.
     pub(super) fn phase_need(&self, i: usize, sum: &[Complex64], lo: f64, hi: f64) -> Option<f64> {
-        let n = self.n;
-        let row = &self.adm[i * n..(i + 1) * n];
+        let n = self.harmonics;
+        let row = &self.adm_worst[i * n..(i + 1) * n];
         let mut c = lo;
         loop {
             let mut moved = false;
             for k in 0..n {
-                let (r, g, yi) = self.phase[k];
+                let (r, g, yi) = self.phase_terms[k];
                 let a_ = sum[k] * g + yi;
                 let b_ = row[k] * g;
                 let qa = b_.norm_sqr();
@@ -439,30 +542,26 @@ impl Search {
     ) {
         let m = set.len();
         let i = set[d];
-        let pm = &self.parts[i];
-        let (c_limit, c_worst, area_i, w0) = (pm.c_limit, pm.c_worst, pm.area, self.weights[0][i]);
-        // The later parts at their lower bounds.
-        let (mut rest_key, mut rest_cap, mut rest_cnt, mut rest_area) = (0.0, 0.0, 0.0, 0.0);
+        let w0 = self.weights[0][i];
+        // The later parts at their smallest counts.
+        let mut rest_key = 0.0;
         for &j in &set[d + 1..] {
-            let l = self.lb[j] as f64;
-            rest_key += l * self.weights[0][j];
-            rest_cap += l * self.parts[j].c_limit;
-            rest_cnt += l;
-            rest_area += l * self.parts[j].area;
+            rest_key += self.count_min[j] as f64 * self.weights[0][j];
         }
-        let mut hi = self.ub[i] as f64;
-        if c_limit > 0.0 {
-            hi = hi.min(
-                ((self.lim.max_cap - p.cap - rest_cap) / c_limit * (1.0 + 1e-12) + 1e-9).floor(),
-            );
+        let mut hi = self.count_max[i] as f64;
+        for (r, row) in self.lim.at_most.iter().enumerate() {
+            let coef = row.coef[i];
+            if coef <= 0.0 {
+                continue;
+            }
+            let rest: f64 = set[d + 1..]
+                .iter()
+                .map(|&j| self.count_min[j] as f64 * row.coef[j])
+                .sum();
+            hi =
+                hi.min(((row.value - p.used_most[r] - rest) / coef * (1.0 + 1e-12) + 1e-9).floor());
         }
-        hi = hi.min(self.lim.max_count - p.cnt - rest_cnt);
-        if area_i > 0.0 {
-            hi = hi.min(
-                ((self.lim.max_area - p.area - rest_area) / area_i * (1.0 + 1e-12) + 1e-9).floor(),
-            );
-        }
-        let lo = self.lb[i] as f64;
+        let lo = self.count_min[i] as f64;
         if hi < lo {
             return;
         }
@@ -471,9 +570,9 @@ impl Search {
             let cur = &stack[d];
             // Smallest count the necessary condition allows.
             let mut need = lo;
-            let row = &self.a[i * self.n..(i + 1) * self.n];
-            for k in 0..self.n {
-                let deficit = self.q[k] - cur[k];
+            let row = &self.adm_mag[i * self.harmonics..(i + 1) * self.harmonics];
+            for k in 0..self.harmonics {
+                let deficit = self.required[k] - cur[k];
                 if deficit > 0.0 {
                     if row[k] <= 0.0 {
                         return;
@@ -481,8 +580,10 @@ impl Search {
                     need = need.max(deficit / row[k] - 1e-9);
                 }
             }
-            if self.lim.min_cap > p.cmin && c_worst > 0.0 {
-                need = need.max((self.lim.min_cap - p.cmin) / c_worst - 1e-9);
+            for (r, row) in self.lim.at_least.iter().enumerate() {
+                if row.value > p.used_least[r] && row.coef[i] > 0.0 {
+                    need = need.max((row.value - p.used_least[r]) / row.coef[i] - 1e-9);
+                }
             }
             let need = need.ceil().max(lo);
             if need > hi as f64 {
@@ -507,7 +608,7 @@ impl Search {
                     .extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
                 {
                     let cf = c as f64;
-                    let row = &self.adm[i * self.n..(i + 1) * self.n];
+                    let row = &self.adm_worst[i * self.harmonics..(i + 1) * self.harmonics];
                     for ((yb, s0), y) in self.yb_buf.iter_mut().zip(&cstack[d]).zip(row) {
                         *yb = s0 + y * cf;
                     }
@@ -534,7 +635,7 @@ impl Search {
             }
             return;
         }
-        let row_start = i * self.n;
+        let row_start = i * self.harmonics;
         'outer: for c in lo as u32..=hi {
             let key0 = p.key0 + c as f64 * w0 + rest_key;
             let inc0 = self.inc_primary();
@@ -547,15 +648,15 @@ impl Search {
             let (cur, next) = (&head[d], &mut tail[0]);
             {
                 let (ch, ct) = cstack.split_at_mut(d + 1);
-                let yrow = &self.adm[row_start..row_start + self.n];
+                let yrow = &self.adm_worst[row_start..row_start + self.harmonics];
                 for ((nx, cu), y) in ct[0].iter_mut().zip(&ch[d]).zip(yrow) {
                     *nx = cu + y * cf;
                 }
             }
-            for k in 0..self.n {
-                let v = cur[k] + cf * self.a[row_start + k];
+            for k in 0..self.harmonics {
+                let v = cur[k] + cf * self.adm_mag[row_start + k];
                 next[k] = v;
-                if v + rest_ub[d][k] < self.q[k] * (1.0 - 1e-9) {
+                if v + rest_ub[d][k] < self.required[k] * (1.0 - 1e-9) {
                     ok = false;
                 }
             }
@@ -563,13 +664,16 @@ impl Search {
                 continue 'outer;
             }
             counts[d] = c;
-            let np = Partial {
+            let mut np = Partial {
                 key0: p.key0 + cf * w0,
-                cap: p.cap + cf * c_limit,
-                cnt: p.cnt + cf,
-                area: p.area + cf * area_i,
-                cmin: p.cmin + cf * c_worst,
+                ..p
             };
+            for (r, row) in self.lim.at_most.iter().enumerate() {
+                np.used_most[r] += cf * row.coef[i];
+            }
+            for (r, row) in self.lim.at_least.iter().enumerate() {
+                np.used_least[r] += cf * row.coef[i];
+            }
             self.rec(set, d + 1, np, stack, cstack, counts, rest_ub);
         }
     }
@@ -577,11 +681,12 @@ impl Search {
 
 #[derive(Clone, Copy)]
 pub(super) struct Partial {
+    /// Primary objective of the counts chosen so far (with line costs).
     pub(super) key0: f64,
-    pub(super) cap: f64,
-    pub(super) cnt: f64,
-    pub(super) area: f64,
-    pub(super) cmin: f64,
+    /// Σ coef·n so far of each upper limit (`lim.at_most`, in order).
+    pub(super) used_most: [f64; MAX_SUMS],
+    /// Σ coef·n so far of each lower limit (`lim.at_least`, in order).
+    pub(super) used_least: [f64; MAX_SUMS],
 }
 
 /// Drop parts that another candidate dominates.
@@ -764,7 +869,7 @@ pub(super) fn run_all_sets(
     msg: &str,
 ) {
     let mut bounded: Vec<(f64, Vec<usize>)> = Vec::new();
-    let required = s.required.clone();
+    let required = s.required_parts.clone();
     let inc0 = s.inc_primary();
     each_line_set(&required, pool, free, &mut |set| {
         if let Some(b) = s.set_bound(set) {
@@ -810,7 +915,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
     let ks = milp::hard_harmonics(s, &all, 12);
     let mut idx: Vec<usize> = all.clone();
     for &k in &ks {
-        let eff = |x: usize| s.a[x * s.n + k] / s.weights[0][x].max(1e-12);
+        let eff = |x: usize| s.adm_mag[x * s.harmonics + k] / s.weights[0][x].max(1e-12);
         idx.sort_by(|&x, &y| eff(y).total_cmp(&eff(x)));
         for (rank, &i) in idx.iter().take(size).enumerate() {
             score[i] += 1.0 / (1.0 + rank as f64);
@@ -818,13 +923,14 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
     }
     // Cost for one part alone to meet the condition at every harmonic.
     let alone = |i: usize| -> f64 {
-        let mut need: f64 = s.lb[i] as f64;
-        for k in 0..s.n {
-            if s.q[k] > 0.0 {
-                need = need.max((s.q[k] / s.a[i * s.n + k].max(1e-300)).ceil());
+        let mut need: f64 = s.count_min[i] as f64;
+        for k in 0..s.harmonics {
+            if s.required[k] > 0.0 {
+                need =
+                    need.max((s.required[k] / s.adm_mag[i * s.harmonics + k].max(1e-300)).ceil());
             }
         }
-        if need > s.ub[i] as f64 {
+        if need > s.count_max[i] as f64 {
             f64::INFINITY
         } else {
             need * s.weights[0][i]
@@ -840,7 +946,7 @@ pub(super) fn pool(s: &Search, size: usize) -> Vec<usize> {
     let mut order: Vec<usize> = all;
     order.sort_by(|&x, &y| score[y].total_cmp(&score[x]));
     let mut out: Vec<usize> = order.into_iter().take(size).collect();
-    for &r in &s.required {
+    for &r in &s.required_parts {
         if !out.contains(&r) {
             out.push(r);
         }
@@ -858,7 +964,7 @@ pub(super) fn neighbourhood(s: &mut Search, settings: &Settings) {
         let mut sets: Vec<Vec<usize>> = Vec::new();
         let p = s.parts.len();
         for (j, &i) in cur.iter().enumerate() {
-            if s.required.contains(&i) {
+            if s.required_parts.contains(&i) {
                 continue;
             }
             let mut r = cur.clone();

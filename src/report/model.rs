@@ -411,6 +411,9 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
             ..Default::default()
         });
     }
+    if let Some(t) = &a.transient {
+        out.push(load_step(a, t));
+    }
     let rows: Vec<Vec<String>> = a
         .checks
         .iter()
@@ -474,6 +477,77 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
         out.push(w);
     }
     out
+}
+
+/// The load step's section: the deviation against its limit, the figures
+/// behind it and where it occurs.
+fn load_step(a: &Assessment, t: &crate::transient::StepFigures) -> Section {
+    let mut rows = vec![
+        vec![
+            "deviation (worst over the corner region)".into(),
+            mv(t.deviation),
+            format!(
+                "{} (limit {})",
+                if t.ok { "meets the limit" } else { "MISSES the limit" },
+                mv(t.max_deviation)
+            ),
+        ],
+        vec![
+            "settled value ΔI/(2π·f_c·C_low)".into(),
+            mv(t.settled),
+            "(the bank's lowest capacitance, the converter's own included)".into(),
+        ],
+        vec![
+            "target impedance max_deviation/load_step".into(),
+            format_si(t.z_target, "Ω"),
+            String::new(),
+        ],
+        vec![
+            format!(
+                "peak |Z| seen by the load, {} … {}",
+                format_si(t.loop_crossover, "Hz"),
+                format_si(0.35 / t.rise_time, "Hz")
+            ),
+            format_si(t.z_peak, "Ω"),
+            format!(
+                "at {}{}",
+                format_si(t.z_peak_frequency, "Hz"),
+                if t.z_peak > t.z_target {
+                    " (above the target impedance)"
+                } else {
+                    ""
+                }
+            ),
+        ],
+    ];
+    for (l, st) in a.bank.iter().zip(&t.states) {
+        rows.push(vec![
+            format!("worst point: {}", l.part),
+            format_si(st.c, "F"),
+            format_si(st.esr, "Ω"),
+        ]);
+    }
+    Section {
+        heading: Some(format!(
+            "Load step ({} with a {} rise time, loop crossover {})",
+            format_si(t.load_step, "A"),
+            format_si(t.rise_time, "s"),
+            format_si(t.loop_crossover, "Hz")
+        )),
+        items: vec![
+            Item::Table(Table {
+                head: Vec::new(),
+                rows,
+            }),
+            Item::Line(
+                "Model: the converter answers the step like a current source with a first-order response at its \
+                 loop crossover; the capacitors carry the rest. The converter maker's own transient data and \
+                 compensation rules come first; verify the step on hardware."
+                    .into(),
+            ),
+        ],
+        ..Default::default()
+    }
 }
 
 /// The warnings as a section, or `None` when there are none.

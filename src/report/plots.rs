@@ -637,11 +637,129 @@ pub fn bank_plots(
     let imp = impedance_of(&mut p, problem);
     let rip = ripple_of(&mut p, problem);
     let spec = spectrum_of(&mut p, problem);
-    Ok(vec![
+    let mut out = vec![
         ("impedance.svg".into(), impedance_svg(problem, &imp, a)?),
         ("ripple.svg".into(), ripple_svg(problem, &rip, a)?),
         ("spectrum.svg".into(), spectrum_svg(problem, &spec, a)?),
-    ])
+    ];
+    if let Some(t) = &a.transient {
+        out.push(("load_step.svg".into(), load_step_svg(t)?));
+    }
+    Ok(out)
+}
+
+/// The data of `load_step.svg`: the output's excursion after the load step
+/// at the worst point of the corner region, `(t, v)` in s and V (v from
+/// the level before the step), and the limit, V.
+pub fn load_step_data(a: &Assessment) -> Option<(Vec<(f64, f64)>, f64)> {
+    a.transient
+        .as_ref()
+        .map(|t| (t.response.clone(), t.max_deviation))
+}
+
+fn load_step_svg(t: &crate::transient::StepFigures) -> Result<String> {
+    let pts: Vec<(f64, f64)> = decimate(
+        &t.response
+            .iter()
+            .map(|&(x, v)| (x * 1e6, v * 1e3))
+            .collect::<Vec<_>>(),
+        2400,
+    );
+    let lim = t.max_deviation * 1e3;
+    let (xlo, xhi) = min_max(pts.iter().map(|p| p.0));
+    let (vlo, vhi) = min_max(pts.iter().map(|p| p.1).chain([lim, -lim]));
+    let pad = (vhi - vlo).max(1e-9) * 0.08;
+    let (ylo, yhi) = (vlo - pad, vhi + pad);
+    let (xlo, xhi) = if xhi > xlo { (xlo, xhi) } else { (0.0, 1.0) };
+    let entries = vec![
+        entry(
+            format!(
+                "output after a {} step: peak {}",
+                format_si(t.load_step, "A"),
+                format_si(t.deviation, "V")
+            ),
+            PALETTE[0],
+            Mark::Line(3),
+        ),
+        entry(
+            format!("limit ±{}", format_si(t.max_deviation, "V")),
+            ALERT,
+            Mark::Dashed,
+        ),
+        entry(
+            format!("settled value ΔI/(2π·f_c·C): {}", format_si(t.settled, "V")),
+            PALETTE[5],
+            Mark::Dotted,
+        ),
+    ];
+    let cols = 1;
+    let lh = legend_height(entries.len(), cols);
+    let title = "Load step at the worst point of the corner region";
+    let subtitle = format!(
+        "{} rise time (10–90 %), first-order converter at {} — {}",
+        format_si(t.rise_time, "s"),
+        format_si(t.loop_crossover, "Hz"),
+        if t.ok {
+            "meets the limit"
+        } else {
+            "MISSES the limit"
+        }
+    );
+    let settled = -t.settled * 1e3;
+    svg(560 + lh, title, |root| {
+        let rest = titled(root, title, &subtitle)?;
+        let (plot, legend) = rest.split_vertically(560 - 62);
+        let mut chart = ChartBuilder::on(&plot)
+            .margin_left(10)
+            .margin_right(30)
+            .margin_top(10)
+            .x_label_area_size(56)
+            .y_label_area_size(96)
+            .build_cartesian_2d(xlo..xhi, ylo..yhi)
+            .map_err(pe)?;
+        let fx = |v: &f64| trim_num(*v);
+        let fy = |v: &f64| trim_num(*v);
+        chart
+            .configure_mesh()
+            .x_desc("time after the start of the step (µs)")
+            .y_desc("output voltage change (mV)")
+            .x_label_formatter(&fx)
+            .y_label_formatter(&fy)
+            .x_labels(12)
+            .y_labels(10)
+            .max_light_lines(4)
+            .label_style((FONT, 15).into_font().color(&INK))
+            .axis_desc_style((FONT, 17).into_font().color(&INK))
+            .bold_line_style(GRID_BOLD.stroke_width(1))
+            .light_line_style(GRID_LIGHT.stroke_width(1))
+            .axis_style(INK.stroke_width(1))
+            .draw()
+            .map_err(pe)?;
+        for y in [lim, -lim] {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(xlo, y), (xhi, y)],
+                    9,
+                    6,
+                    ALERT.stroke_width(2),
+                ))
+                .map_err(pe)?;
+        }
+        if settled.is_finite() && settled >= ylo {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(xlo, settled), (xhi, settled)],
+                    3,
+                    4,
+                    PALETTE[5].stroke_width(2),
+                ))
+                .map_err(pe)?;
+        }
+        chart
+            .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(3)))
+            .map_err(pe)?;
+        draw_legend(&legend, &entries, cols, 110)
+    })
 }
 
 fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result<String> {

@@ -13,6 +13,14 @@
 //! `pp_limited` after the bandwidth filter, over the last
 //! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
 //! periods just before, so that a reader can see that the run has settled.
+//!
+//! With a load step in the scenario (`[transient]`) the same netlist also
+//! holds a second copy of the circuit (nodes prefixed `s`) at the load
+//! step's worst point: a load that draws the step as a linear ramp, and the
+//! converter as a behavioural current source (`B`) fed by the load current
+//! through a first-order RC low-pass at the loop crossover. Its `.meas`
+//! lines give `step_min`, `step_max` and `deviation` (V, the largest
+//! change of the load node from its level before the step).
 
 use crate::converter::Waveform;
 use crate::evaluator::{Band, LineState};
@@ -203,11 +211,17 @@ impl Circuit {
 
     /// Elements of the circuit between the converter's node `conv` and the
     /// bank's node `bank` (the same node without connection inductance).
-    fn write(&self, o: &mut String) -> (&'static str, &'static str) {
+    fn write(&self, o: &mut String) -> (String, String) {
+        self.write_with(o, "")
+    }
+
+    /// As [`Circuit::write`], with every node and element name prefixed by
+    /// `pre` (a second copy of the circuit in the same netlist).
+    fn write_with(&self, o: &mut String, pre: &str) -> (String, String) {
         let (conv, bank) = if self.lc > 0.0 {
-            ("conv", "bank")
+            (format!("{pre}conv"), format!("{pre}bank"))
         } else {
-            ("bank", "bank")
+            (format!("{pre}bank"), format!("{pre}bank"))
         };
         let _ = writeln!(
             o,
@@ -223,18 +237,18 @@ impl Circuit {
         );
         for (j, b) in self.bank.iter().enumerate() {
             let _ = writeln!(o, "* line {}: {}", j + 1, b.label);
-            series_rlc(o, &format!("{}", j + 1), bank, b);
+            series_rlc(o, &format!("{pre}{}", j + 1), &bank, b);
         }
         if let Some(b) = &self.internal {
             let _ = writeln!(o, "* {}", b.label);
-            series_rlc(o, "int", conv, b);
+            series_rlc(o, &format!("{pre}int"), &conv, b);
         }
         if self.lc > 0.0 {
             let _ = writeln!(
                 o,
                 "* connection inductance between the converter's output and the bank"
             );
-            let _ = writeln!(o, "Lconn conv bank {}", num(self.lc));
+            let _ = writeln!(o, "L{pre}conn {conv} {bank} {}", num(self.lc));
         } else {
             let _ = writeln!(
                 o,
@@ -509,7 +523,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     // Filter.
     let _ = writeln!(o);
     let filtered = match s.target.bandwidth {
-        Some(bw) => write_filter(&mut o, bnode, bw.0, s.target.bandwidth_order.max(1)),
+        Some(bw) => write_filter(&mut o, &bnode, bw.0, s.target.bandwidth_order.max(1)),
         None => {
             let _ = writeln!(o, "* no measurement bandwidth in the target: pp_limited is measured at the bank's node");
             bnode.to_string()
@@ -517,9 +531,21 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     };
 
     let t_stop = total as f64 * period;
+    let mut t_run = t_stop;
     let t_meas = (total - MEASURE_PERIODS) as f64 * period;
     let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
+    // The load step, when the scenario has one: a second copy of the
+    // circuit at the load step's worst point, stepped from the start of the
+    // saved output.
+    let step = match crate::transient::figures(s, &ev.parts, &local) {
+        Some(f) => Some(write_step(&mut o, problem, &bank, &f, t_prev, rdc)?),
+        None => None,
+    };
     let mut tmax = period / STEPS_PER_PERIOD;
+    if let Some((end, step_tmax)) = step {
+        t_run = t_stop.max(end);
+        tmax = tmax.min(step_tmax);
+    }
     if s.converter.edge_time.0 > 0.0 {
         tmax = tmax.min(s.converter.edge_time.0 / 10.0);
     }
@@ -547,7 +573,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         o,
         ".tran {} {} {} {}",
         num(tmax),
-        num(t_stop),
+        num(t_run),
         num(t_prev),
         num(tmax)
     );
@@ -576,8 +602,89 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         num(t_prev),
         num(t_meas)
     );
+    if step.is_some() {
+        let _ = writeln!(
+            o,
+            "* load step: the lowest and highest output change after it (V), and the deviation"
+        );
+        let _ = writeln!(
+            o,
+            ".meas tran step_min MIN v(sbank) from={} to={}",
+            num(t_prev),
+            num(t_run)
+        );
+        let _ = writeln!(
+            o,
+            ".meas tran step_max MAX v(sbank) from={} to={}",
+            num(t_prev),
+            num(t_run)
+        );
+        let _ = writeln!(
+            o,
+            ".meas tran deviation param='max(abs(step_min),abs(step_max))'"
+        );
+    }
     let _ = writeln!(o, ".end");
     Ok(o)
+}
+
+/// The load-step run of `bank.cir`: the circuit at the load step's worst
+/// point (nodes prefixed `s`, its load node `sbank`), a load that draws the
+/// step (a linear ramp from `t0`, 10–90 % in the rise time) and the
+/// converter as a behavioural current source: the load current through a
+/// first-order RC low-pass at the loop crossover. Returns the end of the
+/// run and the time step it needs.
+fn write_step(
+    o: &mut String,
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    f: &crate::transient::StepFigures,
+    t0: f64,
+    rdc: f64,
+) -> Result<(f64, f64)> {
+    let ckt = circuit(problem, bank, Some(&f.states))?;
+    let ramp = f.rise_time * crate::transient::RAMP_PER_RISE;
+    let wc = 2.0 * PI * f.loop_crossover;
+    let tau = ckt.slowest_decay().min(1.0).max(1.0 / wc);
+    let end = t0 + ramp + crate::transient::SETTLE * tau;
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "* ---- Load step: {} A, rise time {} s (10-90 %, a linear ramp of {} s), loop crossover {} Hz",
+        num(f.load_step),
+        num(f.rise_time),
+        num(ramp),
+        num(f.loop_crossover)
+    );
+    let _ = writeln!(
+        o,
+        "* The same circuit again at the load step's worst point of the corner region; the evaluator's"
+    );
+    let _ = writeln!(o, "* deviation there: {} V.", num(f.deviation));
+    let (conv, node) = ckt.write_with(o, "s");
+    let _ = writeln!(o, "Rsdc {node} 0 {}", num(rdc));
+    let _ = writeln!(
+        o,
+        "* the load current as a voltage (1 V per A) at node sload, starting at {} s",
+        num(t0)
+    );
+    let _ = writeln!(
+        o,
+        "Vsload sload 0 PWL(0 0 {} 0 {} {})",
+        num(t0),
+        num(t0 + ramp),
+        num(f.load_step)
+    );
+    let _ = writeln!(
+        o,
+        "* the converter: the load current through a first-order low-pass at the loop crossover"
+    );
+    let rl = 1e3;
+    let _ = writeln!(o, "Rslp sload sconvi {}", num(rl));
+    let _ = writeln!(o, "Cslp sconvi 0 {}", num(1.0 / (wc * rl)));
+    let _ = writeln!(o, "Bsconv 0 {conv} I=V(sconvi)");
+    let _ = writeln!(o, "Bsload {node} 0 I=V(sload)");
+    Ok((end, (ramp / 50.0).min(tau / 200.0)))
 }
 
 /// An AC netlist of the same bank: a 1 A current into the converter's node,
