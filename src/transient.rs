@@ -378,11 +378,84 @@ pub struct StepModel {
     pub evaluations: usize,
 }
 
-/// Slowest time constant of one branch (`ESR·C`, `2·L/ESR`), s.
+/// Slowest time constant of one branch (`ESR·C`, `2·L/ESR`), s: an upper
+/// bound of every loop it forms with other branches (see [`slowest_loop`]).
 fn branch_tau(esr_max: f64, esr_min: f64, l: f64, c: f64) -> f64 {
     let rc = esr_max * c;
     let lr = if esr_min > 0.0 { 2.0 * l / esr_min } else { 0.0 };
     rc.max(lr)
+}
+
+/// Slower decay time of a series R-L-C loop (`L s² + R s + 1/C = 0`), s.
+fn loop_tau(r: f64, l: f64, c: f64) -> f64 {
+    if l <= 0.0 {
+        return r * c;
+    }
+    let disc = r * r - 4.0 * l / c;
+    if disc < 0.0 {
+        if r > 0.0 {
+            2.0 * l / r
+        } else {
+            f64::INFINITY
+        }
+    } else {
+        c * (r + disc.sqrt()) / 2.0
+    }
+}
+
+/// Slowest decay of the modes of branches `(R, L, C)` in parallel (charge
+/// moving between them): every loop of two branches, and of each branch
+/// against all the others in parallel. Exact for two branches, an estimate
+/// beyond (hence [`SETTLE`]); a single branch has no loop (0). Allocates
+/// nothing.
+pub fn slowest_loop<I>(branches: impl Fn() -> I) -> f64
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+{
+    let series = |a: (f64, f64, f64), b: (f64, f64, f64)| {
+        loop_tau(a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2))
+    };
+    let (mut n, mut g, mut gl, mut ctot) = (0usize, 0.0, 0.0, 0.0);
+    let (mut r_zero, mut l_zero) = (0usize, 0usize);
+    for (r, l, c) in branches() {
+        n += 1;
+        ctot += c;
+        if r > 0.0 {
+            g += 1.0 / r;
+        } else {
+            r_zero += 1;
+        }
+        if l > 0.0 {
+            gl += 1.0 / l;
+        } else {
+            l_zero += 1;
+        }
+    }
+    let mut tau: f64 = 0.0;
+    for (i, a) in branches().enumerate() {
+        for b in branches().skip(i + 1) {
+            tau = tau.max(series(a, b));
+        }
+        if n > 2 {
+            // The others in parallel: 1/Σ(1/R), 1/Σ(1/L), ΣC.
+            let par = |sum: f64, zeros: usize, own: f64| -> f64 {
+                let zeros = zeros - usize::from(own <= 0.0);
+                if zeros > 0 {
+                    0.0
+                } else {
+                    let rest = sum - if own > 0.0 { 1.0 / own } else { 0.0 };
+                    if rest > 0.0 {
+                        1.0 / rest
+                    } else {
+                        0.0
+                    }
+                }
+            };
+            let rest = (par(g, r_zero, a.0), par(gl, l_zero, a.1), ctot - a.2);
+            tau = tau.max(series(a, rest));
+        }
+    }
+    tau
 }
 
 impl StepModel {
@@ -416,18 +489,22 @@ impl StepModel {
         &self.network
     }
 
+    /// Slowest decay of the bank's own modes at `states` (with the
+    /// converter's internal branch behind the connection inductance).
     fn tau_of(&self, bank: &Bank, states: &[LineState]) -> f64 {
         let lc = self.network.connection_inductance;
-        let mut tau = self
-            .network
-            .internal
-            .map_or(0.0, |b| branch_tau(b.esr, b.esr, b.esl + lc, b.c));
-        for (&(i, n), st) in bank.iter().zip(states) {
-            if n > 0 {
-                tau = tau.max(branch_tau(st.esr, st.esr, self.esl[i] + lc, st.c));
-            }
-        }
-        tau
+        let internal = self.network.internal.map(|b| (b.esr, b.esl + lc, b.c));
+        let esl = &self.esl;
+        slowest_loop(|| {
+            bank.iter()
+                .zip(states)
+                .filter(|(b, _)| b.1 > 0)
+                .map(|(&(i, n), st)| {
+                    let nf = n as f64;
+                    (st.esr / nf, esl[i] / nf, st.c * nf)
+                })
+                .chain(internal)
+        })
     }
 
     fn has_capacitance(&self, bank: &Bank) -> bool {
