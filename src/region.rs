@@ -249,7 +249,10 @@ fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
 
 /// As [`vertices`], for a bank over the part list `parts`.
 pub(crate) fn vertices_of(parts: &[PartModel], bank: &Bank) -> Vec<Vec<LineState>> {
-    let opts: Vec<Vec<LineState>> = bank.iter().map(|&(i, _)| vertex_options(parts, i)).collect();
+    let opts: Vec<Vec<LineState>> = bank
+        .iter()
+        .map(|&(i, _)| vertex_options(parts, i))
+        .collect();
     let total: usize = opts.iter().map(|o| o.len()).product();
     let mut out = Vec::new();
     if total <= 256 {

@@ -47,8 +47,8 @@ use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
 use crate::region::{golden, named_states_of, vertices_of, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
-use serde::Serialize;
 use rustfft::{Fft, FftPlanner};
+use serde::Serialize;
 use std::f64::consts::PI;
 use std::sync::Arc;
 
@@ -228,7 +228,11 @@ impl Core {
         let wc = self.spec.omega_c();
         let bracket = |zt: Complex64, zo: Complex64, conv: Complex64| zt * conv - zo;
         let (zt, zo) = z(OMEGA_ASYMPTOTE / (2.0 * PI));
-        let h = bracket(zt, zo, Complex64::new(wc, 0.0) / Complex64::new(wc, OMEGA_ASYMPTOTE));
+        let h = bracket(
+            zt,
+            zo,
+            Complex64::new(wc, 0.0) / Complex64::new(wc, OMEGA_ASYMPTOTE),
+        );
         if !h.is_finite() {
             return false;
         }
@@ -272,7 +276,10 @@ impl Core {
         let slope = di / self.spec.ramp();
         let half = self.grids[self.last].half();
         if m < r {
-            (di * m as f64 / r as f64, if m > 0 || right { slope } else { 0.0 })
+            (
+                di * m as f64 / r as f64,
+                if m > 0 || right { slope } else { 0.0 },
+            )
         } else if m == r {
             (di, if right { 0.0 } else { slope })
         } else if m < half {
@@ -382,7 +389,11 @@ pub struct StepModel {
 /// bound of every loop it forms with other branches (see [`slowest_loop`]).
 fn branch_tau(esr_max: f64, esr_min: f64, l: f64, c: f64) -> f64 {
     let rc = esr_max * c;
-    let lr = if esr_min > 0.0 { 2.0 * l / esr_min } else { 0.0 };
+    let lr = if esr_min > 0.0 {
+        2.0 * l / esr_min
+    } else {
+        0.0
+    };
     rc.max(lr)
 }
 
@@ -463,7 +474,11 @@ impl StepModel {
     /// without one).
     pub fn new(s: &Scenario, parts: &[PartModel]) -> Option<StepModel> {
         let spec = Spec::of(s)?;
-        Some(StepModel::with_network(spec, Network::from_scenario(s), parts))
+        Some(StepModel::with_network(
+            spec,
+            Network::from_scenario(s),
+            parts,
+        ))
     }
 
     /// The model for `spec` and a network over `parts`.
@@ -545,11 +560,7 @@ impl StepModel {
     /// The deviation for any network given by its impedances at the load
     /// node, `z(f) = (Z_t, Z_open)` (see the module notes), whose slowest
     /// time constant is `tau`: the form a post-filter's ladder uses.
-    pub fn deviation_of(
-        &mut self,
-        tau: f64,
-        z: impl FnMut(f64) -> (Complex64, Complex64),
-    ) -> f64 {
+    pub fn deviation_of(&mut self, tau: f64, z: impl FnMut(f64) -> (Complex64, Complex64)) -> f64 {
         self.evaluations += 1;
         let g = self.core.grid_for(tau);
         if self.core.fill(g, z) {
@@ -776,7 +787,11 @@ pub fn figures(s: &Scenario, parts: &[PartModel], bank: &Bank) -> Option<StepFig
         z_peak_frequency: z_f,
         loop_crossover: sp.crossover,
         rise_time: sp.rise_time,
-        settled: if c_low > 0.0 { sp.settled(c_low) } else { f64::INFINITY },
+        settled: if c_low > 0.0 {
+            sp.settled(c_low)
+        } else {
+            f64::INFINITY
+        },
         states: w.states,
         response,
     })
@@ -911,7 +926,10 @@ mod tests {
         let r = m.response(&[(0, 2)], &st);
         let last = r.last().unwrap().1;
         let want = -sp.settled(400e-6);
-        assert!((last - want).abs() <= 0.003 * want.abs(), "{last} vs {want}");
+        assert!(
+            (last - want).abs() <= 0.003 * want.abs(),
+            "{last} vs {want}"
+        );
         let d = m.deviation(&[(0, 2)], &st);
         assert!(d >= want.abs() * 0.999);
     }

@@ -219,7 +219,11 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "scn-step-crossover-above-fsw.toml",
         Scenario,
-        &["key `transient.loop_crossover`", "half the switching frequency", "\"60k\""],
+        &[
+            "key `transient.loop_crossover`",
+            "half the switching frequency",
+            "\"60k\"",
+        ],
     ),
     (
         "scn-step-rise-seconds.toml",

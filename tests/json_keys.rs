@@ -245,14 +245,23 @@ fn transient_object_keys() {
         .map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"]))
         .collect();
     let a = run(
-        &["assess", "--scenario", f.to_str().unwrap(), "--bank", &bank.join(",")],
+        &[
+            "assess",
+            "--scenario",
+            f.to_str().unwrap(),
+            "--bank",
+            &bank.join(","),
+        ],
         0,
     );
     has_all(&a["transient"], &keys, "assess transient");
     assert_eq!(a["transient"]["deviation"], d["transient"]["deviation"]);
     // The ripple-only bank (eight ceramics) misses the step: assess fails.
     let short = "RB-C0805-X5R-22U-6V3=8";
-    let a = run(&["assess", "--scenario", f.to_str().unwrap(), "--bank", short], 1);
+    let a = run(
+        &["assess", "--scenario", f.to_str().unwrap(), "--bank", short],
+        1,
+    );
     assert_eq!(a["transient"]["ok"], false);
     assert_eq!(a["status"], "fail");
 }

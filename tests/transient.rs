@@ -124,7 +124,11 @@ fn bundled_core_rail_is_decided_by_the_step() {
 /// The deviation of `bank` over an independent dense grid of the corner
 /// region: each line's capacitance at three points of [C_low, C_high] and
 /// its ESR at both ends (brute force, not the tool's own search).
-fn dense_step(m: &mut StepModel, parts: &[ripplebank::evaluator::PartModel], bank: &[(usize, u32)]) -> f64 {
+fn dense_step(
+    m: &mut StepModel,
+    parts: &[ripplebank::evaluator::PartModel],
+    bank: &[(usize, u32)],
+) -> f64 {
     let opts: Vec<Vec<LineState>> = bank
         .iter()
         .map(|&(i, _)| {
@@ -259,7 +263,8 @@ fn design_matches_brute_force_where_the_step_binds() {
                     // Only where the tool's own region search found a point
                     // that breaks the oracle's bank (the grid stepped over it).
                     let oidx: Vec<usize> = ob.iter().map(|b| el[b.0]).collect();
-                    let ol: Vec<(usize, u32)> = ob.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+                    let ol: Vec<(usize, u32)> =
+                        ob.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
                     let mut oev = p.evaluator(&oidx);
                     let w = ripplebank::region::worst(&p, &mut oev, &ol, Band::Limited);
                     let mut om = StepModel::new(&p.scenario, &oev.parts).unwrap();
@@ -270,10 +275,16 @@ fn design_matches_brute_force_where_the_step_binds() {
                     );
                 }
             }
-            (o, t) => panic!("case {case}: oracle {o:?}, tool {:?}\n{scen}\n{cat_text}", t.as_ref().map(|f| &f.bank)),
+            (o, t) => panic!(
+                "case {case}: oracle {o:?}, tool {:?}\n{scen}\n{cat_text}",
+                t.as_ref().map(|f| &f.bank)
+            ),
         }
     }
     eprintln!("load-step oracle: {cases} feasible cases, same optimum in {exact}, the step binds in {binds}");
-    assert!(cases >= 5 && binds >= 3, "too few informative cases: {cases} feasible, {binds} binding");
+    assert!(
+        cases >= 5 && binds >= 3,
+        "too few informative cases: {cases} feasible, {binds} binding"
+    );
     assert!(exact as f64 >= 0.9 * cases as f64, "{exact} of {cases}");
 }

@@ -161,12 +161,7 @@ impl Circuit {
     /// branches; an estimate (hence the generous [`SETTLE_TAUS`]) beyond.
     fn slowest_decay(&self) -> f64 {
         let internal = self.internal.as_ref().map(|b| (b.r, b.l + self.lc, b.c));
-        crate::transient::slowest_loop(|| {
-            self.bank
-                .iter()
-                .map(|b| (b.r, b.l, b.c))
-                .chain(internal)
-        })
+        crate::transient::slowest_loop(|| self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal))
     }
 
     /// Elements of the circuit between the converter's node `conv` and the
