@@ -89,8 +89,13 @@ fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
         return f64::INFINITY;
     }
     if let Some(d) = verified_deviation(problem, &ev.parts, &local) {
-        if !(d <= problem.scenario.transient.as_ref().map_or(f64::INFINITY, |t| t.max_deviation.0)
-            * (1.0 + crate::transient::ROUNDING))
+        if !(d
+            <= problem
+                .scenario
+                .transient
+                .as_ref()
+                .map_or(f64::INFINITY, |t| t.max_deviation.0)
+                * (1.0 + crate::transient::ROUNDING))
         {
             return f64::INFINITY;
         }
@@ -175,9 +180,17 @@ pub fn lowest_deviation(problem: &Problem, settings: &Settings) -> Option<Lowest
         .map(|i| s.count_max[i] as f64 * s.parts[i].c_worst)
         .collect();
     caps.sort_by(|a, b| b.total_cmp(a));
-    let own = problem.scenario.converter.internal_capacitance.map_or(0.0, |c| c.0);
+    let own = problem
+        .scenario
+        .converter
+        .internal_capacitance
+        .map_or(0.0, |c| c.0);
     let c_max: f64 = caps.iter().take(s.lim.max_lines).sum::<f64>() + own;
-    let mut lo = if c_max > 0.0 { spec.settled(c_max) } else { 0.0 };
+    let mut lo = if c_max > 0.0 {
+        spec.settled(c_max)
+    } else {
+        0.0
+    };
     while out.probes < MAX_PROBES && out.deviation.is_finite() {
         if out.deviation <= lo * (1.0 + BISECT_TOLERANCE) {
             break;
