@@ -61,8 +61,8 @@ pub struct FilterDesign {
 /// cannot be computed yet. `what` names the request.
 pub fn not_yet_wired(what: &str) -> anyhow::Error {
     anyhow::anyhow!(
-        "{what}: the inputs are valid, but the post-filter's evaluation is not yet wired into this version; \
-         nothing was computed and no file was written"
+        "{what}: the post-filter's evaluation is not yet wired into this version; nothing was computed and \
+         no file was written"
     )
 }
 

@@ -259,7 +259,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
                 "tolerance",
                 format!(
                     "{t} must be at least 0 and below 1 (100 %){}",
-                    if t >= 1.0 && t <= 100.0 && units::is_bare(row.cell("tolerance")) {
+                    if (1.0..=100.0).contains(&t) && units::is_bare(row.cell("tolerance")) {
                         format!(
                             "; bare numbers are fractions — did you mean \"{}%\"?",
                             row.cell("tolerance")

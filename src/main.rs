@@ -128,14 +128,14 @@ enum Cmd {
         #[arg(long, value_name = "F")]
         bom: Option<PathBuf>,
         /// The filter inductor from the inductor catalog; N equal inductors in parallel (default 1)
-        #[arg(long, value_name = "PART[=N]", requires = "bank")]
+        #[arg(long, value_name = "PART[=N]")]
         inductor: Option<String>,
         /// The filter's load-side bank as PART=N,PART=N
-        #[arg(long, value_name = "PART=N,...", requires = "bank")]
+        #[arg(long, value_name = "PART=N,...")]
         load_bank: Option<String>,
         /// The damping leg across the load-side bank: a resistor (0R22, 220m) in series with
         /// N capacitors PART (default 1)
-        #[arg(long, value_name = "R,PART[=N]", requires = "bank")]
+        #[arg(long, value_name = "R,PART[=N]")]
         damping: Option<String>,
         /// The corner to judge the bank at (worst: the whole corner region)
         #[arg(long, value_enum, ignore_case = true, default_value_t = NamedCorner::Worst)]

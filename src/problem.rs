@@ -704,3 +704,161 @@ pub fn inductor_model(ind: &crate::inductors::Inductor, index: usize) -> PartMod
         rating: None,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SCEN: &str = r#"
+        catalog = "x.csv"
+        [converter]
+        topology = "buck"
+        vin = 12
+        vout = 3.3
+        iout = 6
+        fsw = "600k"
+        inductance = "2.2u"
+        inductance_tolerance = "20%"
+        [target]
+        ripple_pp = "8m"
+        bandwidth = "20M"
+        [environment]
+        temperature_min = -40
+        temperature_max = 85
+        [board]
+        max_height = 3
+        max_area = 60
+        [selection]
+        exclude = ["EXCL"]
+        [filter]
+        max_dc_drop = "30m"
+    "#;
+
+    const INDUCTORS: &str = "part,inductance,tolerance,dcr,rated_current,saturation_current,srf,cost,area,height,temp_min,temp_max,status\n\
+        OK1,1u,20%,4m,10,12,80M,0.2,16,2,-55,125,active\n\
+        OBS,1u,20%,4m,10,12,80M,0.2,16,2,-55,125,obsolete\n\
+        NRND,1u,20%,4m,10,12,80M,0.2,16,2,-55,125,nrnd\n\
+        HOT,1u,20%,4m,10,12,80M,0.2,16,2,-55,70,active\n\
+        COLD,1u,20%,4m,10,12,80M,0.2,16,2,-20,125,active\n\
+        TALL,1u,20%,4m,10,12,80M,0.2,16,4,-55,125,active\n\
+        NOH,1u,20%,4m,10,12,80M,0.2,16,,-55,125,active\n\
+        LOWI,1u,20%,4m,5,12,80M,0.2,16,2,-55,125,active\n\
+        SAT,1u,20%,4m,10,5,80M,0.2,16,2,-55,125,active\n\
+        DROP,1u,20%,6m,10,12,80M,0.2,16,2,-55,125,active\n\
+        SRF,1u,20%,4m,10,12,500k,0.2,16,2,-55,125,active\n\
+        BIG,1u,20%,4m,10,12,80M,0.2,70,2,-55,125,active\n\
+        EXCL,1u,20%,4m,10,12,80M,0.2,16,2,-55,125,active\n";
+
+    fn problem(extra: &str) -> Problem {
+        let scen = SCEN.replace("[filter]\n", &format!("[filter]\n{extra}\n"));
+        let s = Scenario::from_str(&scen, "t.toml").unwrap();
+        let cat =
+            crate::catalog::Catalog::from_bytes(crate::load::DEMO_CATALOG.as_bytes(), "c.csv")
+                .unwrap();
+        let l = InductorCatalog::from_bytes(INDUCTORS.as_bytes(), "l.csv").unwrap();
+        Problem::with_inductors(s, cat, Some(l)).unwrap()
+    }
+
+    fn reason<'a>(p: &'a Problem, id: &str) -> Option<&'a str> {
+        p.inductors_excluded
+            .iter()
+            .find(|e| e.part == id)
+            .map(|e| e.reason.as_str())
+    }
+
+    #[test]
+    fn each_inductor_rule_excludes_with_its_reason() {
+        // The eligibility rules of the inductor (README, "The LC post-filter"):
+        // status, rated temperature against the environment, height, the
+        // scenario's exclusions, rated and saturation current against iout,
+        // the DC drop iout · DCR (Ohm's law), the self-resonance, the area.
+        let p = problem("");
+        let lc = p.inductors.as_ref().unwrap();
+        let ok: Vec<&str> = p
+            .inductors_eligible
+            .iter()
+            .map(|&i| lc.parts[i].id.as_str())
+            .collect();
+        assert_eq!(ok, vec!["OK1"]);
+        for (id, want) in [
+            ("OBS", "status obsolete"),
+            ("NRND", "status nrnd"),
+            (
+                "HOT",
+                "rated up to 70 °C only; the environment reaches 85 °C",
+            ),
+            (
+                "COLD",
+                "rated down to -20 °C only; the environment reaches -40 °C",
+            ),
+            ("TALL", "height 4 mm is above board.max_height 3 mm"),
+            ("NOH", "no height given, and board.max_height is 3 mm"),
+            ("LOWI", "rated current 5 A is below iout 6 A"),
+            ("SAT", "saturation current 5 A is below iout 6 A"),
+            // 6 A · 6 mΩ = 36 mV.
+            (
+                "DROP",
+                "DC drop iout · DCR = 6 A · 6 mΩ = 36 mV is above filter.max_dc_drop 30 mV",
+            ),
+            (
+                "SRF",
+                "self-resonant frequency 500 kHz is at or below the ripple frequency 600 kHz",
+            ),
+            ("BIG", "area 70 mm² alone is above board.max_area 60 mm²"),
+            ("EXCL", "excluded by the scenario"),
+        ] {
+            let r = reason(&p, id).unwrap_or_else(|| panic!("{id} not excluded"));
+            assert!(r.contains(want), "{id}: {r}");
+        }
+        assert_eq!(p.inductors_excluded.len(), 12);
+    }
+
+    #[test]
+    fn parallel_inductors_share_the_current_and_nrnd_can_be_allowed() {
+        // Two equal inductors in parallel carry 3 A each: 5 A ratings pass,
+        // and the drop halves (6 A · 3 mΩ = 18 mV).
+        let p = problem("max_inductor_count = 2");
+        assert_eq!(reason(&p, "LOWI"), None);
+        assert_eq!(reason(&p, "SAT"), None);
+        assert_eq!(reason(&p, "DROP"), None);
+        assert!(reason(&p, "HOT").is_some());
+        let scen = SCEN.replace("[selection]\n", "[selection]\nallow_nrnd = true\n");
+        let s = Scenario::from_str(&scen, "t.toml").unwrap();
+        let cat =
+            crate::catalog::Catalog::from_bytes(crate::load::DEMO_CATALOG.as_bytes(), "c.csv")
+                .unwrap();
+        let l = InductorCatalog::from_bytes(INDUCTORS.as_bytes(), "l.csv").unwrap();
+        let p = Problem::with_inductors(s, cat, Some(l)).unwrap();
+        assert_eq!(reason(&p, "NRND"), None);
+    }
+
+    #[test]
+    fn filter_limits_not_given_are_warned_about_when_a_filter_is_considered() {
+        let p = problem("");
+        assert!(!p
+            .warnings
+            .iter()
+            .any(|w| w.contains("min_corner_frequency")));
+        let p = problem("use = \"auto\"");
+        for key in ["filter.min_corner_frequency", "filter.max_output_impedance"] {
+            assert!(
+                p.warnings.iter().any(|w| w.contains(key)),
+                "{key}: {:?}",
+                p.warnings
+            );
+        }
+        assert!(!p.warnings.iter().any(|w| w.contains("filter.max_dc_drop")));
+        // The scenario's exclusions may name an inductor; an unknown name is an error.
+        let scen = SCEN.replace("[\"EXCL\"]", "[\"NOPE\"]");
+        let s = Scenario::from_str(&scen, "t.toml").unwrap();
+        let cat =
+            crate::catalog::Catalog::from_bytes(crate::load::DEMO_CATALOG.as_bytes(), "c.csv")
+                .unwrap();
+        let l = InductorCatalog::from_bytes(INDUCTORS.as_bytes(), "l.csv").unwrap();
+        let e = Problem::with_inductors(s, cat, Some(l))
+            .err()
+            .unwrap()
+            .to_string();
+        assert!(e.contains("selection.exclude") && e.contains("NOPE"), "{e}");
+    }
+}

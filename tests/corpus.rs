@@ -588,10 +588,7 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     (
         "bom-filter-position.csv",
         Bom,
-        &[
-            "column `position`",
-            "a filter needs its inductor",
-        ],
+        &["line 3, column `position`", "a filter needs its inductor"],
     ),
     (
         "bom-unknown-position.csv",

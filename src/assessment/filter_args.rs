@@ -352,8 +352,12 @@ pub fn bom_to_design(
         return Ok((bank, None));
     }
     let Some((inductor, count, iline)) = inductor else {
+        let first = rows
+            .iter()
+            .find(|r| matches!(r.position, Position::Load | Position::Damping))
+            .map_or(1, |r| r.line);
         bail!(
-            "{src}: line 1, column `position`: rows in position `load` or `damping` but no row in position \
+            "{src}: line {first}, column `position`: a row in position `load` or `damping` but no row in position \
              `inductor`: a filter needs its inductor"
         );
     };
@@ -388,4 +392,247 @@ pub fn bom_to_design(
             damping,
         }),
     ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::load::{self, Overrides};
+
+    const CAP: &str = "RB-C1206-X5R-47U-6V3";
+    const CAP2: &str = "RB-C0603-X5R-10U-6V3";
+    const IND: &str = "RB-L4040-1U";
+
+    fn demo() -> Problem {
+        let o = Overrides {
+            need_inductors: true,
+            ..Default::default()
+        };
+        load::problem(None, None, &o).unwrap()
+    }
+
+    fn err(r: Result<impl std::fmt::Debug>) -> String {
+        format!("{:#}", r.unwrap_err())
+    }
+
+    #[test]
+    fn command_line_filter_reads_into_a_design() {
+        // The syntax documented for assess (README, "Assessing a filtered design").
+        let p = demo();
+        let f = parse_filter_args(
+            &p,
+            Some(IND),
+            Some(&format!("{CAP}=2,{CAP2}=1")),
+            Some(&format!("0R22,{CAP2}=3")),
+        )
+        .unwrap()
+        .unwrap();
+        let lc = p.inductors.as_ref().unwrap();
+        assert_eq!(lc.parts[f.inductor].id, IND);
+        assert_eq!(f.count, 1);
+        let c = |id: &str| p.catalog.position(id).unwrap();
+        assert_eq!(f.load_bank, vec![(c(CAP), 2), (c(CAP2), 1)]);
+        let d = f.damping.unwrap();
+        // IEC 60062 RKM code: 0R22 = 0.22 Ω.
+        assert!((d.resistance - 0.22).abs() < 1e-15);
+        assert_eq!((d.capacitor, d.count), (c(CAP2), 3));
+        // Two in parallel; the colon form and SI prefixes; no damping.
+        let f = parse_filter_args(
+            &p,
+            Some(&format!("{IND}=2")),
+            Some(&format!("{CAP}=1")),
+            Some(&format!("220m:{CAP}")),
+        )
+        .unwrap()
+        .unwrap();
+        assert_eq!(f.count, 2);
+        let d = f.damping.unwrap();
+        assert!((d.resistance - 0.22).abs() < 1e-15 && d.count == 1);
+        let f = parse_filter_args(&p, Some(IND), Some(&format!("{CAP}=1")), None)
+            .unwrap()
+            .unwrap();
+        assert_eq!(f.damping, None);
+        assert_eq!(parse_filter_args(&p, None, None, None).unwrap(), None);
+    }
+
+    #[test]
+    fn command_line_filter_errors_name_the_argument() {
+        let p = demo();
+        let lb = format!("{CAP}=2");
+        for (ind, load, damp, want) in [
+            (
+                None,
+                Some(lb.as_str()),
+                None,
+                "--load-bank: a filter needs its inductor",
+            ),
+            (
+                None,
+                None,
+                Some("0R22,X"),
+                "--damping: a filter needs its inductor",
+            ),
+            (
+                Some(IND),
+                None,
+                None,
+                "--inductor: a filter needs its load-side bank",
+            ),
+            (
+                Some("RB-L4040-1u"),
+                Some(&lb),
+                None,
+                "did you mean `RB-L4040-1U`?",
+            ),
+            (
+                Some(CAP),
+                Some(&lb),
+                None,
+                "it is a capacitor of the parts catalog",
+            ),
+            (
+                Some("RB-L4040-1U=0"),
+                Some(&lb),
+                None,
+                "--inductor: count 0 of `RB-L4040-1U` must be from 1 to 8",
+            ),
+            (
+                Some("RB-L4040-1U=x"),
+                Some(&lb),
+                None,
+                "--inductor: count `x`",
+            ),
+            (
+                Some(IND),
+                Some("NOPE=1"),
+                None,
+                "--load-bank: part `NOPE` is not in the catalog",
+            ),
+            (
+                Some(IND),
+                Some(&format!("{CAP}=0")),
+                None,
+                "--load-bank: every count is zero",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some("0R22"),
+                "--damping: `0R22` is not of the form R,PART",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some("0R22uF,X"),
+                "--damping: resistor `0R22uF`",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some("0,X"),
+                "--damping: resistor `0` must be above zero",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some("2200,X"),
+                "did you mean \"2200m\"?",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some(&format!("0R22,{IND}")),
+                "it is an inductor, and the damping leg's part is a capacitor",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some(&format!("0R22,{CAP},{CAP2}")),
+                "a leg of several capacitor parts",
+            ),
+            (
+                Some(IND),
+                Some(&lb),
+                Some("0R22,"),
+                "the damping capacitor's part is empty",
+            ),
+        ] {
+            let e = err(parse_filter_args(&p, ind, load, damp));
+            assert!(e.contains(want), "{ind:?} {load:?} {damp:?}: {e}");
+        }
+        // Without an inductor catalog the message says how to give one.
+        let bare = load::problem(None, None, &Overrides::default()).unwrap();
+        assert!(bare.inductors.is_none());
+        let e = err(parse_filter_args(&bare, Some(IND), Some(&lb), None));
+        assert!(
+            e.contains("--inductor: no inductor catalog is loaded; give --inductors"),
+            "{e}"
+        );
+    }
+
+    fn rows(text: &str) -> Result<(Vec<(usize, u32)>, Option<FilterDesign>)> {
+        static N: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+        let dir = std::env::temp_dir().join(format!(
+            "ripplebank-bomfilter-{}-{}",
+            std::process::id(),
+            N.fetch_add(1, std::sync::atomic::Ordering::Relaxed)
+        ));
+        std::fs::create_dir_all(&dir).unwrap();
+        let f = dir.join("bom.csv");
+        std::fs::write(&f, text).unwrap();
+        let p = demo();
+        let r =
+            super::super::read_bom_rows(&f).and_then(|rows| bom_to_design(&p, &rows, "bom.csv"));
+        std::fs::remove_dir_all(&dir).ok();
+        r
+    }
+
+    #[test]
+    fn bill_of_materials_positions_read_into_a_design() {
+        let (bank, f) = rows(&format!(
+            "part,count,position\n{CAP},2,converter\n{IND},1,Inductor\n{CAP},3,load\n{CAP2},1,load\n\
+             R 0R22,1,damping\n{CAP2},2,damping\n"
+        ))
+        .unwrap();
+        let p = demo();
+        let c = |id: &str| p.catalog.position(id).unwrap();
+        assert_eq!(bank, vec![(c(CAP), 2)]);
+        let f = f.unwrap();
+        assert_eq!(p.inductors.as_ref().unwrap().parts[f.inductor].id, IND);
+        assert_eq!(f.load_bank, vec![(c(CAP), 3), (c(CAP2), 1)]);
+        let d = f.damping.unwrap();
+        assert!((d.resistance - 0.22).abs() < 1e-15 && d.capacitor == c(CAP2) && d.count == 2);
+        // No position column: the converter-side bank only.
+        let (bank, f) = rows(&format!("part,qty\n{CAP},2\n")).unwrap();
+        assert_eq!((bank, f), (vec![(c(CAP), 2)], None));
+        // A damping resistor written without the `R ` prefix.
+        let (_, f) = rows(&format!(
+            "part,count,position\n{CAP},2,\n{IND},1,inductor\n{CAP},3,load\n220m,1,damping\n{CAP2},1,damping\n"
+        ))
+        .unwrap();
+        assert!((f.unwrap().damping.unwrap().resistance - 0.22).abs() < 1e-15);
+    }
+
+    #[test]
+    fn bill_of_materials_filter_errors_name_line_and_column() {
+        let head = format!("part,count,position\n{CAP},2,converter\n");
+        for (body, want) in [
+            (format!("{CAP},3,load\n"), "line 3, column `position`: a row in position `load` or `damping` but no row in position `inductor`"),
+            (format!("{IND},1,inductor\n"), "line 3, column `position`: an inductor but no load-side bank"),
+            (format!("{IND},1,inductor\nRB-L4040-2U2,1,inductor\n{CAP},1,load\n"), "line 4, column `position`: a second inductor row (the first is on line 3)"),
+            (format!("{IND},9,inductor\n{CAP},1,load\n"), "line 3, column `count`: 9 inductors in parallel"),
+            (format!("{IND},1,converter\n"), "line 3, column `part`: part `RB-L4040-1U` is not in the catalog"),
+            (format!("NOPE,1,inductor\n{CAP},1,load\n"), "line 3, column `part`: inductor `NOPE` is not in the inductor catalog"),
+            (format!("{IND},1,inductor\n{CAP},1,load\nR 0R22,2,damping\n{CAP2},1,damping\n"), "line 5, column `count`: the damping resistor's count is 2"),
+            (format!("{IND},1,inductor\n{CAP},1,load\nR 0R22,1,damping\n"), "line 5, column `position`: a damping resistor but no damping capacitor"),
+            (format!("{IND},1,inductor\n{CAP},1,load\n{CAP2},1,damping\n"), "line 5, column `position`: a damping capacitor but no damping resistor"),
+            (format!("{IND},1,inductor\n{CAP},1,load\nR 2k2,1,damping\n{CAP2},1,damping\n"), "line 5, column `part`: resistor `2k2`"),
+            (format!("{IND},1,inductor\n{CAP},1,load\nwidget,1,damping\n"), "line 5, column `part`: `widget` in position `damping` is neither"),
+            (format!("{IND},1,inductor\n{CAP},1,filter\n"), "line 4, column 3 (position): unknown position `filter`"),
+        ] {
+            let e = err(rows(&format!("{head}{body}")));
+            assert!(e.starts_with("bom.csv: ") || e.contains("bom.csv: "), "{e}");
+            assert!(e.contains(want), "{body}: {e}");
+        }
+    }
 }

@@ -249,6 +249,12 @@ pub fn assess(
     opts: &assessment::AssessOptions,
     filter_args: &assessment::FilterArgs,
 ) -> Result<CommandOutput> {
+    if bom.is_some() && filter_args.any() {
+        anyhow::bail!(
+            "--bom with --inductor, --load-bank or --damping: a bill of materials holds the filter in its \
+             `position` column; give --bank with the filter arguments, or the bill of materials alone"
+        );
+    }
     // A bill of materials is read first: its filter rows need the inductors.
     let bom_rows = match (bank_arg, bom) {
         (None, Some(f)) => Some(assessment::read_bom_rows(f)?),
@@ -266,12 +272,6 @@ pub fn assess(
     let (p, run) = load(c, &o)?;
     if bank_arg.is_some() && bom.is_some() {
         anyhow::bail!("--bank and --bom: give one of them");
-    }
-    if bom.is_some() && filter_args.any() {
-        anyhow::bail!(
-            "--bom with --inductor, --load-bank or --damping: a bill of materials holds the filter in its \
-             `position` column; give one or the other"
-        );
     }
     let (bank, filter) = match (bank_arg, bom, bom_rows) {
         (Some(b), _, _) => (
