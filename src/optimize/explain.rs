@@ -521,6 +521,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         region_ops: problem.region_ops.clone(),
         warnings: vec![],
         filter: problem.filter.clone(),
+        template: None,
     };
     if p.eligible
         .iter()

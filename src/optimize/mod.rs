@@ -179,7 +179,7 @@ pub use explain::{
     binding, explain, lowest_deviation, lowest_ripple, Binding, BindingDetail, Explanation, Lowest,
     LowestDeviation,
 };
-pub use filtered::{design_filtered, FilterOutcome};
+pub use filtered::{design_filtered, problem_with, FilterOutcome};
 pub use rework::{rework, Rework};
 use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
 
