@@ -166,16 +166,36 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
     let sets = if binomial_sum(all.len(), free) <= 20_000 {
         line_sets(&s.required_parts.clone(), &all, free)
     } else {
-        // Rank parts by their admittance at the most demanding harmonic.
+        // Rank parts by the lowest ripple they could reach alone (the
+        // harmonic floor at their count limit): at an infinite target every
+        // harmonic's requirement is zero and cannot rank them.
         let mut order = all.clone();
-        let k = (0..s.harmonics)
-            .max_by(|&x, &y| s.required[x].total_cmp(&s.required[y]))
-            .unwrap_or(0);
-        order.sort_by(|&x, &y| {
-            (s.count_max[y] as f64 * s.adm_mag[y * s.harmonics + k])
-                .total_cmp(&(s.count_max[x] as f64 * s.adm_mag[x * s.harmonics + k]))
-        });
-        order.truncate(24);
+        let mut sum = vec![0.0; s.harmonics];
+        let alone: Vec<f64> = all
+            .iter()
+            .map(|&i| {
+                for k in 0..s.harmonics {
+                    sum[k] = s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
+                }
+                s.ev.ripple_floor_for(&sum)
+            })
+            .collect();
+        order.sort_by(|&x, &y| alone[x].total_cmp(&alone[y]));
+        order.truncate(12);
+        // With, at harmonics spread over the band, the parts of most
+        // admittance there (a bank mixes bulk and high-frequency parts).
+        let mut k = 0usize;
+        while k < s.harmonics {
+            let mut by: Vec<usize> = all.clone();
+            let a = |i: usize| s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
+            by.sort_by(|&x, &y| a(y).total_cmp(&a(x)));
+            for &i in by.iter().take(3) {
+                if !order.contains(&i) {
+                    order.push(i);
+                }
+            }
+            k = 2 * k + 1;
+        }
         line_sets(&s.required_parts.clone(), &order, free)
     };
     // Optimistic floor per set, then greedy descent in floor order.
