@@ -34,6 +34,8 @@ use serde_json::{json, Value};
 
 /// The bisection stops when the upper end is within this fraction of the lower.
 pub const BISECT_TOLERANCE: f64 = 0.005;
+/// Exact evaluations per line-count stage of one bisection probe.
+pub const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
 
@@ -113,8 +115,14 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
             out.bank = Some(b);
         }
     }
+    // Each probe is a design at a hard target; a smaller budget per stage
+    // keeps the bisection fast (a probe that finds nothing only moves the
+    // lower end of the bracket, never the figure reported).
     let quiet = Settings {
         progress: false,
+        exhaustive_limit: settings.exhaustive_limit.min(200_000),
+        milp_proposals: 0,
+        max_evaluations: settings.max_evaluations.min(PROBE_EVALUATIONS),
         ..settings.clone()
     };
     let mut lo = floor.max(0.0);
@@ -312,6 +320,19 @@ pub(super) fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize,
     ))
 }
 
+/// Whether the search's own bounds show that no bank of `p` meets `target`
+/// (so `binding` need not run a design for that relaxation): the harmonic
+/// floor of every allowed bank lies above the target, or the disjunctive
+/// bound finds a harmonic no allowed bank can satisfy.
+fn provably_infeasible(p: &Problem, target: f64) -> bool {
+    let (cands, _) = prune_dominated(p, &p.eligible);
+    if cands.is_empty() {
+        return p.scenario.converter.internal_capacitance.is_none();
+    }
+    let s = Search::new(p, &cands, target);
+    floor_of(&s) > target * (1.0 + 1e-9) || s.global_bound(s.lim.max_lines).is_infinite()
+}
+
 /// Relax each limit in turn; those whose removal lets the target be met bind.
 pub fn binding(problem: &Problem, target: f64) -> Binding {
     use crate::scenario::{Plain, Scenario};
@@ -393,6 +414,9 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         let Ok(p) = Problem::new(sc, problem.catalog.clone()) else {
             continue;
         };
+        if provably_infeasible(&p, target) {
+            continue;
+        }
         if let Some(f) = design_for(&p, target, &quick).found {
             out.push(name.to_string());
             details.extend(details_of(problem, &f.bank, Some(name)));
@@ -435,6 +459,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         }
         let found = Problem::new(sc, cat)
             .ok()
+            .filter(|p| !provably_infeasible(p, target))
             .and_then(|p| design_for(&p, target, &quick).found);
         match found {
             Some(f) => {

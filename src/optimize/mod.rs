@@ -145,8 +145,9 @@ pub struct Settings {
     pub milp_proposals: usize,
     /// Time limit of one mixed-integer solve, s.
     pub milp_seconds: f64,
-    /// Exact evaluations allowed in one search; past it the search stops
-    /// and the result is `feasible` at best.
+    /// Exact evaluations allowed in each line-count stage of a search (the
+    /// same for every stage, so a looser line limit never thins it out);
+    /// past it the stage stops and the result is `feasible` at best.
     pub max_evaluations: usize,
 }
 
@@ -159,7 +160,7 @@ impl Default for Settings {
             milp_parts: 120,
             milp_proposals: 2,
             milp_seconds: 2.0,
-            max_evaluations: 3_000_000,
+            max_evaluations: 1_000_000,
         }
     }
 }
