@@ -38,19 +38,19 @@ fn family_a_problem(rows: usize, target: &str, lines: usize, seed: u64) -> Resul
         .replace("LINES", &lines.to_string());
     let s = Scenario::from_str(&text, "family-a.toml")?;
     let c = Catalog::from_bytes(family_a(rows, seed).as_bytes(), "family-a.csv")?;
-    Ok(Problem::new(s, c)?)
+    Problem::new(s, c)
 }
 
 fn family_b_problem(rows: usize, seed: u64) -> Result<Problem> {
     let (s, _) = load::scenario_and_catalog(None, None)?;
     let c = Catalog::from_bytes(family_b(rows, seed).as_bytes(), "family-b.csv")?;
-    Ok(Problem::new(s, c)?)
+    Problem::new(s, c)
 }
 
 fn with_target(p: &Problem, target: f64) -> Result<Problem> {
     let mut s = p.scenario.clone();
     s.target.ripple_pp.0 = target;
-    Ok(Problem::new(s, p.catalog.clone())?)
+    Problem::new(s, p.catalog.clone())
 }
 
 /// One design's figures.
