@@ -172,10 +172,19 @@ pub(crate) fn design_report(
                 out.status.name().to_uppercase(),
                 if out.status == optimize::Status::Optimal {
                     "the best bank under the model (every line set examined or bounded)".to_string()
-                } else if st.stopped {
-                    format!("a verified bank; the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
                 } else {
-                    "a verified bank; the catalog was too large to prove it the best".to_string()
+                    let why = if st.stopped {
+                        format!("the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
+                    } else {
+                        "the catalog was too large to prove it the best".to_string()
+                    };
+                    match st.lower_bound.filter(|&lb| lb > 0.0) {
+                        Some(lb) => format!(
+                            "feasible, at most {:.1} % above the best possible (a verified bank; {why})",
+                            ((f.key[0] - lb) / lb * 100.0).max(0.0)
+                        ),
+                        None => format!("a verified bank; {why}"),
+                    }
                 }
             ));
             if f.bank.is_empty() {
@@ -188,6 +197,14 @@ pub(crate) fn design_report(
             }
             let mut doc = report::assessment_json(out.status.name(), &a, p);
             doc["search"] = serde_json::to_value(st)?;
+            if out.status == optimize::Status::Feasible {
+                let value = f.key[0];
+                doc["lower_bound"] = serde_json::json!(st.lower_bound);
+                doc["gap"] = serde_json::json!(st
+                    .lower_bound
+                    .filter(|_| value > 0.0)
+                    .map(|lb| ((value - lb) / value).max(0.0)));
+            }
             (doc, Some((f.bank.clone(), a)))
         }
         None => {
