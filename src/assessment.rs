@@ -245,6 +245,8 @@ pub struct Assessment {
     pub warnings: Vec<String>,
     /// The load step's figures (`None` without `[transient]`; JSON null).
     pub transient: Option<crate::transient::StepFigures>,
+    /// The post-filter's figures, when the design has one.
+    pub filter: Option<crate::filter::FilterAssessment>,
 }
 
 /// Effective capacitance of the bank at the ripple frequency at one
@@ -499,26 +501,6 @@ pub fn read_bom_rows(path: &Path) -> Result<Vec<BomRow>> {
     Ok(out)
 }
 
-/// A bill of materials of the converter-side bank: (part id, count, line
-/// number). Rows in another position are refused until the filter is
-/// modelled.
-pub fn read_bom(path: &Path) -> Result<Vec<(String, u32, u64)>> {
-    let rows = read_bom_rows(path)?;
-    if let Some(r) = rows.iter().find(|r| r.position != Position::Converter) {
-        return Err(crate::filter::not_yet_wired(&format!(
-            "{}: line {}, column `position`: `{}` in position `{}`",
-            path.display(),
-            r.line,
-            r.part,
-            r.position.name()
-        )));
-    }
-    Ok(rows
-        .into_iter()
-        .map(|r| (r.part, r.count, r.line))
-        .collect())
-}
-
 /// A catalog part whose id differs from `id` only in letter case.
 fn case_twin<'a>(problem: &'a Problem, id: &str) -> Option<&'a str> {
     problem
@@ -626,7 +608,7 @@ pub fn assess_with(
     };
     let ripple_pp_typical = corners_pp.typical;
     let currents = region::currents(ev, local, Some(&worst));
-    let half = if worst.states.len() == local.len() {
+    let half = if worst.states.len() == ev.line_count(local) {
         ev.fill_states(local, &worst.states, ev.n_limited);
         ev.pp_filled_n(worst.op, Band::Limited, ev.n_limited / 2)
     } else {
@@ -834,6 +816,23 @@ pub fn assess_with(
             ));
         }
     }
+    // A post-filter's parts count toward the design's totals (and its
+    // load-side capacitance toward the converter's limit when asked).
+    let filter = crate::filter::assess_filter(problem, ev, local, &worst, &currents);
+    if let Some(f) = &filter {
+        cost += f.cost;
+        area += f.area;
+        count += f.parts;
+        if s.filter.count_load_side {
+            for &(i, n) in &f.design.load_bank {
+                climit += problem.part_model(i).c_limit * n as f64;
+            }
+            if let Some(d) = &f.design.damping {
+                climit += problem.part_model(d.capacitor).c_limit * d.count as f64;
+            }
+        }
+        checks.extend(crate::filter::filter_checks(problem, f));
+    }
     let nlines = bank.len() as u32;
     let parts_cost = cost;
     cost += nlines as f64 * s.selection.line_cost.0;
@@ -953,5 +952,6 @@ pub fn assess_with(
         all_ok,
         warnings,
         transient,
+        filter,
     }
 }

@@ -155,12 +155,14 @@ struct TailTable {
     h_big: Complex64,
 }
 
+#[derive(Clone)]
 struct Plan {
     m: usize,
     fft: Arc<dyn Fft<f64>>,
 }
 
 /// Evaluates banks built from a fixed list of parts.
+#[derive(Clone)]
 pub struct Evaluator {
     pub parts: Vec<PartModel>,
     pub f_ripple: f64,

@@ -193,11 +193,15 @@ pub fn tail_figures(problem: &Problem, tail: &[TailLine]) -> TailFigures {
 /// corners, and its frequency: a logarithmic sweep, then a golden-section
 /// refinement around each corner's largest sample.
 pub fn peak_output_impedance(tail: &[TailLine], f_lo: f64, f_hi: f64) -> (f64, f64) {
+    peak_over(tail, &corner_states(tail), f_lo, f_hi)
+}
+
+fn peak_over(tail: &[TailLine], states: &[Vec<LineState>], f_lo: f64, f_hi: f64) -> (f64, f64) {
     let decades = (f_hi / f_lo).log10().max(0.0);
     let n = ((decades * Z_POINTS_PER_DECADE as f64).ceil() as usize).max(2);
     let mut best = (0.0_f64, f_lo);
-    for st in corner_states(tail) {
-        let z = |f: f64| tail_output_impedance(tail, &st, f).map_or(0.0, |z| z.norm());
+    for st in states {
+        let z = |f: f64| tail_output_impedance(tail, st, f).map_or(0.0, |z| z.norm());
         let mut top = (0.0, 0usize);
         let fs: Vec<f64> = (0..=n)
             .map(|i| f_lo * (f_hi / f_lo).powf(i as f64 / n as f64))
@@ -240,6 +244,23 @@ pub fn peak_output_impedance(tail: &[TailLine], f_lo: f64, f_hi: f64) -> (f64, f
         }
     }
     best
+}
+
+/// The peak output impedance with every filter line at its typical state
+/// (a quick necessary test: the region's peak is at least this).
+pub fn typical_peak_output_impedance(tail: &[TailLine]) -> f64 {
+    let f0 = corner_frequency(tail);
+    if f0 <= 0.0 {
+        return 0.0;
+    }
+    let st: Vec<LineState> = tail
+        .iter()
+        .map(|t| LineState {
+            c: t.model.c_typical,
+            esr: t.model.esr,
+        })
+        .collect();
+    peak_over(tail, &[st], f0 / 100.0, f0 * 10.0).0
 }
 
 /// The filter's parts in the objective's terms: `(cost, area, count)`.
@@ -317,4 +338,169 @@ pub fn inductor_current(
         }
     }
     (pp, iout / count + pp / 2.0)
+}
+
+/// Everything the reports show of a filtered design's filter.
+#[derive(Debug, Clone, Serialize)]
+pub struct FilterAssessment {
+    /// The filter's choices.
+    #[serde(skip)]
+    pub design: FilterDesign,
+    /// Inductor part id.
+    pub inductor: String,
+    /// Inductors in parallel.
+    pub count: u32,
+    /// Nominal inductance of one inductor, H.
+    pub inductance: f64,
+    /// Its tolerance (fraction).
+    pub inductance_tolerance: f64,
+    /// DCR of one inductor (the catalog's maximum), Ω.
+    pub dcr: f64,
+    /// The filter's own figures.
+    #[serde(flatten)]
+    pub tail: TailFigures,
+    /// Ripple at the converter-side node at the load node's worst point, V.
+    pub ripple_pp_converter_node: f64,
+    /// The inductor's peak-to-peak ripple current, per inductor, A.
+    pub inductor_ripple_pp: f64,
+    /// DC share plus half the ripple, per inductor, A.
+    pub inductor_peak_current: f64,
+    /// Thermal rating of one inductor, A.
+    pub rated_current: f64,
+    /// Saturation current of one inductor, A.
+    pub saturation_current: f64,
+    /// The load-side bank: (part id, count).
+    pub load_bank: Vec<(String, u32)>,
+    /// The damping leg: resistor Ω, capacitor id, count.
+    pub damping: Option<(f64, String, u32)>,
+    /// RMS ripple current of one capacitor of each load-side line and of
+    /// the damping line, with its rating, A.
+    pub capacitor_currents: Vec<(String, f64, Option<f64>)>,
+    /// The filter's parts: cost, area (mm²), count (the damping resistor
+    /// included).
+    pub cost: f64,
+    /// Area of the filter's parts with a known area, mm².
+    pub area: f64,
+    /// Parts of the filter.
+    pub parts: u32,
+}
+
+/// The filter of `problem` (set) behind the bank `local` of `ev`, at the
+/// worst point `worst` of the load node's ripple, with `currents` the
+/// region's per-line RMS currents (bank lines, then the filter's).
+pub fn assess_filter(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    local: &[(usize, u32)],
+    worst: &crate::region::Worst,
+    currents: &[f64],
+) -> Option<FilterAssessment> {
+    let design = problem.filter.clone()?;
+    let ind = problem.inductors.as_ref()?.parts.get(design.inductor)?.clone();
+    let tail_lines = ev.tail().to_vec();
+    let tail = tail_figures(problem, &tail_lines);
+    let conv = if worst.states.len() == ev.line_count(local) {
+        let n = ev.n_limited;
+        ev.fill_states(local, &worst.states, n);
+        ev.to_converter_node(n);
+        ev.pp_filled(worst.op, crate::evaluator::Band::Limited)
+    } else {
+        f64::NAN
+    };
+    let (pp, peak) = inductor_current(problem, ev, local, Some(worst));
+    let cat = &problem.catalog.parts;
+    let nb = local.len();
+    let mut capacitor_currents = Vec::new();
+    for (j, t) in tail_lines.iter().enumerate() {
+        if matches!(t.role, TailRole::Inductor { .. }) {
+            continue;
+        }
+        let p = &cat[t.model.index];
+        capacitor_currents.push((
+            p.id.clone(),
+            currents.get(nb + j).copied().unwrap_or(0.0),
+            p.ripple_current,
+        ));
+    }
+    let (cost, area, parts) = tail_totals(problem, &design);
+    Some(FilterAssessment {
+        inductor: ind.id.clone(),
+        count: design.count,
+        inductance: ind.inductance,
+        inductance_tolerance: ind.tolerance,
+        dcr: ind.dcr,
+        tail,
+        ripple_pp_converter_node: conv,
+        inductor_ripple_pp: pp,
+        inductor_peak_current: peak,
+        rated_current: ind.rated_current,
+        saturation_current: ind.saturation_current,
+        load_bank: design
+            .load_bank
+            .iter()
+            .map(|&(i, n)| (cat[i].id.clone(), n))
+            .collect(),
+        damping: design
+            .damping
+            .as_ref()
+            .map(|d| (d.resistance, cat[d.capacitor].id.clone(), d.count)),
+        capacitor_currents,
+        cost,
+        area,
+        parts,
+        design,
+    })
+}
+
+/// The filter's checks: its own limits and its parts' ratings.
+pub fn filter_checks(problem: &Problem, f: &FilterAssessment) -> Vec<crate::assessment::Check> {
+    use crate::assessment::{Bound, Check};
+    let s = &problem.scenario.filter;
+    let mut out = Vec::new();
+    let mut push = |name: &str, value: f64, limit: f64, unit: &str, bound: Bound, part: Option<String>| {
+        let ok = match bound {
+            Bound::AtMost => value <= limit * (1.0 + 1e-9),
+            Bound::AtLeast => value >= limit * (1.0 - 1e-9),
+        };
+        out.push(Check {
+            name: name.into(),
+            value,
+            limit,
+            unit: unit.into(),
+            ok,
+            part,
+            bound,
+        });
+    };
+    if let Some(m) = s.min_corner_frequency {
+        push("filter corner_frequency", f.tail.corner_frequency, m.0, "Hz", Bound::AtLeast, None);
+    }
+    if let Some(m) = s.max_output_impedance {
+        push("filter peak_output_impedance", f.tail.peak_output_impedance, m.0, "Ω", Bound::AtMost, None);
+    }
+    if let Some(m) = s.max_dc_drop {
+        push("filter dc_drop", f.tail.dc_drop, m.0, "V", Bound::AtMost, None);
+    }
+    push(
+        "inductor rated_current",
+        f.tail.dc_current,
+        f.rated_current,
+        "A",
+        Bound::AtMost,
+        Some(f.inductor.clone()),
+    );
+    push(
+        "inductor saturation_current",
+        f.inductor_peak_current,
+        f.saturation_current,
+        "A",
+        Bound::AtMost,
+        Some(f.inductor.clone()),
+    );
+    for (id, rms, rating) in &f.capacitor_currents {
+        if let Some(r) = rating {
+            push("ripple_current (filter)", *rms, *r, "A", Bound::AtMost, Some(id.clone()));
+        }
+    }
+    out
 }

@@ -189,7 +189,10 @@ impl Network {
         yi: Complex64,
         w: f64,
     ) -> (Complex64, Complex64) {
-        (self.transfer_with(yb, yi, w), self.open_impedance_with(yb, yi, w))
+        (
+            self.transfer_with(yb, yi, w),
+            self.open_impedance_with(yb, yi, w),
+        )
     }
 
     /// The high-frequency asymptote `(a0, a1)` of the transfer impedance,
@@ -316,7 +319,12 @@ impl Ladder {
     /// load-side bank's `y_load` at `f`: the load-side admittance (bank and
     /// damping) in parallel with the inductor in series with everything at
     /// the converter-side node.
-    pub fn open_impedance_at_load(&self, y_conv: Complex64, y_load: Complex64, f: f64) -> Complex64 {
+    pub fn open_impedance_at_load(
+        &self,
+        y_conv: Complex64,
+        y_load: Complex64,
+        f: f64,
+    ) -> Complex64 {
         self.step_impedances(y_conv, y_load, f).1
     }
 

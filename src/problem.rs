@@ -49,6 +49,10 @@ pub struct Problem {
     /// A post-filter fixed behind every bank this problem evaluates (the
     /// filter search sets it; `None`: capacitors only).
     pub filter: Option<crate::filter::FilterDesign>,
+    /// An evaluator built once over a part list, cloned by
+    /// [`Problem::evaluator`] for that same list (the filter search runs one
+    /// search per filter over the same candidates).
+    pub(crate) template: Option<std::sync::Arc<(Vec<usize>, Evaluator)>>,
 }
 
 /// Why a part may not be used in this scenario, or `None` if it may.
@@ -526,6 +530,7 @@ impl Problem {
             region_ops,
             warnings,
             filter: None,
+            template: None,
         })
     }
 
@@ -555,6 +560,15 @@ impl Problem {
 
     /// An evaluator over the given catalog indices (its local part order).
     pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
+        if let Some(t) = &self.template {
+            if t.0 == parts {
+                let mut ev = t.1.clone();
+                if let Some(f) = &self.filter {
+                    ev.set_tail(self.tail_lines(f));
+                }
+                return ev;
+            }
+        }
         let models: Vec<PartModel> = parts.iter().map(|&i| self.part_model(i)).collect();
         let mut all = self.ops.clone();
         all.extend(self.region_ops.iter().cloned());
@@ -565,6 +579,15 @@ impl Problem {
             ev.set_tail(self.tail_lines(f));
         }
         ev
+    }
+
+    /// Keep an evaluator over `parts` (no filter) for [`Problem::evaluator`]
+    /// to clone.
+    pub fn keep_evaluator(&mut self, parts: &[usize]) {
+        let mut p = self.clone();
+        p.filter = None;
+        p.template = None;
+        self.template = Some(std::sync::Arc::new((parts.to_vec(), p.evaluator(parts))));
     }
 
     /// The same problem with a post-filter fixed behind the bank.

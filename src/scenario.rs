@@ -1235,10 +1235,10 @@ impl Scenario {
                 "transient.loop_crossover",
                 format!(
                     "{} is at or above half the switching frequency {}: a switching converter's loop crosses over well below that \
-                     (common practice, no source: fsw/10 … fsw/5) — `M` is mega, `m` milli; did you mean \"{}\"?",
+                     (common practice, no source: fsw/10 … fsw/5) — did you mean about \"{}\" (fsw/10)?",
                     units::format_si(fc, "Hz"),
                     units::format_si(fsw, "Hz"),
-                    units::suggest(fc, "k")
+                    units::suggest(fsw / 10.0 / 1e3, "k")
                 ),
             ));
         }

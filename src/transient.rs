@@ -47,8 +47,8 @@ use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
 use crate::region::{golden, named_states_of, vertices_of, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
-use serde::Serialize;
 use rustfft::{Fft, FftPlanner};
+use serde::Serialize;
 use std::f64::consts::PI;
 use std::sync::Arc;
 
@@ -228,7 +228,11 @@ impl Core {
         let wc = self.spec.omega_c();
         let bracket = |zt: Complex64, zo: Complex64, conv: Complex64| zt * conv - zo;
         let (zt, zo) = z(OMEGA_ASYMPTOTE / (2.0 * PI));
-        let h = bracket(zt, zo, Complex64::new(wc, 0.0) / Complex64::new(wc, OMEGA_ASYMPTOTE));
+        let h = bracket(
+            zt,
+            zo,
+            Complex64::new(wc, 0.0) / Complex64::new(wc, OMEGA_ASYMPTOTE),
+        );
         if !h.is_finite() {
             return false;
         }
@@ -272,7 +276,10 @@ impl Core {
         let slope = di / self.spec.ramp();
         let half = self.grids[self.last].half();
         if m < r {
-            (di * m as f64 / r as f64, if m > 0 || right { slope } else { 0.0 })
+            (
+                di * m as f64 / r as f64,
+                if m > 0 || right { slope } else { 0.0 },
+            )
         } else if m == r {
             (di, if right { 0.0 } else { slope })
         } else if m < half {
@@ -378,11 +385,88 @@ pub struct StepModel {
     pub evaluations: usize,
 }
 
-/// Slowest time constant of one branch (`ESR·C`, `2·L/ESR`), s.
+/// Slowest time constant of one branch (`ESR·C`, `2·L/ESR`), s: an upper
+/// bound of every loop it forms with other branches (see [`slowest_loop`]).
 fn branch_tau(esr_max: f64, esr_min: f64, l: f64, c: f64) -> f64 {
     let rc = esr_max * c;
-    let lr = if esr_min > 0.0 { 2.0 * l / esr_min } else { 0.0 };
+    let lr = if esr_min > 0.0 {
+        2.0 * l / esr_min
+    } else {
+        0.0
+    };
     rc.max(lr)
+}
+
+/// Slower decay time of a series R-L-C loop (`L s² + R s + 1/C = 0`), s.
+fn loop_tau(r: f64, l: f64, c: f64) -> f64 {
+    if l <= 0.0 {
+        return r * c;
+    }
+    let disc = r * r - 4.0 * l / c;
+    if disc < 0.0 {
+        if r > 0.0 {
+            2.0 * l / r
+        } else {
+            f64::INFINITY
+        }
+    } else {
+        c * (r + disc.sqrt()) / 2.0
+    }
+}
+
+/// Slowest decay of the modes of branches `(R, L, C)` in parallel (charge
+/// moving between them): every loop of two branches, and of each branch
+/// against all the others in parallel. Exact for two branches, an estimate
+/// beyond (hence [`SETTLE`]); a single branch has no loop (0). Allocates
+/// nothing.
+pub fn slowest_loop<I>(branches: impl Fn() -> I) -> f64
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+{
+    let series = |a: (f64, f64, f64), b: (f64, f64, f64)| {
+        loop_tau(a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2))
+    };
+    let (mut n, mut g, mut gl, mut ctot) = (0usize, 0.0, 0.0, 0.0);
+    let (mut r_zero, mut l_zero) = (0usize, 0usize);
+    for (r, l, c) in branches() {
+        n += 1;
+        ctot += c;
+        if r > 0.0 {
+            g += 1.0 / r;
+        } else {
+            r_zero += 1;
+        }
+        if l > 0.0 {
+            gl += 1.0 / l;
+        } else {
+            l_zero += 1;
+        }
+    }
+    let mut tau: f64 = 0.0;
+    for (i, a) in branches().enumerate() {
+        for b in branches().skip(i + 1) {
+            tau = tau.max(series(a, b));
+        }
+        if n > 2 {
+            // The others in parallel: 1/Σ(1/R), 1/Σ(1/L), ΣC.
+            let par = |sum: f64, zeros: usize, own: f64| -> f64 {
+                let zeros = zeros - usize::from(own <= 0.0);
+                if zeros > 0 {
+                    0.0
+                } else {
+                    let rest = sum - if own > 0.0 { 1.0 / own } else { 0.0 };
+                    if rest > 0.0 {
+                        1.0 / rest
+                    } else {
+                        0.0
+                    }
+                }
+            };
+            let rest = (par(g, r_zero, a.0), par(gl, l_zero, a.1), ctot - a.2);
+            tau = tau.max(series(a, rest));
+        }
+    }
+    tau
 }
 
 impl StepModel {
@@ -390,7 +474,11 @@ impl StepModel {
     /// without one).
     pub fn new(s: &Scenario, parts: &[PartModel]) -> Option<StepModel> {
         let spec = Spec::of(s)?;
-        Some(StepModel::with_network(spec, Network::from_scenario(s), parts))
+        Some(StepModel::with_network(
+            spec,
+            Network::from_scenario(s),
+            parts,
+        ))
     }
 
     /// The model for `spec` and a network over `parts`.
@@ -416,18 +504,22 @@ impl StepModel {
         &self.network
     }
 
+    /// Slowest decay of the bank's own modes at `states` (with the
+    /// converter's internal branch behind the connection inductance).
     fn tau_of(&self, bank: &Bank, states: &[LineState]) -> f64 {
         let lc = self.network.connection_inductance;
-        let mut tau = self
-            .network
-            .internal
-            .map_or(0.0, |b| branch_tau(b.esr, b.esr, b.esl + lc, b.c));
-        for (&(i, n), st) in bank.iter().zip(states) {
-            if n > 0 {
-                tau = tau.max(branch_tau(st.esr, st.esr, self.esl[i] + lc, st.c));
-            }
-        }
-        tau
+        let internal = self.network.internal.map(|b| (b.esr, b.esl + lc, b.c));
+        let esl = &self.esl;
+        slowest_loop(|| {
+            bank.iter()
+                .zip(states)
+                .filter(|(b, _)| b.1 > 0)
+                .map(|(&(i, n), st)| {
+                    let nf = n as f64;
+                    (st.esr / nf, esl[i] / nf, st.c * nf)
+                })
+                .chain(internal)
+        })
     }
 
     fn has_capacitance(&self, bank: &Bank) -> bool {
@@ -468,11 +560,7 @@ impl StepModel {
     /// The deviation for any network given by its impedances at the load
     /// node, `z(f) = (Z_t, Z_open)` (see the module notes), whose slowest
     /// time constant is `tau`: the form a post-filter's ladder uses.
-    pub fn deviation_of(
-        &mut self,
-        tau: f64,
-        z: impl FnMut(f64) -> (Complex64, Complex64),
-    ) -> f64 {
+    pub fn deviation_of(&mut self, tau: f64, z: impl FnMut(f64) -> (Complex64, Complex64)) -> f64 {
         self.evaluations += 1;
         let g = self.core.grid_for(tau);
         if self.core.fill(g, z) {
@@ -699,7 +787,11 @@ pub fn figures(s: &Scenario, parts: &[PartModel], bank: &Bank) -> Option<StepFig
         z_peak_frequency: z_f,
         loop_crossover: sp.crossover,
         rise_time: sp.rise_time,
-        settled: if c_low > 0.0 { sp.settled(c_low) } else { f64::INFINITY },
+        settled: if c_low > 0.0 {
+            sp.settled(c_low)
+        } else {
+            f64::INFINITY
+        },
         states: w.states,
         response,
     })
@@ -834,7 +926,10 @@ mod tests {
         let r = m.response(&[(0, 2)], &st);
         let last = r.last().unwrap().1;
         let want = -sp.settled(400e-6);
-        assert!((last - want).abs() <= 0.003 * want.abs(), "{last} vs {want}");
+        assert!(
+            (last - want).abs() <= 0.003 * want.abs(),
+            "{last} vs {want}"
+        );
         let d = m.deviation(&[(0, 2)], &st);
         assert!(d >= want.abs() * 0.999);
     }

@@ -212,6 +212,35 @@ const CASES: &[(&str, Kind, &[&str])] = &[
     ),
     // ---- scenarios: the key (TOML errors also quote the offending line)
     (
+        "scn-step-deviation-volts.toml",
+        Scenario,
+        &["key `transient.max_deviation`", "did you mean \"5m\""],
+    ),
+    (
+        "scn-step-crossover-above-fsw.toml",
+        Scenario,
+        &[
+            "key `transient.loop_crossover`",
+            "half the switching frequency",
+            "\"60k\"",
+        ],
+    ),
+    (
+        "scn-step-rise-seconds.toml",
+        Scenario,
+        &["key `transient.rise_time`", "did you mean \"1u\""],
+    ),
+    (
+        "scn-step-missing-crossover.toml",
+        Scenario,
+        &["[transient]", "missing field `loop_crossover`"],
+    ),
+    (
+        "scn-step-unknown-key.toml",
+        Scenario,
+        &["line 30", "unknown field `load_stp`"],
+    ),
+    (
         "scn-unknown-key.toml",
         Scenario,
         &["line 10", "unknown field `fws`"],
@@ -1072,6 +1101,7 @@ const OPTIONAL: &[&str] = &[
     "vin",
     "mode",      // null where the topology has no conduction mode (README "JSON")
     "inductors", // null: no inductor catalog is read (README "JSON")
+    "transient", // null without [transient] (README "JSON")
     // null when the bank is inductive at the ripple frequency (README "Limits on capacitance")
     "capacitance_at_ripple_frequency",
 ];

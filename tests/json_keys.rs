@@ -216,3 +216,52 @@ fn infeasible_design_keys() {
     assert!(d["best_ripple_pp"].as_f64().unwrap() > 1e-3);
     assert!(!d["binding"].as_array().unwrap().is_empty());
 }
+
+#[test]
+fn transient_object_keys() {
+    // Without [transient] the key is present and null; with it, every key
+    // of the object, in design and assess (source: the JSON section of the
+    // README).
+    let d = run(&["design"], 0);
+    assert!(d.get("transient").is_some_and(|t| t.is_null()));
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let f = root.join("scenarios/fpga-core-step.toml");
+    let d = run(&["design", "--scenario", f.to_str().unwrap()], 0);
+    let keys = [
+        "load_step",
+        "max_deviation",
+        "deviation",
+        "z_target",
+        "z_peak",
+        "z_peak_frequency",
+        "ok",
+    ];
+    has_all(&d["transient"], &keys, "design transient");
+    assert_eq!(d["transient"]["ok"], true);
+    let bank: Vec<String> = d["bank"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| format!("{}={}", b["part"].as_str().unwrap(), b["count"]))
+        .collect();
+    let a = run(
+        &[
+            "assess",
+            "--scenario",
+            f.to_str().unwrap(),
+            "--bank",
+            &bank.join(","),
+        ],
+        0,
+    );
+    has_all(&a["transient"], &keys, "assess transient");
+    assert_eq!(a["transient"]["deviation"], d["transient"]["deviation"]);
+    // The ripple-only bank (eight ceramics) misses the step: assess fails.
+    let short = "RB-C0805-X5R-22U-6V3=8";
+    let a = run(
+        &["assess", "--scenario", f.to_str().unwrap(), "--bank", short],
+        1,
+    );
+    assert_eq!(a["transient"]["ok"], false);
+    assert_eq!(a["status"], "fail");
+}

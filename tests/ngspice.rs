@@ -722,3 +722,64 @@ mounting_inductance = "0.5n"
         "flyback 24-60 V, second-order 20 MHz limit",
     );
 }
+
+/// The load step of `bank.cir` (a behavioural current source for the
+/// converter's first-order response, the load as a ramped current) against
+/// the evaluator's deviation at the same point of the corner region.
+fn check_step(scenario: &str, spec: &[(&str, u32)], what: &str) -> f64 {
+    let p = problem(scenario);
+    let b = bank(&p, spec);
+    let a = ripplebank::assessment::assess(&p, &b).expect("assess");
+    let t = a.transient.as_ref().expect("the scenario has a load step");
+    let net = spice::netlist(&p, &b).expect("netlist");
+    assert!(net.contains("Bsconv") && net.contains(".meas tran deviation"));
+    let out = run_ngspice(&net);
+    let sim = meas(&out, "deviation");
+    let e = rel(t.deviation, sim);
+    eprintln!(
+        "load step, {what}: evaluator {:.5} mV, ngspice {:.5} mV, error {:+.3} % (settled value {:.3} mV) — {REF}",
+        t.deviation * 1e3,
+        sim * 1e3,
+        (t.deviation / sim - 1.0) * 100.0,
+        t.settled * 1e3
+    );
+    assert!(
+        e <= 0.01,
+        "load step, {what}: evaluator {} V vs ngspice {sim} V ({REF})",
+        t.deviation
+    );
+    t.deviation / t.settled
+}
+
+#[test]
+fn load_step_matches_ngspice_transient() {
+    if !have_ngspice() {
+        return;
+    }
+    // A mixed bank (ceramics, a polymer and an electrolytic, each with its
+    // ESR and ESL, mounting and connection inductance, the converter's own
+    // capacitance) under a ramped step, at a slow and at a fast loop (the
+    // fast one peaks early, on the ESR, far above its settled value).
+    let base = format!(
+        "{BUCK}connection_inductance = \"0.5n\"\n"
+    )
+    .replace(
+        "inductance = \"1.5u\"",
+        "inductance = \"1.5u\"\ninternal_capacitance = \"20u\"\ninternal_esr = \"4m\"\ninternal_esl = \"0.8n\"",
+    );
+    let slow = format!(
+        "{base}[transient]\nload_step = \"4\"\nmax_deviation = \"60m\"\nloop_crossover = \"20k\"\nrise_time = \"0.5u\"\n"
+    );
+    let r_slow = check_step(&slow, MIXED, "mixed bank, 20 kHz loop, 0.5 µs rise");
+    let fast = format!(
+        "{base}[transient]\nload_step = \"4\"\nmax_deviation = \"60m\"\nloop_crossover = \"120k\"\nrise_time = \"0.2u\"\n"
+    );
+    let r_fast = check_step(
+        &fast,
+        &[("T-ELEC-470U", 2), ("T-CER-1U", 2)],
+        "electrolytics and small ceramics, 120 kHz loop, 0.2 µs rise",
+    );
+    // The two regimes differ: the fast loop's peak lies far above its
+    // settled value (the ESR's share), the slow loop's near it.
+    assert!(r_fast > 2.0 * r_slow, "peak/settled {r_fast} vs {r_slow}");
+}

@@ -32,7 +32,7 @@ use std::time::{Duration, Instant};
     name = "ripplebank-bench",
     about = "Evaluator throughput and design scaling of ripplebank (synthetic catalogs)"
 )]
-struct Args {
+pub(crate) struct Args {
     /// Catalog sizes (rows) for the design-scaling table.
     #[arg(long, value_delimiter = ',', default_value = "100,500,2000,5000")]
     sizes: Vec<usize>,
@@ -73,11 +73,28 @@ struct Args {
     /// Internal: run one catalog size and print its result as one JSON line.
     #[arg(long, value_name = "N", hide = true)]
     one: Option<usize>,
+    /// Catalog family of --emit-catalog: `demo` (jittered demo rows), `a`
+    /// (variants of a nine-part set) or `b` (a generated library).
+    #[arg(long, default_value = "demo")]
+    family: String,
+    /// Print only the large-catalog and hard-target table (its rows, by
+    /// name, when given: eval, a5000, b5000, a20000, b20000, infeasible,
+    /// tradeoff, b300, lines).
+    #[arg(long, value_delimiter = ',', num_args = 0..)]
+    hard: Option<Vec<String>>,
+    /// Internal: run one row of the hard table and print it as one JSON line.
+    #[arg(long, value_name = "ROW", hide = true)]
+    hard_one: Option<String>,
 }
+
+#[path = "ripplebank-bench/families.rs"]
+mod families;
+#[path = "ripplebank-bench/hard.rs"]
+mod hard;
 
 /// xorshift64* (Vigna, "An experimental exploration of Marsaglia's xorshift
 /// generators, scrambled", 2016): small, seedable, good enough for jitter.
-struct Rng(u64);
+pub(crate) struct Rng(u64);
 
 impl Rng {
     fn new(seed: u64) -> Rng {
@@ -182,7 +199,7 @@ fn synthetic_csv(rows: usize, dup_share: f64, seed: u64) -> Result<String> {
 }
 
 /// Peak resident set size of this process (VmHWM), MB.
-fn vm_hwm_mb(pid: Option<u32>) -> Option<f64> {
+pub(crate) fn vm_hwm_mb(pid: Option<u32>) -> Option<f64> {
     let path = match pid {
         Some(p) => format!("/proc/{p}/status"),
         None => "/proc/self/status".into(),
@@ -515,8 +532,16 @@ fn run(a: &Args) -> Result<()> {
     if let Some(n) = a.one {
         return run_one(n, a);
     }
+    if let Some(name) = &a.hard_one {
+        return hard::run_one(name, a);
+    }
     if let Some(n) = a.emit_catalog {
-        let text = synthetic_csv(n, a.duplicates, a.seed)?;
+        let text = match a.family.as_str() {
+            "demo" => synthetic_csv(n, a.duplicates, a.seed)?,
+            "a" => families::family_a(n, a.seed),
+            "b" => families::family_b(n, a.seed),
+            other => bail!("--family: `{other}` is not demo, a or b"),
+        };
         use std::io::Write;
         return match std::io::stdout().lock().write_all(text.as_bytes()) {
             Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
@@ -531,6 +556,15 @@ fn run(a: &Args) -> Result<()> {
     }
     let mut md = String::from("# ripplebank benchmarks\n\n");
     print!("{md}");
+    if let Some(rows) = &a.hard {
+        let sec = hard::section(a, rows)?;
+        print!("{sec}");
+        md.push_str(&sec);
+        if let Some(f) = &a.write {
+            std::fs::write(f, &md).with_context(|| format!("{}: cannot write", f.display()))?;
+        }
+        return Ok(());
+    }
     if !a.no_evaluator {
         // Printed at once, so the figure is visible while the designs run.
         let sec = evaluator_section(a)?;
@@ -539,6 +573,9 @@ fn run(a: &Args) -> Result<()> {
     }
     if !a.no_design {
         let sec = design_section(a)?;
+        print!("{sec}");
+        md.push_str(&sec);
+        let sec = hard::section(a, &[])?;
         print!("{sec}");
         md.push_str(&sec);
     }

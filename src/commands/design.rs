@@ -9,7 +9,102 @@ use crate::report::model::{self, Report, Verdict};
 use crate::report::{self, text, OutFiles};
 use crate::run::Run;
 use crate::scenario::Objective;
+use crate::filter::FilterUse;
 use anyhow::Result;
+
+/// The design to report under `[filter] use` (`auto`: the better of the
+/// capacitor-only and the filtered design by the objective; `on`: the
+/// filtered one), with the problem it is judged on (the filter fixed behind
+/// the bank) and lines comparing the two.
+fn choose(
+    p: &Problem,
+    usage: FilterUse,
+    cap: &optimize::DesignOutcome,
+    fo: &optimize::FilterOutcome,
+) -> (Problem, optimize::DesignOutcome, Vec<String>) {
+    let filtered_out = optimize::DesignOutcome {
+        status: fo.status,
+        found: fo.found.clone(),
+        stats: fo.stats.clone(),
+    };
+    let objective = p.scenario.selection.objective.name();
+    let mut lines = Vec::new();
+    let use_filter = match (&cap.found, &fo.found) {
+        (_, None) => usage == FilterUse::On,
+        (None, Some(_)) => true,
+        (Some(c), Some(f)) => usage == FilterUse::On || optimize::better(&f.key, &c.key),
+    };
+    match (&cap.found, &fo.found) {
+        (Some(c), Some(f)) => {
+            let parts: u32 = c.bank.iter().map(|b| b.1).sum();
+            let (a, b) = (c.key[0], f.key[0]);
+            lines.push(if b < a {
+                format!(
+                    "A filter saves {:.4} in {objective} ({:.4} against {:.4}); the capacitor-only bank needs {parts} parts ({}).",
+                    a - b,
+                    b,
+                    a,
+                    cap.status.name()
+                )
+            } else {
+                format!(
+                    "Capacitors alone are better by {:.4} in {objective} ({:.4} against {:.4} with a filter); the capacitor-only bank has {parts} parts ({}).",
+                    b - a,
+                    a,
+                    b,
+                    cap.status.name()
+                )
+            });
+        }
+        (None, Some(_)) => lines.push(
+            "Capacitors alone cannot meet the target under every limit: the filter is needed.".into(),
+        ),
+        (Some(c), None) => lines.push(format!(
+            "No filter in the search space meets the target and the filter's limits; capacitors alone reach it at {:.4} in {objective}.",
+            c.key[0]
+        )),
+        (None, None) => lines.push(
+            "Neither capacitors alone nor any filter in the search space meets the target under every limit.".into(),
+        ),
+    }
+    if use_filter {
+        let q = match &fo.filter {
+            Some(f) => p.with_filter(f.clone()),
+            None => p.clone(),
+        };
+        (q, filtered_out, lines)
+    } else {
+        (p.clone(), cap.clone(), lines)
+    }
+}
+
+/// The filter search's own lines in the report and its JSON.
+fn filter_summary(
+    rep: &mut Report,
+    doc: &mut serde_json::Value,
+    fo: &optimize::FilterOutcome,
+    comparison: &[String],
+) {
+    rep.para("Post-filter search");
+    for l in comparison {
+        rep.line(l.clone());
+    }
+    rep.line(format!(
+        "{} filters in the search space, {} searched for their converter-side bank, {:.2} s.",
+        fo.filters_total, fo.filters_searched, fo.stats.seconds
+    ));
+    for (why, n) in &fo.dropped {
+        rep.line(format!("  dropped: {why} ({n})"));
+    }
+    doc["filter_search"] = serde_json::json!({
+        "status": fo.status.name(),
+        "filters_total": fo.filters_total,
+        "filters_searched": fo.filters_searched,
+        "dropped": fo.dropped.iter().map(|(w, n)| serde_json::json!({"reason": w, "count": n})).collect::<Vec<_>>(),
+        "comparison": comparison,
+        "seconds": fo.stats.seconds,
+    });
+}
 
 /// Plain words for the limits that stop a design, each with what the
 /// relaxed design needed.
@@ -77,10 +172,19 @@ pub(crate) fn design_report(
                 out.status.name().to_uppercase(),
                 if out.status == optimize::Status::Optimal {
                     "the best bank under the model (every line set examined or bounded)".to_string()
-                } else if st.stopped {
-                    format!("a verified bank; the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
                 } else {
-                    "a verified bank; the catalog was too large to prove it the best".to_string()
+                    let why = if st.stopped {
+                        format!("the search stopped at its limit of {} exact evaluations before proving it the best", st.evaluations)
+                    } else {
+                        "the catalog was too large to prove it the best".to_string()
+                    };
+                    match st.lower_bound.filter(|&lb| lb > 0.0) {
+                        Some(lb) => format!(
+                            "feasible, at most {:.1} % above the best possible (a verified bank; {why})",
+                            ((f.key[0] - lb) / lb * 100.0).max(0.0)
+                        ),
+                        None => format!("a verified bank; {why}"),
+                    }
                 }
             ));
             if f.bank.is_empty() {
@@ -93,6 +197,14 @@ pub(crate) fn design_report(
             }
             let mut doc = report::assessment_json(out.status.name(), &a, p);
             doc["search"] = serde_json::to_value(st)?;
+            if out.status == optimize::Status::Feasible {
+                let value = f.key[0];
+                doc["lower_bound"] = serde_json::json!(st.lower_bound);
+                doc["gap"] = serde_json::json!(st
+                    .lower_bound
+                    .filter(|_| value > 0.0)
+                    .map(|lb| ((value - lb) / value).max(0.0)));
+            }
             (doc, Some((f.bank.clone(), a)))
         }
         None => {
@@ -171,22 +283,26 @@ pub fn design(
         ..Default::default()
     };
     let (p, run) = load(c, &o)?;
-    if p.scenario.filter.usage != crate::filter::FilterUse::Off {
-        return Err(crate::filter::not_yet_wired(&format!(
-            "design with filter use `{}`",
-            p.scenario.filter.usage.name()
-        )));
-    }
     let settings = optimize::Settings {
         progress: show_progress(c),
         ..Default::default()
     };
-    let out = optimize::design(&p, &settings);
+    let target = p.scenario.design_target();
+    let usage = p.scenario.filter.usage;
+    let capacitors = (usage != FilterUse::Off).then(|| optimize::design(&p, &settings));
+    let filtered = (usage != FilterUse::Off).then(|| optimize::design_filtered(&p, target, &settings));
+    let (p, out, comparison) = match (&capacitors, &filtered) {
+        (Some(cap), Some(fo)) => choose(&p, usage, cap, fo),
+        _ => (p.clone(), optimize::design(&p, &settings), Vec::new()),
+    };
     let why = out
         .found
         .is_none()
         .then(|| optimize::explain(&p, p.scenario.design_target(), &settings));
-    let (rep, doc, shown) = design_report(&p, &out, why.as_ref(), "Design", c.quiet, &run)?;
+    let (mut rep, mut doc, shown) = design_report(&p, &out, why.as_ref(), "Design", c.quiet, &run)?;
+    if let Some(fo) = &filtered {
+        filter_summary(&mut rep, &mut doc, fo, &comparison);
+    }
     if let Some(dir) = &c.out {
         // An infeasible design writes the closest bank's files.
         let files = match &shown {

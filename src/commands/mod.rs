@@ -288,10 +288,11 @@ pub fn assess(
         }
         _ => anyhow::bail!("assess needs --bank PART=N,... or --bom FILE"),
     };
-    if filter.is_some() {
-        return Err(crate::filter::not_yet_wired("assess of a filtered design"));
-    }
-    if bank.iter().all(|b| b.1 == 0) {
+    let p = match filter {
+        Some(f) => p.with_filter(f),
+        None => p,
+    };
+    if p.filter.is_none() && bank.iter().all(|b| b.1 == 0) {
         match bom {
             Some(f) => anyhow::bail!(
                 "{}: every count is zero: there is no bank to assess",

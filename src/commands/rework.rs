@@ -15,10 +15,32 @@ use std::path::Path;
 /// `rework`: the fewest changed line items when parts of a bill of materials go.
 pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> {
     use crate::catalog::Status as Life;
-    let (p, run) = load(c, &Overrides::default())?;
+    let all_rows = assessment::read_bom_rows(bom)?;
+    let has_filter = all_rows
+        .iter()
+        .any(|r| r.position != assessment::Position::Converter);
+    let o = Overrides {
+        need_inductors: has_filter,
+        ..Default::default()
+    };
+    let (p, run) = load(c, &o)?;
     let quiet = c.quiet;
     let src = bom.display().to_string();
-    let rows = assessment::read_bom(bom)?;
+    // A filtered design keeps its filter: the converter-side bank is reworked
+    // with the filter fixed behind it.
+    let p = if has_filter {
+        match assessment::bom_to_design(&p, &all_rows, &src)?.1 {
+            Some(f) => p.with_filter(f),
+            None => p,
+        }
+    } else {
+        p
+    };
+    let rows: Vec<(String, u32, u64)> = all_rows
+        .into_iter()
+        .filter(|r| r.position == assessment::Position::Converter)
+        .map(|r| (r.part, r.count, r.line))
+        .collect();
     for d in drop {
         if !rows.iter().any(|r| &r.0 == d) {
             anyhow::bail!("--drop: part `{d}` is not on the bill of materials {src}");
@@ -69,7 +91,10 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
         for &i in &forced {
             sc.selection.exclude.push(p.catalog.parts[i].id.clone());
         }
-        let fp = Problem::new(sc, p.catalog.clone())?;
+        let mut fp = Problem::new(sc, p.catalog.clone())?;
+        fp.inductors = p.inductors.clone();
+        fp.inductors_eligible = p.inductors_eligible.clone();
+        fp.filter = p.filter.clone();
         let out = optimize::design(&fp, &settings);
         out.found.map(|f| (out.status, f))
     };

@@ -39,10 +39,11 @@ pub(crate) fn bank_key(p: &Problem, bank: &[(usize, u32)]) -> String {
 }
 
 /// The search settings of every trade-off point and of the default lower
-/// end: each point gets a share of the work a single design may take.
+/// end: each point gets a share of the work a single design may take (per
+/// line-count stage).
 fn point_settings() -> optimize::Settings {
     optimize::Settings {
-        max_evaluations: 1_000_000,
+        max_evaluations: 300_000,
         ..Default::default()
     }
 }

@@ -34,6 +34,8 @@ use serde_json::{json, Value};
 
 /// The bisection stops when the upper end is within this fraction of the lower.
 pub const BISECT_TOLERANCE: f64 = 0.005;
+/// Exact evaluations per line-count stage of one bisection probe.
+pub const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
 
@@ -89,8 +91,13 @@ fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
         return f64::INFINITY;
     }
     if let Some(d) = verified_deviation(problem, &ev.parts, &local) {
-        if !(d <= problem.scenario.transient.as_ref().map_or(f64::INFINITY, |t| t.max_deviation.0)
-            * (1.0 + crate::transient::ROUNDING))
+        if !(d
+            <= problem
+                .scenario
+                .transient
+                .as_ref()
+                .map_or(f64::INFINITY, |t| t.max_deviation.0)
+                * (1.0 + crate::transient::ROUNDING))
         {
             return f64::INFINITY;
         }
@@ -175,9 +182,17 @@ pub fn lowest_deviation(problem: &Problem, settings: &Settings) -> Option<Lowest
         .map(|i| s.count_max[i] as f64 * s.parts[i].c_worst)
         .collect();
     caps.sort_by(|a, b| b.total_cmp(a));
-    let own = problem.scenario.converter.internal_capacitance.map_or(0.0, |c| c.0);
+    let own = problem
+        .scenario
+        .converter
+        .internal_capacitance
+        .map_or(0.0, |c| c.0);
     let c_max: f64 = caps.iter().take(s.lim.max_lines).sum::<f64>() + own;
-    let mut lo = if c_max > 0.0 { spec.settled(c_max) } else { 0.0 };
+    let mut lo = if c_max > 0.0 {
+        spec.settled(c_max)
+    } else {
+        0.0
+    };
     while out.probes < MAX_PROBES && out.deviation.is_finite() {
         if out.deviation <= lo * (1.0 + BISECT_TOLERANCE) {
             break;
@@ -234,8 +249,14 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
             out.bank = Some(b);
         }
     }
+    // Each probe is a design at a hard target; a smaller budget per stage
+    // keeps the bisection fast (a probe that finds nothing only moves the
+    // lower end of the bracket, never the figure reported).
     let quiet = Settings {
         progress: false,
+        exhaustive_limit: settings.exhaustive_limit.min(200_000),
+        milp_proposals: 0,
+        max_evaluations: settings.max_evaluations.min(PROBE_EVALUATIONS),
         ..settings.clone()
     };
     let mut lo = floor.max(0.0);
@@ -287,16 +308,36 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
     let sets = if binomial_sum(all.len(), free) <= 20_000 {
         line_sets(&s.required_parts.clone(), &all, free)
     } else {
-        // Rank parts by their admittance at the most demanding harmonic.
+        // Rank parts by the lowest ripple they could reach alone (the
+        // harmonic floor at their count limit): at an infinite target every
+        // harmonic's requirement is zero and cannot rank them.
         let mut order = all.clone();
-        let k = (0..s.harmonics)
-            .max_by(|&x, &y| s.required[x].total_cmp(&s.required[y]))
-            .unwrap_or(0);
-        order.sort_by(|&x, &y| {
-            (s.count_max[y] as f64 * s.adm_mag[y * s.harmonics + k])
-                .total_cmp(&(s.count_max[x] as f64 * s.adm_mag[x * s.harmonics + k]))
-        });
-        order.truncate(24);
+        let mut sum = vec![0.0; s.harmonics];
+        let alone: Vec<f64> = all
+            .iter()
+            .map(|&i| {
+                for k in 0..s.harmonics {
+                    sum[k] = s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
+                }
+                s.ev.ripple_floor_for(&sum)
+            })
+            .collect();
+        order.sort_by(|&x, &y| alone[x].total_cmp(&alone[y]));
+        order.truncate(12);
+        // With, at harmonics spread over the band, the parts of most
+        // admittance there (a bank mixes bulk and high-frequency parts).
+        let mut k = 0usize;
+        while k < s.harmonics {
+            let mut by: Vec<usize> = all.clone();
+            let a = |i: usize| s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
+            by.sort_by(|&x, &y| a(y).total_cmp(&a(x)));
+            for &i in by.iter().take(3) {
+                if !order.contains(&i) {
+                    order.push(i);
+                }
+            }
+            k = 2 * k + 1;
+        }
         line_sets(&s.required_parts.clone(), &order, free)
     };
     // Optimistic floor per set, then greedy descent in floor order.
@@ -413,6 +454,19 @@ pub(super) fn descend(s: &mut Search, set: &[usize]) -> Option<(f64, Vec<(usize,
     ))
 }
 
+/// Whether the search's own bounds show that no bank of `p` meets `target`
+/// (so `binding` need not run a design for that relaxation): the harmonic
+/// floor of every allowed bank lies above the target, or the disjunctive
+/// bound finds a harmonic no allowed bank can satisfy.
+fn provably_infeasible(p: &Problem, target: f64) -> bool {
+    let (cands, _) = prune_dominated(p, &p.eligible);
+    if cands.is_empty() {
+        return p.scenario.converter.internal_capacitance.is_none();
+    }
+    let s = Search::new(p, &cands, target);
+    floor_of(&s) > target * (1.0 + 1e-9) || s.global_bound(s.lim.max_lines).is_infinite()
+}
+
 /// Relax each limit in turn; those whose removal lets the target be met bind.
 pub fn binding(problem: &Problem, target: f64) -> Binding {
     use crate::scenario::{Plain, Scenario};
@@ -502,6 +556,9 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         p.inductors_eligible = problem.inductors_eligible.clone();
         p.inductors_excluded = problem.inductors_excluded.clone();
         p.filter = problem.filter.clone();
+        if provably_infeasible(&p, target) {
+            continue;
+        }
         if let Some(f) = design_for(&p, target, &quick).found {
             out.push(name.to_string());
             details.extend(details_of(problem, &f.bank, Some(name)));
@@ -521,6 +578,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         region_ops: problem.region_ops.clone(),
         warnings: vec![],
         filter: problem.filter.clone(),
+        template: None,
     };
     if p.eligible
         .iter()
@@ -548,6 +606,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         }
         let found = Problem::new(sc, cat)
             .ok()
+            .filter(|p| !provably_infeasible(p, target))
             .and_then(|p| design_for(&p, target, &quick).found);
         match found {
             Some(f) => {

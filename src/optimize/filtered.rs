@@ -203,17 +203,20 @@ pub fn problem_with(problem: &Problem, f: &FilterDesign) -> Problem {
     p
 }
 
+const CORNER: &str = "corner frequency below filter.min_corner_frequency";
+const IMPEDANCE: &str = "output-impedance peak above filter.max_output_impedance";
+
 /// Why a filter breaks one of its own limits, or `None`.
 pub fn tail_violation(problem: &Problem, figs: &filter::TailFigures) -> Option<&'static str> {
     let f = &problem.scenario.filter;
     if let Some(m) = f.min_corner_frequency {
         if figs.corner_frequency < m.0 {
-            return Some("corner frequency below filter.min_corner_frequency");
+            return Some(CORNER);
         }
     }
     if let Some(m) = f.max_output_impedance {
         if figs.peak_output_impedance > m.0 {
-            return Some("output-impedance peak above filter.max_output_impedance");
+            return Some(IMPEDANCE);
         }
     }
     if let Some(m) = f.max_dc_drop {
@@ -228,6 +231,10 @@ pub fn tail_violation(problem: &Problem, figs: &filter::TailFigures) -> Option<&
 pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> FilterOutcome {
     let t0 = Instant::now();
     let (cands, _) = super::search::prune_dominated(problem, &problem.eligible);
+    // Every search below builds its evaluator over these same candidates.
+    let mut shared = problem.clone();
+    shared.keep_evaluator(&cands);
+    let problem = &shared;
     let fs = &problem.scenario.filter;
     let lines = fs.load_max_lines.unwrap_or(1).max(1) as usize;
     let max_count = fs.load_max_count.unwrap_or(DEFAULT_LOAD_MAX_COUNT).max(1);
@@ -313,10 +320,13 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
             break;
         }
         let tail = problem.tail_lines(fd);
-        let figs = filter::tail_figures(problem, &tail);
-        if let Some(why) = tail_violation(problem, &figs) {
-            *dropped.entry(why.to_string()).or_default() += 1;
-            continue;
+        // The cheap tests first: the corner frequency, the ripple floor, then
+        // the output impedance (at the typical state, then every corner).
+        if let Some(m) = fs.min_corner_frequency {
+            if filter::corner_frequency(&tail) < m.0 {
+                *dropped.entry(CORNER.to_string()).or_default() += 1;
+                continue;
+            }
         }
         let budget = best.as_ref().map_or(f64::INFINITY, |(b, _)| b.key[0] - share[0]);
         for k in 0..ycap.len() {
@@ -328,13 +338,28 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
                 .or_default() += 1;
             continue;
         }
+        if let Some(m) = fs.max_output_impedance {
+            if filter::typical_peak_output_impedance(&tail) > m.0 {
+                *dropped.entry(IMPEDANCE.to_string()).or_default() += 1;
+                continue;
+            }
+        }
+        let figs = filter::tail_figures(problem, &tail);
+        if let Some(why) = tail_violation(problem, &figs) {
+            *dropped.entry(why.to_string()).or_default() += 1;
+            continue;
+        }
         let p = problem_with(problem, fd);
         let inner = Settings {
             cutoff: best.as_ref().map(|(b, _)| b.key[0] - share[0]),
             progress: false,
             ..settings.clone()
         };
+        let t_inner = Instant::now();
         let out: DesignOutcome = design_for(&p, target, &inner);
+        if std::env::var_os("RIPPLEBANK_TRACE").is_some() {
+            eprintln!("filter {searched}: share {:.4} inner {:.3} s {:?} evals {} sets {}/{} rounds {}", share[0], t_inner.elapsed().as_secs_f64(), out.found.as_ref().map(|f| f.key[0]), out.stats.evaluations, out.stats.line_sets_solved, out.stats.line_sets_total, out.stats.region_rounds);
+        }
         searched += 1;
         stats.evaluations += out.stats.evaluations;
         stats.line_sets_solved += out.stats.line_sets_solved;

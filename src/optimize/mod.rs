@@ -145,8 +145,9 @@ pub struct Settings {
     pub milp_proposals: usize,
     /// Time limit of one mixed-integer solve, s.
     pub milp_seconds: f64,
-    /// Exact evaluations allowed in one search; past it the search stops
-    /// and the result is `feasible` at best.
+    /// Exact evaluations allowed in each line-count stage of a search (the
+    /// same for every stage, so a looser line limit never thins it out);
+    /// past it the stage stops and the result is `feasible` at best.
     pub max_evaluations: usize,
     /// Only banks whose objective is below this are of interest (the
     /// filter search's incumbent minus a filter's own share): the search
@@ -163,7 +164,7 @@ impl Default for Settings {
             milp_parts: 120,
             milp_proposals: 2,
             milp_seconds: 2.0,
-            max_evaluations: 3_000_000,
+            max_evaluations: 1_000_000,
             cutoff: None,
         }
     }
@@ -179,9 +180,9 @@ pub use explain::{
     binding, explain, lowest_deviation, lowest_ripple, Binding, BindingDetail, Explanation, Lowest,
     LowestDeviation,
 };
-pub use filtered::{design_filtered, FilterOutcome};
+pub use filtered::{design_filtered, problem_with, FilterOutcome};
 pub use rework::{rework, Rework};
-use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_all_sets, Search};
+use search::{binomial_sum, neighbourhood, pool, prune_dominated, run_sized_sets, Search};
 
 /// A point of the corner region to check every candidate at: for the
 /// ripple, an operating point and the state of every candidate part there;
@@ -269,6 +270,118 @@ pub fn design(problem: &Problem, settings: &Settings) -> DesignOutcome {
 
 /// Find the best bank for a given ripple target.
 pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> DesignOutcome {
+    design_from(problem, target, settings, None)
+}
+
+/// What the line-count stages of one search round found out.
+struct Stages {
+    /// Every stage examined every line set (none stopped, none pooled).
+    exhaustive: bool,
+    /// A valid lower bound on the primary objective of the sets the stages
+    /// did not rule out (+∞ when they ruled out all of them).
+    open_bound: f64,
+    /// Some stage reached its evaluation budget.
+    stopped: bool,
+}
+
+/// The search of one cutting-plane round, by line count: stage l looks at
+/// the line sets of exactly l lines, starting from the incumbent of the
+/// stages before it, with an evaluation budget of its own. Stage l does the
+/// same whatever `max_lines` is above l, so a looser line limit only adds
+/// stages after the same ones: its answer is never worse (monotone by
+/// construction), and the budget never spreads thinner as lines are added.
+/// A stage whose line sets number at most `exhaustive_limit` examines all
+/// of them; a larger one takes the sets of a pool of promising parts (the
+/// same pool at every stage) and the line sets the mixed-integer model
+/// proposes, then a neighbourhood search over the whole catalog.
+fn run_stages(s: &mut Search, settings: &Settings, stats: &mut Stats) -> Stages {
+    let max_lines = s.lim.max_lines;
+    let req = s.required_parts.len();
+    let all: Vec<usize> = (0..s.parts.len()).collect();
+    let others = all.len() - req;
+    let mut out = Stages {
+        exhaustive: true,
+        open_bound: f64::INFINITY,
+        stopped: false,
+    };
+    if req > max_lines {
+        return out;
+    }
+    let first = req.max(1);
+    let last = max_lines.min(others + req);
+    stats.line_sets_total = binomial_sum(others, last.saturating_sub(req)) + usize::from(req > 0)
+        - usize::from(req > 0 && first > req);
+    let mut pool_parts: Option<Vec<usize>> = None;
+    let mut milp_bound: Option<f64> = None;
+    for l in first..=last {
+        s.lim.max_lines = l;
+        s.budget = s.evals.saturating_add(settings.max_evaluations);
+        s.stopped = false;
+        let exhaustive = binomial_sum(others, l - req) <= settings.exhaustive_limit;
+        let msg = format!("design ({l} lines)");
+        if exhaustive {
+            let b = run_sized_sets(s, &all, l, settings, &msg);
+            out.open_bound = out.open_bound.min(b);
+            if s.stopped {
+                neighbourhood(s, settings);
+            }
+        } else {
+            out.exhaustive = false;
+            let base = pool_parts
+                .get_or_insert_with(|| pool(s, settings.pool))
+                .clone();
+            let mut parts = base;
+            // Line sets proposed by the mixed-integer relaxation join the pool;
+            // its proven optimum over every candidate is a lower bound.
+            let over = if all.len() <= settings.milp_parts {
+                all.clone()
+            } else {
+                pool(s, settings.milp_parts)
+            };
+            let ks = milp::hard_harmonics(s, &over, 8);
+            let mut cuts: Vec<Vec<usize>> = Vec::new();
+            for t in 0..settings.milp_proposals {
+                let Some(prop) = milp::propose(s, &over, &ks, &cuts, settings.milp_seconds) else {
+                    break;
+                };
+                if t == 0 && l == max_lines && prop.proven && over.len() == all.len() {
+                    milp_bound = Some(prop.bound);
+                }
+                for &i in &prop.set {
+                    if !parts.contains(&i) {
+                        parts.push(i);
+                    }
+                }
+                cuts.push(prop.set);
+            }
+            run_sized_sets(s, &parts, l, settings, &msg);
+            neighbourhood(s, settings);
+        }
+        out.stopped |= s.stopped;
+    }
+    s.lim.max_lines = max_lines;
+    if !out.exhaustive {
+        // Pooled stages may have left any line set open: the disjunctive
+        // bound over every candidate (and the mixed-integer one) holds for all.
+        let g = s.global_bound(max_lines).max(milp_bound.unwrap_or(0.0));
+        out.open_bound = out.open_bound.min(g);
+    }
+    if out.stopped {
+        out.exhaustive = false;
+    }
+    out
+}
+
+/// Find the best bank for a given ripple target, starting from `warm` (a
+/// bank, catalog indices and counts, known to meet a tighter problem on the
+/// same catalog): the answer is then never worse than `warm` when `warm`
+/// still holds.
+pub fn design_from(
+    problem: &Problem,
+    target: f64,
+    settings: &Settings,
+    warm: Option<&[(usize, u32)]>,
+) -> DesignOutcome {
     let t0 = Instant::now();
     let (cands, dominated) = prune_dominated(problem, &problem.eligible);
     let mut stats = Stats {
@@ -279,6 +392,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
     let mut found: Option<Found> = None;
     let mut proven = false;
     let mut stopped = false;
+    let mut lower: Option<f64> = None;
     // Cutting planes (Blankenship & Falk 1976): search against a finite set
     // of region points, verify the best bank over the whole region, add the
     // point that breaks it and search again.
@@ -308,50 +422,12 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
             }
             s.target = exact_target;
         }
-        let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
-        let all: Vec<usize> = (0..s.parts.len()).collect();
-        let total = binomial_sum(all.len() - s.required_parts.len(), free)
-            + usize::from(!s.required_parts.is_empty());
-        stats.line_sets_total = total;
-        if s.required_parts.len() <= s.lim.max_lines {
-            if total <= settings.exhaustive_limit {
-                run_all_sets(&mut s, &all, free, settings, "design");
-                proven = true;
-            } else {
-                let mut pool = pool(&s, settings.pool);
-                // Line sets proposed by the mixed-integer relaxation join the pool;
-                // its proven optimum over every candidate is a global lower bound.
-                let over = if all.len() <= settings.milp_parts {
-                    all.clone()
-                } else {
-                    self::pool(&s, settings.milp_parts)
-                };
-                let ks = milp::hard_harmonics(&s, &over, 8);
-                let mut cuts: Vec<Vec<usize>> = Vec::new();
-                for t in 0..settings.milp_proposals {
-                    let Some(prop) = milp::propose(&s, &over, &ks, &cuts, settings.milp_seconds)
-                    else {
-                        break;
-                    };
-                    if t == 0 && prop.proven && over.len() == all.len() {
-                        stats.lower_bound = Some(prop.bound);
-                    }
-                    for &i in &prop.set {
-                        if !pool.contains(&i) {
-                            pool.push(i);
-                        }
-                    }
-                    cuts.push(prop.set);
-                }
-                run_all_sets(&mut s, &pool, free, settings, "design (pool)");
-                neighbourhood(&mut s, settings);
-                if let (Some(lb), Some(inc)) = (stats.lower_bound, &s.incumbent) {
-                    proven = inc.0[0] <= lb + tol(lb, inc.0[0]);
-                }
-            }
+        if let Some(w) = warm {
+            s.warm_start(w);
         }
+        let stages = run_stages(&mut s, settings, &mut stats);
         stats.evaluations += s.evals;
-        stopped = s.stopped;
+        stopped = stages.stopped;
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
         if let Some((key, bank, _)) = s.incumbent.take().filter(|i| i.2.is_finite()) {
@@ -366,6 +442,12 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
                 // Out of rounds: no verified bank.
                 stopped = true;
             } else if let Ok(value) = verdict {
+                let value0 = key[0];
+                // Every bank that could beat this one lies in a line set
+                // the stages left open, whose bound is at least open_bound.
+                let lb = stages.open_bound.min(value0);
+                proven = stages.exhaustive || lb >= value0 - tol(lb, value0);
+                lower = Some(if proven { value0 } else { lb });
                 found = Some(Found {
                     bank: bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect(),
                     key,
@@ -377,6 +459,7 @@ pub fn design_for(problem: &Problem, target: f64, settings: &Settings) -> Design
     }
     stats.stopped = stopped;
     stats.proven = proven && !stopped;
+    stats.lower_bound = lower;
     let proven = stats.proven;
     let status = match (&found, proven) {
         (Some(_), true) => Status::Optimal,

@@ -23,6 +23,12 @@ pub(super) struct SumLimit {
     pub(super) slack: f64,
 }
 
+/// Directions of the disjunctive bound ([`Search::global_bound`]): the
+/// bound loses at most 1 − cos(π/32) = 0.5 % of each harmonic's need.
+pub(super) const BOUND_DIRECTIONS: usize = 32;
+/// Harmonics the disjunctive bound is taken at (the hardest ones).
+pub(super) const BOUND_HARMONICS: usize = 24;
+
 /// Most entries of the table (the size of the fixed per-limit arrays of
 /// the count enumeration).
 pub(super) const MAX_SUMS: usize = limits::LIMITS.len();
@@ -350,6 +356,153 @@ impl Search {
             best = best.min(total);
         }
         best
+    }
+
+    /// A valid lower bound on the primary objective of every bank of at
+    /// most `max_lines` lines that meets the target (or +∞ when none can).
+    ///
+    /// At each harmonic k a passing bank has |Y_b,k·G_k + Y_int,k| ≥ r_k
+    /// ([`Evaluator::phase_terms`]), Y_b,k = Σ n_i Y_ik linear in the counts.
+    /// Of [`BOUND_DIRECTIONS`] directions θ_m = 2πm/M, the angle of the
+    /// total lies within π/M of one, where Re(e^{−jθ_m}·Y_tot) ≥ r_k·cos(π/M):
+    /// a disjunction of linear conditions (Balas' disjunctive programming).
+    /// For each direction the cheapest counts 0 ≤ n_i ≤ count_max_i are a
+    /// fractional knapsack (parts whose projection is negative only hurt),
+    /// plus the line cost of the fewest lines that can reach it; the bound
+    /// at k is the smallest over the directions and the bound is the
+    /// largest over the hardest harmonics. Unlike Σ n_i |Y_ik| ≥ q_k it
+    /// does not let parts whose admittances cancel add up.
+    pub(super) fn global_bound(&self, max_lines: usize) -> f64 {
+        let n = self.harmonics;
+        let np = self.parts.len();
+        if np == 0 {
+            return 0.0;
+        }
+        let m = BOUND_DIRECTIONS;
+        let shrink = (std::f64::consts::PI / m as f64).cos();
+        // The hardest harmonics by the magnitude condition's single-part ratio.
+        let mut score: Vec<(f64, usize)> = (0..n)
+            .filter(|&k| self.required[k] > 0.0)
+            .map(|k| {
+                let best = (0..np)
+                    .map(|i| self.adm_mag[i * n + k] / self.weights[0][i].max(1e-300))
+                    .fold(0.0, f64::max);
+                (self.required[k] / best.max(1e-300), k)
+            })
+            .collect();
+        score.sort_by(|x, y| y.0.total_cmp(&x.0));
+        let mut ks: Vec<usize> = score.iter().take(BOUND_HARMONICS).map(|x| x.1).collect();
+        if let Some(&(_, k)) = score.first() {
+            if !ks.contains(&k) {
+                ks.push(k);
+            }
+        }
+        let mut bound: f64 = 0.0;
+        let mut items: Vec<(f64, f64, f64)> = Vec::with_capacity(np);
+        let mut tops: Vec<f64> = Vec::with_capacity(np);
+        for &k in &ks {
+            let (r, g, yi) = self.phase_terms[k];
+            let mut best_k = f64::INFINITY;
+            for d in 0..m {
+                let th = 2.0 * std::f64::consts::PI * d as f64 / m as f64;
+                let rot = Complex64::from_polar(1.0, -th);
+                let need = r * shrink - (rot * yi).re;
+                if need <= 0.0 {
+                    best_k = 0.0;
+                    break;
+                }
+                items.clear();
+                tops.clear();
+                let rg = rot * g;
+                for i in 0..np {
+                    let v = (rg * self.adm_worst[i * n + k]).re;
+                    if v > 0.0 && self.count_max[i] > 0 {
+                        let cap = self.count_max[i] as f64;
+                        items.push((self.weights[0][i] / v, v, cap));
+                        tops.push(v * cap);
+                    }
+                }
+                // Fewest lines that can reach the need in this direction.
+                tops.sort_by(|x, y| y.total_cmp(x));
+                let (mut acc, mut lines) = (0.0, 0usize);
+                for &x in &tops {
+                    if acc >= need {
+                        break;
+                    }
+                    acc += x;
+                    lines += 1;
+                }
+                if acc < need * (1.0 - 1e-9) || lines > max_lines {
+                    continue; // this direction cannot hold
+                }
+                items.sort_by(|x, y| x.0.total_cmp(&y.0));
+                let (mut left, mut cost) = (need, 0.0);
+                for &(ratio, v, cap) in &items {
+                    if left <= 0.0 {
+                        break;
+                    }
+                    let take = cap.min(left / v);
+                    cost += take * v * ratio;
+                    left -= take * v;
+                }
+                let here = cost + lines as f64 * self.line_w[0];
+                best_k = best_k.min(here);
+                if best_k <= bound {
+                    break; // this harmonic cannot raise the bound
+                }
+            }
+            bound = bound.max(best_k);
+        }
+        bound
+    }
+
+    /// Take `bank` (catalog indices and counts) as the incumbent when every
+    /// part is a candidate here, its counts keep every limit and it passes
+    /// the exact checks (a bank from a tighter problem on the same catalog).
+    pub(super) fn warm_start(&mut self, bank: &[(usize, u32)]) {
+        let mut local = Vec::with_capacity(bank.len());
+        for &(c, n) in bank {
+            match self.catalog_index.iter().position(|&x| x == c) {
+                Some(i) => local.push((i, n)),
+                None => return,
+            }
+        }
+        if local.len() > self.lim.max_lines
+            || !self
+                .required_parts
+                .iter()
+                .all(|r| local.iter().any(|b| b.0 == *r))
+            || local
+                .iter()
+                .any(|&(i, n)| n < self.count_min[i] || n > self.count_max[i])
+        {
+            return;
+        }
+        let set: Vec<usize> = local.iter().map(|b| b.0).collect();
+        let counts: Vec<u32> = local.iter().map(|b| b.1).collect();
+        if !self.lim.upper_hold(&set, &counts)
+            || !self.lim.at_least.iter().all(|r| {
+                set.iter()
+                    .zip(&counts)
+                    .map(|(&i, &n)| n as f64 * r.coef[i])
+                    .sum::<f64>()
+                    >= r.value
+            })
+        {
+            return;
+        }
+        self.bank_buf.clear();
+        self.bank_buf.extend_from_slice(&local);
+        if let Some(r) = self.exact() {
+            let key = self.key_of(&set, &counts);
+            if self
+                .incumbent
+                .as_ref()
+                .is_none_or(|inc| better(&key, &inc.0))
+            {
+                self.incumbent = Some((key, local, r));
+            }
+        }
     }
 
     pub(super) fn inc_primary(&self) -> f64 {
@@ -859,38 +1012,61 @@ pub(super) fn run_sets(s: &mut Search, sets: Vec<Vec<usize>>, settings: &Setting
     solve_bounded(s, bounded, settings, msg);
 }
 
-/// As [`run_sets`] over every line set of the required parts plus up to
-/// `free` parts of `pool`; only the sets that pass their bound are stored.
-pub(super) fn run_all_sets(
+/// As [`run_sets`] over the line sets of exactly `size` lines: the required
+/// parts plus others from `pool`; only the sets that pass their bound are
+/// stored. Returns the smallest bound of the sets left unsolved that could
+/// still beat the incumbent (+∞ when none is left).
+pub(super) fn run_sized_sets(
     s: &mut Search,
     pool: &[usize],
-    free: usize,
+    size: usize,
     settings: &Settings,
     msg: &str,
-) {
+) -> f64 {
     let mut bounded: Vec<(f64, Vec<usize>)> = Vec::new();
     let required = s.required_parts.clone();
     let inc0 = s.inc_primary();
-    each_line_set(&required, pool, free, &mut |set| {
-        if let Some(b) = s.set_bound(set) {
-            if b <= inc0 + tol(b, inc0) {
-                bounded.push((b, set.to_vec()));
+    if size < required.len() {
+        return f64::INFINITY;
+    }
+    let free = size - required.len();
+    if free == 0 {
+        if !required.is_empty() {
+            if let Some(b) = s.set_bound(&required) {
+                bounded.push((b, required.clone()));
             }
         }
-    });
-    solve_bounded(s, bounded, settings, msg);
+    } else {
+        each_line_set(&required, pool, free, &mut |set| {
+            if set.len() != size {
+                return;
+            }
+            if let Some(b) = s.set_bound(set) {
+                if b <= inc0 + tol(b, inc0) {
+                    bounded.push((b, set.to_vec()));
+                }
+            }
+        });
+    }
+    solve_bounded(s, bounded, settings, msg)
 }
 
+/// Solve the bounded line sets in order of their bound while a set can
+/// beat the incumbent; returns the smallest bound of the sets left unsolved
+/// when the budget stopped the search (+∞ otherwise).
 pub(super) fn solve_bounded(
     s: &mut Search,
     mut bounded: Vec<(f64, Vec<usize>)>,
     settings: &Settings,
     msg: &str,
-) {
+) -> f64 {
     bounded.sort_by(|x, y| x.0.total_cmp(&y.0).then(x.1.len().cmp(&y.1.len())));
     let pb = bar(settings.progress, bounded.len(), msg);
+    let mut open = f64::INFINITY;
     for (j, (b, set)) in bounded.iter().enumerate() {
         if s.stopped {
+            // Sorted by bound: this one is the smallest left.
+            open = *b;
             break;
         }
         let inc0 = s.inc_primary();
@@ -898,11 +1074,17 @@ pub(super) fn solve_bounded(
             break;
         }
         s.solve_set(set);
+        if s.stopped {
+            // This set may not have been finished.
+            open = *b;
+            break;
+        }
         if j % 64 == 0 {
             pb.set_position(j as u64);
         }
     }
     pb.finish_and_clear();
+    open
 }
 
 /// The most promising parts for a large catalog: for each of the hardest

@@ -488,7 +488,11 @@ fn load_step(a: &Assessment, t: &crate::transient::StepFigures) -> Section {
             mv(t.deviation),
             format!(
                 "{} (limit {})",
-                if t.ok { "meets the limit" } else { "MISSES the limit" },
+                if t.ok {
+                    "meets the limit"
+                } else {
+                    "MISSES the limit"
+                },
                 mv(t.max_deviation)
             ),
         ],

@@ -160,53 +160,8 @@ impl Circuit {
     /// each branch against all the others in parallel. Exact for two
     /// branches; an estimate (hence the generous [`SETTLE_TAUS`]) beyond.
     fn slowest_decay(&self) -> f64 {
-        let mut br: Vec<(f64, f64, f64)> = self.bank.iter().map(|b| (b.r, b.l, b.c)).collect();
-        if let Some(b) = &self.internal {
-            br.push((b.r, b.l + self.lc, b.c));
-        }
-        let loop_tau = |(r, l, c): (f64, f64, f64)| -> f64 {
-            // L s² + R s + 1/C = 0; the slower root.
-            if l <= 0.0 {
-                return r * c;
-            }
-            let disc = r * r - 4.0 * l / c;
-            if disc < 0.0 {
-                if r > 0.0 {
-                    2.0 * l / r
-                } else {
-                    f64::INFINITY
-                }
-            } else {
-                c * (r + disc.sqrt()) / 2.0
-            }
-        };
-        let series = |a: (f64, f64, f64), b: (f64, f64, f64)| {
-            (a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2))
-        };
-        let mut tau: f64 = 0.0;
-        let n = br.len();
-        for i in 0..n {
-            for j in i + 1..n {
-                tau = tau.max(loop_tau(series(br[i], br[j])));
-            }
-            if n > 2 {
-                let others: Vec<_> = (0..n).filter(|&j| j != i).map(|j| br[j]).collect();
-                let par = |v: Vec<f64>| -> f64 {
-                    if v.iter().any(|&x| x <= 0.0) {
-                        0.0
-                    } else {
-                        1.0 / v.iter().map(|x| 1.0 / x).sum::<f64>()
-                    }
-                };
-                let rest = (
-                    par(others.iter().map(|b| b.0).collect()),
-                    par(others.iter().map(|b| b.1).collect()),
-                    others.iter().map(|b| b.2).sum::<f64>(),
-                );
-                tau = tau.max(loop_tau(series(br[i], rest)));
-            }
-        }
-        tau
+        let internal = self.internal.as_ref().map(|b| (b.r, b.l + self.lc, b.c));
+        crate::transient::slowest_loop(|| self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal))
     }
 
     /// Elements of the circuit between the converter's node `conv` and the

@@ -184,3 +184,67 @@ pub fn dense_region(
     }
     (worst, cur)
 }
+
+/// The brute-force optimum (oracle): every count vector in cost order, the
+/// first that passes over the dense region search and every limit.
+#[allow(dead_code)] // not every test uses it
+pub struct Oracle {
+    /// Cost and bank (eligible-list indices) of the optimum, if any passes.
+    pub best: Option<(f64, Vec<(usize, u32)>)>,
+}
+
+#[allow(dead_code)] // not every test uses it
+pub fn oracle(p: &ripplebank::problem::Problem) -> Oracle {
+    let cat = &p.catalog;
+    let s = &p.scenario;
+    let eligible = &p.eligible;
+    let mut ev = p.evaluator(eligible);
+    let target = s.target.ripple_pp.0;
+    let max_cap = s.converter.max_capacitance.map_or(f64::INFINITY, |c| c.0);
+    let max_count = s.board.max_count.unwrap_or(u32::MAX);
+    let max_area = s.board.max_area.map_or(f64::INFINITY, |a| a.0);
+    let mut banks = all_banks(eligible.len());
+    if s.converter.internal_capacitance.is_some() {
+        banks.push(Vec::new()); // the converter alone
+    }
+    let cost = |b: &Vec<(usize, u32)>| {
+        b.iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].cost)
+            .sum::<f64>()
+    };
+    banks.sort_by(|a, b| cost(a).partial_cmp(&cost(b)).unwrap());
+    let mut best = None;
+    for b in banks {
+        let cap: f64 = b
+            .iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].c_nominal_max())
+            .sum();
+        let count: u32 = b.iter().map(|x| x.1).sum();
+        let area: f64 = b
+            .iter()
+            .map(|&(i, n)| n as f64 * cat.parts[eligible[i]].area.unwrap())
+            .sum();
+        if cap > max_cap || count > max_count || area > max_area {
+            continue;
+        }
+        // The low corner is one point of the region: a quick necessary test.
+        if ev.ripple_check(&b, target) > target {
+            continue;
+        }
+        let (r, cur) = dense_region(p, &mut ev, &b);
+        if r > target {
+            continue;
+        }
+        let ok = b
+            .iter()
+            .zip(&cur)
+            .all(|(&(i, _), &c)| cat.parts[eligible[i]].ripple_current.is_none_or(|r| c <= r));
+        if !ok {
+            continue;
+        }
+        // The first passing bank in cost order is the optimum.
+        best = Some((cost(&b), b));
+        break;
+    }
+    Oracle { best }
+}
