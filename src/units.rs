@@ -291,6 +291,34 @@ fn parse_value(text: &str, unit: Unit) -> Result<f64, ValueError> {
     )))
 }
 
+/// A resistance in the RKM code of IEC 60062, the form printed on
+/// resistors and used in bills of materials: the multiplier letter (`R` for
+/// ohms, `k`, `M`) stands at the decimal point: 0.22 Ω = `0R22`, 4.7 Ω =
+/// `4R7`, 22 Ω = `22R`, 2.2 kΩ = `2k2`. Up to six significant digits;
+/// `parse` reads it back.
+pub fn format_rkm(ohms: f64) -> String {
+    if !(ohms > 0.0) || !ohms.is_finite() {
+        return format!("{ohms}R");
+    }
+    let (letter, scale) = if ohms < 1e3 {
+        ('R', 1.0)
+    } else if ohms < 1e6 {
+        ('k', 1e3)
+    } else {
+        ('M', 1e6)
+    };
+    let v = ohms / scale;
+    let decimals = (5 - v.log10().floor() as i32).max(0) as usize;
+    let mut t = format!("{v:.decimals$}");
+    if t.contains('.') {
+        t = t.trim_end_matches('0').trim_end_matches('.').to_string();
+    }
+    match t.split_once('.') {
+        Some((int, frac)) => format!("{int}{letter}{frac}"),
+        None => format!("{t}{letter}"),
+    }
+}
+
 /// Format a value with an engineering prefix: `format_si(4.7e-6, "F")` = `4.7 µF`.
 pub fn format_si(value: f64, symbol: &str) -> String {
     if value == 0.0 {
@@ -429,6 +457,30 @@ mod tests {
         let e = parse("4u7H", Unit::Farad).unwrap_err();
         assert!(e.0.contains("inductance") && e.0.contains("RKM"), "{e}");
         assert!(parse("4x7", Unit::Farad).is_err());
+    }
+
+    #[test]
+    fn resistances_written_in_the_rkm_code_of_iec_60062() {
+        // IEC 60062: the letter R, k or M at the decimal point.
+        for (r, want) in [
+            (0.22, "0R22"),
+            (4.7, "4R7"),
+            (22.0, "22R"),
+            (220.0, "220R"),
+            (2200.0, "2k2"),
+            (0.0047, "0R0047"),
+            (4.99, "4R99"),
+            (1.0, "1R"),
+            (1.5e6, "1M5"),
+            (0.1, "0R1"),
+        ] {
+            assert_eq!(format_rkm(r), want, "{r}");
+        }
+        // Every IEC 60063 E96 value from 10 mΩ to 1 MΩ reads back exactly.
+        for v in crate::eseries::values(crate::eseries::ESeries::E96, 0.01, 1e6) {
+            let t = format_rkm(v);
+            assert!(close(parse(&t, Unit::Ohm).unwrap(), v), "{v} → {t}");
+        }
     }
 
     #[test]

@@ -614,6 +614,38 @@ mod tests {
     }
 
     #[test]
+    fn the_written_bill_of_materials_reads_back_as_the_same_design() {
+        let p = demo();
+        let c = |id: &str| p.catalog.position(id).unwrap();
+        let bank = vec![(c(CAP), 2)];
+        let f = FilterDesign {
+            inductor: p.inductors.as_ref().unwrap().position(IND).unwrap(),
+            count: 2,
+            load_bank: vec![(c(CAP), 3), (c(CAP2), 1)],
+            damping: Some(DampingLeg {
+                resistance: 0.22,
+                capacitor: c(CAP2),
+                count: 2,
+            }),
+        };
+        let text = String::from_utf8(crate::report::bom_csv_with(&p, &bank, Some(&f))).unwrap();
+        assert!(
+            text.lines().next().unwrap().contains(",position,"),
+            "{text}"
+        );
+        // IEC 60062 RKM code for the resistor's row; IEC 60063 E24 holds 0.22 Ω.
+        assert!(text.contains("R 0R22,1,resistor"), "{text}");
+        assert!(text.contains("IEC 60063 E24 value"), "{text}");
+        let (b2, f2) = rows(&text).unwrap();
+        assert_eq!(b2, bank);
+        assert_eq!(f2.unwrap(), f);
+        // Without a filter the bill of materials is the capacitor bank's alone.
+        let plain = crate::report::bom_csv_with(&p, &bank, None);
+        assert_eq!(plain, crate::report::bom_csv(&p, &bank));
+        assert!(!String::from_utf8(plain).unwrap().contains("position"));
+    }
+
+    #[test]
     fn bill_of_materials_filter_errors_name_line_and_column() {
         let head = format!("part,count,position\n{CAP},2,converter\n");
         for (body, want) in [

@@ -142,56 +142,184 @@ impl OutFiles {
 /// Bill of materials CSV: part, count and the catalog's details, extra
 /// columns carried through.
 pub fn bom_csv(problem: &Problem, bank: &[(usize, u32)]) -> Vec<u8> {
+    bom_csv_with(problem, bank, None)
+}
+
+/// The columns of a capacitor row (and, with a filter, of every row).
+const BOM_HEAD: &[&str] = &[
+    "part",
+    "count",
+    "technology",
+    "capacitance",
+    "rated_voltage",
+    "dielectric",
+    "case",
+    "esr",
+    "esl",
+    "unit_cost",
+    "line_total_cost",
+    "manufacturer",
+    "mpn",
+    "description",
+];
+
+/// The columns a filtered design adds: where each row sits, and the
+/// inductor's and the damping resistor's own values.
+const BOM_FILTER_HEAD: &[&str] = &[
+    "position",
+    "inductance",
+    "dcr",
+    "rated_current",
+    "saturation_current",
+    "resistance",
+];
+
+/// Bill of materials CSV of a design: without a filter exactly
+/// [`bom_csv`]; with one, a `position` column (`converter`, `inductor`,
+/// `load`, `damping`) and a row for every part in order from the converter
+/// outward: the converter-side bank, the inductor, the load-side bank, the
+/// damping resistor (its `part` is its value in the RKM code, `R 0R22`) and
+/// the damping capacitor. `assess --bom` reads it back as the same design.
+pub fn bom_csv_with(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    filter: Option<&crate::filter::FilterDesign>,
+) -> Vec<u8> {
+    use crate::units::format_compact;
     let cat = &problem.catalog;
-    let mut w = csv::Writer::from_writer(Vec::new());
-    let mut head: Vec<String> = [
-        "part",
-        "count",
-        "technology",
-        "capacitance",
-        "rated_voltage",
-        "dielectric",
-        "case",
-        "esr",
-        "esl",
-        "unit_cost",
-        "line_total_cost",
-        "manufacturer",
-        "mpn",
-        "description",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    let lc = filter.and(problem.inductors.as_ref());
+    let mut head: Vec<String> = BOM_HEAD.iter().map(|s| s.to_string()).collect();
+    if lc.is_some() {
+        head.extend(BOM_FILTER_HEAD.iter().map(|s| s.to_string()));
+    }
     head.extend(cat.extra_columns.iter().cloned());
+    let ind_extra: Vec<String> = lc.map_or(Vec::new(), |l| {
+        l.extra_columns
+            .iter()
+            .filter(|c| !head.contains(c))
+            .cloned()
+            .collect()
+    });
+    head.extend(ind_extra.iter().cloned());
+    let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(&head).expect("in memory");
-    for &(i, n) in bank.iter().filter(|b| b.1 > 0) {
+    let extras = |row: &mut Vec<String>, cap: &[(String, String)], ind: &[(String, String)]| {
+        let find = |v: &[(String, String)], c: &str| {
+            v.iter()
+                .find(|(h, _)| h == c)
+                .map_or(String::new(), |(_, x)| x.clone())
+        };
+        for c in &cat.extra_columns {
+            row.push(find(cap, c));
+        }
+        for c in &ind_extra {
+            row.push(find(ind, c));
+        }
+    };
+    let capacitor_row = |i: usize, n: u32, position: &str| -> Vec<String> {
         let p = &cat.parts[i];
         let mut row = vec![
             p.id.clone(),
             n.to_string(),
             p.technology.name().to_string(),
-            crate::units::format_compact(p.capacitance),
+            format_compact(p.capacitance),
             p.rated_voltage.to_string(),
             p.dielectric.as_ref().map_or(String::new(), |d| d.0.clone()),
             p.case.clone().unwrap_or_default(),
-            crate::units::format_compact(p.esr),
-            crate::units::format_compact(p.esl),
+            format_compact(p.esr),
+            format_compact(p.esl),
             p.cost.to_string(),
             format!("{:.4}", p.cost * n as f64),
             p.manufacturer.clone().unwrap_or_default(),
             p.mpn.clone().unwrap_or_default(),
             p.description.clone().unwrap_or_default(),
         ];
-        for c in &cat.extra_columns {
-            row.push(
-                p.extra
-                    .iter()
-                    .find(|(h, _)| h == c)
-                    .map_or(String::new(), |(_, v)| v.clone()),
-            );
+        if lc.is_some() {
+            row.push(position.to_string());
+            row.extend(std::iter::repeat_n(
+                String::new(),
+                BOM_FILTER_HEAD.len() - 1,
+            ));
         }
+        extras(&mut row, &p.extra, &[]);
+        row
+    };
+    for &(i, n) in bank.iter().filter(|b| b.1 > 0) {
+        w.write_record(capacitor_row(i, n, "converter"))
+            .expect("in memory");
+    }
+    if let (Some(f), Some(lc)) = (filter, lc) {
+        let l = &lc.parts[f.inductor];
+        let n = f.count.max(1);
+        let mut row = vec![
+            l.id.clone(),
+            n.to_string(),
+            "inductor".into(),
+            String::new(),
+            String::new(),
+            String::new(),
+            l.case.clone().unwrap_or_default(),
+            String::new(),
+            String::new(),
+            l.cost.to_string(),
+            format!("{:.4}", l.cost * n as f64),
+            l.manufacturer.clone().unwrap_or_default(),
+            l.mpn.clone().unwrap_or_default(),
+            l.description.clone().unwrap_or_default(),
+            "inductor".into(),
+            format_compact(l.inductance),
+            format_compact(l.dcr),
+            format_compact(l.rated_current),
+            format_compact(l.saturation_current),
+            String::new(),
+        ];
+        extras(&mut row, &[], &l.extra);
         w.write_record(&row).expect("in memory");
+        for &(i, n) in f.load_bank.iter().filter(|b| b.1 > 0) {
+            w.write_record(capacitor_row(i, n, "load"))
+                .expect("in memory");
+        }
+        if let Some(d) = &f.damping {
+            let fs = &problem.scenario.filter;
+            let cost = fs.damping_resistor_cost.0;
+            let series = fs.damping_resistors;
+            let in_series = crate::eseries::values(series, d.resistance, d.resistance)
+                .iter()
+                .any(|v| (v - d.resistance).abs() <= 1e-9 * d.resistance);
+            let mut row = vec![
+                format!("R {}", crate::units::format_rkm(d.resistance)),
+                "1".into(),
+                "resistor".into(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                cost.to_string(),
+                format!("{cost:.4}"),
+                String::new(),
+                String::new(),
+                if in_series {
+                    format!(
+                        "damping resistor, IEC 60063 {} value; choose its power rating and pulse capability",
+                        series.label()
+                    )
+                } else {
+                    "damping resistor; choose its power rating and pulse capability".into()
+                },
+                "damping".into(),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+                format_compact(d.resistance),
+            ];
+            extras(&mut row, &[], &[]);
+            w.write_record(&row).expect("in memory");
+            w.write_record(capacitor_row(d.capacitor, d.count, "damping"))
+                .expect("in memory");
+        }
     }
     w.into_inner().expect("in memory")
 }
