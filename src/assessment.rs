@@ -872,6 +872,13 @@ pub fn assess_with(
     }
     // The linear limits, from the one table of them.
     let transient = crate::transient::figures(s, &ev.parts, local);
+    if transient.is_some() && problem.filter.is_some() {
+        warnings.push(
+            "the load step is evaluated on the converter-side bank alone: the post-filter's inductor and load-side \
+             bank are not yet in the step model, so verify the load step of a filtered design on hardware"
+                .into(),
+        );
+    }
     let totals = Totals {
         cap_limit: climit,
         cap_effective: ceff,

@@ -57,12 +57,6 @@ pub fn tradeoff(
 ) -> Result<CommandOutput> {
     use indicatif::{ProgressBar, ProgressStyle};
     let (p, run) = load(c, &Overrides::default())?;
-    if p.scenario.filter.usage != crate::filter::FilterUse::Off {
-        return Err(crate::filter::not_yet_wired(&format!(
-            "tradeoff with filter use `{}`",
-            p.scenario.filter.usage.name()
-        )));
-    }
     if !(2..=200).contains(&points) {
         anyhow::bail!("--points: {points} must be from 2 to 200");
     }
@@ -336,6 +330,27 @@ pub fn tradeoff(
             r.line(note.clone());
         }
     }
+    // With `[filter] use` auto or on: the filtered design at every target
+    // beside the capacitor-only one, and where the filter starts to pay.
+    let filtered = if p.scenario.filter.usage != crate::filter::FilterUse::Off {
+        Some(filter_rows(&p, &results, &settings)?)
+    } else {
+        None
+    };
+    if let Some((rows, pays, _)) = &filtered {
+        r.para("With a post-filter (the best filtered design at each target)");
+        r.table(Table::new(
+            &["target", "status", "cost", "capacitors only", "better", "filter"],
+            rows.clone(),
+        ));
+        r.line(match pays {
+            Some(t) => format!(
+                "The filter starts to pay at {} and below (the loosest target where the filtered design is better).",
+                text::mv(*t)
+            ),
+            None => "The filter does not pay at any target of the range.".into(),
+        });
+    }
     r.push(model::cautions());
     let mut doc = json!({
         "status": "done",
@@ -347,6 +362,10 @@ pub fn tradeoff(
         "excluded": p.excluded,
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
     });
+    if let Some((_, pays, points)) = filtered {
+        doc["filter_points"] = json!(points);
+        doc["filter_pays_from"] = json!(pays);
+    }
     run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         let plots =
@@ -375,4 +394,72 @@ pub fn tradeoff(
         text::render(&r)
     };
     Ok(CommandOutput { stdout, code })
+}
+
+/// The filtered design at each target of `results` (capacitor-only
+/// outcomes): text rows, the loosest target where the filter is better, and
+/// the JSON points.
+fn filter_rows(
+    p: &Problem,
+    results: &[(f64, optimize::DesignOutcome)],
+    settings: &optimize::Settings,
+) -> Result<(Vec<Vec<String>>, Option<f64>, Vec<serde_json::Value>)> {
+    let mut rows = Vec::new();
+    let mut points = Vec::new();
+    let mut pays: Option<f64> = None;
+    for (t, cap) in results {
+        let fo = optimize::design_filtered(p, *t, settings);
+        let better = match (&fo.found, &cap.found) {
+            (Some(f), Some(c)) => optimize::better(&f.key, &c.key),
+            (Some(_), None) => true,
+            _ => false,
+        };
+        if better {
+            pays = Some(pays.map_or(*t, |x: f64| x.max(*t)));
+        }
+        let (cost, desc, ripple) = match (&fo.found, &fo.filter) {
+            (Some(f), Some(fd)) => {
+                let q = p.with_filter(fd.clone());
+                let a = assessment::assess(&q, &f.bank)?;
+                let fa = a.filter.as_ref();
+                let desc = fa.map_or(String::new(), |fa| {
+                    let load: Vec<String> = fa.load_bank.iter().map(|(id, n)| format!("{id}={n}")).collect();
+                    format!(
+                        "{}×{} → {}{}",
+                        fa.count,
+                        fa.inductor,
+                        load.join(","),
+                        fa.damping.as_ref().map_or(String::new(), |(r, id, n)| format!(
+                            " + R {} with {id}={n}",
+                            crate::units::format_rkm(*r)
+                        ))
+                    )
+                });
+                (Some(a.cost), desc, Some(a.ripple_pp))
+            }
+            _ => (None, String::new(), None),
+        };
+        let cap_cost = match &cap.found {
+            Some(f) => Some(assessment::assess(p, &f.bank)?.cost),
+            None => None,
+        };
+        rows.push(vec![
+            text::mv(*t),
+            fo.status.name().to_string(),
+            cost.map_or("—".into(), |x| format!("{x:.3}")),
+            cap_cost.map_or("—".into(), |x| format!("{x:.3}")),
+            if better { "filter" } else { "capacitors" }.to_string(),
+            if desc.is_empty() { "no filter meets this target".into() } else { desc.clone() },
+        ]);
+        points.push(json!({
+            "target": t,
+            "status": fo.status.name(),
+            "cost": cost,
+            "ripple_pp": ripple,
+            "capacitor_only_cost": cap_cost,
+            "filter_better": better,
+            "filter": desc,
+        }));
+    }
+    Ok((rows, pays, points))
 }

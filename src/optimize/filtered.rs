@@ -10,22 +10,28 @@
 //! like the bank's).
 //!
 //! The filters are enumerated over a finite space: every eligible inductor
-//! (1 to `max_inductor_count` in parallel), every load-side bank of up to
+//! (the fewest in parallel, up to `max_inductor_count`, that carry the
+//! current within the DC-drop limit), every load-side bank of up to
 //! `load_max_lines` part numbers (default 1) and `load_max_count` parts
 //! (default 4), and the damping legs `damping` allows: none, or a damping
 //! capacitor (1 or 2 in parallel, from the same candidates, of at least the
-//! load-side bank's typical capacitance) in series with every resistor of
-//! the E-series between `damping_resistance_min` and
-//! `damping_resistance_max` that lies within a factor of 4 of
-//! `R0 = sqrt(L/C_load)` (the optimum of Erickson & Maksimović's parallel
-//! R–C damping, `Q_opt·R0` with `Q_opt` between 0.3 and 1.5 for n ≥ 1, lies
-//! well inside). A filter that breaks one of its own limits (corner
-//! frequency, output-impedance peak, DC drop, rated current) is dropped
-//! before any search. The rest are searched in order of their own cost; each
-//! search starts with the best design so far minus the filter's share as its
-//! bound, and a filter whose share alone reaches the best design ends the
-//! loop. When every search was complete the answer is `optimal` over this
-//! space, else `feasible`.
+//! load-side bank's typical capacitance) in series with the two resistors
+//! of the E-series (between `damping_resistance_min` and
+//! `damping_resistance_max`) nearest the optimum of Erickson &
+//! Maksimović's parallel R–C damping, `Q_opt·R0` with `R0 =
+//! sqrt(L/C_load)` (every resistor of the range when it holds at most 13).
+//!
+//! The filters are taken in order of their own share of the objective. A
+//! filter is dropped, before any search, when it breaks one of its own
+//! limits (corner frequency, output-impedance peak at the typical state and
+//! then over its lines' corners, DC drop, rated current) or when no bank
+//! the limits allow, of objective below the best design so far minus the
+//! filter's share, could meet the target behind it (the single-harmonic
+//! floor, with a fractional-knapsack bound on the bank's admittance). Each
+//! remaining search starts with that difference as its bound, and a filter
+//! whose share alone reaches the best design ends the loop. A design whose
+//! inductor would saturate is refused. When every search was complete the
+//! answer is `optimal` over this space, else `feasible`.
 
 use super::{better, design_for, DesignOutcome, Found, Settings, Stats, Status};
 use crate::evaluator::Band;
@@ -40,6 +46,9 @@ const MAX_FILTERS: usize = 400;
 pub const DEFAULT_LOAD_MAX_COUNT: u32 = 4;
 /// Largest number of damping capacitors in parallel the search tries.
 const MAX_DAMPING_COUNT: u32 = 2;
+/// A resistor series of at most this many values between the scenario's
+/// damping limits is tried whole.
+const ALL_RESISTORS_UP_TO: usize = 13;
 /// Smallest damping-to-filter capacitance ratio n the search tries (below
 /// 1 the optimum's peak R0·sqrt(2(2+n))/n grows fast).
 const MIN_DAMPING_RATIO: f64 = 1.0;
@@ -159,10 +168,17 @@ fn damping_legs(
             if ratio < MIN_DAMPING_RATIO {
                 continue;
             }
-            let r = filter::optimal_damping_resistance(l, c_load, ratio);
-            let below = series.iter().rev().find(|&&x| x <= r).copied();
-            let above = series.iter().find(|&&x| x > r).copied();
-            for r in [below, above].into_iter().flatten() {
+            // A short series (a narrowed range) is taken whole; a long one
+            // near the optimum only.
+            let rs: Vec<f64> = if series.len() <= ALL_RESISTORS_UP_TO {
+                series.clone()
+            } else {
+                let r = filter::optimal_damping_resistance(l, c_load, ratio);
+                let below = series.iter().rev().find(|&&x| x <= r).copied();
+                let above = series.iter().find(|&&x| x > r).copied();
+                [below, above].into_iter().flatten().collect()
+            };
+            for r in rs {
                 out.push(Some(DampingLeg {
                     resistance: r,
                     capacitor: c,
