@@ -14,7 +14,7 @@
 //! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
 //! periods just before, so that a reader can see that the run has settled.
 
-use crate::converter::Waveform;
+use crate::converter::{OperatingPoint, Waveform};
 use crate::evaluator::{Band, LineState};
 use crate::network::{admittance, Network};
 use crate::problem::Problem;
@@ -314,7 +314,7 @@ fn header(o: &mut String, problem: &Problem, what: &str) {
 /// The converter's current of one corner prepared for the netlist: jumps
 /// made into short ramps, mean removed, and rotated to start at a zero
 /// crossing (so the DC operating point at t = 0 is all zero).
-fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
+fn source_points(w: &Waveform, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
     let t = w.period;
     let has_jump = w.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0);
     let w = if has_jump {
@@ -323,11 +323,7 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
         w.clone()
     };
     let mean = w.mean();
-    let pts: Vec<(f64, f64)> = w
-        .points
-        .iter()
-        .map(|&(ti, v)| (ti, (v - mean) * scale))
-        .collect();
+    let pts: Vec<(f64, f64)> = w.points.iter().map(|&(ti, v)| (ti, v - mean)).collect();
     // Unrolled over [t0, t0 + T] with the closing vertex.
     let n = pts.len();
     let mut un: Vec<(f64, f64)> = pts.clone();
@@ -379,203 +375,259 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
             out[i].0 = out[i - 1].0 + eps;
         }
     }
-    (out, mean * scale)
+    (out, mean)
+}
+
+/// What the transient netlist shows: the worst point of the corner region
+/// (target bandwidth) as the evaluator found it, the converter's current
+/// there prepared as a source, and the run length.
+struct Transient {
+    /// The operating point of the worst point.
+    op: OperatingPoint,
+    /// The evaluator's figures there, V: at the target bandwidth and at full bandwidth.
+    limited: f64,
+    full: f64,
+    /// Harmonics of the two figures.
+    n_limited: usize,
+    n_full: usize,
+    /// The source's vertices over one period and the mean removed, A.
+    points: Vec<(f64, f64)>,
+    mean: f64,
+    /// Length of the ramps that replace current jumps, s.
+    min_ramp: f64,
+    /// Slowest decay of the bank's own modes (estimate), s.
+    tau: f64,
+    /// Periods needed to settle, and periods run.
+    settle: usize,
+    total: usize,
+}
+
+impl Transient {
+    /// The worst point of the corner region for a bank (zero counts
+    /// dropped) and the circuit with every line's capacitance and ESR there.
+    fn new(problem: &Problem, bank: &[(usize, u32)]) -> Result<(Transient, Circuit)> {
+        let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|b| b.1 > 0).collect();
+        let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+        let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+        let mut ev = problem.evaluator(&parts);
+        // The worst point of the corner region (target bandwidth): its input
+        // voltage, inductance and each line's capacitance and ESR.
+        let w = crate::region::worst(problem, &mut ev, &local, Band::Limited);
+        let ckt = circuit(problem, &bank, Some(&w.states))?;
+        let full = crate::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
+        let op = ev.ops[w.op].clone();
+        let period = op.waveform.period;
+        let f_top = ev.n_full as f64 * ev.f_ripple;
+        let min_ramp = (0.1 / f_top).min(1e-3 * period);
+        let (points, mean) = source_points(&op.waveform, min_ramp);
+        let tau = ckt.slowest_decay();
+        let settle = if tau.is_finite() {
+            (SETTLE_TAUS * tau / period).ceil() as usize
+        } else {
+            MAX_PERIODS
+        };
+        let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, MAX_PERIODS);
+        let run = Transient {
+            op,
+            limited: w.value,
+            full,
+            n_limited: ev.n_limited,
+            n_full: ev.n_full,
+            points,
+            mean,
+            min_ramp,
+            tau,
+            settle,
+            total,
+        };
+        Ok((run, ckt))
+    }
+
+    fn period(&self) -> f64 {
+        self.op.waveform.period
+    }
+
+    /// Comments on the point shown: input voltage, converter, the evaluator's figures.
+    fn write_point(&self, o: &mut String, problem: &Problem) {
+        let op = &self.op;
+        match op.vin {
+            Some(v) => {
+                let _ = writeln!(o, "* vin: {} V, inductance {} H (the worst point of the corner region per the evaluator)", v, op.inductance.map_or("-".to_string(), num));
+            }
+            None => {
+                let _ = writeln!(o, "* vin: not given (one corner)");
+            }
+        }
+        let _ = writeln!(
+            o,
+            "* converter: {}, ripple frequency {} Hz, duty {:.6}{}",
+            problem.scenario.converter.topology.name(),
+            num(op.f_ripple),
+            op.duty,
+            if op.mode.is_empty() {
+                String::new()
+            } else {
+                format!(", {}", op.mode)
+            }
+        );
+        let _ = writeln!(
+            o,
+            "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth",
+            num(self.limited),
+            num(self.full)
+        );
+        let _ = writeln!(o, "*   ({} and {} harmonics)", self.n_limited, self.n_full);
+        let _ = writeln!(o);
+    }
+
+    /// The converter's current into node `conv`: a piecewise-linear source
+    /// written out over the whole run.
+    fn write_source(&self, o: &mut String, conv: &str) {
+        let total = self.total;
+        let period = self.period();
+        let _ = writeln!(o);
+        let _ = writeln!(
+            o,
+            "* Capacitor current of the converter (into the bank > 0), {total} periods written out"
+        );
+        let _ = writeln!(
+            o,
+            "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on)."
+        );
+        let _ = writeln!(
+            o,
+            "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.",
+            num(self.mean)
+        );
+        if self
+            .op
+            .waveform
+            .segments()
+            .any(|((ta, _), (tb, _))| tb - ta <= 0.0)
+        {
+            let _ = writeln!(
+                o,
+                "* current jumps are ramps of {} s (a tenth of the highest harmonic's period).",
+                num(self.min_ramp)
+            );
+        }
+        let _ = write!(o, "Idrive 0 {conv} PWL(");
+        let mut k = 0usize;
+        for p in 0..total {
+            for (j, &(t, v)) in self.points.iter().enumerate() {
+                if p > 0 && j == 0 {
+                    continue;
+                }
+                if k.is_multiple_of(4) {
+                    let _ = write!(o, "\n+ ");
+                }
+                k += 1;
+                let _ = write!(o, "{:.12e} {} ", t + p as f64 * period, num(v));
+            }
+        }
+        let _ = writeln!(o, ")");
+    }
+
+    /// The run (`.options`, `.tran`) and the four `.meas` lines: the
+    /// peak-to-peak at `bank` and at `filtered` over the last periods and
+    /// over the periods before.
+    fn write_analyses(&self, o: &mut String, problem: &Problem, bank: &str, filtered: &str) {
+        let s = &problem.scenario;
+        let (total, period) = (self.total, self.period());
+        let t_stop = total as f64 * period;
+        let t_meas = (total - MEASURE_PERIODS) as f64 * period;
+        let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
+        let mut tmax = period / STEPS_PER_PERIOD;
+        if s.converter.edge_time.0 > 0.0 {
+            tmax = tmax.min(s.converter.edge_time.0 / 10.0);
+        }
+        if let Some(bw) = s.target.bandwidth {
+            tmax = tmax.min(0.05 / bw.0);
+        }
+        let _ = writeln!(o);
+        let _ = writeln!(
+            o,
+            "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
+            num(self.tau),
+            total,
+            if self.settle + 2 * MEASURE_PERIODS > MAX_PERIODS {
+                format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)")
+            } else {
+                String::new()
+            }
+        );
+        let _ = writeln!(
+            o,
+            "* Gear integration: the trapezoidal rule rings point to point after the current's corners"
+        );
+        let _ = writeln!(o, ".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9");
+        let _ = writeln!(
+            o,
+            ".tran {} {} {} {}",
+            num(tmax),
+            num(t_stop),
+            num(t_prev),
+            num(tmax)
+        );
+        let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
+        for (name, node, from, to) in [
+            ("pp_full", bank, t_meas, t_stop),
+            ("pp_limited", filtered, t_meas, t_stop),
+            ("pp_full_prev", bank, t_prev, t_meas),
+            ("pp_limited_prev", filtered, t_prev, t_meas),
+        ] {
+            let _ = writeln!(
+                o,
+                ".meas tran {name} PP v({node}) from={} to={}",
+                num(from),
+                num(to)
+            );
+        }
+    }
+}
+
+/// The resistor that gives the bank's node a DC path: small enough a
+/// conductance to change the ripple by < 1e-6, large enough that the DC
+/// offset left by the start drifts by < 1e-5 of the ripple per period.
+fn write_dc_path(o: &mut String, ckt: &Circuit, bank: &str, f_ripple: f64) {
+    let y1 = ckt.y_total(f_ripple).norm();
+    let rdc = (1e6_f64).max(1e6 / y1);
+    let _ = writeln!(
+        o,
+        "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|"
+    );
+    let _ = writeln!(o, "Rdc {bank} 0 {}", num(rdc));
+}
+
+/// The node `pp_limited` is measured at: after the measurement-bandwidth
+/// filter, or the bank's node itself when the target has no bandwidth.
+fn write_measured_node(o: &mut String, problem: &Problem, bank: &str) -> String {
+    let t = &problem.scenario.target;
+    let _ = writeln!(o);
+    match t.bandwidth {
+        Some(bw) => write_filter(o, bank, bw.0, t.bandwidth_order.max(1)),
+        None => {
+            let _ = writeln!(o, "* no measurement bandwidth in the target: pp_limited is measured at the bank's node");
+            bank.to_string()
+        }
+    }
 }
 
 /// The transient netlist `bank.cir` for a bank (catalog indices and counts).
 pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
-    let s = &problem.scenario;
-    let bank: Vec<(usize, u32)> = bank.iter().copied().filter(|b| b.1 > 0).collect();
-    let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
-    let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
-    let mut ev = problem.evaluator(&parts);
-    // The worst point of the corner region (target bandwidth): its input
-    // voltage, inductance and each line's capacitance and ESR.
-    let w = crate::region::worst(problem, &mut ev, &local, Band::Limited);
-    let ckt = circuit(problem, &bank, Some(&w.states))?;
-    let corner = w.op;
-    let full_here = crate::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
-    let per_corner = vec![(w.value, full_here)];
-    let op = &ev.ops[corner].clone();
-    let scale = 1.0;
-    let period = op.waveform.period;
-    let f_top = ev.n_full as f64 * ev.f_ripple;
-    let min_ramp = (0.1 / f_top).min(1e-3 * period);
-    let (pts, mean) = source_points(&op.waveform, scale, min_ramp);
-
+    let (run, ckt) = Transient::new(problem, bank)?;
     let mut o = String::new();
     header(
         &mut o,
         problem,
         "Output ripple of a capacitor bank (transient)",
     );
-    match op.vin {
-        Some(v) => {
-            let _ = writeln!(o, "* vin: {} V, inductance {} H (the worst point of the corner region per the evaluator)", v, op.inductance.map_or("-".to_string(), num));
-        }
-        None => {
-            let _ = writeln!(o, "* vin: not given (one corner)");
-        }
-    }
-    let _ = writeln!(
-        o,
-        "* converter: {}, ripple frequency {} Hz, duty {:.6}{}",
-        s.converter.topology.name(),
-        num(op.f_ripple),
-        op.duty,
-        if op.mode.is_empty() {
-            String::new()
-        } else {
-            format!(", {}", op.mode)
-        }
-    );
-    let (lim, full) = per_corner[0];
-    let _ = writeln!(
-        o,
-        "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth",
-        num(lim),
-        num(full)
-    );
-    let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
-    let _ = writeln!(o);
-
+    run.write_point(&mut o, problem);
     let (conv, bnode) = ckt.write(&mut o);
-
-    // The DC-level resistor: small enough a conductance to change the
-    // ripple by < 1e-6, large enough that the DC offset left by the start
-    // drifts by < 1e-5 of the ripple per period.
-    let y1 = ckt.y_total(op.f_ripple).norm();
-    let rdc = (1e6_f64).max(1e6 / y1);
-    let _ = writeln!(
-        o,
-        "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|"
-    );
-    let _ = writeln!(o, "Rdc {bnode} 0 {}", num(rdc));
-
-    // Run length.
-    let tau = ckt.slowest_decay();
-    let settle = if tau.is_finite() {
-        (SETTLE_TAUS * tau / period).ceil() as usize
-    } else {
-        MAX_PERIODS
-    };
-    let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, MAX_PERIODS);
-
-    // Source.
-    let _ = writeln!(o);
-    let _ = writeln!(
-        o,
-        "* Capacitor current of the converter (into the bank > 0), {total} periods written out"
-    );
-    let _ = writeln!(
-        o,
-        "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on)."
-    );
-    if scale != 1.0 {
-        let _ = writeln!(o, "* module: the unit triangle is scaled by {} (standalone ripple), as the evaluator does", num(scale));
-    }
-    let _ = writeln!(
-        o,
-        "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.",
-        num(mean)
-    );
-    if op
-        .waveform
-        .segments()
-        .any(|((ta, _), (tb, _))| tb - ta <= 0.0)
-    {
-        let _ = writeln!(
-            o,
-            "* current jumps are ramps of {} s (a tenth of the highest harmonic's period).",
-            num(min_ramp)
-        );
-    }
-    let _ = write!(o, "Idrive 0 {conv} PWL(");
-    let mut k = 0usize;
-    for p in 0..total {
-        for (j, &(t, v)) in pts.iter().enumerate() {
-            if p > 0 && j == 0 {
-                continue;
-            }
-            if k.is_multiple_of(4) {
-                let _ = write!(o, "\n+ ");
-            }
-            k += 1;
-            let _ = write!(o, "{:.12e} {} ", t + p as f64 * period, num(v));
-        }
-    }
-    let _ = writeln!(o, ")");
-
-    // Filter.
-    let _ = writeln!(o);
-    let filtered = match s.target.bandwidth {
-        Some(bw) => write_filter(&mut o, bnode, bw.0, s.target.bandwidth_order.max(1)),
-        None => {
-            let _ = writeln!(o, "* no measurement bandwidth in the target: pp_limited is measured at the bank's node");
-            bnode.to_string()
-        }
-    };
-
-    let t_stop = total as f64 * period;
-    let t_meas = (total - MEASURE_PERIODS) as f64 * period;
-    let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
-    let mut tmax = period / STEPS_PER_PERIOD;
-    if s.converter.edge_time.0 > 0.0 {
-        tmax = tmax.min(s.converter.edge_time.0 / 10.0);
-    }
-    if let Some(bw) = s.target.bandwidth {
-        tmax = tmax.min(0.05 / bw.0);
-    }
-    let _ = writeln!(o);
-    let _ = writeln!(
-        o,
-        "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
-        num(tau),
-        total,
-        if settle + 2 * MEASURE_PERIODS > MAX_PERIODS {
-            format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)")
-        } else {
-            String::new()
-        }
-    );
-    let _ = writeln!(
-        o,
-        "* Gear integration: the trapezoidal rule rings point to point after the current's corners"
-    );
-    let _ = writeln!(o, ".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9");
-    let _ = writeln!(
-        o,
-        ".tran {} {} {} {}",
-        num(tmax),
-        num(t_stop),
-        num(t_prev),
-        num(tmax)
-    );
-    let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
-    let _ = writeln!(
-        o,
-        ".meas tran pp_full PP v({bnode}) from={} to={}",
-        num(t_meas),
-        num(t_stop)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_limited PP v({filtered}) from={} to={}",
-        num(t_meas),
-        num(t_stop)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_full_prev PP v({bnode}) from={} to={}",
-        num(t_prev),
-        num(t_meas)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_limited_prev PP v({filtered}) from={} to={}",
-        num(t_prev),
-        num(t_meas)
-    );
+    write_dc_path(&mut o, &ckt, bnode, run.op.f_ripple);
+    run.write_source(&mut o, conv);
+    let filtered = write_measured_node(&mut o, problem, bnode);
+    run.write_analyses(&mut o, problem, bnode, &filtered);
     let _ = writeln!(o, ".end");
     Ok(o)
 }
