@@ -1,11 +1,12 @@
 //! Everything the reports say about one bank: the ripple at every corner,
 //! the currents, the totals and every limit, computed by the evaluator.
 
-use crate::catalog::Status;
+use crate::catalog::{Part, Status};
 use crate::evaluator::{Band, Evaluator};
 use crate::limits::{self, LimitId, Totals};
 use crate::problem::{cap_limit_value, Problem};
 use crate::region::{self, Named};
+use crate::scenario::Scenario;
 use anyhow::{bail, Result};
 use serde::Serialize;
 use std::path::Path;
@@ -576,20 +577,31 @@ pub fn assess_opts(
     Ok(assess_with(problem, &mut ev, &bank, &local, opts))
 }
 
-/// As [`assess`], with an evaluator already built over (at least) the bank's parts.
-pub fn assess_with(
+/// The ripple figures of a bank over the corner region.
+struct Figures {
+    /// The worst point of the corner region (target bandwidth).
+    worst: region::Worst,
+    /// The named corners' figures.
+    corners: CornerFigures,
+    /// At the judged corner: target bandwidth and full bandwidth, V.
+    ripple_pp: f64,
+    ripple_pp_full: f64,
+    /// The worst point's figure with half the harmonics (convergence), V.
+    half: f64,
+}
+
+/// The ripple at the worst point, at the named corners and at the corner
+/// `opts` judges at, each from the region search.
+fn figures(
     problem: &Problem,
     ev: &mut Evaluator,
-    bank: &[(usize, u32)],
     local: &[(usize, u32)],
     opts: &AssessOptions,
-) -> Assessment {
-    let s = &problem.scenario;
-    let cat = &problem.catalog;
+) -> Figures {
     let worst = region::worst(problem, ev, local, Band::Limited);
     let named =
         |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
-    let corners_pp = CornerFigures {
+    let corners = CornerFigures {
         low: named(ev, Named::Low),
         high: named(ev, Named::High),
         typical: named(ev, Named::Typical),
@@ -611,15 +623,30 @@ pub fn assess_with(
             region::named_value(problem, ev, local, w, Band::Full),
         ),
     };
-    let ripple_pp_typical = corners_pp.typical;
-    let currents = region::currents(ev, local, Some(&worst));
     let half = if worst.states.len() == local.len() {
         ev.fill_states(local, &worst.states, ev.n_limited);
         ev.pp_filled_n(worst.op, Band::Limited, ev.n_limited / 2)
     } else {
         ripple_pp
     };
-    let worst_corner = WorstCorner {
+    Figures {
+        worst,
+        corners,
+        ripple_pp,
+        ripple_pp_full,
+        half,
+    }
+}
+
+/// The worst point in catalog terms: its input voltage, inductance and
+/// each line's capacitance and ESR.
+fn worst_corner(
+    problem: &Problem,
+    ev: &Evaluator,
+    bank: &[(usize, u32)],
+    worst: &region::Worst,
+) -> WorstCorner {
+    WorstCorner {
         vin: ev.ops.get(worst.op).and_then(|o| o.vin),
         inductance: ev.ops.get(worst.op).and_then(|o| o.inductance),
         lines: bank
@@ -631,38 +658,46 @@ pub fn assess_with(
                 esr: st.esr,
             })
             .collect(),
-    };
-    let vout = s.converter.vout.0;
-    let mut lines = Vec::new();
-    let mut warnings = problem.warnings.clone();
-    if opts.corner != NamedCorner::Worst {
-        warnings.push(format!(
-            "--corner {}: judged at this named corner only, not over the whole corner region (its worst is {})",
-            opts.corner.name(),
-            text_mv(worst.value)
-        ));
     }
-    // The bank's own parts get one note each below; the catalog-wide note
-    // would say the same twice.
-    warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
-    let mut checks = Vec::new();
-    let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
-    let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);
-    let mut area_known = true;
+}
+
+/// The bank's totals (the parts' cost, area, count and capacitances).
+#[derive(Default)]
+struct Sums {
+    parts_cost: f64,
+    area: f64,
+    area_known: bool,
+    count: u32,
+    c_nominal: f64,
+    c_max: f64,
+    c_effective: f64,
+    c_typical: f64,
+    c_limit: f64,
+}
+
+/// The bank's lines with their details, and the totals over them.
+fn bank_lines(problem: &Problem, bank: &[(usize, u32)], currents: &[f64]) -> (Vec<BankLine>, Sums) {
+    let s = &problem.scenario;
+    let vout = s.converter.vout.0;
+    let mut sums = Sums {
+        area_known: true,
+        ..Sums::default()
+    };
+    let mut lines = Vec::new();
     for (j, &(i, n)) in bank.iter().enumerate() {
-        let p = &cat.parts[i];
+        let p = &problem.catalog.parts[i];
         let nf = n as f64;
-        cost += nf * p.cost;
+        sums.parts_cost += nf * p.cost;
         match p.area {
-            Some(a) => area += nf * a,
-            None => area_known = false,
+            Some(a) => sums.area += nf * a,
+            None => sums.area_known = false,
         }
-        count += n;
-        cn += nf * p.capacitance;
-        cmax += nf * p.c_nominal_max();
-        ceff += nf * p.c_worst(vout);
-        ctyp += nf * p.c_typical(vout);
-        climit += nf * cap_limit_value(s, p);
+        sums.count += n;
+        sums.c_nominal += nf * p.capacitance;
+        sums.c_max += nf * p.c_nominal_max();
+        sums.c_effective += nf * p.c_worst(vout);
+        sums.c_typical += nf * p.c_typical(vout);
+        sums.c_limit += nf * cap_limit_value(s, p);
         lines.push(BankLine {
             part: p.id.clone(),
             count: n,
@@ -682,96 +717,119 @@ pub fn assess_with(
             ripple_current_rating: p.ripple_current,
             status: p.status.name().into(),
         });
-        // Per-part rules (the same as eligibility, as checks and warnings).
-        if p.technology.polarised() {
-            warnings.push(format!(
-                "{} is a polarised {} capacitor: mind its orientation, never reverse-bias it{}",
-                p.id,
-                p.technology.name(),
-                if p.technology == crate::catalog::Technology::Tantalum {
-                    ", and follow the maker's surge-current and voltage-derating rules"
-                } else {
-                    ""
-                }
-            ));
-        }
-        let der = s.derating(p.technology);
+    }
+    (lines, sums)
+}
+
+/// One part's own checks (the same rules as eligibility): voltage,
+/// temperature range, height, ripple current, count per part.
+fn part_checks(s: &Scenario, p: &Part, n: u32, current: f64, checks: &mut Vec<Check>) {
+    let vout = s.converter.vout.0;
+    let der = s.derating(p.technology);
+    checks.push(Check {
+        name: format!("voltage {}", p.id),
+        part: Some(p.id.clone()),
+        bound: Bound::AtMost,
+        value: vout,
+        limit: p.rated_voltage * der,
+        unit: "V".into(),
+        ok: p.rated_voltage * der >= vout,
+    });
+    let (tmin, tmax) = p.temperature_range();
+    if let Some(t) = tmin {
         checks.push(Check {
-            name: format!("voltage {}", p.id),
+            name: format!("temperature_min {}", p.id),
             part: Some(p.id.clone()),
             bound: Bound::AtMost,
-            value: vout,
-            limit: p.rated_voltage * der,
-            unit: "V".into(),
-            ok: p.rated_voltage * der >= vout,
+            value: t,
+            limit: s.environment.temperature_min,
+            unit: "°C".into(),
+            ok: t <= s.environment.temperature_min,
         });
-        let (tmin, tmax) = p.temperature_range();
-        if let Some(t) = tmin {
-            checks.push(Check {
-                name: format!("temperature_min {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: t,
-                limit: s.environment.temperature_min,
-                unit: "°C".into(),
-                ok: t <= s.environment.temperature_min,
-            });
-        }
-        if let Some(t) = tmax {
-            checks.push(Check {
-                name: format!("temperature_max {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtLeast,
-                value: t,
-                limit: s.environment.temperature_max,
-                unit: "°C".into(),
-                ok: t >= s.environment.temperature_max,
-            });
-        }
-        if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
-            checks.push(Check {
-                name: format!("height {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: ph,
-                limit: h.0,
-                unit: "mm".into(),
-                ok: ph <= h.0,
-            });
-        }
-        if let Some(r) = p.ripple_current {
-            checks.push(Check {
-                name: format!("ripple_current {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: currents[j],
-                limit: r,
-                unit: "A".into(),
-                ok: currents[j] <= r,
-            });
-        }
-        match p.status {
-            Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
-            Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!(
-                "{} is not recommended for new designs (nrnd)",
-                p.id
-            )),
-            _ => {}
-        }
-        if s.selection.exclude.contains(&p.id) {
-            warnings.push(format!("{} is on the scenario's exclude list", p.id));
-        }
-        if !p.tolerance_given {
-            warnings.push(format!(
-                "{}: no tolerance in the catalog; 20 % assumed",
-                p.id
-            ));
-        }
-        if let Some(c) = limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n) {
-            checks.push(c);
-        }
     }
-    // Where the worst point lies, in words an engineer can act on.
+    if let Some(t) = tmax {
+        checks.push(Check {
+            name: format!("temperature_max {}", p.id),
+            part: Some(p.id.clone()),
+            bound: Bound::AtLeast,
+            value: t,
+            limit: s.environment.temperature_max,
+            unit: "°C".into(),
+            ok: t >= s.environment.temperature_max,
+        });
+    }
+    if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
+        checks.push(Check {
+            name: format!("height {}", p.id),
+            part: Some(p.id.clone()),
+            bound: Bound::AtMost,
+            value: ph,
+            limit: h.0,
+            unit: "mm".into(),
+            ok: ph <= h.0,
+        });
+    }
+    if let Some(r) = p.ripple_current {
+        checks.push(Check {
+            name: format!("ripple_current {}", p.id),
+            part: Some(p.id.clone()),
+            bound: Bound::AtMost,
+            value: current,
+            limit: r,
+            unit: "A".into(),
+            ok: current <= r,
+        });
+    }
+    if let Some(c) = limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n) {
+        checks.push(c);
+    }
+}
+
+/// One part's warnings: polarity, life-cycle status, the exclude list, a
+/// missing tolerance.
+fn part_warnings(s: &Scenario, p: &Part, warnings: &mut Vec<String>) {
+    if p.technology.polarised() {
+        warnings.push(format!(
+            "{} is a polarised {} capacitor: mind its orientation, never reverse-bias it{}",
+            p.id,
+            p.technology.name(),
+            if p.technology == crate::catalog::Technology::Tantalum {
+                ", and follow the maker's surge-current and voltage-derating rules"
+            } else {
+                ""
+            }
+        ));
+    }
+    match p.status {
+        Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
+        Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!(
+            "{} is not recommended for new designs (nrnd)",
+            p.id
+        )),
+        _ => {}
+    }
+    if s.selection.exclude.contains(&p.id) {
+        warnings.push(format!("{} is on the scenario's exclude list", p.id));
+    }
+    if !p.tolerance_given {
+        warnings.push(format!(
+            "{}: no tolerance in the catalog; 20 % assumed",
+            p.id
+        ));
+    }
+}
+
+/// Warnings about the figures: where the worst point lies (in words an
+/// engineer can act on), a typical corner above the target, a series that
+/// has not converged.
+fn figure_warnings(
+    s: &Scenario,
+    ev: &Evaluator,
+    local: &[(usize, u32)],
+    f: &Figures,
+    warnings: &mut Vec<String>,
+) {
+    let (worst, ripple_pp) = (&f.worst, f.ripple_pp);
     let at_high = worst
         .states
         .iter()
@@ -794,14 +852,15 @@ pub fn assess_with(
             "the worst ripple ({}) occurs {what}: this bank is ESL-dominated or anti-resonant near a harmonic, \
              so more capacitance does not lower its ripple (low corner {}, high corner {})",
             text_mv(ripple_pp),
-            text_mv(corners_pp.low),
-            text_mv(corners_pp.high)
+            text_mv(f.corners.low),
+            text_mv(f.corners.high)
         ));
     }
-    if ripple_pp_typical > s.target.ripple_pp.0 && ripple_pp_typical < ripple_pp {
+    let typical = f.corners.typical;
+    if typical > s.target.ripple_pp.0 && typical < ripple_pp {
         warnings.push(format!(
             "the typical corner ({}) is above the target ({}) as well as the worst ({})",
-            text_mv(ripple_pp_typical),
+            text_mv(typical),
             text_mv(s.target.ripple_pp.0),
             text_mv(ripple_pp)
         ));
@@ -810,7 +869,7 @@ pub fn assess_with(
     // figure that still moves by over 2 % when the harmonics are halved has
     // not converged).
     if ev.n_limited >= 8 && ripple_pp.is_finite() && ripple_pp > 0.0 {
-        let moved = (ripple_pp - half).abs() / ripple_pp;
+        let moved = (ripple_pp - f.half).abs() / ripple_pp;
         if moved > 0.02 {
             warnings.push(format!(
                 "the ripple changes by {:.1} % between {} and {} harmonics: the series has not converged; \
@@ -821,72 +880,75 @@ pub fn assess_with(
             ));
         }
     }
-    let nlines = bank.len() as u32;
-    let parts_cost = cost;
-    cost += nlines as f64 * s.selection.line_cost.0;
-    checks.insert(
-        0,
-        Check {
-            name: "ripple_pp".into(),
-            value: ripple_pp,
-            limit: s.target.ripple_pp.0,
-            unit: "V".into(),
-            ok: ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING),
-            part: None,
-            bound: Bound::AtMost,
-        },
-    );
+}
+
+/// The ripple figure against a limit (`ripple_pp`, `ripple_pp with margin`).
+fn ripple_check(name: &str, ripple_pp: f64, limit: f64) -> Check {
+    Check {
+        name: name.into(),
+        value: ripple_pp,
+        limit,
+        unit: "V".into(),
+        ok: ripple_pp <= limit * (1.0 + RIPPLE_ROUNDING),
+        part: None,
+        bound: Bound::AtMost,
+    }
+}
+
+/// The ripple with the design margin and at the typical corner, when the
+/// scenario asks for them.
+fn margin_and_typical_checks(s: &Scenario, ripple_pp: f64, typical: f64) -> Vec<Check> {
+    let mut checks = Vec::new();
     if s.selection.margin.0 > 0.0 {
-        checks.push(Check {
-            name: "ripple_pp with margin".into(),
-            value: ripple_pp,
-            limit: s.design_target(),
-            unit: "V".into(),
-            ok: ripple_pp <= s.design_target() * (1.0 + RIPPLE_ROUNDING),
-            part: None,
-            bound: Bound::AtMost,
-        });
+        checks.push(ripple_check(
+            "ripple_pp with margin",
+            ripple_pp,
+            s.design_target(),
+        ));
     }
     if s.selection.check_typical {
         checks.push(Check {
             name: "ripple_pp_typical".into(),
-            value: ripple_pp_typical,
+            value: typical,
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
-            ok: ripple_pp_typical <= s.target.ripple_pp.0,
+            ok: typical <= s.target.ripple_pp.0,
             part: None,
             bound: Bound::AtMost,
         });
     }
-    // The linear limits, from the one table of them.
-    let totals = Totals {
-        cap_limit: climit,
-        cap_effective: ceff,
-        count,
-        lines: nlines,
-        area,
-        area_known,
-    };
-    checks.extend(limits::checks(s, &totals));
-    if s.board.max_area.is_some() && !area_known {
-        warnings.push("some parts have no area: board.max_area cannot be checked".into());
-    }
-    for (id, &req) in &s.selection.require {
-        let have = bank
-            .iter()
-            .find(|(i, _)| &cat.parts[*i].id == id)
-            .map_or(0, |b| b.1);
-        checks.push(Check {
-            name: format!("require {id}"),
-            part: None,
-            bound: Bound::AtLeast,
-            value: have as f64,
-            limit: req as f64,
-            unit: "".into(),
-            ok: have >= req,
-        });
-    }
-    let corners = problem
+    checks
+}
+
+/// `selection.require`: each required part with at least its count.
+fn require_checks(problem: &Problem, bank: &[(usize, u32)]) -> Vec<Check> {
+    let cat = &problem.catalog;
+    problem
+        .scenario
+        .selection
+        .require
+        .iter()
+        .map(|(id, &req)| {
+            let have = bank
+                .iter()
+                .find(|(i, _)| &cat.parts[*i].id == id)
+                .map_or(0, |b| b.1);
+            Check {
+                name: format!("require {id}"),
+                part: None,
+                bound: Bound::AtLeast,
+                value: have as f64,
+                limit: req as f64,
+                unit: "".into(),
+                ok: have >= req,
+            }
+        })
+        .collect()
+}
+
+/// The converter's named input-voltage corners.
+fn corner_infos(problem: &Problem) -> Vec<CornerInfo> {
+    problem
         .ops
         .iter()
         .map(|op| CornerInfo {
@@ -896,31 +958,84 @@ pub fn assess_with(
             ripple_frequency: op.f_ripple,
             current_pp: op.current_pp,
         })
-        .collect();
+        .collect()
+}
+
+/// As [`assess`], with an evaluator already built over (at least) the bank's parts.
+pub fn assess_with(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    bank: &[(usize, u32)],
+    local: &[(usize, u32)],
+    opts: &AssessOptions,
+) -> Assessment {
+    let s = &problem.scenario;
+    let cat = &problem.catalog;
+    let f = figures(problem, ev, local, opts);
+    let ripple_pp = f.ripple_pp;
+    let currents = region::currents(ev, local, Some(&f.worst));
+    let (lines, sums) = bank_lines(problem, bank, &currents);
+
+    let mut warnings = problem.warnings.clone();
+    if opts.corner != NamedCorner::Worst {
+        warnings.push(format!(
+            "--corner {}: judged at this named corner only, not over the whole corner region (its worst is {})",
+            opts.corner.name(),
+            text_mv(f.worst.value)
+        ));
+    }
+    // The bank's own parts get one note each below; the catalog-wide note
+    // would say the same twice.
+    warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
+    let mut checks = vec![ripple_check("ripple_pp", ripple_pp, s.target.ripple_pp.0)];
+    for (j, &(i, n)) in bank.iter().enumerate() {
+        let p = &cat.parts[i];
+        part_warnings(s, p, &mut warnings);
+        part_checks(s, p, n, currents[j], &mut checks);
+    }
+    figure_warnings(s, ev, local, &f, &mut warnings);
+    checks.extend(margin_and_typical_checks(s, ripple_pp, f.corners.typical));
+
+    // The linear limits, from the one table of them.
+    let nlines = bank.len() as u32;
+    let totals = Totals {
+        cap_limit: sums.c_limit,
+        cap_effective: sums.c_effective,
+        count: sums.count,
+        lines: nlines,
+        area: sums.area,
+        area_known: sums.area_known,
+    };
+    checks.extend(limits::checks(s, &totals));
+    if s.board.max_area.is_some() && !sums.area_known {
+        warnings.push("some parts have no area: board.max_area cannot be checked".into());
+    }
+    checks.extend(require_checks(problem, bank));
+
     let c_at_ripple = capacitance_at_ripple(ev, local, crate::evaluator::Corner::Worst);
     let meets_target = ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING);
     let all_ok = checks.iter().all(|c| c.ok);
     Assessment {
         corner: opts.corner,
         bank: lines,
-        worst_corner,
-        ripple_pp_corners: corners_pp,
+        worst_corner: worst_corner(problem, ev, bank, &f.worst),
+        ripple_pp_corners: f.corners,
         ripple_pp,
-        ripple_pp_typical,
-        ripple_pp_full_bandwidth: ripple_pp_full,
+        ripple_pp_typical: f.corners.typical,
+        ripple_pp_full_bandwidth: f.ripple_pp_full,
         target_ripple_pp: s.target.ripple_pp.0,
         bandwidth: s.target.bandwidth.map(|b| b.0),
         harmonics: ev.n_limited,
-        cost,
-        parts_cost,
-        area,
-        area_known,
-        count,
+        cost: sums.parts_cost + nlines as f64 * s.selection.line_cost.0,
+        parts_cost: sums.parts_cost,
+        area: sums.area,
+        area_known: sums.area_known,
+        count: sums.count,
         lines: nlines,
-        capacitance_nominal_total: cn,
-        capacitance_max_total: cmax,
-        capacitance_effective_total: ceff,
-        capacitance_typical_total: ctyp,
+        capacitance_nominal_total: sums.c_nominal,
+        capacitance_max_total: sums.c_max,
+        capacitance_effective_total: sums.c_effective,
+        capacitance_typical_total: sums.c_typical,
         capacitance_at_ripple_frequency: c_at_ripple,
         ripple_frequency: ev.freqs.first().copied().unwrap_or(0.0),
         ripple_current: bank
@@ -933,7 +1048,7 @@ pub fn assess_with(
             })
             .collect(),
         checks,
-        corners,
+        corners: corner_infos(problem),
         meets_target,
         all_ok,
         warnings,
