@@ -721,64 +721,69 @@ fn bank_lines(problem: &Problem, bank: &[(usize, u32)], currents: &[f64]) -> (Ve
     (lines, sums)
 }
 
+/// A check of one part: `what PART`, held on the side of `limit` that `bound` says.
+fn part_check(p: &Part, what: &str, bound: Bound, value: f64, limit: f64, unit: &str) -> Check {
+    Check {
+        name: format!("{what} {}", p.id),
+        part: Some(p.id.clone()),
+        bound,
+        value,
+        limit,
+        unit: unit.into(),
+        ok: match bound {
+            Bound::AtMost => value <= limit,
+            Bound::AtLeast => value >= limit,
+        },
+    }
+}
+
 /// One part's own checks (the same rules as eligibility): voltage,
 /// temperature range, height, ripple current, count per part.
 fn part_checks(s: &Scenario, p: &Part, n: u32, current: f64, checks: &mut Vec<Check>) {
     let vout = s.converter.vout.0;
     let der = s.derating(p.technology);
-    checks.push(Check {
-        name: format!("voltage {}", p.id),
-        part: Some(p.id.clone()),
-        bound: Bound::AtMost,
-        value: vout,
-        limit: p.rated_voltage * der,
-        unit: "V".into(),
-        ok: p.rated_voltage * der >= vout,
-    });
+    checks.push(part_check(
+        p,
+        "voltage",
+        Bound::AtMost,
+        vout,
+        p.rated_voltage * der,
+        "V",
+    ));
     let (tmin, tmax) = p.temperature_range();
+    let e = &s.environment;
     if let Some(t) = tmin {
-        checks.push(Check {
-            name: format!("temperature_min {}", p.id),
-            part: Some(p.id.clone()),
-            bound: Bound::AtMost,
-            value: t,
-            limit: s.environment.temperature_min,
-            unit: "°C".into(),
-            ok: t <= s.environment.temperature_min,
-        });
+        checks.push(part_check(
+            p,
+            "temperature_min",
+            Bound::AtMost,
+            t,
+            e.temperature_min,
+            "°C",
+        ));
     }
     if let Some(t) = tmax {
-        checks.push(Check {
-            name: format!("temperature_max {}", p.id),
-            part: Some(p.id.clone()),
-            bound: Bound::AtLeast,
-            value: t,
-            limit: s.environment.temperature_max,
-            unit: "°C".into(),
-            ok: t >= s.environment.temperature_max,
-        });
+        checks.push(part_check(
+            p,
+            "temperature_max",
+            Bound::AtLeast,
+            t,
+            e.temperature_max,
+            "°C",
+        ));
     }
     if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
-        checks.push(Check {
-            name: format!("height {}", p.id),
-            part: Some(p.id.clone()),
-            bound: Bound::AtMost,
-            value: ph,
-            limit: h.0,
-            unit: "mm".into(),
-            ok: ph <= h.0,
-        });
+        checks.push(part_check(p, "height", Bound::AtMost, ph, h.0, "mm"));
     }
     if let Some(r) = p.ripple_current {
-        checks.push(Check {
-            name: format!("ripple_current {}", p.id),
-            part: Some(p.id.clone()),
-            bound: Bound::AtMost,
-            value: current,
-            limit: r,
-            unit: "A".into(),
-            ok: current <= r,
-        });
+        checks.push(part_check(
+            p,
+            "ripple_current",
+            Bound::AtMost,
+            current,
+            r,
+            "A",
+        ));
     }
     if let Some(c) = limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n) {
         checks.push(c);
@@ -882,40 +887,38 @@ fn figure_warnings(
     }
 }
 
-/// The ripple figure against a limit (`ripple_pp`, `ripple_pp with margin`).
-fn ripple_check(name: &str, ripple_pp: f64, limit: f64) -> Check {
+/// A ripple figure against a limit, allowing `rounding` (relative).
+fn ripple_row(name: &str, value: f64, limit: f64, rounding: f64) -> Check {
     Check {
         name: name.into(),
-        value: ripple_pp,
+        value,
         limit,
         unit: "V".into(),
-        ok: ripple_pp <= limit * (1.0 + RIPPLE_ROUNDING),
+        ok: value <= limit * (1.0 + rounding),
         part: None,
         bound: Bound::AtMost,
     }
 }
 
-/// The ripple with the design margin and at the typical corner, when the
-/// scenario asks for them.
+/// The ripple with the design margin and at the typical corner (no
+/// rounding allowed there), when the scenario asks for them.
 fn margin_and_typical_checks(s: &Scenario, ripple_pp: f64, typical: f64) -> Vec<Check> {
     let mut checks = Vec::new();
     if s.selection.margin.0 > 0.0 {
-        checks.push(ripple_check(
+        checks.push(ripple_row(
             "ripple_pp with margin",
             ripple_pp,
             s.design_target(),
+            RIPPLE_ROUNDING,
         ));
     }
     if s.selection.check_typical {
-        checks.push(Check {
-            name: "ripple_pp_typical".into(),
-            value: typical,
-            limit: s.target.ripple_pp.0,
-            unit: "V".into(),
-            ok: typical <= s.target.ripple_pp.0,
-            part: None,
-            bound: Bound::AtMost,
-        });
+        checks.push(ripple_row(
+            "ripple_pp_typical",
+            typical,
+            s.target.ripple_pp.0,
+            0.0,
+        ));
     }
     checks
 }
@@ -987,7 +990,12 @@ pub fn assess_with(
     // The bank's own parts get one note each below; the catalog-wide note
     // would say the same twice.
     warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
-    let mut checks = vec![ripple_check("ripple_pp", ripple_pp, s.target.ripple_pp.0)];
+    let mut checks = vec![ripple_row(
+        "ripple_pp",
+        ripple_pp,
+        s.target.ripple_pp.0,
+        RIPPLE_ROUNDING,
+    )];
     for (j, &(i, n)) in bank.iter().enumerate() {
         let p = &cat.parts[i];
         part_warnings(s, p, &mut warnings);

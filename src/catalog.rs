@@ -669,16 +669,11 @@ impl Catalog {
             },
             |p: &Part| (p.id.as_str(), p.line, p.tolerance_given),
         )?;
+        let no_tolerance = read.no_tolerance_note(source, "part(s)");
         cat.parts = read.parts;
         cat.index = read.index;
         unusual.into_warnings(source, &mut cat.warnings);
-        if !read.no_tolerance.is_empty() {
-            cat.warnings.push(format!(
-                "{source}: {} part(s) {NO_TOLERANCE}: {}",
-                read.no_tolerance.len(),
-                name_list(&read.no_tolerance)
-            ));
-        }
+        cat.warnings.extend(no_tolerance);
         Ok(cat)
     }
 }

@@ -4,8 +4,8 @@
 //! semicolon exports with decimal commas, Latin-1 fallback), and every error
 //! names the file, the line and the column.
 
-use crate::catalog::{read_status, Status, NO_TOLERANCE};
-use crate::sheet::{name_list, read_parts, Col, Footprint, Row, Sheet};
+use crate::catalog::{read_status, Status};
+use crate::sheet::{read_parts, Col, Footprint, Row, Sheet};
 use crate::units::{self, Unit};
 use anyhow::Result;
 use std::collections::HashMap;
@@ -130,15 +130,10 @@ impl InductorCatalog {
         let read = read_parts(&sheet, "inductor catalog", read_inductor, |p: &Inductor| {
             (p.id.as_str(), p.line, p.tolerance_given)
         })?;
+        let no_tolerance = read.no_tolerance_note(source, "inductor(s)");
         cat.parts = read.parts;
         cat.index = read.index;
-        if !read.no_tolerance.is_empty() {
-            cat.warnings.push(format!(
-                "{source}: {} inductor(s) {NO_TOLERANCE}: {}",
-                read.no_tolerance.len(),
-                name_list(&read.no_tolerance)
-            ));
-        }
+        cat.warnings.extend(no_tolerance);
         Ok(cat)
     }
 }

@@ -471,6 +471,21 @@ pub struct Parts<T> {
     pub no_tolerance: Vec<String>,
 }
 
+impl<T> Parts<T> {
+    /// The one warning about parts without a tolerance (`noun`: "part(s)",
+    /// "inductor(s)"), naming the first few.
+    pub fn no_tolerance_note(&self, source: &str, noun: &str) -> Option<String> {
+        (!self.no_tolerance.is_empty()).then(|| {
+            format!(
+                "{source}: {} {noun} {}: {}",
+                self.no_tolerance.len(),
+                crate::catalog::NO_TOLERANCE,
+                name_list(&self.no_tolerance)
+            )
+        })
+    }
+}
+
 /// Read every row of `sheet` (a `what`, e.g. "catalog") into parts; `key`
 /// gives a part's id, line and whether its tolerance was given. A repeated
 /// id is an error naming both lines; a sheet without rows is an error.

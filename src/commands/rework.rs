@@ -462,13 +462,5 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
     if let Some(dir) = &c.out {
         write_files(dir, &p, found.then_some(&out.new_bank[..]), &doc, &mut r)?;
     }
-    let stdout = if c.json {
-        report::json_text(doc)
-    } else {
-        text::render(&r)
-    };
-    Ok(CommandOutput {
-        stdout,
-        code: if found { 0 } else { 1 },
-    })
+    Ok(CommandOutput::of(c, doc, &r, if found { 0 } else { 1 }))
 }

@@ -429,10 +429,5 @@ pub fn tradeoff(
     } else {
         1
     };
-    let stdout = if c.json {
-        report::json_text(doc)
-    } else {
-        text::render(&r)
-    };
-    Ok(CommandOutput { stdout, code })
+    Ok(CommandOutput::of(c, doc, &r, code))
 }
