@@ -593,7 +593,7 @@ pub struct Catalog {
 }
 
 /// The catalog's columns and what each holds.
-pub const KNOWN: &[(&str, Col)] = &[
+pub(crate) const KNOWN: &[(&str, Col)] = &[
     ("part", Col::Text),
     ("technology", Col::Text),
     ("capacitance", Col::Value(Unit::Farad)),
@@ -621,7 +621,7 @@ pub const KNOWN: &[(&str, Col)] = &[
     ("description", Col::Text),
 ];
 /// The columns every catalog must have.
-pub const REQUIRED: &[&str] = &[
+pub(crate) const REQUIRED: &[&str] = &[
     "part",
     "technology",
     "capacitance",

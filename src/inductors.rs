@@ -14,10 +14,13 @@ use std::path::Path;
 /// One inductor row.
 #[derive(Debug, Clone)]
 pub struct Inductor {
+    /// Part id (the `part` column).
     pub id: String,
     /// Nominal inductance, H.
     pub inductance: f64,
+    /// Inductance tolerance, a fraction (20 % when not given).
     pub tolerance: f64,
+    /// The catalog gave the tolerance.
     pub tolerance_given: bool,
     /// DC resistance (maximum), Ω.
     pub dcr: f64,
@@ -27,16 +30,25 @@ pub struct Inductor {
     pub saturation_current: f64,
     /// Self-resonant frequency, Hz.
     pub srf: Option<f64>,
+    /// Cost of one part.
     pub cost: f64,
+    /// Case code, if given.
     pub case: Option<String>,
     /// Footprint in mm², from the `area` column or an EIA case code.
     pub area: Option<f64>,
+    /// Height, mm, if given.
     pub height: Option<f64>,
+    /// Lowest rated temperature, °C, if given.
     pub temp_min: Option<f64>,
+    /// Highest rated temperature, °C, if given.
     pub temp_max: Option<f64>,
+    /// Life-cycle status.
     pub status: Status,
+    /// Maker, as written (not used by the model).
     pub manufacturer: Option<String>,
+    /// Maker's part number, as written (not used by the model).
     pub mpn: Option<String>,
+    /// Free text, as written.
     pub description: Option<String>,
     /// Columns beyond the known ones, as (header, value).
     pub extra: Vec<(String, String)>,
@@ -64,16 +76,19 @@ impl Inductor {
 /// A loaded inductor catalog.
 #[derive(Debug, Clone, Default)]
 pub struct InductorCatalog {
+    /// Where the catalog came from (path or bundled name), for messages.
     pub source: String,
+    /// The inductors in file order.
     pub parts: Vec<Inductor>,
     /// Headers of the extra columns, in file order.
     pub extra_columns: Vec<String>,
+    /// Warnings found while reading.
     pub warnings: Vec<String>,
     index: HashMap<String, usize>,
 }
 
 /// The inductor catalog's columns and what each holds.
-pub const KNOWN: &[(&str, Col)] = &[
+pub(crate) const KNOWN: &[(&str, Col)] = &[
     ("part", Col::Text),
     ("inductance", Col::Value(Unit::Henry)),
     ("tolerance", Col::Value(Unit::Fraction)),
@@ -93,7 +108,8 @@ pub const KNOWN: &[(&str, Col)] = &[
     ("description", Col::Text),
 ];
 
-pub const REQUIRED: &[&str] = &[
+/// The columns every inductor catalog must have.
+pub(crate) const REQUIRED: &[&str] = &[
     "part",
     "inductance",
     "dcr",
@@ -103,6 +119,7 @@ pub const REQUIRED: &[&str] = &[
 ];
 
 impl InductorCatalog {
+    /// Read an inductor catalog file; errors name the file, line and column.
     pub fn from_path(path: &Path) -> Result<InductorCatalog> {
         let bytes = std::fs::read(path).map_err(|e| {
             anyhow::anyhow!("{}: cannot read the inductor catalog: {e}", path.display())
@@ -110,10 +127,12 @@ impl InductorCatalog {
         InductorCatalog::from_bytes(&bytes, &path.display().to_string())
     }
 
+    /// The inductor with this id.
     pub fn get(&self, id: &str) -> Option<&Inductor> {
         self.index.get(id).map(|&i| &self.parts[i])
     }
 
+    /// The index in `parts` of the inductor with this id.
     pub fn position(&self, id: &str) -> Option<usize> {
         self.index.get(id).copied()
     }

@@ -29,17 +29,17 @@ pub enum Col {
 
 /// A catalog-like CSV table, read and checked at the header.
 pub struct Sheet {
+    /// Where the table came from (path or bundled name), for messages.
     pub source: String,
-    /// Header names, normalised (lower case, `_` for spaces and hyphens),
-    /// without their unit.
-    pub headers: Vec<String>,
     /// Column index of each known column present.
     pub col: HashMap<&'static str, usize>,
     /// Multiplier for bare numbers of a column whose header gave a unit.
     pub scale: HashMap<&'static str, f64>,
     /// Columns that are not known: (index, normalised header).
     pub extra: Vec<(usize, String)>,
+    /// Semicolon-separated (decimal commas are then read as points).
     pub semicolon: bool,
+    /// Warnings about the header (unknown columns close to a known one).
     pub warnings: Vec<String>,
     /// (line, record) for every row that is not blank.
     pub records: Vec<(u64, csv::StringRecord)>,
@@ -253,7 +253,6 @@ impl Sheet {
         }
         Ok(Sheet {
             source: source.to_string(),
-            headers,
             col,
             scale,
             extra,
@@ -275,16 +274,14 @@ impl Sheet {
 
 /// One row of a [`Sheet`], with readers whose errors name line and column.
 pub struct Row<'a> {
+    /// The row's cells as read.
     pub rec: &'a csv::StringRecord,
     sheet: &'a Sheet,
+    /// Line of the row in its file (1-based, the header is line 1).
     pub line: u64,
 }
 
 impl Row<'_> {
-    pub fn source(&self) -> &str {
-        &self.sheet.source
-    }
-
     /// The trimmed cell of a known column, `None` when absent or empty.
     pub fn raw(&self, name: &str) -> Option<(usize, &str)> {
         let &i = self.sheet.col.get(name)?;
@@ -302,6 +299,7 @@ impl Row<'_> {
         self.sheet.col.get(name).map_or(0, |i| i + 1)
     }
 
+    /// An error naming the file, the row's line and the column.
     pub fn err(&self, name: &str, msg: impl fmt::Display) -> anyhow::Error {
         anyhow::anyhow!(
             "{}: line {}, column {} ({name}): {msg}",
@@ -311,6 +309,7 @@ impl Row<'_> {
         )
     }
 
+    /// The trimmed text of a cell, `None` when absent or empty.
     pub fn text(&self, name: &str) -> Option<String> {
         self.raw(name).map(|(_, v)| v.to_string())
     }
@@ -352,11 +351,14 @@ impl Row<'_> {
         }
     }
 
+    /// A value that must be given: [`Row::num`], empty is an error.
     pub fn req(&self, name: &str, unit: Unit) -> Result<f64> {
         self.num(name, unit)?
             .ok_or_else(|| self.err(name, "required value is empty"))
     }
 
+    /// `v` (read from column `name`) must be above zero, or zero or more
+    /// with `allow_zero`.
     pub fn positive(&self, name: &str, v: f64, allow_zero: bool) -> Result<()> {
         if v < 0.0 || (!allow_zero && v == 0.0) {
             return Err(self.err(
