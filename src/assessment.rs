@@ -390,7 +390,7 @@ pub fn read_bom_rows(path: &Path) -> Result<Vec<BomRow>> {
         .headers()
         .map_err(|e| anyhow::anyhow!("{src}: line 1: {e}"))?
         .iter()
-        .map(|h| crate::sheet::normalise_header(h))
+        .map(crate::sheet::normalise_header)
         .collect();
     let find = |names: &[&str]| {
         names

@@ -67,12 +67,12 @@ quantity!(Money, Unit::Cost);
 /// A word of the trade read in any letter case (`"Buck"`, `"COST"`); an
 /// unknown word is an error that lists the allowed names.
 macro_rules! words {
-    ($(#[$m:meta])* $name:ident { $($variant:ident = $word:literal),+ $(,)? }) => {
+    ($(#[$m:meta])* $name:ident { $($(#[$vm:meta])* $variant:ident = $word:literal),+ $(,)? }) => {
         $(#[$m])*
         #[derive(Debug, Clone, Copy, PartialEq, Eq)]
         #[allow(missing_docs)] // each variant is its own word
         pub enum $name {
-            $($variant),+
+            $($(#[$vm])* $variant),+
         }
 
         impl $name {
@@ -116,18 +116,14 @@ words!(Topology {
 
 words!(
     /// How a bridge converter drives its transformer primary.
+    #[derive(Default)]
     BridgeKind {
+        #[default]
         Full = "full",
         Half = "half",
         PushPull = "push-pull",
     }
 );
-
-impl Default for BridgeKind {
-    fn default() -> Self {
-        BridgeKind::Full
-    }
-}
 
 impl BridgeKind {
     /// Voltage across the primary while a switch pair conducts: `vin`
@@ -284,28 +280,18 @@ pub struct Board {
     pub max_lines: Option<u32>,
 }
 
-words!(Objective {
+words!(#[derive(Default)] Objective {
+    #[default]
     Cost = "cost",
     Area = "area",
     Count = "count",
 });
 
-impl Default for Objective {
-    fn default() -> Self {
-        Objective::Cost
-    }
-}
-
-words!(CapBasis {
+words!(#[derive(Default)] CapBasis {
+    #[default]
     Nominal = "nominal",
     Effective = "effective",
 });
-
-impl Default for CapBasis {
-    fn default() -> Self {
-        CapBasis::Nominal
-    }
-}
 
 /// The `[selection]` table.
 #[derive(Debug, Clone, Deserialize)]
