@@ -3,9 +3,9 @@
 //! Every error names the file, the line and the column. Extra columns are
 //! kept and carried through to the bill of materials.
 
-use crate::sheet::{Col, Row, Sheet};
+use crate::sheet::{name_list, read_parts, Col, Footprint, Row, Sheet};
 use crate::units::{self, Unit};
-use anyhow::{bail, Result};
+use anyhow::Result;
 use std::collections::HashMap;
 use std::fmt;
 use std::path::Path;
@@ -593,7 +593,7 @@ pub struct Catalog {
 }
 
 /// The catalog's columns and what each holds.
-pub const KNOWN: &[(&str, Col)] = &[
+pub(crate) const KNOWN: &[(&str, Col)] = &[
     ("part", Col::Text),
     ("technology", Col::Text),
     ("capacitance", Col::Value(Unit::Farad)),
@@ -621,7 +621,7 @@ pub const KNOWN: &[(&str, Col)] = &[
     ("description", Col::Text),
 ];
 /// The columns every catalog must have.
-pub const REQUIRED: &[&str] = &[
+pub(crate) const REQUIRED: &[&str] = &[
     "part",
     "technology",
     "capacitance",
@@ -658,46 +658,22 @@ impl Catalog {
             warnings: sheet.warnings.clone(),
             ..Default::default()
         };
-        let col = &sheet.col;
-        let mut no_tol: Vec<String> = Vec::new();
         let mut unusual = Unusual::default();
-        for row in sheet.rows() {
-            let line = row.line;
-            let part = read_part(&row)?;
-            unusual.note(&part, col, line);
-            if !part.tolerance_given {
-                no_tol.push(part.id.clone());
-            }
-            if let Some(&prev) = cat.index.get(&part.id) {
-                bail!(
-                    "{source}: line {line}, column {} (part): part `{}` already defined on line {}",
-                    col["part"] + 1,
-                    part.id,
-                    cat.parts[prev].line
-                );
-            }
-            cat.index.insert(part.id.clone(), cat.parts.len());
-            cat.parts.push(part);
-        }
-        if cat.parts.is_empty() {
-            bail!("{source}: line 1: the catalog has a header row but no parts below it");
-        }
+        let read = read_parts(
+            &sheet,
+            "catalog",
+            |row| {
+                let part = read_part(row)?;
+                unusual.note(&part, &sheet.col, row.line);
+                Ok(part)
+            },
+            |p: &Part| (p.id.as_str(), p.line, p.tolerance_given),
+        )?;
+        let no_tolerance = read.no_tolerance_note(source, "part(s)");
+        cat.parts = read.parts;
+        cat.index = read.index;
         unusual.into_warnings(source, &mut cat.warnings);
-        if !no_tol.is_empty() {
-            let mut names = no_tol
-                .iter()
-                .take(8)
-                .cloned()
-                .collect::<Vec<_>>()
-                .join(", ");
-            if no_tol.len() > 8 {
-                names.push_str(", …");
-            }
-            cat.warnings.push(format!(
-                "{source}: {} part(s) {NO_TOLERANCE}: {names}",
-                no_tol.len()
-            ));
-        }
+        cat.warnings.extend(no_tolerance);
         Ok(cat)
     }
 }
@@ -750,16 +726,10 @@ impl Unusual {
 
     fn into_warnings(self, source: &str, out: &mut Vec<String>) {
         for (what, column, entries) in self.kinds {
-            let mut list = entries
-                .iter()
-                .take(8)
-                .cloned()
-                .collect::<Vec<_>>()
-                .join(", ");
-            if entries.len() > 8 {
-                list.push_str(", …");
-            }
-            out.push(format!("{source}: column `{column}`: {what}: {list}"));
+            out.push(format!(
+                "{source}: column `{column}`: {what}: {}",
+                name_list(&entries)
+            ));
         }
     }
 }
@@ -821,18 +791,12 @@ impl<'a> LineCounter<'a> {
 /// likely value (milliohms).
 fn plausible_esr(row: &Row, name: &str, esr: f64) -> Result<()> {
     if esr > 10.0 {
-        let t = row.raw(name).map_or("", |(_, v)| v);
         return Err(row.err(
             name,
             format!(
-                "{} is not a plausible ESR (above 10 Ω); {} {}?",
+                "{} is not a plausible ESR (above 10 Ω); {}",
                 units::format_si(esr, "Ω"),
-                if units::is_bare(t) {
-                    "bare numbers are ohms — did you mean"
-                } else {
-                    "did you mean"
-                },
-                units::suggest_text(t, "m")
+                row.hint(name, "ohms", "m")
             ),
         ));
     }
@@ -840,9 +804,7 @@ fn plausible_esr(row: &Row, name: &str, esr: f64) -> Result<()> {
 }
 
 fn read_part(row: &Row) -> Result<Part> {
-    let id = row
-        .text("part")
-        .ok_or_else(|| row.err("part", "part id is empty"))?;
+    let id = row.part_id()?;
     let tech_text = row
         .text("technology")
         .ok_or_else(|| row.err("technology", "required value is empty"))?;
@@ -857,22 +819,13 @@ fn read_part(row: &Row) -> Result<Part> {
     })?;
     let capacitance = row.req("capacitance", Unit::Farad)?;
     row.positive("capacitance", capacitance, false)?;
-    let cap_text = row.raw("capacitance").map_or("", |(_, v)| v);
-    let bare = |what: &str| {
-        if units::is_bare(cap_text) {
-            format!("bare numbers are {what} — did you mean")
-        } else {
-            "did you mean".to_string()
-        }
-    };
     if capacitance > 100.0 {
         return Err(row.err(
             "capacitance",
             format!(
-                "{} is beyond any output capacitor (did a prefix go missing? {} {}?)",
+                "{} is beyond any output capacitor (did a prefix go missing? {})",
                 units::format_si(capacitance, "F"),
-                bare("farads"),
-                units::suggest_text(cap_text, "u")
+                row.hint("capacitance", "farads", "u")
             ),
         ));
     }
@@ -880,10 +833,9 @@ fn read_part(row: &Row) -> Result<Part> {
         return Err(row.err(
             "capacitance",
             format!(
-                "{} for a ceramic (no ceramic capacitor reaches 1 mF); {} {}?",
+                "{} for a ceramic (no ceramic capacitor reaches 1 mF); {}",
                 units::format_si(capacitance, "F"),
-                bare("farads"),
-                units::suggest_text(cap_text, "u")
+                row.hint("capacitance", "farads", "u")
             ),
         ));
     }
@@ -917,28 +869,18 @@ fn read_part(row: &Row) -> Result<Part> {
     let esl = row.req("esl", Unit::Henry)?;
     row.positive("esl", esl, true)?;
     if esl > 1e-6 {
-        let t = row.raw("esl").map_or("", |(_, v)| v);
         return Err(row.err(
             "esl",
             format!(
-                "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {} {}?",
+                "{} is not a plausible ESL (above 1 µH; a capacitor's own inductance is a few nH); {}",
                 units::format_si(esl, "H"),
-                if units::is_bare(t) { "bare numbers are henries — did you mean" } else { "did you mean" },
-                units::suggest_text(t, "n")
+                row.hint("esl", "henries", "n")
             ),
         ));
     }
     let cost = row.req("cost", Unit::Cost)?;
     row.positive("cost", cost, true)?;
-    let tol = row.num("tolerance", Unit::Fraction)?;
-    if let Some(t) = tol {
-        if !(0.0..1.0).contains(&t) {
-            return Err(row.err(
-                "tolerance",
-                format!("{t} must be at least 0 and below 1 (100 %)"),
-            ));
-        }
-    }
+    let tol = row.tolerance()?;
     let dielectric = match row.text("dielectric") {
         None => None,
         Some(code) => match decode_dielectric(&code) {
@@ -955,29 +897,12 @@ fn read_part(row: &Row) -> Result<Part> {
         None => None,
         Some(t) => Some(BiasCurve::parse(&t).map_err(|e| row.err("dc_bias", e))?),
     };
-    let case = row.text("case");
-    let area = match row.num("area", Unit::Plain)? {
-        Some(a) => {
-            row.positive("area", a, false)?;
-            Some(a)
-        }
-        None => case.as_deref().and_then(eia_case_area),
-    };
-    let height = row.num("height", Unit::Plain)?;
-    if let Some(h) = height {
-        row.positive("height", h, false)?;
-    }
+    let Footprint { case, area, height } = row.footprint()?;
     let ripple_current = row.num("ripple_current", Unit::Ampere)?;
     if let Some(r) = ripple_current {
         row.positive("ripple_current", r, false)?;
     }
-    let temp_min = row.num("temp_min", Unit::Plain)?;
-    let temp_max = row.num("temp_max", Unit::Plain)?;
-    if let (Some(a), Some(b)) = (temp_min, temp_max) {
-        if a >= b {
-            return Err(row.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
-        }
-    }
+    let (temp_min, temp_max) = row.temperature_range()?;
     let temp_drop = row.num("temp_drop", Unit::Fraction)?;
     if let Some(d) = temp_drop {
         if !(0.0..1.0).contains(&d) {

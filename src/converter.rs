@@ -19,9 +19,11 @@ pub struct Waveform {
 /// Operating point of one input-voltage corner, for the report.
 #[derive(Debug, Clone, PartialEq)]
 pub struct OperatingPoint {
+    /// Input voltage, V (`None` for a module given without one).
     pub vin: Option<f64>,
     /// The converter inductance of this point, H (`None` for a module).
     pub inductance: Option<f64>,
+    /// Duty cycle of the switch (for a module, 0).
     pub duty: f64,
     /// Ripple frequency (fsw, or 2·fsw for a bridge), Hz.
     pub f_ripple: f64,
@@ -29,6 +31,7 @@ pub struct OperatingPoint {
     pub current_pp: f64,
     /// `CCM`, `DCM` or empty.
     pub mode: &'static str,
+    /// One period of the current into the bank, A.
     pub waveform: Waveform,
 }
 
@@ -71,6 +74,7 @@ impl Waveform {
             / self.period
     }
 
+    /// Lowest and highest value over the period.
     pub fn min_max(&self) -> (f64, f64) {
         self.points
             .iter()

@@ -34,6 +34,7 @@ pub struct PartModel {
     pub esr_min: f64,
     /// Highest ESR of the corner region (cold), Ω; the `low` corner's.
     pub esr_max: f64,
+    /// Nominal capacitance, F.
     pub c_nominal: f64,
     /// Contribution to the added-capacitance limit, F.
     pub c_limit: f64,
@@ -41,6 +42,7 @@ pub struct PartModel {
     pub esr: f64,
     /// ESL plus the board's mounting inductance, H.
     pub esl: f64,
+    /// Cost of one part.
     pub cost: f64,
     /// mm² (0 when unknown and not needed).
     pub area: f64,
@@ -51,14 +53,18 @@ pub struct PartModel {
 /// Which capacitance corner.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Corner {
+    /// Every part at its lowest capacitance and highest ESR (the `low` corner).
     Worst,
+    /// Nominal capacitance under DC bias, the catalog ESR.
     Typical,
 }
 
 /// Measured with the target's bandwidth limit, or at full bandwidth.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Band {
+    /// Through the target's measurement bandwidth (the target figure).
     Limited,
+    /// Every harmonic, unfiltered.
     Full,
 }
 
@@ -164,12 +170,15 @@ struct Plan {
 /// Evaluates banks built from a fixed list of parts.
 #[derive(Clone)]
 pub struct Evaluator {
+    /// The parts banks are built from (local indices into this list).
     pub parts: Vec<PartModel>,
+    /// Fundamental of the current into the bank, Hz.
     pub f_ripple: f64,
     /// Harmonics used for the target figure.
     pub n_limited: usize,
     /// Harmonics used for the full-bandwidth figure and ripple currents.
     pub n_full: usize,
+    /// Harmonic frequencies k·f_ripple, Hz, n_full long.
     pub freqs: Vec<f64>,
     /// Per vin corner: I_k (peak phasor, A), n_full long.
     pub currents: Vec<Vec<Complex64>>,
@@ -244,6 +253,10 @@ fn samples_for(n: usize) -> usize {
 }
 
 impl Evaluator {
+    /// Tabulate everything a bank's evaluation needs: the harmonics of every
+    /// operating point, the bandwidth filter, the network and every part's
+    /// admittance at every harmonic (see "The evaluator's hot path" in
+    /// DEVELOPERS.md).
     pub fn new(s: &Scenario, ops: &[OperatingPoint], parts: Vec<PartModel>) -> Evaluator {
         let f_ripple = ops[0].f_ripple;
         let bw = s.target.bandwidth.map(|b| b.0);

@@ -4,10 +4,10 @@
 //! semicolon exports with decimal commas, Latin-1 fallback), and every error
 //! names the file, the line and the column.
 
-use crate::catalog::{eia_case_area, read_status, Status, NO_TOLERANCE};
-use crate::sheet::{Col, Row, Sheet};
+use crate::catalog::{read_status, Status};
+use crate::sheet::{read_parts, Col, Footprint, Row, Sheet};
 use crate::units::{self, Unit};
-use anyhow::{bail, Result};
+use anyhow::Result;
 use std::collections::HashMap;
 use std::path::Path;
 
@@ -124,7 +124,7 @@ pub struct InductorCatalog {
 }
 
 /// The inductor catalog's columns and what each holds.
-pub const KNOWN: &[(&str, Col)] = &[
+pub(crate) const KNOWN: &[(&str, Col)] = &[
     ("part", Col::Text),
     ("inductance", Col::Value(Unit::Henry)),
     ("tolerance", Col::Value(Unit::Fraction)),
@@ -182,64 +182,19 @@ impl InductorCatalog {
             warnings: sheet.warnings.clone(),
             ..Default::default()
         };
-        let mut no_tol = Vec::new();
-        for row in sheet.rows() {
-            let part = read_inductor(&row)?;
-            if !part.tolerance_given {
-                no_tol.push(part.id.clone());
-            }
-            if let Some(&prev) = cat.index.get(&part.id) {
-                bail!(
-                    "{source}: line {}, column {} (part): part `{}` already defined on line {}",
-                    row.line,
-                    row.column("part"),
-                    part.id,
-                    cat.parts[prev].line
-                );
-            }
-            cat.index.insert(part.id.clone(), cat.parts.len());
-            cat.parts.push(part);
-        }
-        if cat.parts.is_empty() {
-            bail!("{source}: line 1: the inductor catalog has a header row but no parts below it");
-        }
-        if !no_tol.is_empty() {
-            let mut names = no_tol
-                .iter()
-                .take(8)
-                .cloned()
-                .collect::<Vec<_>>()
-                .join(", ");
-            if no_tol.len() > 8 {
-                names.push_str(", …");
-            }
-            cat.warnings.push(format!(
-                "{source}: {} inductor(s) {NO_TOLERANCE}: {names}",
-                no_tol.len()
-            ));
-        }
+        let read = read_parts(&sheet, "inductor catalog", read_inductor, |p: &Inductor| {
+            (p.id.as_str(), p.line, p.tolerance_given)
+        })?;
+        let no_tolerance = read.no_tolerance_note(source, "inductor(s)");
+        cat.parts = read.parts;
+        cat.index = read.index;
+        cat.warnings.extend(no_tolerance);
         Ok(cat)
     }
 }
 
-/// "bare numbers are X — did you mean" or "did you mean".
-fn hint(row: &Row, name: &str, what: &str, prefix: &str) -> String {
-    let t = row.cell(name);
-    format!(
-        "{} {}?",
-        if units::is_bare(t) {
-            format!("bare numbers are {what} — did you mean")
-        } else {
-            "did you mean".to_string()
-        },
-        units::suggest_text(t, prefix)
-    )
-}
-
 fn read_inductor(row: &Row) -> Result<Inductor> {
-    let id = row
-        .text("part")
-        .ok_or_else(|| row.err("part", "part id is empty"))?;
+    let id = row.part_id()?;
     let inductance = row.req("inductance", Unit::Henry)?;
     row.positive("inductance", inductance, false)?;
     if !(1e-9..=10e-3).contains(&inductance) {
@@ -248,7 +203,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
             format!(
                 "{} is outside 1 nH … 10 mH, where a filter or power inductor lies; {}",
                 units::format_si(inductance, "H"),
-                hint(row, "inductance", "henries", "u")
+                row.hint("inductance", "henries", "u")
             ),
         ));
     }
@@ -279,7 +234,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
             format!(
                 "{} is not a plausible DC resistance for a power inductor (above 10 Ω); {}",
                 units::format_si(dcr, "Ω"),
-                hint(row, "dcr", "ohms", "m")
+                row.hint("dcr", "ohms", "m")
             ),
         ));
     }
@@ -292,7 +247,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
                 format!(
                     "{} is beyond any board-mounted inductor (above 1 kA); {}",
                     units::format_si(i, "A"),
-                    hint(row, name, "amperes", "")
+                    row.hint(name, "amperes", "")
                 ),
             ));
         }
@@ -309,32 +264,15 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
                 format!(
                     "{} is below 1 kHz, no power inductor resonates that low; {}",
                     units::format_si(f, "Hz"),
-                    hint(row, "srf", "hertz", "M")
+                    row.hint("srf", "hertz", "M")
                 ),
             ));
         }
     }
     let cost = row.req("cost", Unit::Cost)?;
     row.positive("cost", cost, true)?;
-    let case = row.text("case");
-    let area = match row.num("area", Unit::Plain)? {
-        Some(a) => {
-            row.positive("area", a, false)?;
-            Some(a)
-        }
-        None => case.as_deref().and_then(eia_case_area),
-    };
-    let height = row.num("height", Unit::Plain)?;
-    if let Some(h) = height {
-        row.positive("height", h, false)?;
-    }
-    let temp_min = row.num("temp_min", Unit::Plain)?;
-    let temp_max = row.num("temp_max", Unit::Plain)?;
-    if let (Some(a), Some(b)) = (temp_min, temp_max) {
-        if a >= b {
-            return Err(row.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
-        }
-    }
+    let Footprint { case, area, height } = row.footprint()?;
+    let (temp_min, temp_max) = row.temperature_range()?;
     Ok(Inductor {
         id,
         inductance,

@@ -406,38 +406,18 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
             let op0 = ev.ops[cur.op].clone();
             if let (Some(v0), true) = (op0.vin, vins.len() > 1) {
                 let (a, b) = bracket(&vins, v0);
-                let st = cur.states.clone();
                 let l = op0.inductance;
-                let mut made: Vec<(f64, usize)> = Vec::new();
-                let (x, v) = golden(a, b, 12, |x| {
-                    let op = ev.add_op(&problem.operating_point(Some(x), l));
-                    made.push((x, op));
-                    value_at(ev, bank, &st, op, band)
+                ascend_op(ev, bank, band, &mut cur, a, b, |x| {
+                    problem.operating_point(Some(x), l)
                 });
-                if v > cur.value {
-                    if let Some(&(_, op)) = made.iter().find(|m| m.0 == x) {
-                        cur.op = op;
-                        cur.value = v;
-                    }
-                }
             }
             // Inductance (flyback, boost), over its whole tolerance.
             let op0 = ev.ops[cur.op].clone();
             if let (Some(_), true) = (op0.inductance, ls.len() > 1) {
                 let (a, b) = (ls[0], ls[ls.len() - 1]);
-                let st = cur.states.clone();
-                let mut made: Vec<(f64, usize)> = Vec::new();
-                let (x, v) = golden(a, b, 12, |x| {
-                    let op = ev.add_op(&problem.operating_point(op0.vin, Some(x)));
-                    made.push((x, op));
-                    value_at(ev, bank, &st, op, band)
+                ascend_op(ev, bank, band, &mut cur, a, b, |x| {
+                    problem.operating_point(op0.vin, Some(x))
                 });
-                if v > cur.value {
-                    if let Some(&(_, op)) = made.iter().find(|m| m.0 == x) {
-                        cur.op = op;
-                        cur.value = v;
-                    }
-                }
             }
             if cur.value <= before * (1.0 + 1e-4) {
                 break;
@@ -448,6 +428,35 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         }
     }
     best
+}
+
+/// One step of the coordinate ascent along an operating-point coordinate
+/// (input voltage or inductance) from `a` to `b`: a golden-section search
+/// over the operating points `point` makes, with the line states of `cur`
+/// kept; `cur` moves to the largest figure found when it is larger.
+#[allow(clippy::too_many_arguments)]
+fn ascend_op(
+    ev: &mut Evaluator,
+    bank: &Bank,
+    band: Band,
+    cur: &mut Worst,
+    a: f64,
+    b: f64,
+    point: impl Fn(f64) -> crate::converter::OperatingPoint,
+) {
+    let st = cur.states.clone();
+    let mut made: Vec<(f64, usize)> = Vec::new();
+    let (x, v) = golden(a, b, 12, |x| {
+        let op = ev.add_op(&point(x));
+        made.push((x, op));
+        value_at(ev, bank, &st, op, band)
+    });
+    if v > cur.value {
+        if let Some(&(_, op)) = made.iter().find(|m| m.0 == x) {
+            cur.op = op;
+            cur.value = v;
+        }
+    }
 }
 
 /// A point the optimizer checks every candidate at: an operating point

@@ -69,12 +69,12 @@ quantity!(Money, Unit::Cost);
 /// A word of the trade read in any letter case (`"Buck"`, `"COST"`); an
 /// unknown word is an error that lists the allowed names.
 macro_rules! words {
-    ($(#[$m:meta])* $name:ident { $($variant:ident = $word:literal),+ $(,)? }) => {
+    ($(#[$m:meta])* $name:ident { $($(#[$vm:meta])* $variant:ident = $word:literal),+ $(,)? }) => {
         $(#[$m])*
         #[derive(Debug, Clone, Copy, PartialEq, Eq)]
         #[allow(missing_docs)] // each variant is its own word
         pub enum $name {
-            $($variant),+
+            $($(#[$vm])* $variant),+
         }
 
         words_for!($name { $($variant = $word),+ });
@@ -147,18 +147,14 @@ words!(Topology {
 
 words!(
     /// How a bridge converter drives its transformer primary.
+    #[derive(Default)]
     BridgeKind {
+        #[default]
         Full = "full",
         Half = "half",
         PushPull = "push-pull",
     }
 );
-
-impl Default for BridgeKind {
-    fn default() -> Self {
-        BridgeKind::Full
-    }
-}
 
 impl BridgeKind {
     /// Voltage across the primary while a switch pair conducts: `vin`
@@ -315,28 +311,18 @@ pub struct Board {
     pub max_lines: Option<u32>,
 }
 
-words!(Objective {
+words!(#[derive(Default)] Objective {
+    #[default]
     Cost = "cost",
     Area = "area",
     Count = "count",
 });
 
-impl Default for Objective {
-    fn default() -> Self {
-        Objective::Cost
-    }
-}
-
-words!(CapBasis {
+words!(#[derive(Default)] CapBasis {
+    #[default]
     Nominal = "nominal",
     Effective = "effective",
 });
-
-impl Default for CapBasis {
-    fn default() -> Self {
-        CapBasis::Nominal
-    }
-}
 
 /// The `[selection]` table.
 #[derive(Debug, Clone, Deserialize)]
@@ -678,24 +664,47 @@ impl Scenario {
         anyhow::anyhow!("{}: key `{key}`: {msg}", self.source)
     }
 
-    /// Physical sanity of the converter and the limits, each error naming its key.
+    /// `key` must be a finite number above zero.
+    fn pos(&self, key: &str, v: f64) -> Result<()> {
+        if !(v > 0.0) || !v.is_finite() {
+            return Err(self.err(key, format!("{v} must be above zero")));
+        }
+        Ok(())
+    }
+
+    /// `key` must be a finite number, zero or more.
+    fn nonneg(&self, key: &str, v: f64) -> Result<()> {
+        if !(v >= 0.0) || !v.is_finite() {
+            return Err(self.err(key, format!("{v} must be zero or more")));
+        }
+        Ok(())
+    }
+
+    /// Physical sanity of the converter and the limits, each error naming its
+    /// key; the first error found is returned.
     fn check(&self) -> Result<()> {
+        self.check_switching()?;
+        self.check_vin()?;
+        self.check_inductance()?;
+        self.check_phases_and_turns()?;
+        self.check_conversion()?;
+        self.check_converter_details()?;
+        self.check_module()?;
+        self.check_target()?;
+        self.check_environment()?;
+        self.check_board()?;
+        if let Some(tr) = &self.transient {
+            self.check_transient(tr)?;
+        }
+        self.check_selection()
+    }
+
+    /// `vout`, `iout` and the switching frequency.
+    fn check_switching(&self) -> Result<()> {
         let c = &self.converter;
-        let pos = |key: &str, v: f64| -> Result<()> {
-            if !(v > 0.0) || !v.is_finite() {
-                return Err(self.err(key, format!("{v} must be above zero")));
-            }
-            Ok(())
-        };
-        let nonneg = |key: &str, v: f64| -> Result<()> {
-            if !(v >= 0.0) || !v.is_finite() {
-                return Err(self.err(key, format!("{v} must be zero or more")));
-            }
-            Ok(())
-        };
-        pos("converter.vout", c.vout.0)?;
-        nonneg("converter.iout", c.iout.0)?;
-        pos("converter.fsw", c.fsw.0)?;
+        self.pos("converter.vout", c.vout.0)?;
+        self.nonneg("converter.iout", c.iout.0)?;
+        self.pos("converter.fsw", c.fsw.0)?;
         if c.fsw.0 < 1e3 {
             return Err(self.err(
                 "converter.fsw",
@@ -715,13 +724,20 @@ impl Scenario {
                 ),
             ));
         }
+        Ok(())
+    }
+
+    /// The input voltages: above zero, in order, and given where the
+    /// topology needs them.
+    fn check_vin(&self) -> Result<()> {
+        let c = &self.converter;
         for (k, v) in [
             ("converter.vin", c.vin),
             ("converter.vin_min", c.vin_min),
             ("converter.vin_max", c.vin_max),
         ] {
             if let Some(v) = v {
-                pos(k, v.0)?;
+                self.pos(k, v.0)?;
             }
         }
         if let (Some(a), Some(b)) = (c.vin_min, c.vin_max) {
@@ -732,37 +748,46 @@ impl Scenario {
                 ));
             }
         }
-        let vins = self.vin_corners();
-        if c.topology != Topology::Module && vins.is_empty() {
+        if c.topology != Topology::Module && self.vin_corners().is_empty() {
             return Err(self.err(
                 "converter.vin",
                 format!("a {} needs vin (or vin_min / vin_max)", c.topology.name()),
             ));
         }
-        if c.topology != Topology::Module {
-            match c.inductance {
-                None => {
-                    return Err(self.err(
-                        "converter.inductance",
-                        format!("a {} needs its inductance", c.topology.name()),
-                    ))
-                }
-                Some(l) => {
-                    pos("converter.inductance", l.0)?;
-                    if !(1e-9..=10e-3).contains(&l.0) {
-                        return Err(self.err(
-                            "converter.inductance",
-                            format!(
-                                "{} is outside 1 nH … 10 mH, where a converter's inductor lies (an ESL is not meant here); \
-                                 bare numbers are henries — did you mean \"{}\"?",
-                                units::format_si(l.0, "H"),
-                                units::suggest(l.0, "u")
-                            ),
-                        ));
-                    }
-                }
-            }
+        Ok(())
+    }
+
+    /// Every topology but a module needs a plausible inductance.
+    fn check_inductance(&self) -> Result<()> {
+        let c = &self.converter;
+        if c.topology == Topology::Module {
+            return Ok(());
         }
+        let Some(l) = c.inductance else {
+            return Err(self.err(
+                "converter.inductance",
+                format!("a {} needs its inductance", c.topology.name()),
+            ));
+        };
+        self.pos("converter.inductance", l.0)?;
+        if !(1e-9..=10e-3).contains(&l.0) {
+            return Err(self.err(
+                "converter.inductance",
+                format!(
+                    "{} is outside 1 nH … 10 mH, where a converter's inductor lies (an ESL is not meant here); \
+                     bare numbers are henries — did you mean \"{}\"?",
+                    units::format_si(l.0, "H"),
+                    units::suggest(l.0, "u")
+                ),
+            ));
+        }
+        Ok(())
+    }
+
+    /// Interleaved phases (buck only) and the transformer's turns ratio
+    /// (isolated topologies).
+    fn check_phases_and_turns(&self) -> Result<()> {
+        let c = &self.converter;
         if c.phases == 0 || c.phases > 16 {
             return Err(self.err(
                 "converter.phases",
@@ -780,17 +805,20 @@ impl Scenario {
             Topology::Forward | Topology::Bridge | Topology::Flyback
         );
         match c.turns_ratio {
-            None if isolated => {
-                return Err(self.err(
-                    "converter.turns_ratio",
-                    format!("a {} needs turns_ratio (Ns/Np)", c.topology.name()),
-                ))
-            }
-            Some(n) => pos("converter.turns_ratio", n.0)?,
-            None => {}
+            None if isolated => Err(self.err(
+                "converter.turns_ratio",
+                format!("a {} needs turns_ratio (Ns/Np)", c.topology.name()),
+            )),
+            Some(n) => self.pos("converter.turns_ratio", n.0),
+            None => Ok(()),
         }
+    }
+
+    /// At every vin corner the converter can make `vout`.
+    fn check_conversion(&self) -> Result<()> {
+        let c = &self.converter;
         let n = c.turns_ratio.map_or(1.0, |n| n.0);
-        for &vin in &vins {
+        for vin in self.vin_corners() {
             match c.topology {
                 Topology::Buck | Topology::Forward | Topology::Bridge => {
                     let d = c.vout.0 / (c.primary_voltage(vin) * n);
@@ -841,6 +869,13 @@ impl Scenario {
         if c.topology == Topology::Boost && c.iout.0 <= 0.0 {
             return Err(self.err("converter.iout", "a boost needs a load current above zero"));
         }
+        Ok(())
+    }
+
+    /// Inductance tolerance, standalone order, edge time, the maker's
+    /// capacitance limits and the internal capacitance.
+    fn check_converter_details(&self) -> Result<()> {
+        let c = &self.converter;
         if let Some(t) = c.inductance_tolerance {
             if !(0.0..0.9).contains(&t.0) {
                 return Err(self.err(
@@ -857,7 +892,7 @@ impl Scenario {
                 ));
             }
         }
-        nonneg("converter.edge_time", c.edge_time.0)?;
+        self.nonneg("converter.edge_time", c.edge_time.0)?;
         if c.edge_time.0 * c.fsw.0 > 0.2 {
             return Err(self.err(
                 "converter.edge_time",
@@ -868,42 +903,53 @@ impl Scenario {
             ));
         }
         if let Some(m) = c.max_capacitance {
-            pos("converter.max_capacitance", m.0)?;
+            self.pos("converter.max_capacitance", m.0)?;
             if c.min_capacitance.0 > m.0 {
                 return Err(self.err("converter.min_capacitance", "is above max_capacitance"));
             }
         }
-        nonneg("converter.min_capacitance", c.min_capacitance.0)?;
+        self.nonneg("converter.min_capacitance", c.min_capacitance.0)?;
         if let Some(ci) = c.internal_capacitance {
-            pos("converter.internal_capacitance", ci.0)?;
+            self.pos("converter.internal_capacitance", ci.0)?;
         }
-        nonneg("converter.internal_esr", c.internal_esr.0)?;
-        nonneg("converter.internal_esl", c.internal_esl.0)?;
-        if c.topology == Topology::Module {
-            match c.standalone_ripple_pp {
-                None => {
-                    return Err(self.err(
-                        "converter.standalone_ripple_pp",
-                        "a module needs its measured ripple without added capacitors",
-                    ))
-                }
-                Some(v) => pos("converter.standalone_ripple_pp", v.0)?,
-            }
-            if c.internal_capacitance.is_none() {
+        self.nonneg("converter.internal_esr", c.internal_esr.0)?;
+        self.nonneg("converter.internal_esl", c.internal_esl.0)
+    }
+
+    /// A module needs its standalone ripple and the capacitance that gave
+    /// it (a standalone figure at full bandwidth is allowed).
+    fn check_module(&self) -> Result<()> {
+        let c = &self.converter;
+        if c.topology != Topology::Module {
+            return Ok(());
+        }
+        match c.standalone_ripple_pp {
+            None => {
                 return Err(self.err(
-                    "converter.internal_capacitance",
-                    "a module needs the capacitance already on its output (the bank that gave standalone_ripple_pp)",
-                ));
+                    "converter.standalone_ripple_pp",
+                    "a module needs its measured ripple without added capacitors",
+                ))
             }
-            if c.standalone_bandwidth.is_none() && self.target.bandwidth.is_none() {
-                // Full bandwidth standalone figure: allowed.
-            }
-            if let Some(b) = c.standalone_bandwidth {
-                pos("converter.standalone_bandwidth", b.0)?;
-            }
+            Some(v) => self.pos("converter.standalone_ripple_pp", v.0)?,
         }
+        if c.internal_capacitance.is_none() {
+            return Err(self.err(
+                "converter.internal_capacitance",
+                "a module needs the capacitance already on its output (the bank that gave standalone_ripple_pp)",
+            ));
+        }
+        if let Some(b) = c.standalone_bandwidth {
+            self.pos("converter.standalone_bandwidth", b.0)?;
+        }
+        Ok(())
+    }
+
+    /// The ripple limit, the bandwidths (above the ripple frequency), the
+    /// filter order and the harmonic count.
+    fn check_target(&self) -> Result<()> {
+        let c = &self.converter;
         let t = &self.target;
-        pos("target.ripple_pp", t.ripple_pp.0)?;
+        self.pos("target.ripple_pp", t.ripple_pp.0)?;
         if t.ripple_pp.0 >= c.vout.0 {
             return Err(self.err(
                 "target.ripple_pp",
@@ -922,7 +968,7 @@ impl Scenario {
             ("converter.standalone_bandwidth", c.standalone_bandwidth),
         ] {
             let Some(b) = bw else { continue };
-            pos(key, b.0)?;
+            self.pos(key, b.0)?;
             if b.0 < f_ripple {
                 return Err(self.err(
                     key,
@@ -948,6 +994,11 @@ impl Scenario {
                 format!("{} is more than 20000", t.harmonics),
             ));
         }
+        Ok(())
+    }
+
+    /// The temperature range and the service hours.
+    fn check_environment(&self) -> Result<()> {
         let e = &self.environment;
         if !e.temperature_min.is_finite()
             || !e.temperature_max.is_finite()
@@ -967,17 +1018,20 @@ impl Scenario {
                 ),
             ));
         }
+        Ok(())
+    }
+
+    /// The board's inductances and limits. A connection inductance without
+    /// internal capacitance is fine: the bank is then fed through it directly.
+    fn check_board(&self) -> Result<()> {
         let b = &self.board;
-        nonneg("board.mounting_inductance", b.mounting_inductance.0)?;
-        nonneg("board.connection_inductance", b.connection_inductance.0)?;
-        if b.connection_inductance.0 > 0.0 && c.internal_capacitance.is_none() {
-            // Fine: the bank is then fed through the inductance directly.
-        }
+        self.nonneg("board.mounting_inductance", b.mounting_inductance.0)?;
+        self.nonneg("board.connection_inductance", b.connection_inductance.0)?;
         if let Some(a) = b.max_area {
-            pos("board.max_area", a.0)?;
+            self.pos("board.max_area", a.0)?;
         }
         if let Some(h) = b.max_height {
-            pos("board.max_height", h.0)?;
+            self.pos("board.max_height", h.0)?;
         }
         if b.max_lines == Some(0) {
             return Err(self.err("board.max_lines", "must be at least 1"));
@@ -988,11 +1042,13 @@ impl Scenario {
                 "must be at least 1 (no bank could be placed)",
             ));
         }
-        if let Some(tr) = &self.transient {
-            self.check_transient(tr)?;
-        }
+        Ok(())
+    }
+
+    /// Line cost, count per part, margin, derating factors and required parts.
+    fn check_selection(&self) -> Result<()> {
         let s = &self.selection;
-        nonneg("selection.line_cost", s.line_cost.0)?;
+        self.nonneg("selection.line_cost", s.line_cost.0)?;
         if s.max_per_part == 0 || s.max_per_part > 10000 {
             return Err(self.err("selection.max_per_part", "must be from 1 to 10000"));
         }

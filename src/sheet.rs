@@ -29,17 +29,17 @@ pub enum Col {
 
 /// A catalog-like CSV table, read and checked at the header.
 pub struct Sheet {
+    /// Where the table came from (path or bundled name), for messages.
     pub source: String,
-    /// Header names, normalised (lower case, `_` for spaces and hyphens),
-    /// without their unit.
-    pub headers: Vec<String>,
     /// Column index of each known column present.
     pub col: HashMap<&'static str, usize>,
     /// Multiplier for bare numbers of a column whose header gave a unit.
     pub scale: HashMap<&'static str, f64>,
     /// Columns that are not known: (index, normalised header).
     pub extra: Vec<(usize, String)>,
+    /// Semicolon-separated (decimal commas are then read as points).
     pub semicolon: bool,
+    /// Warnings about the header (unknown columns close to a known one).
     pub warnings: Vec<String>,
     /// (line, record) for every row that is not blank.
     pub records: Vec<(u64, csv::StringRecord)>,
@@ -253,7 +253,6 @@ impl Sheet {
         }
         Ok(Sheet {
             source: source.to_string(),
-            headers,
             col,
             scale,
             extra,
@@ -275,16 +274,14 @@ impl Sheet {
 
 /// One row of a [`Sheet`], with readers whose errors name line and column.
 pub struct Row<'a> {
+    /// The row's cells as read.
     pub rec: &'a csv::StringRecord,
     sheet: &'a Sheet,
+    /// Line of the row in its file (1-based, the header is line 1).
     pub line: u64,
 }
 
 impl Row<'_> {
-    pub fn source(&self) -> &str {
-        &self.sheet.source
-    }
-
     /// The trimmed cell of a known column, `None` when absent or empty.
     pub fn raw(&self, name: &str) -> Option<(usize, &str)> {
         let &i = self.sheet.col.get(name)?;
@@ -302,6 +299,7 @@ impl Row<'_> {
         self.sheet.col.get(name).map_or(0, |i| i + 1)
     }
 
+    /// An error naming the file, the row's line and the column.
     pub fn err(&self, name: &str, msg: impl fmt::Display) -> anyhow::Error {
         anyhow::anyhow!(
             "{}: line {}, column {} ({name}): {msg}",
@@ -311,6 +309,7 @@ impl Row<'_> {
         )
     }
 
+    /// The trimmed text of a cell, `None` when absent or empty.
     pub fn text(&self, name: &str) -> Option<String> {
         self.raw(name).map(|(_, v)| v.to_string())
     }
@@ -352,11 +351,14 @@ impl Row<'_> {
         }
     }
 
+    /// A value that must be given: [`Row::num`], empty is an error.
     pub fn req(&self, name: &str, unit: Unit) -> Result<f64> {
         self.num(name, unit)?
             .ok_or_else(|| self.err(name, "required value is empty"))
     }
 
+    /// `v` (read from column `name`) must be above zero, or zero or more
+    /// with `allow_zero`.
     pub fn positive(&self, name: &str, v: f64, allow_zero: bool) -> Result<()> {
         if v < 0.0 || (!allow_zero && v == 0.0) {
             return Err(self.err(
@@ -382,6 +384,158 @@ impl Row<'_> {
             .map(|(i, h)| (h.clone(), self.rec.get(*i).unwrap_or("").to_string()))
             .collect()
     }
+
+    // The columns both catalogs share, read the same way.
+
+    /// The likely intended value of an implausible cell: "bare numbers are
+    /// `what` — did you mean X?" for a bare number, else "did you mean X?".
+    pub fn hint(&self, name: &str, what: &str, prefix: &str) -> String {
+        let t = self.cell(name);
+        format!(
+            "{} {}?",
+            if units::is_bare(t) {
+                format!("bare numbers are {what} — did you mean")
+            } else {
+                "did you mean".to_string()
+            },
+            units::suggest_text(t, prefix)
+        )
+    }
+
+    /// The `part` column: the part's id, never empty.
+    pub fn part_id(&self) -> Result<String> {
+        self.text("part")
+            .ok_or_else(|| self.err("part", "part id is empty"))
+    }
+
+    /// The `tolerance` column, from 0 to below 1 (`None` when empty).
+    pub fn tolerance(&self) -> Result<Option<f64>> {
+        let tol = self.num("tolerance", Unit::Fraction)?;
+        if let Some(t) = tol {
+            if !(0.0..1.0).contains(&t) {
+                return Err(self.err(
+                    "tolerance",
+                    format!("{t} must be at least 0 and below 1 (100 %)"),
+                ));
+            }
+        }
+        Ok(tol)
+    }
+
+    /// The `case`, `area` (mm², from the EIA case code when empty) and
+    /// `height` (mm) columns.
+    pub fn footprint(&self) -> Result<Footprint> {
+        let case = self.text("case");
+        let area = match self.num("area", Unit::Plain)? {
+            Some(a) => {
+                self.positive("area", a, false)?;
+                Some(a)
+            }
+            None => case.as_deref().and_then(crate::catalog::eia_case_area),
+        };
+        let height = self.num("height", Unit::Plain)?;
+        if let Some(h) = height {
+            self.positive("height", h, false)?;
+        }
+        Ok(Footprint { case, area, height })
+    }
+
+    /// The `temp_min` and `temp_max` columns, °C; `temp_max` above `temp_min`.
+    pub fn temperature_range(&self) -> Result<(Option<f64>, Option<f64>)> {
+        let temp_min = self.num("temp_min", Unit::Plain)?;
+        let temp_max = self.num("temp_max", Unit::Plain)?;
+        if let (Some(a), Some(b)) = (temp_min, temp_max) {
+            if a >= b {
+                return Err(self.err("temp_max", format!("{b} °C is not above temp_min {a} °C")));
+            }
+        }
+        Ok((temp_min, temp_max))
+    }
+}
+
+/// A part's footprint as a catalog gives it.
+pub struct Footprint {
+    /// Case code, if given.
+    pub case: Option<String>,
+    /// mm², given or from the EIA case code.
+    pub area: Option<f64>,
+    /// mm, if given.
+    pub height: Option<f64>,
+}
+
+/// The parts of a catalog sheet, read row by row with `read`.
+pub struct Parts<T> {
+    /// In file order.
+    pub parts: Vec<T>,
+    /// Part id to its index in `parts`.
+    pub index: HashMap<String, usize>,
+    /// Ids of the parts without a tolerance.
+    pub no_tolerance: Vec<String>,
+}
+
+impl<T> Parts<T> {
+    /// The one warning about parts without a tolerance (`noun`: "part(s)",
+    /// "inductor(s)"), naming the first few.
+    pub fn no_tolerance_note(&self, source: &str, noun: &str) -> Option<String> {
+        (!self.no_tolerance.is_empty()).then(|| {
+            format!(
+                "{source}: {} {noun} {}: {}",
+                self.no_tolerance.len(),
+                crate::catalog::NO_TOLERANCE,
+                name_list(&self.no_tolerance)
+            )
+        })
+    }
+}
+
+/// Read every row of `sheet` (a `what`, e.g. "catalog") into parts; `key`
+/// gives a part's id, line and whether its tolerance was given. A repeated
+/// id is an error naming both lines; a sheet without rows is an error.
+pub fn read_parts<T>(
+    sheet: &Sheet,
+    what: &str,
+    mut read: impl FnMut(&Row) -> Result<T>,
+    key: impl Fn(&T) -> (&str, u64, bool),
+) -> Result<Parts<T>> {
+    let mut out = Parts {
+        parts: Vec::new(),
+        index: HashMap::new(),
+        no_tolerance: Vec::new(),
+    };
+    for row in sheet.rows() {
+        let part = read(&row)?;
+        let (id, _, tolerance_given) = key(&part);
+        if !tolerance_given {
+            out.no_tolerance.push(id.to_string());
+        }
+        if let Some(&prev) = out.index.get(id) {
+            bail!(
+                "{}: line {}, column {} (part): part `{id}` already defined on line {}",
+                sheet.source,
+                row.line,
+                row.column("part"),
+                key(&out.parts[prev]).1
+            );
+        }
+        out.index.insert(id.to_string(), out.parts.len());
+        out.parts.push(part);
+    }
+    if out.parts.is_empty() {
+        bail!(
+            "{}: line 1: the {what} has a header row but no parts below it",
+            sheet.source
+        );
+    }
+    Ok(out)
+}
+
+/// The first eight names, then ", …" when there are more.
+pub fn name_list(names: &[String]) -> String {
+    let mut list = names.iter().take(8).cloned().collect::<Vec<_>>().join(", ");
+    if names.len() > 8 {
+        list.push_str(", …");
+    }
+    list
 }
 
 #[cfg(test)]

@@ -46,10 +46,47 @@ fn max_capacitance() {
     let (mut s, c) = demo();
     let limit = b.capacitance_max_total * 0.9;
     s.converter.max_capacitance = Some(Farads(limit));
+    assert!(
+        b.capacitance_max_total > limit,
+        "unconstrained, the design breaks the limit"
+    );
     let (_, a) = solve(s, c);
     let a = a.expect("a smaller bank exists");
+    // The demo's basis is `nominal`: Σ n·C_nom·(1 + tol), the bank's
+    // capacitance_max_total.
     assert!(a.capacitance_max_total <= limit * (1.0 + 1e-12));
     assert!(a.cost >= b.cost - 1e-12);
+}
+
+#[test]
+fn min_capacitance() {
+    // Above the cost design's low-corner capacitance Σ n·C_low and well
+    // within the demo's max_capacitance: feasible, and the cost design
+    // breaks it.
+    let b = baseline();
+    let limit = b.capacitance_effective_total * 1.3;
+    let (mut s, c) = demo();
+    let max = s.converter.max_capacitance.expect("the demo has max_capacitance").0;
+    assert!(
+        limit * 1.5 < max,
+        "the limit leaves room under max_capacitance ({limit} vs {max})"
+    );
+    assert!(
+        b.capacitance_effective_total < limit,
+        "unconstrained, the design breaks the limit"
+    );
+    s.converter.min_capacitance = Farads(limit);
+    let (_, a) = solve(s, c);
+    let a = a.expect("a larger bank exists");
+    assert!(
+        a.capacitance_effective_total >= limit * (1.0 - 1e-12),
+        "{} F < {limit} F",
+        a.capacitance_effective_total
+    );
+    assert!(
+        a.cost > b.cost,
+        "more capacitance than the cheapest bank costs more"
+    );
 }
 
 #[test]

@@ -317,10 +317,5 @@ pub fn design(
         files.commit(dir)?;
     }
     let code = if out.found.is_some() { 0 } else { 1 };
-    let stdout = if c.json {
-        report::json_text(doc)
-    } else {
-        text::render(&rep)
-    };
-    Ok(CommandOutput { stdout, code })
+    Ok(CommandOutput::of(c, doc, &rep, code))
 }

@@ -61,6 +61,18 @@ pub(crate) fn load(c: &Common, o: &Overrides) -> Result<(Problem, Run)> {
     Ok((p, Run::now(inputs)))
 }
 
+impl CommandOutput {
+    /// The JSON document with `--json`, else the text report.
+    pub(crate) fn of(c: &Common, doc: serde_json::Value, r: &Report, code: u8) -> Self {
+        let stdout = if c.json {
+            report::json_text(doc)
+        } else {
+            text::render(r)
+        };
+        CommandOutput { stdout, code }
+    }
+}
+
 /// The JSON document of a run with no bank: every key present, the bank
 /// figures null or zero, plus the lowest ripple found and the binding limits.
 pub(crate) fn infeasible_doc(
@@ -338,15 +350,7 @@ pub fn assess(
     if let Some(dir) = &c.out {
         bank_files(&p, &bank, &a, &doc, &r)?.commit(dir)?;
     }
-    let stdout = if c.json {
-        report::json_text(doc)
-    } else {
-        text::render(&r)
-    };
-    Ok(CommandOutput {
-        stdout,
-        code: if a.all_ok { 0 } else { 1 },
-    })
+    Ok(CommandOutput::of(c, doc, &r, if a.all_ok { 0 } else { 1 }))
 }
 
 /// Show progress only on a terminal and never with --json.

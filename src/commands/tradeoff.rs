@@ -8,7 +8,7 @@ use crate::problem::Problem;
 use crate::report::model::{self, Report, Table};
 use crate::report::{self, text, OutFiles};
 use anyhow::Result;
-use serde_json::json;
+use serde_json::{json, Value};
 
 fn volts_arg(name: &str, v: Option<&str>) -> Result<Option<f64>> {
     match v {
@@ -48,25 +48,21 @@ fn point_settings() -> optimize::Settings {
     }
 }
 
-/// `tradeoff`: the best bank at each of a range of ripple targets.
-pub fn tradeoff(
-    c: &Common,
-    from: Option<&str>,
-    to: Option<&str>,
-    points: usize,
-) -> Result<CommandOutput> {
-    use indicatif::{ProgressBar, ProgressStyle};
-    let (p, run) = load(c, &Overrides::default())?;
-    if !(2..=200).contains(&points) {
-        anyhow::bail!("--points: {points} must be from 2 to 200");
-    }
-    let from = volts_arg("from", from)?;
-    let to = volts_arg("to", to)?;
-    let show = show_progress(c);
+/// The range of targets: its ends (echoed to 12 significant digits) and
+/// a note on how the upper end was chosen when `--to` was not given.
+struct Span {
+    lo: f64,
+    hi: f64,
+    note: String,
+}
+
+/// The ends of the range: `--from` or the lowest ripple any bank reaches,
+/// `--to` or the converter alone (or [`TRADEOFF_SPAN`] × the target).
+fn span(p: &Problem, from: Option<f64>, to: Option<f64>) -> Result<Span> {
     let lo = match from {
         Some(v) => v,
         None => {
-            let r = optimize::lowest_ripple(&p, &point_settings()).ripple_pp;
+            let r = optimize::lowest_ripple(p, &point_settings()).ripple_pp;
             if !r.is_finite() {
                 anyhow::bail!(
                     "no bank can be built from the eligible parts; see `ripplebank validate`"
@@ -81,7 +77,7 @@ pub fn tradeoff(
         Some(v) => v,
         None if p.scenario.converter.internal_capacitance.is_some() => {
             // The converter alone: the loosest meaningful target.
-            let a = assessment::assess(&p, &[])?;
+            let a = assessment::assess(p, &[])?;
             note = format!(
                 "The upper end of the range is the converter alone (its internal capacitance, no added capacitors): {}. Use --to to change it.",
                 text::mv(a.ripple_pp)
@@ -125,8 +121,16 @@ pub fn tradeoff(
     };
     // Targets echo the user's values (--from, --to, the scenario's target):
     // 12 significant digits, so `10u` prints as 1e-5 (the ends exactly as given).
-    let (lo, hi) = (report::echoed(lo), report::echoed(hi));
-    let target = report::echoed(target);
+    Ok(Span {
+        lo: report::echoed(lo),
+        hi: report::echoed(hi),
+        note,
+    })
+}
+
+/// `points` geometric targets from `lo` to `hi`, and the scenario's own
+/// `target` (always a row).
+fn targets(lo: f64, hi: f64, target: f64, points: usize) -> Vec<f64> {
     let mut targets: Vec<f64> = (0..points)
         .map(|j| match j {
             0 => lo,
@@ -134,13 +138,20 @@ pub fn tradeoff(
             j => report::echoed(lo * (hi / lo).powf(j as f64 / (points - 1) as f64)),
         })
         .collect();
-    // The scenario's own target is always a row.
     if !targets.iter().any(|&t| (t - target).abs() <= 1e-9 * target) {
         targets.push(target);
         targets.sort_by(f64::total_cmp);
     }
+    targets
+}
+
+/// The best bank at each target. The targets are independent searches:
+/// they are spread over the cores, each worker taking the next unsolved
+/// target, so tight (slow) and loose (fast) targets share the cores evenly.
+fn solve_all(p: &Problem, targets: &[f64], show: bool) -> Vec<(f64, optimize::DesignOutcome)> {
+    use indicatif::{ProgressBar, ProgressStyle};
     let pb = if show {
-        ProgressBar::new(points as u64)
+        ProgressBar::new(targets.len() as u64)
     } else {
         ProgressBar::hidden()
     };
@@ -150,12 +161,9 @@ pub fn tradeoff(
             .progress_chars("=> "),
     );
     let settings = point_settings();
-    // The targets are independent searches: spread them over the cores.
     let workers = std::thread::available_parallelism()
         .map_or(1, |n| n.get())
         .min(targets.len());
-    // Each worker takes the next unsolved target, so tight (slow) and loose
-    // (fast) targets share the cores evenly.
     let next = std::sync::atomic::AtomicUsize::new(0);
     let slots: std::sync::Mutex<Vec<Option<optimize::DesignOutcome>>> =
         std::sync::Mutex::new(vec![None; targets.len()]);
@@ -164,7 +172,7 @@ pub fn tradeoff(
             scope.spawn(|| loop {
                 let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
                 let Some(&t) = targets.get(j) else { break };
-                let out = optimize::design_for(&p, t, &settings);
+                let out = optimize::design_for(p, t, &settings);
                 slots.lock().expect("no worker panics")[j] = Some(out);
                 pb.inc(1);
             });
@@ -172,20 +180,23 @@ pub fn tradeoff(
     });
     pb.finish_and_clear();
     let slots = slots.into_inner().expect("no worker panics");
-    let mut results: Vec<(f64, optimize::DesignOutcome)> = targets
+    targets
         .iter()
         .copied()
         .zip(slots.into_iter().map(|o| o.expect("every target solved")))
-        .collect();
-    // Each target's own result, before the front is made monotone below
-    // (reported as `raw`, so the optimizer's per-target answers can be checked).
-    let mut raw_json = Vec::new();
-    for (t, out) in &results {
+        .collect()
+}
+
+/// Each target's own result, before the front is made monotone (reported
+/// as `raw`, so the optimizer's per-target answers can be checked).
+fn raw_points(p: &Problem, results: &[(f64, optimize::DesignOutcome)]) -> Result<Vec<Value>> {
+    let mut raw = Vec::new();
+    for (t, out) in results {
         let a = match &out.found {
-            Some(f) => Some(assessment::assess(&p, &f.bank)?),
+            Some(f) => Some(assessment::assess(p, &f.bank)?),
             None => None,
         };
-        raw_json.push(json!({
+        raw.push(json!({
             "target": t,
             "status": out.status.name(),
             "ripple_pp": a.as_ref().map(|a| a.ripple_pp),
@@ -195,8 +206,12 @@ pub fn tradeoff(
             "bank": a.as_ref().map_or(json!([]), |a| json!(a.bank)),
         }));
     }
-    // A bank that meets a tighter target meets every looser one: keep the
-    // front monotone when the search could not prove a point optimal.
+    Ok(raw)
+}
+
+/// A bank that meets a tighter target meets every looser one: keep the
+/// front monotone when the search could not prove a point optimal.
+fn make_monotone(results: &mut [(f64, optimize::DesignOutcome)]) {
     for j in 1..results.len() {
         let prev = results[j - 1].1.found.clone();
         if let (Some(pf), Some(cf)) = (prev, &results[j].1.found) {
@@ -209,9 +224,25 @@ pub fn tradeoff(
             results[j].1.status = optimize::Status::Feasible;
         }
     }
-    let mut json_points = Vec::new();
-    let mut plot_points = Vec::new();
-    let mut rows = Vec::new();
+}
+
+/// The front in every form it is written: JSON points, plot points, report
+/// rows and `tradeoff.csv`.
+struct Front {
+    json: Vec<Value>,
+    plot: Vec<report::plots::TradeoffPoint>,
+    rows: Vec<Vec<String>>,
+    csv: Vec<u8>,
+}
+
+/// Every point of the front assessed, in each form.
+fn front(p: &Problem, results: &[(f64, optimize::DesignOutcome)], target: f64) -> Result<Front> {
+    let mut f = Front {
+        json: Vec::new(),
+        plot: Vec::new(),
+        rows: Vec::new(),
+        csv: Vec::new(),
+    };
     let mut csv = csv::Writer::from_writer(Vec::new());
     csv.write_record([
         "target",
@@ -224,23 +255,24 @@ pub fn tradeoff(
         "bank",
     ])?;
     let mut prev_cost: Option<(f64, f64)> = None;
-    for (t, out) in &results {
+    for (t, out) in results {
+        let is_scenario = (t - target).abs() <= 1e-9 * target;
         let (bank_json, ripple, cost, area, count, key) = match &out.found {
             Some(f) => {
-                let a = assessment::assess(&p, &f.bank)?;
+                let a = assessment::assess(p, &f.bank)?;
                 (
                     serde_json::to_value(&a.bank)?,
                     Some(a.ripple_pp),
                     Some(a.cost),
                     Some(a.area),
                     Some(a.count),
-                    bank_key(&p, &f.bank),
+                    bank_key(p, &f.bank),
                 )
             }
             None => (json!([]), None, None, None, None, String::new()),
         };
-        json_points.push(json!({
-            "target": t, "scenario_target": (t - target).abs() <= 1e-9 * target, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
+        f.json.push(json!({
+            "target": t, "scenario_target": is_scenario, "status": out.status.name(), "ripple_pp": ripple, "cost": cost, "area": area,
             "count": count, "bank": bank_json,
         }));
         csv.write_record([
@@ -264,8 +296,8 @@ pub fn tradeoff(
         if let Some(cc) = cost {
             prev_cost = Some((*t, cc));
         }
-        rows.push(vec![
-            if (t - target).abs() <= 1e-9 * target {
+        f.rows.push(vec![
+            if is_scenario {
                 format!("{} (scenario)", text::mv(*t))
             } else {
                 text::mv(*t)
@@ -282,7 +314,7 @@ pub fn tradeoff(
                 Some(_) => key.clone(),
             },
         ]);
-        plot_points.push(report::plots::TradeoffPoint {
+        f.plot.push(report::plots::TradeoffPoint {
             target: *t,
             status: out.status.name().to_string(),
             ripple_pp: ripple,
@@ -292,17 +324,31 @@ pub fn tradeoff(
             bank_key: key,
         });
     }
-    let mut r = Report::new("Ripple trade-off", Some(&run));
-    r.push(model::header(&p));
+    f.csv = csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?;
+    Ok(f)
+}
+
+/// The text and HTML report of a trade-off.
+fn tradeoff_report(
+    p: &Problem,
+    run: &crate::run::Run,
+    span: &Span,
+    n_targets: usize,
+    rows: Vec<Vec<String>>,
+    quiet: bool,
+    filtered: Option<&FilterRows>,
+) -> Report {
+    let mut r = Report::new("Ripple trade-off", Some(run));
+    r.push(model::header(p));
     r.line(format!(
         "Objective: {}",
         p.scenario.selection.objective.name()
     ));
     r.para(format!(
         "Trade-off: {} ripple targets from {} to {} (geometric, with the scenario's own target)",
-        targets.len(),
-        text::mv(lo),
-        text::mv(hi)
+        n_targets,
+        text::mv(span.lo),
+        text::mv(span.hi)
     ));
     r.table(Table::new(
         &[
@@ -317,27 +363,20 @@ pub fn tradeoff(
         ],
         rows,
     ));
-    if !c.quiet {
+    if !quiet {
         r.para(
         "'cost per mV' is what each millivolt costs between this row and the one above: the extra cost of the \
          tighter bank divided by the millivolts gained. Every bank is verified by the evaluator at its target.",
         );
     }
-    if !note.is_empty() {
-        if c.quiet {
-            r.para(note.clone());
+    if !span.note.is_empty() {
+        if quiet {
+            r.para(span.note.clone());
         } else {
-            r.line(note.clone());
+            r.line(span.note.clone());
         }
     }
-    // With `[filter] use` auto or on: the filtered design at every target
-    // beside the capacitor-only one, and where the filter starts to pay.
-    let filtered = if p.scenario.filter.usage != crate::filter::FilterUse::Off {
-        Some(filter_rows(&p, &results, &settings)?)
-    } else {
-        None
-    };
-    if let Some((rows, pays, _)) = &filtered {
+    if let Some((rows, pays, _)) = filtered {
         r.para("With a post-filter (the best filtered design at each target)");
         r.table(Table::new(
             &["target", "status", "cost", "capacitors only", "better", "filter"],
@@ -352,12 +391,44 @@ pub fn tradeoff(
         });
     }
     r.push(model::cautions());
+    r
+}
+
+/// `tradeoff`: the best bank at each of a range of ripple targets.
+pub fn tradeoff(
+    c: &Common,
+    from: Option<&str>,
+    to: Option<&str>,
+    points: usize,
+) -> Result<CommandOutput> {
+    let (p, run) = load(c, &Overrides::default())?;
+    if !(2..=200).contains(&points) {
+        anyhow::bail!("--points: {points} must be from 2 to 200");
+    }
+    let from = volts_arg("from", from)?;
+    let to = volts_arg("to", to)?;
+    let span = span(&p, from, to)?;
+    let target = report::echoed(p.scenario.target.ripple_pp.0);
+    let targets = targets(span.lo, span.hi, target, points);
+    let mut results = solve_all(&p, &targets, show_progress(c));
+    let raw_json = raw_points(&p, &results)?;
+    make_monotone(&mut results);
+    let front = front(&p, &results, target)?;
+    // With `[filter] use` auto or on: the filtered design at every target
+    // beside the capacitor-only one, and where the filter starts to pay.
+    let filtered = if p.scenario.filter.usage != crate::filter::FilterUse::Off {
+        Some(filter_rows(&p, &results, &point_settings())?)
+    } else {
+        None
+    };
+    let r = tradeoff_report(&p, &run, &span, targets.len(), front.rows, c.quiet, filtered.as_ref());
+    let note = &span.note;
     let mut doc = json!({
         "status": "done",
         "scenario": p.scenario.name,
         "objective": p.scenario.selection.objective.name(),
-        "from": lo, "to": hi,
-        "points": json_points,
+        "from": span.lo, "to": span.hi,
+        "points": front.json,
         "raw": raw_json,
         "excluded": p.excluded,
         "warnings": p.warnings.iter().cloned().chain((!note.is_empty()).then(|| note.clone())).collect::<Vec<_>>(),
@@ -369,12 +440,9 @@ pub fn tradeoff(
     run.stamp(&mut doc);
     if let Some(dir) = &c.out {
         let plots =
-            report::plots::tradeoff_plots(&plot_points, Some(p.scenario.target.ripple_pp.0))?;
+            report::plots::tradeoff_plots(&front.plot, Some(p.scenario.target.ripple_pp.0))?;
         let mut files = OutFiles::default();
-        files.add(
-            "tradeoff.csv",
-            csv.into_inner().map_err(|e| anyhow::anyhow!("{e}"))?,
-        );
+        files.add("tradeoff.csv", front.csv);
         files.add("report.json", report::json_text(doc.clone()));
         files.add("report.html", report::html::render(&r, &plots));
         for (name, svg) in plots {
@@ -388,13 +456,11 @@ pub fn tradeoff(
     } else {
         1
     };
-    let stdout = if c.json {
-        report::json_text(doc)
-    } else {
-        text::render(&r)
-    };
-    Ok(CommandOutput { stdout, code })
+    Ok(CommandOutput::of(c, doc, &r, code))
 }
+
+/// The filtered rows of a trade-off: text rows, where the filter pays, JSON points.
+type FilterRows = (Vec<Vec<String>>, Option<f64>, Vec<serde_json::Value>);
 
 /// The filtered design at each target of `results` (capacitor-only
 /// outcomes): text rows, the loosest target where the filter is better, and
@@ -403,7 +469,7 @@ fn filter_rows(
     p: &Problem,
     results: &[(f64, optimize::DesignOutcome)],
     settings: &optimize::Settings,
-) -> Result<(Vec<Vec<String>>, Option<f64>, Vec<serde_json::Value>)> {
+) -> Result<FilterRows> {
     let mut rows = Vec::new();
     let mut points = Vec::new();
     let mut pays: Option<f64> = None;

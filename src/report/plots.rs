@@ -15,7 +15,8 @@ use crate::problem::Problem;
 use crate::units::format_si;
 use anyhow::{anyhow, bail, Result};
 use num_complex::Complex64;
-use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint};
+use plotters::coord::ranged1d::{AsRangedCoord, DefaultFormatting, KeyPointHint, ValueFormatter};
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -463,6 +464,106 @@ fn svg(height: u32, title: &str, draw: impl FnOnce(&Area) -> Result<()>) -> Resu
     Ok(s)
 }
 
+/// The chart area every plot draws into.
+type Chart<'a, 'b, X, Y> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<X, Y>>;
+
+/// One axis of a chart: its description, tick labels and labelled ticks.
+struct Axis<'f> {
+    desc: &'f str,
+    /// Tick label of an axis value (the values are f64 on every plot).
+    label: &'f dyn Fn(&f64) -> String,
+    /// Labelled ticks; `None` keeps plotters' own choice.
+    ticks: Option<usize>,
+}
+
+/// An axis with plotters' own tick count.
+fn axis<'f>(desc: &'f str, label: &'f dyn Fn(&f64) -> String) -> Axis<'f> {
+    Axis {
+        desc,
+        label,
+        ticks: None,
+    }
+}
+
+/// What a chart's frame shows around the data: the title strip, the axes
+/// and the legend below the chart.
+struct Frame<'f> {
+    /// Height of the title strip and the chart together, px (the legend
+    /// is added below).
+    height: u32,
+    title: &'f str,
+    subtitle: &'f str,
+    x: Axis<'f>,
+    y: Axis<'f>,
+    /// Light grid lines between labelled ticks; `None` keeps plotters' own.
+    max_light_lines: Option<usize>,
+    /// The legend entries (one column).
+    entries: &'f [Entry],
+    /// Height below the entries for what `below_legend` draws, px.
+    extra_legend: u32,
+}
+
+/// Nothing below the legend.
+fn no_key(_: &Area) -> Result<()> {
+    Ok(())
+}
+
+/// One plot as SVG text: the frame (background, title and subtitle, chart
+/// margins, styled mesh with axis labels, legend), `draw` for the data on
+/// the chart and `below_legend` for anything under the legend entries.
+fn chart_svg<XR, YR>(
+    frame: Frame,
+    x: XR,
+    y: YR,
+    draw: impl FnOnce(&mut Chart<XR::CoordDescType, YR::CoordDescType>) -> Result<()>,
+    below_legend: impl FnOnce(&Area) -> Result<()>,
+) -> Result<String>
+where
+    XR: AsRangedCoord<Value = f64>,
+    YR: AsRangedCoord<Value = f64>,
+    XR::CoordDescType: ValueFormatter<f64>,
+    YR::CoordDescType: ValueFormatter<f64>,
+{
+    let cols = 1;
+    let lh = legend_height(frame.entries.len(), cols) + frame.extra_legend;
+    svg(frame.height + lh, frame.title, |root| {
+        let rest = titled(root, frame.title, frame.subtitle)?;
+        let (plot, legend) = rest.split_vertically(frame.height - 62);
+        let mut chart = ChartBuilder::on(&plot)
+            .margin_left(10)
+            .margin_right(30)
+            .margin_top(10)
+            .x_label_area_size(56)
+            .y_label_area_size(96)
+            .build_cartesian_2d(x, y)
+            .map_err(pe)?;
+        let mut mesh = chart.configure_mesh();
+        mesh.x_desc(frame.x.desc)
+            .y_desc(frame.y.desc)
+            .x_label_formatter(frame.x.label)
+            .y_label_formatter(frame.y.label);
+        if let Some(n) = frame.x.ticks {
+            mesh.x_labels(n);
+        }
+        if let Some(n) = frame.y.ticks {
+            mesh.y_labels(n);
+        }
+        if let Some(n) = frame.max_light_lines {
+            mesh.max_light_lines(n);
+        }
+        mesh.label_style((FONT, 15).into_font().color(&INK))
+            .axis_desc_style((FONT, 17).into_font().color(&INK))
+            .bold_line_style(GRID_BOLD.stroke_width(1))
+            .light_line_style(GRID_LIGHT.stroke_width(1))
+            .axis_style(INK.stroke_width(1))
+            .draw()
+            .map_err(pe)?;
+        draw(&mut chart)?;
+        draw_legend(&legend, frame.entries, cols, 110)?;
+        below_legend(&legend)
+    })
+}
+
 /// Escape text for XML/HTML content and attribute values.
 pub fn xml_escape(s: &str) -> String {
     let mut o = String::with_capacity(s.len());
@@ -840,8 +941,6 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         ALERT,
         Mark::Bar,
     ));
-    let cols = 1;
-    let lh = legend_height(entries.len(), cols);
     let title = "Impedance of the bank and its parts";
     let subtitle = format!(
         "worst-case capacitance, harmonics of the worst corner ({}), budget {} p-p at {}",
@@ -849,32 +948,19 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         format_si(a.target_ripple_pp, "V"),
         band_text(problem)
     );
-    svg(600 + lh, title, |root| {
-        let rest = titled(root, title, &subtitle)?;
-        let (plot, legend) = rest.split_vertically(600 - 62);
-        let mut chart = ChartBuilder::on(&plot)
-            .margin_left(10)
-            .margin_right(30)
-            .margin_top(10)
-            .x_label_area_size(56)
-            .y_label_area_size(96)
-            .build_cartesian_2d(log_axis(xlo, xhi), log_axis(ylo, yhi))
-            .map_err(pe)?;
-        let fx = |v: &f64| log_label(*v, "Hz");
-        let fy = |v: &f64| log_label(*v, "Ω");
-        chart
-            .configure_mesh()
-            .x_desc("frequency (Hz)")
-            .y_desc("|Z| (Ω)")
-            .x_label_formatter(&fx)
-            .y_label_formatter(&fy)
-            .label_style((FONT, 15).into_font().color(&INK))
-            .axis_desc_style((FONT, 17).into_font().color(&INK))
-            .bold_line_style(GRID_BOLD.stroke_width(1))
-            .light_line_style(GRID_LIGHT.stroke_width(1))
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(pe)?;
+    let fx = |v: &f64| log_label(*v, "Hz");
+    let fy = |v: &f64| log_label(*v, "Ω");
+    let frame = Frame {
+        height: 600,
+        title,
+        subtitle: &subtitle,
+        x: axis("frequency (Hz)", &fx),
+        y: axis("|Z| (Ω)", &fy),
+        max_light_lines: None,
+        entries: &entries,
+        extra_legend: 0,
+    };
+    let draw = |chart: &mut Chart<LogAxis, LogAxis>| {
         // The bank first and thick, the lines on top and thin: a bank of
         // one line shows both curves, one inside the other.
         for run in log_runs(&d.freqs, &d.bank, ylo, yhi) {
@@ -920,8 +1006,9 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
                     .map(|&(f, z)| Circle::new((f.log10(), z.log10()), 3, INK.filled())),
             )
             .map_err(pe)?;
-        draw_legend(&legend, &entries, cols, 110)
-    })
+        Ok(())
+    };
+    chart_svg(frame, log_axis(xlo, xhi), log_axis(ylo, yhi), draw, no_key)
 }
 
 fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<String> {
@@ -972,8 +1059,6 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
             Mark::Dashed,
         ),
     ];
-    let cols = 1;
-    let lh = legend_height(entries.len(), cols);
     let title = "Output ripple at the worst corner";
     let subtitle = format!(
         "{}, worst-case capacitance, {} periods of {} — {}",
@@ -986,35 +1071,25 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
             "MISSES the target"
         }
     );
-    svg(560 + lh, title, |root| {
-        let rest = titled(root, title, &subtitle)?;
-        let (plot, legend) = rest.split_vertically(560 - 62);
-        let mut chart = ChartBuilder::on(&plot)
-            .margin_left(10)
-            .margin_right(30)
-            .margin_top(10)
-            .x_label_area_size(56)
-            .y_label_area_size(96)
-            .build_cartesian_2d(0.0..xhi, ylo..yhi)
-            .map_err(pe)?;
-        let fx = |v: &f64| trim_num(*v);
-        let fy = |v: &f64| trim_num(*v);
-        chart
-            .configure_mesh()
-            .x_desc("time (µs)")
-            .y_desc("output ripple (mV)")
-            .x_label_formatter(&fx)
-            .y_label_formatter(&fy)
-            .x_labels(12)
-            .y_labels(10)
-            .max_light_lines(4)
-            .label_style((FONT, 15).into_font().color(&INK))
-            .axis_desc_style((FONT, 17).into_font().color(&INK))
-            .bold_line_style(GRID_BOLD.stroke_width(1))
-            .light_line_style(GRID_LIGHT.stroke_width(1))
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(pe)?;
+    let fx = |v: &f64| trim_num(*v);
+    let fy = |v: &f64| trim_num(*v);
+    let frame = Frame {
+        height: 560,
+        title,
+        subtitle: &subtitle,
+        x: Axis {
+            ticks: Some(12),
+            ..axis("time (µs)", &fx)
+        },
+        y: Axis {
+            ticks: Some(10),
+            ..axis("output ripple (mV)", &fy)
+        },
+        max_light_lines: Some(4),
+        entries: &entries,
+        extra_legend: 0,
+    };
+    let draw = |chart: &mut Chart<RangedCoordf64, RangedCoordf64>| {
         // The thick bandwidth-limited trace first, the thin full-band one on
         // top in a contrasting colour so that both stay visible.
         chart
@@ -1033,8 +1108,9 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
                 ))
                 .map_err(pe)?;
         }
-        draw_legend(&legend, &entries, cols, 110)
-    })
+        Ok(())
+    };
+    chart_svg(frame, 0.0..xhi, ylo..yhi, draw, no_key)
 }
 
 /// A tick number without float noise: 0.30000000000000004 → 0.3.
@@ -1084,40 +1160,25 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
             Mark::Dotted,
         ));
     }
-    let cols = 1;
-    let lh = legend_height(entries.len(), cols);
     let title = "Harmonic voltage against the budget";
     let subtitle = format!(
         "worst corner ({}), worst-case capacitance; all harmonics together: {} p-p",
         vin_text(d.vin),
         format_si(a.ripple_pp, "V")
     );
-    svg(560 + lh, title, |root| {
-        let rest = titled(root, title, &subtitle)?;
-        let (plot, legend) = rest.split_vertically(560 - 62);
-        let mut chart = ChartBuilder::on(&plot)
-            .margin_left(10)
-            .margin_right(30)
-            .margin_top(10)
-            .x_label_area_size(56)
-            .y_label_area_size(96)
-            .build_cartesian_2d(log_axis(xlo, xhi), log_axis(ylo, yhi))
-            .map_err(pe)?;
-        let fx = |v: &f64| log_label(*v, "Hz");
-        let fy = |v: &f64| log_label(*v, "V");
-        chart
-            .configure_mesh()
-            .x_desc("frequency (Hz)")
-            .y_desc("harmonic voltage, peak-to-peak (V)")
-            .x_label_formatter(&fx)
-            .y_label_formatter(&fy)
-            .label_style((FONT, 15).into_font().color(&INK))
-            .axis_desc_style((FONT, 17).into_font().color(&INK))
-            .bold_line_style(GRID_BOLD.stroke_width(1))
-            .light_line_style(GRID_LIGHT.stroke_width(1))
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(pe)?;
+    let fx = |v: &f64| log_label(*v, "Hz");
+    let fy = |v: &f64| log_label(*v, "V");
+    let frame = Frame {
+        height: 560,
+        title,
+        subtitle: &subtitle,
+        x: axis("frequency (Hz)", &fx),
+        y: axis("harmonic voltage, peak-to-peak (V)", &fy),
+        max_light_lines: None,
+        entries: &entries,
+        extra_legend: 0,
+    };
+    let draw = |chart: &mut Chart<LogAxis, LogAxis>| {
         let shown: Vec<(f64, f64)> = d
             .freqs
             .iter()
@@ -1161,8 +1222,9 @@ fn spectrum_svg(problem: &Problem, d: &SpectrumData, a: &Assessment) -> Result<S
                 ))
                 .map_err(pe)?;
         }
-        draw_legend(&legend, &entries, cols, 110)
-    })
+        Ok(())
+    };
+    chart_svg(frame, log_axis(xlo, xhi), log_axis(ylo, yhi), draw, no_key)
 }
 
 // ---------------------------------------------------------------- trade-off plots
@@ -1202,7 +1264,7 @@ pub fn tradeoff_plots(
         number.push(Some(n + 1));
     }
     let mut out = Vec::new();
-    for (file, what, axis, title) in [
+    for (file, what, y_desc, title) in [
         (
             "cost.svg",
             Quantity::Cost,
@@ -1224,7 +1286,7 @@ pub fn tradeoff_plots(
                 &changed,
                 &keys,
                 what,
-                axis,
+                y_desc,
                 title,
                 scenario_target,
             )?,
@@ -1246,7 +1308,7 @@ fn tradeoff_svg(
     changed: &[bool],
     keys: &[String],
     what: Quantity,
-    axis: &str,
+    y_desc: &str,
     title: &str,
     scenario_target: Option<f64>,
 ) -> Result<String> {
@@ -1300,9 +1362,7 @@ fn tradeoff_svg(
             }
         })
         .collect();
-    let lh = legend_height(entries.len(), 1)
-        + (key_lines.len() as u32) * 20
-        + if key_lines.is_empty() { 0 } else { 14 };
+    let extra_legend = (key_lines.len() as u32) * 20 + if key_lines.is_empty() { 0 } else { 14 };
     let subtitle = match what {
         Quantity::Cost => {
             "each point is the bank chosen for that target; tighter targets to the left"
@@ -1311,34 +1371,22 @@ fn tradeoff_svg(
             "footprint of the bank chosen for each target; tighter targets to the left"
         }
     };
-    svg(540 + lh, title, |root| {
-        let rest = titled(root, title, subtitle)?;
-        let (plot, legend) = rest.split_vertically(540 - 62);
-        let mut chart = ChartBuilder::on(&plot)
-            .margin_left(10)
-            .margin_right(30)
-            .margin_top(10)
-            .x_label_area_size(56)
-            .y_label_area_size(96)
-            .build_cartesian_2d(log_axis(xlo, xhi), 0.0..yhi)
-            .map_err(pe)?;
-        let fx = |v: &f64| trim_num(sig3(10f64.powf(*v)));
-        let fy = |v: &f64| trim_num(*v);
-        chart
-            .configure_mesh()
-            .x_desc("ripple target, peak-to-peak (mV)")
-            .y_desc(axis)
-            .x_label_formatter(&fx)
-            .y_label_formatter(&fy)
-            .y_labels(8)
-            .max_light_lines(4)
-            .label_style((FONT, 15).into_font().color(&INK))
-            .axis_desc_style((FONT, 17).into_font().color(&INK))
-            .bold_line_style(GRID_BOLD.stroke_width(1))
-            .light_line_style(GRID_LIGHT.stroke_width(1))
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(pe)?;
+    let fx = |v: &f64| trim_num(sig3(10f64.powf(*v)));
+    let fy = |v: &f64| trim_num(*v);
+    let frame = Frame {
+        height: 540,
+        title,
+        subtitle,
+        x: axis("ripple target, peak-to-peak (mV)", &fx),
+        y: Axis {
+            ticks: Some(8),
+            ..axis(y_desc, &fy)
+        },
+        max_light_lines: Some(4),
+        entries: &entries,
+        extra_legend,
+    };
+    let draw = |chart: &mut Chart<LogAxis, RangedCoordf64>| {
         let line: Vec<(f64, f64)> = pts
             .iter()
             .filter_map(|p| val(p).map(|v| ((p.target * 1e3).log10(), v)))
@@ -1431,7 +1479,10 @@ fn tradeoff_svg(
                 )))
                 .map_err(pe)?;
         }
-        draw_legend(&legend, &entries, 1, 110)?;
+        Ok(())
+    };
+    // The key of the bank numbers, under the legend entries.
+    let bank_key = |legend: &Area| {
         if !key_lines.is_empty() {
             let y0 = legend_height(entries.len(), 1) as i32;
             let head = TextStyle::from((FONT, 15).into_font().style(FontStyle::Bold))
@@ -1450,7 +1501,8 @@ fn tradeoff_svg(
             }
         }
         Ok(())
-    })
+    };
+    chart_svg(frame, log_axis(xlo, xhi), 0.0..yhi, draw, bank_key)
 }
 
 /// Round to three significant digits (tick labels of a log axis).
