@@ -398,7 +398,7 @@ fn branch_tau(esr_max: f64, esr_min: f64, l: f64, c: f64) -> f64 {
 }
 
 /// Slower decay time of a series R-L-C loop (`L s² + R s + 1/C = 0`), s.
-fn loop_tau(r: f64, l: f64, c: f64) -> f64 {
+pub(crate) fn loop_tau(r: f64, l: f64, c: f64) -> f64 {
     if l <= 0.0 {
         return r * c;
     }

@@ -783,3 +783,217 @@ fn load_step_matches_ngspice_transient() {
     // settled value (the ESR's share), the slow loop's near it.
     assert!(r_fast > 2.0 * r_slow, "peak/settled {r_fast} vs {r_slow}");
 }
+
+// ---- The LC post-filter: the ladder of bank.cir against the evaluator.
+
+/// Invented inductors (demo data, no real parts): one without a
+/// self-resonant frequency (no winding capacitance), one with it.
+const FILTER_INDUCTORS: &str = "\
+part,inductance,tolerance,dcr,rated_current,saturation_current,srf,cost,height
+T-L-1U,1u,20%,14m,8,9.5,,0.16,2
+T-L-0U47,0.47u,20%,4.5m,15,20,,0.20,3
+T-L-2U2-SRF,2.2u,20%,17m,8,9,55M,0.23,3
+";
+
+/// The sealed 5 V module of the bundled filter demo (invented), its target
+/// loosened so that any of these filters is a fair case.
+const MODULE: &str = r#"
+name = "test module with post-filter (invented)"
+[converter]
+topology = "module"
+vin = 12
+vout = 5
+iout = 1.2
+fsw = "400k"
+standalone_ripple_pp = "30m"
+standalone_bandwidth = "20M"
+internal_capacitance = "10u"
+internal_esr = "5m"
+internal_esl = "1n"
+[target]
+ripple_pp = "5m"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.3n"
+"#;
+
+fn filtered(
+    scenario: &str,
+    bank_spec: &[(&str, u32)],
+    inductor: &str,
+    load: &[(&str, u32)],
+    damping: Option<(f64, &str, u32)>,
+) -> (Problem, Vec<(usize, u32)>) {
+    let s = Scenario::from_str(scenario, "test scenario").expect("scenario");
+    let c = Catalog::from_bytes(CATALOG.as_bytes(), "test catalog").expect("catalog");
+    let l = ripplebank::inductors::InductorCatalog::from_bytes(
+        FILTER_INDUCTORS.as_bytes(),
+        "test inductors",
+    )
+    .expect("inductors");
+    let p = Problem::with_inductors(s, c, Some(l)).expect("problem");
+    let b = bank(&p, bank_spec);
+    let f = ripplebank::filter::FilterDesign {
+        inductor: p.inductors.as_ref().unwrap().position(inductor).unwrap(),
+        count: 1,
+        load_bank: bank(&p, load),
+        damping: damping.map(|(r, id, n)| ripplebank::filter::DampingLeg {
+            resistance: r,
+            capacitor: p.catalog.position(id).unwrap(),
+            count: n,
+        }),
+    };
+    (p.with_filter(f), b)
+}
+
+/// The evaluator's figures at the worst point of the load node's ripple
+/// (where bank.cir is written) against ngspice's transient at both nodes:
+/// (target bandwidth, full bandwidth) at the load node and at the
+/// converter-side node. `check_full`: compare the full-bandwidth figures too.
+fn check_filter_ripple(p: &Problem, b: &[(usize, u32)], what: &str, check_full: bool) {
+    let parts: Vec<usize> = b.iter().map(|x| x.0).collect();
+    let local: Vec<(usize, u32)> = b.iter().enumerate().map(|(j, x)| (j, x.1)).collect();
+    let mut ev = p.evaluator(&parts);
+    assert!(!ev.tail().is_empty(), "{what}: the evaluator has the filter");
+    let w = ripplebank::region::worst(p, &mut ev, &local, Band::Limited);
+    let lim = w.value;
+    let full = ripplebank::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
+    let n = ev.n_full;
+    ev.fill_states(&local, &w.states, n);
+    ev.to_converter_node(n);
+    let (clim, cfull) = (ev.pp_filled(w.op, Band::Limited), ev.pp_filled(w.op, Band::Full));
+    // The assessment reports the same figures.
+    let a = ripplebank::assessment::assess(p, b).unwrap();
+    let fa = a.filter.as_ref().expect("filter figures");
+    assert!(rel(a.ripple_pp, lim) < 1e-9, "{what}: {} vs {lim}", a.ripple_pp);
+    assert!(rel(fa.ripple_pp_converter_node, clim) < 1e-9, "{what}: converter node");
+    let net = spice::netlist(p, b).unwrap();
+    assert!(net.contains("* ---- post-filter"), "{what}: the ladder is in bank.cir");
+    let out = run_ngspice(&net);
+    let (sl, sf) = (meas(&out, "pp_limited"), meas(&out, "pp_full"));
+    let (sl0, sf0) = (meas(&out, "pp_limited_prev"), meas(&out, "pp_full_prev"));
+    let (scl, scf) = (meas(&out, "pp_conv_limited"), meas(&out, "pp_conv_full"));
+    eprintln!(
+        "{what}: load node: evaluator {lim:.6e} / {full:.6e} V, {REF} {sl:.6e} / {sf:.6e} V; converter node: evaluator {clim:.6e} / {cfull:.6e} V, ngspice {scl:.6e} / {scf:.6e} V (target bandwidth / full)"
+    );
+    assert!(
+        rel(sl0, sl) < 1e-3 && (!check_full || rel(sf0, sf) < 1e-3),
+        "{what}: not settled: {sl0} vs {sl}, {sf0} vs {sf}"
+    );
+    for (name, ours, theirs, check) in [
+        ("load node, target bandwidth", lim, sl, true),
+        ("load node, full bandwidth", full, sf, check_full),
+        ("converter node, target bandwidth", clim, scl, true),
+        ("converter node, full bandwidth", cfull, scf, check_full),
+    ] {
+        assert!(
+            !check || rel(ours, theirs) < 0.01,
+            "{what}: {name}: evaluator {ours} V, {REF} {theirs} V"
+        );
+    }
+}
+
+#[test]
+fn damped_and_undamped_filters_match_ngspice_transient_at_both_nodes() {
+    if !have_ngspice() {
+        return;
+    }
+    let bank_spec = &[("T-CER-1U", 2)];
+    // Damped: a polymer capacitor behind 0.22 Ω across the load-side bank.
+    let (p, b) = filtered(
+        MODULE,
+        bank_spec,
+        "T-L-1U",
+        &[("T-CER-22U", 2)],
+        Some((0.22, "T-POLY-220U", 1)),
+    );
+    check_filter_ripple(&p, &b, "module, damped filter", true);
+    // Undamped: the load-side ceramics' own ESR only.
+    let (p, b) = filtered(MODULE, bank_spec, "T-L-1U", &[("T-CER-22U", 2)], None);
+    check_filter_ripple(&p, &b, "module, undamped filter", true);
+    // A buck with a filter behind its output bank, no damping leg: the
+    // load-side polymer capacitor's ESR is the only damping.
+    let (p, b) = filtered(
+        BUCK,
+        &[("T-CER-22U", 3)],
+        "T-L-0U47",
+        &[("T-POLY-220U", 1), ("T-CER-1U", 2)],
+        None,
+    );
+    check_filter_ripple(&p, &b, "buck, undamped filter", true);
+    let (p, b) = filtered(
+        BUCK,
+        &[("T-CER-22U", 3)],
+        "T-L-0U47",
+        &[("T-CER-22U", 2)],
+        Some((0.1, "T-ELEC-470U", 1)),
+    );
+    check_filter_ripple(&p, &b, "buck, damped filter", true);
+}
+
+#[test]
+fn filter_with_winding_capacitance_matches_ngspice_at_the_target_bandwidth() {
+    if !have_ngspice() {
+        return;
+    }
+    // With a self-resonant frequency the winding capacitance C_p couples the
+    // converter node's fast edges past the inductor.
+    let (p, b) = filtered(
+        MODULE,
+        &[("T-CER-1U", 2)],
+        "T-L-2U2-SRF",
+        &[("T-CER-22U", 2)],
+        Some((0.22, "T-POLY-220U", 1)),
+    );
+    check_filter_ripple(&p, &b, "module, filter with C_p", false);
+}
+
+#[test]
+fn filter_output_impedance_matches_ngspice_ac() {
+    if !have_ngspice() {
+        return;
+    }
+    for (what, damping, inductor) in [
+        ("damped", Some((0.22, "T-POLY-220U", 1)), "T-L-1U"),
+        ("undamped", None, "T-L-1U"),
+        ("with C_p", Some((0.22, "T-POLY-220U", 1)), "T-L-2U2-SRF"),
+    ] {
+        let (p, _) = filtered(MODULE, &[("T-CER-1U", 2)], inductor, &[("T-CER-22U", 2)], damping);
+        let lines = p.tail_lines(p.filter.as_ref().unwrap());
+        let low: Vec<ripplebank::evaluator::LineState> = lines
+            .iter()
+            .map(|t| ripplebank::evaluator::LineState {
+                c: t.model.c_worst,
+                esr: t.model.esr_max,
+            })
+            .collect();
+        let net = spice::output_impedance_netlist(
+            &p,
+            None,
+            Sweep::Decade {
+                per_decade: 40,
+                start: 1e3,
+                stop: 1e9,
+            },
+        )
+        .unwrap();
+        let rows = print_table(&run_ngspice(&net));
+        assert!(rows.len() > 200, "{what}: {} rows", rows.len());
+        let mut worst: f64 = 0.0;
+        let (mut peak_ours, mut peak_theirs) = (0.0f64, 0.0f64);
+        for &(f, z) in &rows {
+            let ours = ripplebank::evaluator::tail_output_impedance(&lines, &low, f)
+                .unwrap()
+                .norm();
+            worst = worst.max(rel(ours, z));
+            peak_ours = peak_ours.max(ours);
+            peak_theirs = peak_theirs.max(z);
+        }
+        eprintln!(
+            "{what}: |Z_out| against {REF}: largest difference {:.2e} over {} frequencies; peak {peak_ours:.6e} vs {peak_theirs:.6e} ohm",
+            worst,
+            rows.len()
+        );
+        assert!(worst < 0.01, "{what}: |Z_out| differs by {worst} from {REF}");
+    }
+}

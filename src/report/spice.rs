@@ -14,6 +14,14 @@
 //! [`MEASURE_PERIODS`] periods; `pp_full_prev` and `pp_limited_prev` over the
 //! periods just before, so that a reader can see that the run has settled.
 //!
+//! With an LC post-filter the circuit goes on past the bank's node: the
+//! filter inductor (`L/N` in series with `DCR/N`, with `N·C_p` across it
+//! when the catalog gives a self-resonant frequency) to the load node
+//! `load`, the load-side bank there as series R-L-C branches, and the
+//! damping leg (its resistor in series with the damping capacitors' branch).
+//! Every figure is then measured at `load`, and `pp_conv_full`,
+//! `pp_conv_limited` give the ripple at the converter-side node `bank`.
+//!
 //! With a load step in the scenario (`[transient]`) the same netlist also
 //! holds a second copy of the circuit (nodes prefixed `s`) at the load
 //! step's worst point: a load that draws the step as a linear ramp, and the
@@ -23,7 +31,7 @@
 //! change of the load node from its level before the step).
 
 use crate::converter::Waveform;
-use crate::evaluator::{Band, LineState};
+use crate::evaluator::{Band, LineState, TailLine, TailRole};
 use crate::network::{admittance, Network};
 use crate::problem::Problem;
 use anyhow::{bail, Result};
@@ -35,6 +43,9 @@ use std::fmt::Write;
 pub const MEASURE_PERIODS: usize = 3;
 /// Longest run, in periods of the ripple frequency.
 pub const MAX_PERIODS: usize = 200;
+/// Longest run behind a post-filter, in periods: a lightly damped filter's
+/// resonance decays over many periods of the ripple.
+pub const MAX_PERIODS_FILTER: usize = 1000;
 /// Settling allowance in multiples of the slowest decay time (e^-12 ≈ 6e-6).
 const SETTLE_TAUS: f64 = 12.0;
 /// Timepoints per period at most apart (`.tran` TMAX = period / this).
@@ -81,6 +92,132 @@ struct Circuit {
     lc: f64,
     /// The same circuit as the evaluator sees it.
     network: Network,
+    /// The post-filter behind the bank, if any.
+    tail: Option<Tail>,
+}
+
+/// A post-filter as written to the netlist: the inductor between the
+/// bank's node and the load node, the load-side branches and the damping
+/// leg at the load node.
+struct Tail {
+    /// The inductor's comment line.
+    label: String,
+    /// Inductance of the parallel inductors, H.
+    l: f64,
+    /// Their DC resistance, Ω.
+    dcr: f64,
+    /// Their winding capacitance, F (0: none given).
+    cp: f64,
+    /// Load-side bank branches (counts folded in).
+    load: Vec<Branch>,
+    /// The damping resistor (Ω) and the damping capacitors' branch.
+    damping: Option<(f64, Branch)>,
+}
+
+impl Tail {
+    /// The post-filter's lines at `states` (the load node's worst point;
+    /// its `low` corner without states), from the evaluator's own lines.
+    fn of(problem: &Problem, tail: &[TailLine], states: Option<&[LineState]>) -> Option<Tail> {
+        if tail.is_empty() {
+            return None;
+        }
+        let cat = &problem.catalog.parts;
+        let mut t = Tail {
+            label: String::new(),
+            l: 0.0,
+            dcr: 0.0,
+            cp: 0.0,
+            load: Vec::new(),
+            damping: None,
+        };
+        for (j, line) in tail.iter().enumerate() {
+            let m = &line.model;
+            let (c, esr) = states
+                .and_then(|s| s.get(j))
+                .map_or((m.c_worst, m.esr_max), |st| (st.c, st.esr));
+            let n = line.count.max(1) as f64;
+            match line.role {
+                TailRole::Inductor { cp } => {
+                    let id = problem
+                        .inductors
+                        .as_ref()
+                        .and_then(|lc| lc.parts.get(m.index))
+                        .map_or("inductor", |l| l.id.as_str());
+                    t.label = format!(
+                        "filter inductor {id} x {} in parallel: per part L = {} H, DCR = {} ohm, C_p = {} F",
+                        line.count,
+                        num(c),
+                        num(esr),
+                        num(cp)
+                    );
+                    t.l = c / n;
+                    t.dcr = esr / n;
+                    t.cp = cp * n;
+                }
+                TailRole::Load | TailRole::Damping { .. } => {
+                    let b = Branch {
+                        label: format!(
+                            "{} x {} ({}): per part C = {} F, ESR = {} ohm, ESL + mounting = {} H",
+                            cat[m.index].id,
+                            line.count,
+                            cat[m.index].technology.name(),
+                            num(c),
+                            num(esr),
+                            num(m.esl)
+                        ),
+                        r: esr / n,
+                        l: m.esl / n,
+                        c: c * n,
+                    };
+                    match line.role {
+                        TailRole::Damping { resistance } => t.damping = Some((resistance, b)),
+                        _ => t.load.push(b),
+                    }
+                }
+            }
+        }
+        Some(t)
+    }
+
+    /// The load node's branches as `(R, L, C)`: the load-side bank and the
+    /// damping leg (its resistor in series with its capacitors).
+    fn branches(&self) -> impl Iterator<Item = (f64, f64, f64)> + '_ {
+        self.load
+            .iter()
+            .map(|b| (b.r, b.l, b.c))
+            .chain(self.damping.iter().map(|(r, b)| (r + b.r, b.l, b.c)))
+    }
+
+    /// Write the filter from the bank's node `bank` to the load node
+    /// `load`; `pre` prefixes every name.
+    fn write(&self, o: &mut String, pre: &str, bank: &str, load: &str) {
+        let _ = writeln!(o, "* ---- post-filter: {}", self.label);
+        let mid = format!("n{pre}lfa");
+        let _ = writeln!(o, "L{pre}f {bank} {mid} {}", num(self.l));
+        if self.dcr > 0.0 {
+            let _ = writeln!(o, "R{pre}fdcr {mid} {load} {}", num(self.dcr));
+        } else {
+            let _ = writeln!(o, "V{pre}fdcr {mid} {load} 0");
+        }
+        if self.cp > 0.0 {
+            let _ = writeln!(o, "C{pre}fp {bank} {load} {}", num(self.cp));
+        }
+        for (j, b) in self.load.iter().enumerate() {
+            let _ = writeln!(o, "* load-side line {}: {}", j + 1, b.label);
+            series_rlc(o, &format!("{pre}ld{}", j + 1), load, b);
+        }
+        if let Some((r, b)) = &self.damping {
+            let _ = writeln!(
+                o,
+                "* damping leg: {} ohm in series with {}",
+                num(*r),
+                b.label
+            );
+            let nd = format!("n{pre}dmp");
+            let _ = writeln!(o, "R{pre}dmp {load} {nd} {}", num(*r));
+            series_rlc(o, &format!("{pre}dmpc"), &nd, b);
+        }
+    }
 }
 
 /// Number formatting that every SPICE reads the same way (no SI suffixes,
@@ -95,6 +232,17 @@ fn circuit(
     problem: &Problem,
     bank: &[(usize, u32)],
     states: Option<&[LineState]>,
+) -> Result<Circuit> {
+    circuit_with(problem, bank, states, None)
+}
+
+/// As [`circuit`], with the post-filter `tail` behind the bank (its lines
+/// at the states after the bank's, or at `low`).
+fn circuit_with(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    states: Option<&[LineState]>,
+    tail: Option<&[TailLine]>,
 ) -> Result<Circuit> {
     let s = &problem.scenario;
     let mut lines = Vec::new();
@@ -137,7 +285,9 @@ fn circuit(
         l: b.esl,
         c: b.c,
     });
-    if lines.is_empty() && internal.is_none() {
+    let nb = lines.len();
+    let tail = tail.and_then(|t| Tail::of(problem, t, states.and_then(|s| s.get(nb..))));
+    if lines.is_empty() && internal.is_none() && tail.is_none() {
         bail!("bank.cir: the bank is empty and the converter has no internal capacitance");
     }
     Ok(Circuit {
@@ -145,6 +295,7 @@ fn circuit(
         internal,
         lc: network.connection_inductance,
         network,
+        tail,
     })
 }
 
@@ -161,18 +312,64 @@ impl Circuit {
     /// branches; an estimate (hence the generous [`SETTLE_TAUS`]) beyond.
     fn slowest_decay(&self) -> f64 {
         let internal = self.internal.as_ref().map(|b| (b.r, b.l + self.lc, b.c));
-        crate::transient::slowest_loop(|| self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal))
+        let own = crate::transient::slowest_loop(|| {
+            self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal)
+        });
+        let Some(t) = &self.tail else {
+            return own;
+        };
+        // Behind a filter: the load node's own loops, and the filter's loop
+        // (the bank side and the load side, each lumped, through the
+        // inductor). The lumped resistances are the branches' parallel
+        // values, the least damping: a generous estimate.
+        let load_own = crate::transient::slowest_loop(|| t.branches());
+        let lump = |it: &mut dyn Iterator<Item = (f64, f64, f64)>| {
+            let (mut g, mut gl, mut c, mut r0, mut l0) = (0.0, 0.0, 0.0, false, false);
+            for (r, l, cc) in it {
+                if r > 0.0 {
+                    g += 1.0 / r
+                } else {
+                    r0 = true
+                }
+                if l > 0.0 {
+                    gl += 1.0 / l
+                } else {
+                    l0 = true
+                }
+                c += cc;
+            }
+            let r = if r0 || g == 0.0 { 0.0 } else { 1.0 / g };
+            let l = if l0 || gl == 0.0 { 0.0 } else { 1.0 / gl };
+            (r, l, c)
+        };
+        let (rb, lb, cb) = lump(&mut self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal));
+        let (rl, ll, cl) = lump(&mut t.branches());
+        let filter = if cb > 0.0 && cl > 0.0 {
+            crate::transient::loop_tau(rb + t.dcr + rl, lb + t.l + ll, cb * cl / (cb + cl))
+        } else {
+            // No capacitance on the bank side: the current source drives
+            // the inductor; the load node's RL decay.
+            if rl + t.dcr > 0.0 {
+                (t.l + ll) / (rl + t.dcr)
+            } else {
+                f64::INFINITY
+            }
+        };
+        own.max(load_own).max(filter)
     }
 
     /// Elements of the circuit between the converter's node `conv` and the
-    /// bank's node `bank` (the same node without connection inductance).
-    fn write(&self, o: &mut String) -> (String, String) {
+    /// bank's node `bank` (the same node without connection inductance),
+    /// and the post-filter from there to the load node: returns `(conv,
+    /// bank, out)` with `out` the measured node (`load` behind a filter,
+    /// else `bank`).
+    fn write(&self, o: &mut String) -> (String, String, String) {
         self.write_with(o, "")
     }
 
     /// As [`Circuit::write`], with every node and element name prefixed by
     /// `pre` (a second copy of the circuit in the same netlist).
-    fn write_with(&self, o: &mut String, pre: &str) -> (String, String) {
+    fn write_with(&self, o: &mut String, pre: &str) -> (String, String, String) {
         let (conv, bank) = if self.lc > 0.0 {
             (format!("{pre}conv"), format!("{pre}bank"))
         } else {
@@ -210,7 +407,15 @@ impl Circuit {
                 "* no connection inductance: the converter drives the bank's node directly"
             );
         }
-        (conv, bank)
+        let out = match &self.tail {
+            Some(t) => {
+                let load = format!("{pre}load");
+                t.write(o, pre, &bank, &load);
+                load
+            }
+            None => bank.clone(),
+        };
+        (conv, bank, out)
     }
 }
 
@@ -234,6 +439,12 @@ fn series_rlc(o: &mut String, tag: &str, node: &str, b: &Branch) {
 /// buffer, then `order` first-order RC sections each followed by a buffer,
 /// so that H = (1 + j f / bandwidth)^-order exactly. Returns the output node.
 fn write_filter(o: &mut String, bank: &str, bw: f64, order: u32) -> String {
+    write_filter_tagged(o, bank, bw, order, "")
+}
+
+/// As [`write_filter`], with `tag` in every name (a second measurement
+/// filter in the same netlist).
+fn write_filter_tagged(o: &mut String, bank: &str, bw: f64, order: u32, tag: &str) -> String {
     let cf = 1.0 / (2.0 * PI * FILTER_R * bw);
     let _ = writeln!(
         o,
@@ -245,13 +456,13 @@ fn write_filter(o: &mut String, bank: &str, bw: f64, order: u32) -> String {
         "* (R = {} ohm, C = 1/(2 pi R bandwidth)) between unity-gain buffers",
         num(FILTER_R)
     );
-    let _ = writeln!(o, "Ebuf0 f0 0 {bank} 0 1");
-    let mut prev = "f0".to_string();
+    let _ = writeln!(o, "E{tag}buf0 {tag}f0 0 {bank} 0 1");
+    let mut prev = format!("{tag}f0");
     for k in 1..=order {
-        let _ = writeln!(o, "Rf{k} {prev} f{k}rc {}", num(FILTER_R));
-        let _ = writeln!(o, "Cf{k} f{k}rc 0 {}", num(cf));
-        let _ = writeln!(o, "Ebuf{k} f{k} 0 f{k}rc 0 1");
-        prev = format!("f{k}");
+        let _ = writeln!(o, "R{tag}f{k} {prev} {tag}f{k}rc {}", num(FILTER_R));
+        let _ = writeln!(o, "C{tag}f{k} {tag}f{k}rc 0 {}", num(cf));
+        let _ = writeln!(o, "E{tag}buf{k} {tag}f{k} 0 {tag}f{k}rc 0 1");
+        prev = format!("{tag}f{k}");
     }
     prev
 }
@@ -361,9 +572,22 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     // The worst point of the corner region (target bandwidth): its input
     // voltage, inductance and each line's capacitance and ESR.
     let w = crate::region::worst(problem, &mut ev, &local, Band::Limited);
-    let ckt = circuit(problem, &bank, Some(&w.states))?;
+    let tail = ev.tail().to_vec();
+    let tail = (!tail.is_empty()).then_some(&tail[..]);
+    let ckt = circuit_with(problem, &bank, Some(&w.states), tail)?;
     let corner = w.op;
     let full_here = crate::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
+    // Behind a filter: the evaluator's ripple at the converter-side node
+    // at the same point.
+    let conv_node = tail.map(|_| {
+        let n = ev.n_full;
+        ev.fill_states(&local, &w.states, n);
+        ev.to_converter_node(n);
+        (
+            ev.pp_filled(w.op, Band::Limited),
+            ev.pp_filled(w.op, Band::Full),
+        )
+    });
     let per_corner = vec![(w.value, full_here)];
     let op = &ev.ops[corner].clone();
     let scale = 1.0;
@@ -406,9 +630,17 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         num(full)
     );
     let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
+    if let Some((lim, full)) = conv_node {
+        let _ = writeln!(
+            o,
+            "* (at the load node, behind the post-filter); at the converter-side node: {} V and {} V",
+            num(lim),
+            num(full)
+        );
+    }
     let _ = writeln!(o);
 
-    let (conv, bnode) = ckt.write(&mut o);
+    let (conv, bank_node, bnode) = ckt.write(&mut o);
 
     // The DC-level resistor: small enough a conductance to change the
     // ripple by < 1e-6, large enough that the DC offset left by the start
@@ -423,18 +655,28 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
 
     // Run length.
     let tau = ckt.slowest_decay();
-    let settle = if tau.is_finite() {
-        (SETTLE_TAUS * tau / period).ceil() as usize
+    let max_periods = if tail.is_some() {
+        MAX_PERIODS_FILTER
     } else {
         MAX_PERIODS
     };
-    let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, MAX_PERIODS);
+    let settle = if tau.is_finite() {
+        (SETTLE_TAUS * tau / period).ceil() as usize
+    } else {
+        max_periods
+    };
+    let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, max_periods);
 
     // Source.
     let _ = writeln!(o);
     let _ = writeln!(
         o,
-        "* Capacitor current of the converter (into the bank > 0), {total} periods written out"
+        "* Capacitor current of the converter (into the bank > 0), {} periods written out",
+        total + 1
+    );
+    let _ = writeln!(
+        o,
+        "* (one past the run: where a PWL source ends its slope drops to zero, a step through ESL)"
     );
     let _ = writeln!(
         o,
@@ -461,7 +703,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     }
     let _ = write!(o, "Idrive 0 {conv} PWL(");
     let mut k = 0usize;
-    for p in 0..total {
+    for p in 0..=total {
         for (j, &(t, v)) in pts.iter().enumerate() {
             if p > 0 && j == 0 {
                 continue;
@@ -484,9 +726,26 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
             bnode.to_string()
         }
     };
+    let conv_filtered = match (tail, s.target.bandwidth) {
+        (None, _) => None,
+        (Some(_), Some(bw)) => {
+            let _ = writeln!(o, "* the same measurement at the converter-side node");
+            Some(write_filter_tagged(
+                &mut o,
+                &bank_node,
+                bw.0,
+                s.target.bandwidth_order.max(1),
+                "c",
+            ))
+        }
+        (Some(_), None) => Some(bank_node.clone()),
+    };
 
     let t_stop = total as f64 * period;
-    let mut t_run = t_stop;
+    // The run goes a quarter period past the measurements: the simulator's
+    // last time points (where it shortens its step to land on the stop
+    // time) are not measured.
+    let mut t_run = t_stop + period / 4.0;
     let t_meas = (total - MEASURE_PERIODS) as f64 * period;
     let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
     // The load step, when the scenario has one: a second copy of the
@@ -513,8 +772,8 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
         num(tau),
         total,
-        if settle + 2 * MEASURE_PERIODS > MAX_PERIODS {
-            format!(" (capped at {MAX_PERIODS}: the last periods may not have settled fully)")
+        if settle + 2 * MEASURE_PERIODS > max_periods {
+            format!(" (capped at {max_periods}: the last periods may not have settled fully)")
         } else {
             String::new()
         }
@@ -557,6 +816,24 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         num(t_prev),
         num(t_meas)
     );
+    if let Some(cf) = &conv_filtered {
+        let _ = writeln!(
+            o,
+            "* the ripple at the converter-side node (before the post-filter), same windows"
+        );
+        let _ = writeln!(
+            o,
+            ".meas tran pp_conv_full PP v({bank_node}) from={} to={}",
+            num(t_meas),
+            num(t_stop)
+        );
+        let _ = writeln!(
+            o,
+            ".meas tran pp_conv_limited PP v({cf}) from={} to={}",
+            num(t_meas),
+            num(t_stop)
+        );
+    }
     if step.is_some() {
         let _ = writeln!(
             o,
@@ -616,7 +893,7 @@ fn write_step(
         "* The same circuit again at the load step's worst point of the corner region; the evaluator's"
     );
     let _ = writeln!(o, "* deviation there: {} V.", num(f.deviation));
-    let (conv, node) = ckt.write_with(o, "s");
+    let (conv, _, node) = ckt.write_with(o, "s");
     let _ = writeln!(o, "Rsdc {node} 0 {}", num(rdc));
     let _ = writeln!(
         o,
@@ -646,7 +923,8 @@ fn write_step(
 /// printing `vm(bank)`, the magnitude of the transfer impedance to the bank's
 /// node in ohms (what the evaluator calls the transfer impedance).
 pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep) -> Result<String> {
-    let ckt = circuit(problem, bank, None)?;
+    let tail = problem.filter.as_ref().map(|f| problem.tail_lines(f));
+    let ckt = circuit_with(problem, bank, None, tail.as_deref())?;
     let mut o = String::new();
     header(
         &mut o,
@@ -654,10 +932,19 @@ pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep)
         "Transfer impedance of a capacitor bank (AC)",
     );
     let _ = writeln!(o);
-    let (conv, bnode) = ckt.write(&mut o);
+    let (conv, _, bnode) = ckt.write(&mut o);
     let _ = writeln!(o, "Idrive 0 {conv} DC 0 AC 1");
     let _ = writeln!(o, "Rdc {bnode} 0 {}", num(1e12));
-    let line = match sweep {
+    let _ = writeln!(o, "{}", ac_line(sweep));
+    let _ = writeln!(o, ".options numdgt=10");
+    let _ = writeln!(o, ".print ac vm({bnode})");
+    let _ = writeln!(o, ".end");
+    Ok(o)
+}
+
+/// The `.ac` line of a sweep.
+fn ac_line(sweep: Sweep) -> String {
+    match sweep {
         Sweep::Linear {
             points,
             start,
@@ -668,10 +955,42 @@ pub fn impedance_netlist(problem: &Problem, bank: &[(usize, u32)], sweep: Sweep)
             start,
             stop,
         } => format!(".ac dec {} {} {}", per_decade.max(1), num(start), num(stop)),
+    }
+}
+
+/// An AC netlist of the post-filter's output impedance (`problem.filter`
+/// set): the converter-side node held by the converter (shorted to
+/// ground), a 1 A current into the load node, printing `vm(load)`, |Z_out|
+/// in ohms. The filter's lines at `states` (in the evaluator's order of
+/// [`Problem::tail_lines`]), or at the `low` corner.
+pub fn output_impedance_netlist(
+    problem: &Problem,
+    states: Option<&[LineState]>,
+    sweep: Sweep,
+) -> Result<String> {
+    let Some(f) = &problem.filter else {
+        bail!("output impedance: the design has no post-filter");
     };
-    let _ = writeln!(o, "{line}");
+    let lines = problem.tail_lines(f);
+    let Some(t) = Tail::of(problem, &lines, states) else {
+        bail!("output impedance: the post-filter has no lines");
+    };
+    let mut o = String::new();
+    header(
+        &mut o,
+        problem,
+        "Output impedance of a post-filter, converter side held (AC)",
+    );
+    let _ = writeln!(
+        o,
+        "* The converter holds its output node: the bank's node is ground here."
+    );
+    t.write(&mut o, "", "0", "load");
+    let _ = writeln!(o, "Idrive 0 load DC 0 AC 1");
+    let _ = writeln!(o, "Rdc load 0 {}", num(1e12));
+    let _ = writeln!(o, "{}", ac_line(sweep));
     let _ = writeln!(o, ".options numdgt=10");
-    let _ = writeln!(o, ".print ac vm({bnode})");
+    let _ = writeln!(o, ".print ac vm(load)");
     let _ = writeln!(o, ".end");
     Ok(o)
 }
