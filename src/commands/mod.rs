@@ -109,7 +109,10 @@ pub(crate) fn bank_files(
     rep: &Report,
 ) -> Result<OutFiles> {
     let mut files = OutFiles::default();
-    files.add("bom.csv", report::bom_csv(problem, bank));
+    files.add(
+        "bom.csv",
+        report::bom_csv_with(problem, bank, problem.filter.as_ref()),
+    );
     files.add("report.json", report::json_text(doc.clone()));
     files.add("bank.cir", report::spice::netlist(problem, bank)?);
     let plots = report::plots::bank_plots(problem, bank, a)?;

@@ -36,6 +36,10 @@ pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value
         "excluded".into(),
         serde_json::to_value(&problem.excluded).expect("serialisable"),
     );
+    o.insert(
+        "filter".into(),
+        a.filter.as_ref().map_or(Value::Null, |f| filter_json(a, f)),
+    );
     o.insert("target_ripple_pp".into(), json!(echoed(a.target_ripple_pp)));
     o.insert("scenario".into(), json!(problem.scenario.name));
     o.insert(
@@ -322,6 +326,59 @@ pub fn bom_csv_with(
         }
     }
     w.into_inner().expect("in memory")
+}
+
+/// The JSON `filter` object of a filtered design: the inductor and its
+/// figures, the damping leg (`null` without one), the ripple at the
+/// converter-side node, both banks as `{part, count}` lists; and, as our
+/// extensions, the inductor's currents and ratings, the characteristic
+/// impedance, the filter's capacitors' ripple currents and its parts'
+/// totals.
+pub fn filter_json(a: &Assessment, f: &crate::filter::FilterAssessment) -> Value {
+    let bank = |b: &mut dyn Iterator<Item = (String, u32)>| -> Vec<Value> {
+        b.map(|(part, count)| json!({"part": part, "count": count}))
+            .collect()
+    };
+    let t = &f.tail;
+    json!({
+        "inductor": f.inductor,
+        "count": f.count,
+        "inductance": f.inductance,
+        "inductance_tolerance": f.inductance_tolerance,
+        "dcr": f.dcr,
+        "corner_frequency": t.corner_frequency,
+        "characteristic_impedance": characteristic_impedance(f),
+        "peak_output_impedance": t.peak_output_impedance,
+        "peak_frequency": t.peak_frequency,
+        "dc_drop": t.dc_drop,
+        "dc_current": t.dc_current,
+        "damping": f.damping.as_ref().map(|(r, part, n)| json!({
+            "resistor": r,
+            "resistor_code": crate::units::format_rkm(*r),
+            "capacitor": part,
+            "count": n,
+        })),
+        "ripple_pp_converter_node": f.ripple_pp_converter_node,
+        "converter_bank": bank(&mut a.bank.iter().map(|l| (l.part.clone(), l.count))),
+        "load_bank": bank(&mut f.load_bank.iter().cloned()),
+        "inductor_ripple_pp": f.inductor_ripple_pp,
+        "inductor_peak_current": f.inductor_peak_current,
+        "rated_current": f.rated_current,
+        "saturation_current": f.saturation_current,
+        "capacitor_currents": f.capacitor_currents.iter().map(|(part, rms, rating)| json!({
+            "part": part, "rms": rms, "rating": rating,
+        })).collect::<Vec<_>>(),
+        "cost": f.cost,
+        "area": f.area,
+        "parts": f.parts,
+    })
+}
+
+/// The filter's characteristic impedance `R0 = sqrt(L/C) = 2π·f0·L`, with
+/// `L` the inductance of the parallel inductors and `f0` the corner (the
+/// same nominal L and typical load-side C), Ω.
+pub fn characteristic_impedance(f: &crate::filter::FilterAssessment) -> f64 {
+    2.0 * std::f64::consts::PI * f.tail.corner_frequency * f.inductance / f.count.max(1) as f64
 }
 
 /// Pretty JSON text with non-finite numbers removed.

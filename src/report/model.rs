@@ -304,7 +304,11 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
         format_si(a.capacitance_effective_total, "F")
     );
     out.push(Section {
-        heading: Some("Bank".into()),
+        heading: Some(if a.filter.is_some() {
+            "Bank (converter side of the filter)".into()
+        } else {
+            "Bank".into()
+        }),
         items: vec![
             Item::Table(Table::new(
                 &[
@@ -411,6 +415,10 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
             ..Default::default()
         });
     }
+    if let Some(f) = &a.filter {
+        out.push(filter_section(a, f));
+        out.push(filter_cautions());
+    }
     if let Some(t) = &a.transient {
         out.push(load_step(a, t));
     }
@@ -420,7 +428,7 @@ pub fn assessment(a: &Assessment, quiet: bool) -> Vec<Section> {
         .filter(|c| !quiet || c.part.is_none())
         .map(|c| {
             let f = |x: f64| match c.unit.as_str() {
-                "V" | "F" | "A" => format_si(x, &c.unit),
+                "V" | "F" | "A" | "Hz" | "Ω" => format_si(x, &c.unit),
                 "" => format!("{x}"),
                 u => format!("{x:.2} {u}"),
             };
@@ -584,6 +592,157 @@ pub fn excluded(problem: &Problem) -> Option<Section> {
         ))],
         ..Default::default()
     })
+}
+
+/// Cautions of a design with an LC post-filter (common practice, no
+/// source; the copper coefficient from memory).
+pub const FILTER_CAUTIONS: &[&str] = &[
+    "Remote sense stays on the converter side of the filter: a sense point after the inductor puts the filter inside the converter's control loop, where its resonance adds phase lag that can make the loop unstable.",
+    "Keep the filter's corner frequency well above the converter's loop crossover and not below the converter maker's guidance (tens of kHz is common practice, no source): a corner near the crossover interacts with the loop.",
+    "An LC filter rings: without enough damping its output impedance peaks at the corner frequency and a load step excites a decaying oscillation. The damping here is the damping leg and the load-side capacitors' own ESR; an ESR that falls when hot or with a part change removes damping. Choose the damping resistor's power and pulse rating for its ripple and load-step current.",
+    "The inductor's DC drop (iout · DCR) is not regulated: the load sees vout less the drop, more at higher load current and with hot copper (about +0.4 %/°C, from memory).",
+    "Verify on hardware: the ripple at the load, the ringing after a load step, and the converter's loop stability with the filter in place.",
+];
+
+/// The post-filter: its parts, its figures against their limits and the
+/// ripple at both nodes.
+pub fn filter_section(a: &Assessment, f: &crate::filter::FilterAssessment) -> Section {
+    let mut items = Vec::new();
+    let lim = |name: &str| a.checks.iter().find(|c| c.name == name);
+    let limit_text = |name: &str, bound: &str, unit: &str| -> String {
+        lim(name).map_or("not set".into(), |c| {
+            format!(
+                "{bound} {}{}",
+                format_si(c.limit, unit),
+                if c.ok { "" } else { "  FAIL" }
+            )
+        })
+    };
+    let n = f.count.max(1);
+    let l_eff = f.inductance / n as f64;
+    items.push(Item::Line(format!(
+        "Inductor {}{}: L {} ±{:.0} %, DCR {}, rated {} (thermal), saturation {}{}",
+        f.inductor,
+        if n > 1 {
+            format!(" × {n} in parallel")
+        } else {
+            String::new()
+        },
+        format_si(f.inductance, "H"),
+        f.inductance_tolerance * 100.0,
+        format_si(f.dcr, "Ω"),
+        format_si(f.rated_current, "A"),
+        format_si(f.saturation_current, "A"),
+        if n > 1 {
+            format!(" (each; together {})", format_si(l_eff, "H"))
+        } else {
+            String::new()
+        }
+    )));
+    items.push(Item::Table(Table::new(
+        &["load-side bank", "n"],
+        f.load_bank
+            .iter()
+            .map(|(p, c)| vec![p.clone(), c.to_string()])
+            .collect(),
+    )));
+    items.push(Item::Line(match &f.damping {
+        Some((r, part, cnt)) => format!(
+            "Damping: {} ({}) in series with {cnt} × {part}, across the load-side bank",
+            format_si(*r, "Ω"),
+            crate::units::format_rkm(*r)
+        ),
+        None => "Damping: none besides the load-side capacitors' own ESR".into(),
+    }));
+    let r0 = super::characteristic_impedance(f);
+    let sat_margin = f.saturation_current - f.inductor_peak_current;
+    let rows = vec![
+        vec![
+            "corner frequency f0 = 1/(2π·sqrt(L·C_load))".into(),
+            format_si(f.tail.corner_frequency, "Hz"),
+            limit_text("filter corner_frequency", "≥", "Hz"),
+        ],
+        vec![
+            "characteristic impedance R0 = sqrt(L/C_load)".into(),
+            format_si(r0, "Ω"),
+            "—".into(),
+        ],
+        vec![
+            "peak output impedance |Z_out| (converter side held)".into(),
+            format!(
+                "{} at {}",
+                format_si(f.tail.peak_output_impedance, "Ω"),
+                format_si(f.tail.peak_frequency, "Hz")
+            ),
+            limit_text("filter peak_output_impedance", "≤", "Ω"),
+        ],
+        vec![
+            "DC drop iout · DCR (not regulated)".into(),
+            format_si(f.tail.dc_drop, "V"),
+            limit_text("filter dc_drop", "≤", "V"),
+        ],
+        vec![
+            "inductor DC current (each)".into(),
+            format_si(f.tail.dc_current, "A"),
+            limit_text("inductor rated_current", "≤", "A"),
+        ],
+        vec![
+            "inductor ripple current ΔI_L (p-p, each)".into(),
+            format_si(f.inductor_ripple_pp, "A"),
+            "—".into(),
+        ],
+        vec![
+            "inductor peak current I_dc + ΔI_L/2".into(),
+            format!(
+                "{} (margin {})",
+                format_si(f.inductor_peak_current, "A"),
+                format_si(sat_margin, "A")
+            ),
+            limit_text("inductor saturation_current", "≤", "A"),
+        ],
+        vec![
+            "ripple at the converter-side node".into(),
+            format_si(f.ripple_pp_converter_node, "V"),
+            "—".into(),
+        ],
+        vec![
+            "ripple at the load node (the target's)".into(),
+            format_si(a.ripple_pp, "V"),
+            format!("≤ {}", format_si(a.target_ripple_pp, "V")),
+        ],
+    ];
+    items.push(Item::Table(Table::new(&["figure", "value", "limit"], rows)));
+    if f.ripple_pp_converter_node.is_finite() && a.ripple_pp > 0.0 {
+        items.push(Item::Line(format!(
+            "The filter takes the ripple from {} at the converter-side node to {} at the load ({:.1}×, {:.1} dB).",
+            format_si(f.ripple_pp_converter_node, "V"),
+            format_si(a.ripple_pp, "V"),
+            f.ripple_pp_converter_node / a.ripple_pp,
+            20.0 * (f.ripple_pp_converter_node / a.ripple_pp).log10()
+        )));
+    }
+    items.push(Item::Line(format!(
+        "Filter parts: {}, cost {:.3}, area {:.2} mm² (included in the totals above).",
+        f.parts, f.cost, f.area
+    )));
+    Section {
+        heading: Some(
+            "Post-filter (converter-side bank → inductor → load-side bank with damping)".into(),
+        ),
+        items,
+        ..Default::default()
+    }
+}
+
+/// The cautions of a filtered design, in a cautions box of their own.
+pub fn filter_cautions() -> Section {
+    Section {
+        heading: Some("Filter cautions".into()),
+        kind: SectionKind::Cautions,
+        items: vec![Item::List(
+            FILTER_CAUTIONS.iter().map(|c| c.to_string()).collect(),
+        )],
+    }
 }
 
 /// The cautions printed with every report.
