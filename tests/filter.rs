@@ -185,3 +185,332 @@ fn optimal_rc_damping_peak_matches_erickson() {
         }
     }
 }
+
+// ---------------------------------------------------------------------------
+// Brute force (the oracle) over a small invented catalog.
+
+/// Four invented capacitors: two ceramics with a DC-bias curve, a polymer
+/// and an electrolytic (bulk parts whose own ESR damps too).
+const ORACLE_CAPS: &str = "\
+part,technology,capacitance,rated_voltage,esr,esl,cost,tolerance,dielectric,dc_bias,case
+O-CER-22U,ceramic,22u,6.3,3m,0.4n,0.10,20%,X5R,0:1;3.3:0.5;6.3:0.3,1206
+O-CER-4U7,ceramic,4.7u,6.3,6m,0.3n,0.03,10%,X5R,0:1;3.3:0.6;6.3:0.4,0603
+O-POLY-100U,polymer-aluminum,100u,6.3,25m,1.5n,0.30,20%,,,
+O-ELEC-220U,aluminum-electrolytic,220u,10,120m,3n,0.12,20%,,,
+";
+/// Three invented inductors.
+const ORACLE_INDUCTORS: &str = "\
+part,inductance,tolerance,dcr,rated_current,saturation_current,srf,cost
+O-L-0U22,0.22u,20%,5m,8,10,150M,0.20
+O-L-0U47,0.47u,20%,10m,6,8,100M,0.15
+O-L-1U,1u,20%,15m,5,7,80M,0.12
+";
+const ORACLE_SCENARIO: &str = r#"
+name = "filter oracle (invented)"
+catalog = "caps.csv"
+[converter]
+topology = "buck"
+vin = 12
+vout = 3.3
+iout = 3
+fsw = "500k"
+inductance = "2.2u"
+inductance_tolerance = "20%"
+max_capacitance = "300u"
+[target]
+ripple_pp = "TARGET"
+bandwidth = "20M"
+[board]
+mounting_inductance = "0.3n"
+max_lines = 2
+[selection]
+max_per_part = 4
+[filter]
+inductors = "inductors.csv"
+min_corner_frequency = "40k"
+max_dc_drop = "50m"
+damping = "auto"
+damping_resistors = "E12"
+damping_resistance_min = "0.1"
+damping_resistance_max = "1"
+damping_resistor_cost = "0.01"
+load_max_lines = 1
+load_max_count = 3
+"#;
+
+/// IEC 60063 E12 over the decade 0.1 Ω … 1 Ω, both ends included.
+const E12_DECADE: [f64; 13] = [
+    0.10, 0.12, 0.15, 0.18, 0.22, 0.27, 0.33, 0.39, 0.47, 0.56, 0.68, 0.82, 1.0,
+];
+
+/// An independent dense search of the corner region of a filtered design:
+/// every line, the converter-side bank's and the filter's, at three
+/// capacitances (or inductances) of its range and both ESR (DCR) ends, at
+/// every operating point of the evaluator. The largest ripple at the load
+/// node, target bandwidth.
+fn dense_filtered(ev: &mut ripplebank::evaluator::Evaluator, bank: &[(usize, u32)]) -> f64 {
+    let lines = ev.line_count(bank);
+    let opts: Vec<Vec<LineState>> = (0..lines)
+        .map(|j| {
+            let m = ev.line_model(bank, j).clone();
+            let mut o = Vec::new();
+            for c in [m.c_worst, 0.5 * (m.c_worst + m.c_high), m.c_high] {
+                for esr in [m.esr_min, m.esr_max] {
+                    let s = LineState { c, esr };
+                    if !o.contains(&s) {
+                        o.push(s);
+                    }
+                }
+            }
+            o
+        })
+        .collect();
+    let ops: Vec<usize> = (0..ev.ops.len()).collect();
+    let mut idx = vec![0usize; lines];
+    let mut worst: f64 = 0.0;
+    loop {
+        let st: Vec<LineState> = idx.iter().zip(&opts).map(|(&j, o)| o[j]).collect();
+        ev.fill_states(bank, &st, ev.n_limited);
+        for &op in &ops {
+            worst = worst.max(ev.pp_filled(op, Band::Limited));
+        }
+        let mut d = 0;
+        while d < lines {
+            idx[d] += 1;
+            if idx[d] < opts[d].len() {
+                break;
+            }
+            idx[d] = 0;
+            d += 1;
+        }
+        if d == lines {
+            break;
+        }
+    }
+    worst
+}
+
+/// The brute-force optimum of the filtered design: every filter of the
+/// documented space (each eligible inductor, every load-side bank of one
+/// part number and up to three parts, no damping or a damping leg of one or
+/// two capacitors with C_b ≥ C_load and every E12 resistor of the decade)
+/// and every converter-side bank (up to two lines of up to four parts,
+/// under the converter's capacitance limit), judged in cost order by the
+/// dense region search and the filter's own limits. Returns the cost and
+/// the design. Source: brute-force enumeration.
+fn filter_oracle(p: &Problem) -> Option<(f64, FilterDesign, Vec<(usize, u32)>)> {
+    let s = &p.scenario;
+    let target = s.target.ripple_pp.0;
+    let iout = s.converter.iout.0;
+    let vout = s.converter.vout.0;
+    let cat = &p.catalog.parts;
+    let lc = &p.inductors.as_ref().unwrap().parts;
+    let caps: Vec<usize> = (0..cat.len()).collect();
+    assert_eq!(p.eligible, caps, "every test capacitor is eligible: {:?}", p.excluded);
+    let c_typ = |i: usize| cat[i].capacitance * cat[i].bias_factor(vout);
+    let rcost = s.filter.damping_resistor_cost.0;
+    let min_f0 = s.filter.min_corner_frequency.unwrap().0;
+    let max_drop = s.filter.max_dc_drop.unwrap().0;
+    // Every filter with its own cost.
+    let mut filters: Vec<(f64, FilterDesign)> = Vec::new();
+    for (li, l) in lc.iter().enumerate() {
+        if l.rated_current < iout || l.saturation_current < iout || iout * l.dcr > max_drop {
+            continue;
+        }
+        for &a in &caps {
+            for na in 1..=3u32 {
+                let c_load = c_typ(a) * na as f64;
+                // Corner frequency 1/(2π·sqrt(L·C_load)), nominal L, typical C.
+                if 1.0 / (2.0 * PI * (l.inductance * c_load).sqrt()) < min_f0 {
+                    continue;
+                }
+                let base = l.cost + cat[a].cost * na as f64;
+                let mut legs = vec![(0.0, None)];
+                for &d in &caps {
+                    for nd in 1..=2u32 {
+                        if c_typ(d) * (nd as f64) < c_load {
+                            continue;
+                        }
+                        for &r in &E12_DECADE {
+                            legs.push((
+                                cat[d].cost * nd as f64 + rcost,
+                                Some(DampingLeg {
+                                    resistance: r,
+                                    capacitor: d,
+                                    count: nd,
+                                }),
+                            ));
+                        }
+                    }
+                }
+                for (dc, damping) in legs {
+                    filters.push((
+                        base + dc,
+                        FilterDesign {
+                            inductor: li,
+                            count: 1,
+                            load_bank: vec![(a, na)],
+                            damping,
+                        },
+                    ));
+                }
+            }
+        }
+    }
+    filters.sort_by(|x, y| x.0.total_cmp(&y.0));
+    // Every converter-side bank, in cost order.
+    let max_cap = s.converter.max_capacitance.unwrap().0;
+    let mut banks: Vec<(f64, Vec<(usize, u32)>)> = Vec::new();
+    for i in 0..caps.len() {
+        for ni in 1..=4u32 {
+            banks.push((cat[i].cost * ni as f64, vec![(i, ni)]));
+            for j in i + 1..caps.len() {
+                for nj in 1..=4u32 {
+                    banks.push((
+                        cat[i].cost * ni as f64 + cat[j].cost * nj as f64,
+                        vec![(i, ni), (j, nj)],
+                    ));
+                }
+            }
+        }
+    }
+    banks.retain(|(_, b)| {
+        b.iter().map(|&(i, n)| cat[i].c_nominal_max() * n as f64).sum::<f64>() <= max_cap * (1.0 + 1e-12)
+    });
+    banks.sort_by(|x, y| x.0.total_cmp(&y.0));
+    let mut base = p.clone();
+    base.keep_evaluator(&caps);
+    let mut best: Option<(f64, FilterDesign, Vec<(usize, u32)>)> = None;
+    for (share, fd) in &filters {
+        if best.as_ref().is_some_and(|b| *share >= b.0) {
+            break;
+        }
+        let pf = base.with_filter(fd.clone());
+        let mut ev = pf.evaluator(&caps);
+        for (bc, b) in &banks {
+            if best.as_ref().is_some_and(|x| share + bc >= x.0) {
+                break;
+            }
+            // The low corner is one point of the region: a necessary test.
+            if ev.ripple_check(b, target) > target {
+                continue;
+            }
+            if dense_filtered(&mut ev, b) > target {
+                continue;
+            }
+            best = Some((share + bc, fd.clone(), b.clone()));
+            break;
+        }
+    }
+    best
+}
+
+fn oracle_problem(target: &str) -> Problem {
+    problem(
+        &ORACLE_SCENARIO.replace("TARGET", target),
+        ORACLE_CAPS,
+        ORACLE_INDUCTORS,
+    )
+}
+
+fn describe(p: &Problem, f: &FilterDesign, bank: &[(usize, u32)]) -> String {
+    let c = &p.catalog.parts;
+    format!(
+        "bank {:?}, inductor {}, load {:?}, damping {:?}",
+        bank.iter().map(|&(i, n)| (c[i].id.as_str(), n)).collect::<Vec<_>>(),
+        p.inductor(f.inductor).id,
+        f.load_bank.iter().map(|&(i, n)| (c[i].id.as_str(), n)).collect::<Vec<_>>(),
+        f.damping.as_ref().map(|d| (d.resistance, c[d.capacitor].id.as_str(), d.count))
+    )
+}
+
+/// Runs the command line on the oracle's scenario written to a folder;
+/// the JSON document.
+fn cli_design(target: &str, filter: &str) -> serde_json::Value {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("caps.csv"), ORACLE_CAPS).unwrap();
+    std::fs::write(dir.path().join("inductors.csv"), ORACLE_INDUCTORS).unwrap();
+    let scen = dir.path().join("oracle.toml");
+    std::fs::write(&scen, ORACLE_SCENARIO.replace("TARGET", target)).unwrap();
+    let out = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["design", "--json", "--filter", filter, "--scenario"])
+        .arg(&scen)
+        .output()
+        .unwrap();
+    assert!(
+        matches!(out.status.code(), Some(0) | Some(1)),
+        "design --filter {filter}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("JSON")
+}
+
+/// `design --filter on` (library and command line) against the brute-force
+/// optimum, and `--filter auto` against the better of the two designs.
+/// Source: brute-force enumeration.
+#[test]
+fn filtered_design_matches_brute_force() {
+    let target = "1m";
+    let mut oracle_cost = f64::NAN;
+    for (t, tv) in [("0.3m", 0.3e-3), (target, 1e-3)] {
+        let p = oracle_problem(t);
+        let t0 = std::time::Instant::now();
+        let (oc, of, ob) = filter_oracle(&p).expect("the oracle finds a filtered design");
+        let t_oracle = t0.elapsed().as_secs_f64();
+        let t0 = std::time::Instant::now();
+        let out = ripplebank::optimize::design_filtered(&p, tv, &ripplebank::optimize::Settings::default());
+        let t_tool = t0.elapsed().as_secs_f64();
+        let found = out.found.as_ref().expect("design_filtered finds a design");
+        let tf = out.filter.as_ref().unwrap();
+        eprintln!(
+            "target {t}: oracle ({t_oracle:.2} s): cost {oc:.4}: {}\n  design_filtered ({t_tool:.2} s, {:?}, {} filters, {} searched): cost {:.4}: {}\n  dropped before any search: {:?}",
+            describe(&p, &of, &ob),
+            out.status,
+            out.filters_total,
+            out.filters_searched,
+            found.key[0],
+            describe(&p, tf, &found.bank),
+            out.dropped
+        );
+        assert!(
+            rel(found.key[0], oc) < 1e-9,
+            "target {t}: design_filtered cost {} vs the brute-force optimum {oc} (brute-force enumeration)",
+            found.key[0]
+        );
+        assert_eq!(out.status, ripplebank::optimize::Status::Optimal, "target {t}");
+        oracle_cost = oc;
+    }
+    let oc = oracle_cost;
+
+    // The command line on the written scenario.
+    let on = cli_design(target, "on");
+    let cost_on = on["cost"].as_f64().unwrap();
+    assert!(on["filter"].is_object(), "design --filter on has a filter");
+    assert!(
+        rel(cost_on, oc) < 1e-9,
+        "design --filter on: cost {cost_on} vs the brute-force optimum {oc} (brute-force enumeration)"
+    );
+    // auto: the better of capacitors alone and the filtered design, here
+    // where the filter wins and where capacitors alone win.
+    for t in [target, "150m"] {
+        let auto = cli_design(t, "auto");
+        let off = cli_design(t, "off");
+        let on = if t == target { on.clone() } else { cli_design(t, "on") };
+        let cost = |d: &serde_json::Value| {
+            if d["status"].as_str() == Some("infeasible") {
+                f64::INFINITY
+            } else {
+                d["cost"].as_f64().unwrap()
+            }
+        };
+        let (ca, cf, cc) = (cost(&auto), cost(&on), cost(&off));
+        eprintln!("target {t}: --filter auto {ca:.4}, on {cf:.4}, off {cc:.4}");
+        assert!(ca.is_finite(), "target {t}: auto finds a design");
+        assert!(
+            rel(ca, cf.min(cc)) < 1e-9,
+            "target {t}: auto {ca} is not the better of on {cf} and off {cc}"
+        );
+        assert_eq!(auto["filter"].is_object(), cf < cc, "target {t}: auto's filter");
+    }
+}

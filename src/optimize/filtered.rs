@@ -374,7 +374,7 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
         let t_inner = Instant::now();
         let out: DesignOutcome = design_for(&p, target, &inner);
         if std::env::var_os("RIPPLEBANK_TRACE").is_some() {
-            eprintln!("filter {searched}: share {:.4} inner {:.3} s {:?} evals {} sets {}/{} rounds {}", share[0], t_inner.elapsed().as_secs_f64(), out.found.as_ref().map(|f| f.key[0]), out.stats.evaluations, out.stats.line_sets_solved, out.stats.line_sets_total, out.stats.region_rounds);
+            eprintln!("filter {searched}: share {:.4} inner {:.3} s {:?} evals {} sets {}/{} rounds {} proven {}", share[0], t_inner.elapsed().as_secs_f64(), out.found.as_ref().map(|f| f.key[0]), out.stats.evaluations, out.stats.line_sets_solved, out.stats.line_sets_total, out.stats.region_rounds, out.stats.proven);
         }
         searched += 1;
         stats.evaluations += out.stats.evaluations;
@@ -383,7 +383,10 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
         stats.candidates = out.stats.candidates;
         stats.dominated = out.stats.dominated;
         stats.region_rounds = stats.region_rounds.max(out.stats.region_rounds);
-        if !out.stats.proven {
+        // A search that found no bank below its cutoff and was not stopped
+        // has shown that none exists behind this filter: that is complete
+        // too (its `proven` speaks only of a bank found).
+        if !out.stats.proven && (out.found.is_some() || out.stats.stopped) {
             complete = false;
         }
         let Some(mut f) = out.found else {
