@@ -514,3 +514,144 @@ fn filtered_design_matches_brute_force() {
         assert_eq!(auto["filter"].is_object(), cf < cc, "target {t}: auto's filter");
     }
 }
+
+// ---------------------------------------------------------------------------
+// Each filter limit on a case built to show it.
+
+struct Designed {
+    cost: f64,
+    filter: FilterDesign,
+    bank: Vec<(usize, u32)>,
+    assessment: ripplebank::assessment::Assessment,
+}
+
+/// design_filtered on `p`, its answer assessed on the problem with that
+/// filter (every figure, every check).
+fn design_and_assess(p: &Problem, what: &str) -> Designed {
+    let t = p.scenario.target.ripple_pp.0;
+    let out = ripplebank::optimize::design_filtered(p, t, &ripplebank::optimize::Settings::default());
+    let found = out.found.unwrap_or_else(|| panic!("{what}: no filtered design ({:?})", out.dropped));
+    let filter = out.filter.unwrap();
+    let a = ripplebank::assessment::assess(&p.with_filter(filter.clone()), &found.bank).expect("assess");
+    assert!(
+        a.all_ok,
+        "{what}: the design breaks a check: {:?}",
+        a.checks.iter().filter(|c| !c.ok).map(|c| &c.name).collect::<Vec<_>>()
+    );
+    eprintln!("{what}: cost {:.4}: {}", found.key[0], describe(p, &filter, &found.bank));
+    Designed {
+        cost: found.key[0],
+        filter,
+        bank: found.bank,
+        assessment: a,
+    }
+}
+
+fn check<'a>(d: &'a Designed, name: &str) -> &'a ripplebank::assessment::Check {
+    d.assessment
+        .checks
+        .iter()
+        .find(|c| c.name == name)
+        .unwrap_or_else(|| panic!("no check {name}"))
+}
+
+/// Each limit of the filter, tightened just past the unconstrained
+/// answer, must change the answer to one that meets it, at a cost no
+/// lower (a tighter limit only removes designs). The limits' definitions:
+/// corner frequency 1/(2π·sqrt(LC)) (Hayt & Kemmerly, frequency
+/// response), DC drop iout·DCR (Ohm's law), the inductor's peak current
+/// (DC share plus half its ripple) against its saturation current and its
+/// DC current against its rated current (common practice, no source).
+#[test]
+fn each_filter_limit_changes_the_answer() {
+    let base_scen = ORACLE_SCENARIO.replace("TARGET", "1m");
+    let p = problem(&base_scen, ORACLE_CAPS, ORACLE_INDUCTORS);
+    let base = design_and_assess(&p, "unconstrained");
+    let fa = base.assessment.filter.as_ref().unwrap();
+    let base_ind = fa.inductor.clone();
+
+    // Corner frequency: the limit just above the answer's corner.
+    let f0 = fa.tail.corner_frequency;
+    let lim = 1.05 * f0;
+    let scen = base_scen.replace("min_corner_frequency = \"40k\"", &format!("min_corner_frequency = {lim}"));
+    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "min_corner_frequency");
+    let got = d.assessment.filter.as_ref().unwrap().tail.corner_frequency;
+    assert!(got >= lim, "corner {got} Hz below the limit {lim} Hz");
+    assert!(d.filter != base.filter && d.cost >= base.cost - 1e-12);
+    assert!(check(&d, "filter corner_frequency").ok);
+
+    // Output impedance: half the answer's peak forces damping or another
+    // load-side bank.
+    let peak = fa.tail.peak_output_impedance;
+    let lim = 0.5 * peak;
+    let scen = base_scen.replace("[filter]\n", &format!("[filter]\nmax_output_impedance = {lim}\n"));
+    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "max_output_impedance");
+    let got = d.assessment.filter.as_ref().unwrap().tail.peak_output_impedance;
+    eprintln!("  peak |Z_out| {peak:.4} Ω unconstrained, {got:.4} Ω under the limit {lim:.4} Ω");
+    assert!(got <= lim, "peak {got} Ω above the limit {lim} Ω");
+    assert!(
+        d.filter.damping.is_some() || d.filter.load_bank != base.filter.load_bank,
+        "the limit is met by damping or a different load-side bank"
+    );
+    assert!(d.cost >= base.cost - 1e-12);
+    assert!(check(&d, "filter peak_output_impedance").ok);
+
+    // DC drop: just below the answer's iout·DCR.
+    let drop = fa.tail.dc_drop;
+    let iout = p.scenario.converter.iout.0;
+    assert!(rel(drop, iout * fa.dcr) < 1e-12, "DC drop is iout·DCR (Ohm's law)");
+    let lim = 0.95 * drop;
+    let scen = base_scen.replace("max_dc_drop = \"50m\"", &format!("max_dc_drop = {lim}"));
+    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "max_dc_drop");
+    let dfa = d.assessment.filter.as_ref().unwrap();
+    assert!(dfa.tail.dc_drop <= lim && dfa.inductor != base_ind);
+    assert!(d.cost >= base.cost - 1e-12);
+    assert!(check(&d, "filter dc_drop").ok);
+
+    // Rated current: the chosen inductor rated just below iout.
+    let row = ORACLE_INDUCTORS
+        .lines()
+        .find(|l| l.starts_with(&format!("{base_ind},")))
+        .unwrap()
+        .to_string();
+    let cols: Vec<&str> = row.split(',').collect();
+    let with = |rated: String, sat: String| {
+        let mut c: Vec<String> = cols.iter().map(|s| s.to_string()).collect();
+        c[4] = rated;
+        c[5] = sat;
+        ORACLE_INDUCTORS.replace(&row, &c.join(","))
+    };
+    let inds = with(format!("{}", 0.97 * iout), cols[5].to_string());
+    let pr = problem(&base_scen, ORACLE_CAPS, &inds);
+    let why = pr
+        .inductors_excluded
+        .iter()
+        .find(|e| e.part == base_ind)
+        .map(|e| e.reason.clone())
+        .expect("the under-rated inductor is excluded");
+    assert!(why.contains("rated current"), "{why}");
+    let d = design_and_assess(&pr, "rated_current");
+    let dfa = d.assessment.filter.as_ref().unwrap();
+    assert!(dfa.inductor != base_ind && dfa.rated_current >= iout);
+    assert!(check(&d, "inductor rated_current").ok);
+
+    // Saturation current: above iout (so the inductor is eligible) but
+    // below the answer's peak, the DC share plus half the ripple.
+    let ipk = fa.inductor_peak_current;
+    let ripple = fa.inductor_ripple_pp;
+    assert!(rel(ipk, iout + ripple / 2.0) < 1e-12 && ripple > 0.0);
+    let sat = iout + ripple / 4.0;
+    let inds = with(cols[4].to_string(), format!("{sat:.12}"));
+    let ps = problem(&base_scen, ORACLE_CAPS, &inds);
+    assert!(ps.inductors_excluded.iter().all(|e| e.part != base_ind), "eligible before any ripple");
+    let d = design_and_assess(&ps, "saturation_current");
+    let dfa = d.assessment.filter.as_ref().unwrap();
+    eprintln!(
+        "  inductor {base_ind}: peak {ipk:.5} A against a saturation current of {sat:.5} A; chosen {} (peak {:.5} A, saturation {:.3} A)",
+        dfa.inductor, dfa.inductor_peak_current, dfa.saturation_current
+    );
+    assert!(dfa.inductor_peak_current <= dfa.saturation_current);
+    assert!(d.filter != base.filter && d.cost >= base.cost - 1e-12);
+    assert!(check(&d, "inductor saturation_current").ok);
+    let _ = &base.bank;
+}
