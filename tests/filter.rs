@@ -655,3 +655,283 @@ fn each_filter_limit_changes_the_answer() {
     assert!(check(&d, "inductor saturation_current").ok);
     let _ = &base.bank;
 }
+
+// ---------------------------------------------------------------------------
+// ngspice (Debian package): the whole ladder, written here from the same
+// part values.
+
+use common::ngspice::{have_ngspice, meas, print_table, run_ngspice};
+
+/// Named beside every comparison with the simulator.
+const SPICE: &str = "ngspice (Debian package) as an independent simulator";
+
+fn num(x: f64) -> String {
+    format!("{x:.10e}")
+}
+
+/// A series R-L-C branch from `node` to ground (zero R or L left out).
+fn branch(o: &mut String, tag: &str, node: &str, r: f64, l: f64, c: f64) {
+    let mut from = node.to_string();
+    if r > 0.0 {
+        o.push_str(&format!("R{tag} {from} n{tag}r {}\n", num(r)));
+        from = format!("n{tag}r");
+    }
+    if l > 0.0 {
+        o.push_str(&format!("L{tag} {from} n{tag}l {}\n", num(l)));
+        from = format!("n{tag}l");
+    }
+    o.push_str(&format!("C{tag} {from} 0 {}\n", num(c)));
+}
+
+/// The filter's elements from `bank` (the converter-side node, or ground
+/// for the output impedance) to `load`, the lines at `states`
+/// (load-side bank, damping, inductor: [`Problem::tail_lines`]' order).
+fn write_tail(o: &mut String, tail: &[ripplebank::evaluator::TailLine], states: &[LineState], bank: &str) {
+    use ripplebank::evaluator::TailRole;
+    for (j, (t, st)) in tail.iter().zip(states).enumerate() {
+        let n = t.count as f64;
+        match t.role {
+            TailRole::Load => branch(o, &format!("ld{j}"), "load", st.esr / n, t.model.esl / n, st.c * n),
+            TailRole::Damping { resistance } => {
+                o.push_str(&format!("Rdamp load ndamp {}\n", num(resistance)));
+                branch(o, &format!("dp{j}"), "ndamp", st.esr / n, t.model.esl / n, st.c * n);
+            }
+            TailRole::Inductor { cp } => {
+                // n equal inductors in parallel: DCR/n and L/n in series,
+                // their winding capacitances n·Cp across the pair.
+                o.push_str(&format!("Rfilt {bank} nfilt {}\n", num(st.esr / n)));
+                o.push_str(&format!("Lfilt nfilt load {}\n", num(st.c / n)));
+                if cp > 0.0 {
+                    o.push_str(&format!("Cfilt {bank} load {}\n", num(cp * n)));
+                }
+            }
+        }
+    }
+}
+
+/// ngspice against the evaluator for one filtered design, every line at
+/// its `low` state, the first operating point: the ripple at the
+/// converter-side and the load node (transient, full bandwidth) and the
+/// filter's output impedance (AC). Returns the worst error, %.
+fn check_ladder(p: &Problem, fd: &FilterDesign, spec: &[(&str, u32)], what: &str) -> f64 {
+    // Full bandwidth without a target bandwidth, else the target's
+    // (first-order) bandwidth, written as an RC section between buffers.
+    let bw = p.scenario.target.bandwidth.map(|b| b.0);
+    assert!(p.scenario.target.bandwidth_order == 1 || bw.is_none());
+    let band = if bw.is_some() { Band::Limited } else { Band::Full };
+    let pf = p.with_filter(fd.clone());
+    let tail = pf.tail_lines(fd);
+    let bank: Vec<(usize, u32)> = spec.iter().map(|&(id, n)| (cap(p, id), n)).collect();
+    let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+    let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+    let mut ev = pf.evaluator(&parts);
+    let states = region::named_states(&ev, &local, Named::Low);
+    let nb = local.len();
+    let n = ev.n_full;
+    let op = 0;
+    ev.fill_states(&local, &states, n);
+    let pp_load = ev.pp_filled(op, band);
+    ev.to_converter_node(n);
+    let pp_conv = ev.pp_filled(op, band);
+
+    // Transient netlist.
+    let w = ev.ops[op].waveform.clone();
+    let t = w.period;
+    let mean = w.mean();
+    let mut o = format!("* {what}: LC post-filter ladder (test netlist)\n");
+    let net = ripplebank::network::Network::from_scenario(&p.scenario);
+    let conv = if net.connection_inductance > 0.0 { "conv" } else { "bank" };
+    if let Some(b) = net.internal {
+        branch(&mut o, "int", conv, b.esr, b.esl, b.c);
+    }
+    if net.connection_inductance > 0.0 {
+        o.push_str(&format!("Lconn conv bank {}\n", num(net.connection_inductance)));
+    }
+    for (j, (&(i, c), st)) in bank.iter().zip(&states).enumerate() {
+        let m = p.part_model(i);
+        let c = c as f64;
+        branch(&mut o, &format!("b{j}"), "bank", st.esr / c, m.esl / c, st.c * c);
+    }
+    write_tail(&mut o, &tail, &states[nb..], "bank");
+    o.push_str("Rdc bank 0 1e7\n");
+    let (mconv, mload) = match bw {
+        Some(bw) => {
+            let c = 1.0 / (2.0 * PI * 1e3 * bw);
+            for node in ["bank", "load"] {
+                o.push_str(&format!("Ein{node} i{node} 0 {node} 0 1\nRbw{node} i{node} f{node} 1e3\nCbw{node} f{node} 0 {}\n", num(c)));
+            }
+            ("fbank", "fload")
+        }
+        None => ("bank", "load"),
+    };
+    // The converter's current, mean removed, written out period by period
+    // after a ramp from zero over the first thousandth of a period.
+    let periods = 80usize;
+    let d = 1e-3 * t;
+    o.push_str(&format!("Idrive 0 {conv} PWL(0 0"));
+    let mut last = 0.0;
+    for k in 0..periods {
+        for &(ti, v) in &w.points {
+            let mut tt = d + ti + k as f64 * t;
+            if tt <= last {
+                tt = last + 1e-9 * t;
+            }
+            last = tt;
+            o.push_str(&format!("\n+ {:.12e} {}", tt, num(v - mean)));
+        }
+    }
+    let (t0, v0) = w.points[0];
+    o.push_str(&format!("\n+ {:.12e} {})\n", d + t0 + periods as f64 * t, num(v0 - mean)));
+    let t_end = d + t0 + periods as f64 * t;
+    let (a, b, c) = (t_end - 6.0 * t, t_end - 3.0 * t, t_end);
+    let tmax = t / 2000.0;
+    o.push_str(".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9\n");
+    o.push_str(&format!(".tran {} {} {} {}\n", num(tmax), num(c), num(a), num(tmax)));
+    for (name, node) in [("pp_conv", mconv), ("pp_load", mload)] {
+        o.push_str(&format!(".meas tran {name} PP v({node}) from={} to={}\n", num(b), num(c)));
+        o.push_str(&format!(".meas tran {name}_prev PP v({node}) from={} to={}\n", num(a), num(b)));
+    }
+    o.push_str(".end\n");
+    let out = run_ngspice(&o);
+    let mut worst: f64 = 0.0;
+    for (name, ours) in [("pp_conv", pp_conv), ("pp_load", pp_load)] {
+        let (sim, prev) = (meas(&out, name), meas(&out, &format!("{name}_prev")));
+        assert!(rel(prev, sim) < 2e-3, "{what}: {name} not settled: {prev} vs {sim}");
+        let e = rel(ours, sim);
+        worst = worst.max(e);
+        eprintln!(
+            "{what}: {name} ({}): evaluator {ours:.6e} V, {SPICE} {sim:.6e} V ({:+.3} %)",
+            if bw.is_some() { "target bandwidth" } else { "full bandwidth" },
+            100.0 * (ours - sim) / sim
+        );
+        assert!(e < 0.01, "{what}: {name}: evaluator {ours} V vs {SPICE} {sim} V");
+    }
+
+    // Output impedance: 1 A into the load node, the converter-side node
+    // held (grounded).
+    let f0 = filter::corner_frequency(&tail);
+    let mut o = format!("* {what}: output impedance of the filter (test netlist)\n");
+    write_tail(&mut o, &tail, &states[nb..], "0");
+    o.push_str("Iac 0 load AC 1\n");
+    o.push_str(&format!(".ac dec 200 {} {}\n.print ac vm(load)\n.end\n", num(f0 / 100.0), num(f0 * 10.0)));
+    let rows = print_table(&run_ngspice(&o));
+    assert!(rows.len() > 500, "{what}: ngspice printed {} rows", rows.len());
+    let (mut peak_s, mut peak_e, mut wz): (f64, f64, f64) = (0.0, 0.0, 0.0);
+    for &(f, zs) in &rows {
+        let z = ripplebank::evaluator::tail_output_impedance(&tail, &states[nb..], f).unwrap().norm();
+        wz = wz.max(rel(z, zs));
+        peak_s = peak_s.max(zs);
+        peak_e = peak_e.max(z);
+        assert!(rel(z, zs) < 0.01, "{what}: |Z_out| at {f} Hz: evaluator {z} Ω, {SPICE} {zs} Ω");
+    }
+    // The filter's own peak figure at this state (its golden-section
+    // refinement lies at or above the sampled peak).
+    let (peak, at) = filter::peak_output_impedance(&tail, f0 / 100.0, f0 * 10.0);
+    eprintln!(
+        "{what}: |Z_out| f0/100..10·f0 ({} points): worst {:.3e} %; peak {SPICE} {peak_s:.5} Ω, evaluator {peak_e:.5} Ω, \
+         filter peak (over the lines' corners) {peak:.5} Ω at {at:.4e} Hz",
+        rows.len(),
+        100.0 * wz
+    );
+    assert!(rel(peak_e, peak_s) < 0.01);
+    worst.max(wz) * 100.0
+}
+
+const SPICE_MODULE: &str = r#"
+name = "filter ngspice module (invented)"
+[converter]
+topology = "module"
+vin = 12
+vout = 3.3
+iout = 2
+fsw = "400k"
+standalone_ripple_pp = "30m"
+internal_capacitance = "10u"
+internal_esr = "5m"
+internal_esl = "1n"
+[target]
+ripple_pp = "1m"
+[board]
+mounting_inductance = "0.3n"
+connection_inductance = "1n"
+"#;
+
+const SPICE_BUCK: &str = r#"
+name = "filter ngspice buck (invented)"
+[converter]
+topology = "buck"
+vin = 12
+vout = 3.3
+iout = 3
+fsw = "500k"
+inductance = "2.2u"
+[target]
+ripple_pp = "1m"
+[board]
+mounting_inductance = "0.3n"
+"#;
+
+/// The oracle's inductors without a self-resonant frequency (no winding
+/// capacitance).
+fn inductors_without_srf() -> String {
+    ORACLE_INDUCTORS
+        .lines()
+        .map(|l| {
+            let mut c: Vec<&str> = l.split(',').collect();
+            if c[0] != "part" {
+                c[6] = "";
+            }
+            c.join(",")
+        })
+        .collect::<Vec<_>>()
+        .join("\n")
+        + "\n"
+}
+
+/// The ripple at both nodes (transient) and the output impedance (AC) of
+/// a damped and an undamped filter, on a module and on a buck, within 1 %
+/// of ngspice (Debian package): at full bandwidth with inductors of no
+/// winding capacitance, and at a 20 MHz first-order target bandwidth with
+/// the winding capacitance of each inductor's self-resonance.
+#[test]
+fn filter_ladder_matches_ngspice() {
+    if !have_ngspice() {
+        return;
+    }
+    let mut worst: f64 = 0.0;
+    let no_srf = inductors_without_srf();
+    for (scen, name, spec) in [
+        (SPICE_MODULE, "module", &[("O-CER-22U", 1u32)][..]),
+        (SPICE_BUCK, "buck", &[("O-CER-22U", 2), ("O-CER-4U7", 1)][..]),
+    ] {
+        for (inds, bw) in [(no_srf.as_str(), None), (ORACLE_INDUCTORS, Some("20M"))] {
+            let scen = match bw {
+                Some(b) => scen.replace("[target]\n", &format!("[target]\nbandwidth = \"{b}\"\nbandwidth_order = 1\n")),
+                None => scen.to_string(),
+            };
+            let p = problem(&scen, ORACLE_CAPS, inds);
+            let how = if bw.is_some() { "winding capacitance, 20 MHz" } else { "no winding capacitance, full bandwidth" };
+            // Undamped: the polymer's own ESR is the only damping.
+            let undamped = FilterDesign {
+                inductor: ind(&p, "O-L-0U22"),
+                count: 1,
+                load_bank: vec![(cap(&p, "O-POLY-100U"), 1)],
+                damping: None,
+            };
+            // Damped: a ceramic behind the inductor, an R–C leg of two ceramics.
+            let damped = FilterDesign {
+                inductor: ind(&p, "O-L-0U47"),
+                count: 1,
+                load_bank: vec![(cap(&p, "O-CER-22U"), 1)],
+                damping: Some(DampingLeg {
+                    resistance: 0.12,
+                    capacitor: cap(&p, "O-CER-22U"),
+                    count: 2,
+                }),
+            };
+            worst = worst.max(check_ladder(&p, &undamped, spec, &format!("{name}, undamped filter, {how}")));
+            worst = worst.max(check_ladder(&p, &damped, spec, &format!("{name}, damped filter, {how}")));
+        }
+    }
+    eprintln!("filter ladder against {SPICE}: worst error {worst:.3} %");
+}
