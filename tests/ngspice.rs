@@ -11,6 +11,7 @@ use ripplebank::problem::Problem;
 use ripplebank::report::spice::{self, Sweep};
 use ripplebank::scenario::Scenario;
 
+#[allow(dead_code)]
 mod common;
 use common::ngspice::{have_ngspice, meas, print_table, run_ngspice, run_ngspice_file};
 
