@@ -1207,6 +1207,14 @@ impl Evaluator {
         (hi - lo).max(0.0)
     }
 
+    /// The transfer impedance last filled by [`Evaluator::fill_states`]
+    /// (volts at the measured node per ampere of converter current) at the
+    /// first `n` harmonics; after [`Evaluator::to_converter_node`], at the
+    /// converter-side node.
+    pub fn transfer_filled(&self, n: usize) -> &[Complex64] {
+        &self.zt[..n.min(self.n_full)]
+    }
+
     /// Switch the transfer last filled to the bank's (converter-side) node:
     /// afterwards [`Evaluator::pp_filled`] gives the ripple there. Without
     /// a filter nothing changes.
