@@ -1030,6 +1030,12 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         .max(need_hi)
         .max(if need_lo.is_finite() { need_lo } else { 0.0 });
     let lo = clo.min(need_lo);
+    // The load step's target impedance is shown too.
+    let z_step = a.transient.as_ref().map(|t| t.z_target).filter(|z| z.is_finite() && *z > 0.0);
+    let (lo, hi) = match z_step {
+        Some(z) => (lo.min(z), hi.max(z)),
+        None => (lo, hi),
+    };
     let (ylo, yhi) = padded(lo, hi, 1.6);
     let off_scale = d.needed.iter().any(|n| n.1 > yhi);
     let (xlo, xhi) = (d.freqs[0], *d.freqs.last().unwrap_or(&d.freqs[0]));
@@ -1073,6 +1079,24 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         ALERT,
         Mark::Bar,
     ));
+    // The load step's target impedance over the band it applies to.
+    let step_band = a.transient.as_ref().map(|t| {
+        (
+            t.z_target,
+            t.loop_crossover.max(xlo),
+            (0.35 / t.rise_time).min(xhi),
+        )
+    });
+    if let Some((z, _, _)) = step_band {
+        entries.push(entry(
+            format!(
+                "load-step target impedance max_deviation / load_step: {}",
+                format_si(z, "Ω")
+            ),
+            PALETTE[5],
+            Mark::Dashed,
+        ));
+    }
     let title = "Impedance of the bank and its parts";
     let subtitle = format!(
         "worst-case capacitance, harmonics of the worst corner ({}), budget {} p-p at {}",
@@ -1119,6 +1143,18 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
             for run in log_runs(&d.freqs, z, ylo, yhi) {
                 chart
                     .draw_series(DashedLineSeries::new(run, 7, 5, MUTED.stroke_width(2)))
+                    .map_err(pe)?;
+            }
+        }
+        if let Some((z, a, b)) = step_band {
+            if b > a && z >= ylo && z <= yhi {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(a.log10(), z.log10()), (b.log10(), z.log10())],
+                        9,
+                        6,
+                        PALETTE[5].stroke_width(3),
+                    ))
                     .map_err(pe)?;
             }
         }
