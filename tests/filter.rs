@@ -935,3 +935,35 @@ fn filter_ladder_matches_ngspice() {
     }
     eprintln!("filter ladder against {SPICE}: worst error {worst:.3} %");
 }
+
+/// Known deviation, open: at full bandwidth, an inductor's winding
+/// capacitance (from its self-resonant frequency) resonates with the
+/// load-side bank's ESL far above the harmonics the evaluator sums (here
+/// 5.1 pF with 1.8 nH, about 1.7 GHz), and the closed-form high-frequency
+/// asymptote, taken where the filter passes the converter-side node's
+/// steps whole, stands in for that tail. The load-node ripple of this
+/// module then falls about 24 % below ngspice's (1.26 mV against 1.67 mV,
+/// unchanged with a five times finer simulator step); at a target
+/// bandwidth, and without winding capacitance, the two agree within
+/// 0.02 % (`filter_ladder_matches_ngspice`). This test fails until the
+/// evaluator handles it; run it with `--ignored`.
+#[test]
+#[ignore = "known deviation: winding capacitance at full bandwidth (see the doc comment)"]
+fn winding_capacitance_at_full_bandwidth_matches_ngspice() {
+    if !have_ngspice() {
+        return;
+    }
+    let p = problem(SPICE_MODULE, ORACLE_CAPS, ORACLE_INDUCTORS);
+    let undamped = FilterDesign {
+        inductor: ind(&p, "O-L-0U22"),
+        count: 1,
+        load_bank: vec![(cap(&p, "O-POLY-100U"), 1)],
+        damping: None,
+    };
+    check_ladder(
+        &p,
+        &undamped,
+        &[("O-CER-22U", 1)],
+        "module, undamped filter, winding capacitance, full bandwidth",
+    );
+}
