@@ -254,7 +254,23 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     let fs = &problem.scenario.filter;
     let lines = fs.load_max_lines.unwrap_or(1).max(1) as usize;
     let max_count = fs.load_max_count.unwrap_or(DEFAULT_LOAD_MAX_COUNT).max(1);
-    let banks = load_banks(&cands, lines, max_count);
+    // The load side stands outside the converter's loop: unless
+    // `count_load_side`, a part excluded only by `max_capacitance` may sit
+    // there (a bulk damping capacitor, say).
+    let mut load_cands = cands.clone();
+    if !fs.count_load_side && problem.scenario.converter.max_capacitance.is_some() {
+        let mut open = problem.scenario.clone();
+        open.converter.max_capacitance = None;
+        let obj = open.selection.objective;
+        for (i, part) in problem.catalog.parts.iter().enumerate() {
+            if !problem.eligible.contains(&i)
+                && crate::problem::ineligibility(&open, part, obj).is_none()
+            {
+                load_cands.push(i);
+            }
+        }
+    }
+    let banks = load_banks(&load_cands, lines, max_count);
     let vout = problem.scenario.converter.vout.0;
     let mut dropped: std::collections::BTreeMap<String, usize> = Default::default();
     // Every filter of the space with its own share of the objective.
@@ -266,7 +282,7 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
                 .iter()
                 .map(|&(i, n)| problem.catalog.parts[i].c_typical(vout) * n as f64)
                 .sum();
-            for damping in damping_legs(problem, &cands, l, c_load) {
+            for damping in damping_legs(problem, &load_cands, l, c_load) {
                 let fd = FilterDesign {
                     inductor: ind,
                     count,
