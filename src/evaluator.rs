@@ -137,6 +137,21 @@ impl TailLine {
     }
 }
 
+/// A post-filter's `(ty, h)` of [`crate::network::tail_terms`] at `f` with
+/// its lines at `states`, and the load node's total admittance there.
+#[inline]
+pub fn tail_terms_of(
+    tail: &[TailLine],
+    states: &[LineState],
+    f: f64,
+) -> ((Complex64, Complex64), Complex64) {
+    let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+    for (t, st) in tail.iter().zip(states) {
+        t.add_at(st, f, &mut y_load, &mut zs);
+    }
+    (crate::network::tail_terms(y_load, zs), y_load)
+}
+
 /// The output impedance of a post-filter at `f` with its lines at
 /// `states`: the load node's impedance with the bank's node held at a fixed
 /// voltage, `1 / (Y_load + 1/Z_s)` (None without lines).
@@ -516,11 +531,7 @@ impl Evaluator {
     /// load node's total admittance there.
     #[inline]
     fn tail_terms_at(&self, states: &[LineState], f: f64) -> ((Complex64, Complex64), Complex64) {
-        let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
-        for (t, st) in self.tail.iter().zip(states) {
-            t.add_at(st, f, &mut y_load, &mut zs);
-        }
-        (crate::network::tail_terms(y_load, zs), y_load)
+        tail_terms_of(&self.tail, states, f)
     }
 
     /// A lower bound on the target figure with the post-filter `tail` (its
@@ -1205,6 +1216,14 @@ impl Evaluator {
             hi = hi.max(x.re);
         }
         (hi - lo).max(0.0)
+    }
+
+    /// The transfer impedance last filled by [`Evaluator::fill_states`]
+    /// (volts at the measured node per ampere of converter current) at the
+    /// first `n` harmonics; after [`Evaluator::to_converter_node`], at the
+    /// converter-side node.
+    pub fn transfer_filled(&self, n: usize) -> &[Complex64] {
+        &self.zt[..n.min(self.n_full)]
     }
 
     /// Switch the transfer last filled to the bank's (converter-side) node:

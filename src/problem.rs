@@ -603,14 +603,14 @@ impl Problem {
         let mut out = Vec::new();
         for &(i, n) in &f.load_bank {
             out.push(TailLine {
-                model: self.part_model(i),
+                model: self.part_model_kept(i),
                 count: n,
                 role: TailRole::Load,
             });
         }
         if let Some(d) = &f.damping {
             out.push(TailLine {
-                model: self.part_model(d.capacitor),
+                model: self.part_model_kept(d.capacitor),
                 count: d.count,
                 role: TailRole::Damping {
                     resistance: d.resistance,
@@ -627,6 +627,16 @@ impl Problem {
             });
         }
         out
+    }
+
+    /// [`Problem::part_model`], from the kept evaluator when it holds the part.
+    fn part_model_kept(&self, i: usize) -> PartModel {
+        if let Some(t) = &self.template {
+            if let Some(j) = t.0.iter().position(|&x| x == i) {
+                return t.1.parts[j].clone();
+            }
+        }
+        self.part_model(i)
     }
 
     /// The operating point at one input voltage and converter inductance

@@ -183,7 +183,9 @@ fn bill_of_materials_reads_back_as_the_same_design() {
         text.lines().next().unwrap().contains(",position,"),
         "{text}"
     );
-    for pos in [",converter,", ",inductor,", ",load,"] {
+    // The demo's converter side needs no added capacitor (the module's own
+    // capacitance is enough there), so it has no converter row.
+    for pos in [",inductor,", ",load,", ",damping,"] {
         assert!(text.contains(pos), "{pos}: {text}");
     }
     let out = bin()

@@ -188,9 +188,11 @@ pub(crate) fn design_report(
                 }
             ));
             if f.bank.is_empty() {
-                r.line(
+                r.line(if p.filter.is_some() {
+                    "The converter's own output capacitance is enough on the converter side of the filter: no capacitors need to be added there."
+                } else {
                     "The converter's own output capacitance already meets the target: no capacitors need to be added."
-                );
+                });
             }
             for s in model::assessment(&a, quiet) {
                 r.push(s);
@@ -289,8 +291,17 @@ pub fn design(
     };
     let target = p.scenario.design_target();
     let usage = p.scenario.filter.usage;
-    let capacitors = (usage != FilterUse::Off).then(|| optimize::design(&p, &settings));
-    let filtered = (usage != FilterUse::Off).then(|| optimize::design_filtered(&p, target, &settings));
+    // `auto`/`on`: the capacitor-only and the filtered design are
+    // independent searches: one core each.
+    let (capacitors, filtered) = if usage != FilterUse::Off {
+        std::thread::scope(|scope| {
+            let cap = scope.spawn(|| optimize::design(&p, &settings));
+            let fo = optimize::design_filtered(&p, target, &settings);
+            (Some(cap.join().expect("the capacitor-only search does not panic")), Some(fo))
+        })
+    } else {
+        (None, None)
+    };
     let (p, out, comparison) = match (&capacitors, &filtered) {
         (Some(cap), Some(fo)) => choose(&p, usage, cap, fo),
         _ => (p.clone(), optimize::design(&p, &settings), Vec::new()),

@@ -254,7 +254,23 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     let fs = &problem.scenario.filter;
     let lines = fs.load_max_lines.unwrap_or(1).max(1) as usize;
     let max_count = fs.load_max_count.unwrap_or(DEFAULT_LOAD_MAX_COUNT).max(1);
-    let banks = load_banks(&cands, lines, max_count);
+    // The load side stands outside the converter's loop: unless
+    // `count_load_side`, a part excluded only by `max_capacitance` may sit
+    // there (a bulk damping capacitor, say).
+    let mut load_cands = cands.clone();
+    if !fs.count_load_side && problem.scenario.converter.max_capacitance.is_some() {
+        let mut open = problem.scenario.clone();
+        open.converter.max_capacitance = None;
+        let obj = open.selection.objective;
+        for (i, part) in problem.catalog.parts.iter().enumerate() {
+            if !problem.eligible.contains(&i)
+                && crate::problem::ineligibility(&open, part, obj).is_none()
+            {
+                load_cands.push(i);
+            }
+        }
+    }
+    let banks = load_banks(&load_cands, lines, max_count);
     let vout = problem.scenario.converter.vout.0;
     let mut dropped: std::collections::BTreeMap<String, usize> = Default::default();
     // Every filter of the space with its own share of the objective.
@@ -266,7 +282,7 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
                 .iter()
                 .map(|&(i, n)| problem.catalog.parts[i].c_typical(vout) * n as f64)
                 .sum();
-            for damping in damping_legs(problem, &cands, l, c_load) {
+            for damping in damping_legs(problem, &load_cands, l, c_load) {
                 let fd = FilterDesign {
                     inductor: ind,
                     count,
@@ -325,93 +341,125 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     let mut stats = Stats::default();
     let mut best: Option<(Found, FilterDesign)> = None;
     let mut searched = 0;
-    for (share, fd) in &filters {
-        if let Some((b, _)) = &best {
-            if share[0] >= b.key[0] {
+    // Filters are searched two at a time (one per core); each batch starts
+    // from the best design before it, which only loosens its cutoffs.
+    let workers = std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 2);
+    let mut next = 0usize;
+    'outer: loop {
+        let mut batch: Vec<(&[f64; 3], &FilterDesign)> = Vec::new();
+        while batch.len() < workers {
+            let Some((share, fd)) = filters.get(next) else {
+                break;
+            };
+            next += 1;
+            if let Some((b, _)) = &best {
+                if share[0] >= b.key[0] {
+                    break;
+                }
+            }
+            if searched + batch.len() >= MAX_FILTERS {
+                complete = false;
                 break;
             }
-        }
-        if searched >= MAX_FILTERS {
-            complete = false;
-            break;
-        }
-        let tail = problem.tail_lines(fd);
-        // The cheap tests first: the corner frequency, the ripple floor, then
-        // the output impedance (at the typical state, then every corner).
-        if let Some(m) = fs.min_corner_frequency {
-            if filter::corner_frequency(&tail) < m.0 {
-                *dropped.entry(CORNER.to_string()).or_default() += 1;
+            let tail = problem.tail_lines(fd);
+            // The cheap tests first: the corner frequency, the ripple floor,
+            // then the output impedance (typical state, then every corner).
+            if let Some(m) = fs.min_corner_frequency {
+                if filter::corner_frequency(&tail) < m.0 {
+                    *dropped.entry(CORNER.to_string()).or_default() += 1;
+                    continue;
+                }
+            }
+            if let Some(m) = fs.max_output_impedance {
+                if filter::typical_peak_output_impedance(&tail) > m.0 {
+                    *dropped.entry(IMPEDANCE.to_string()).or_default() += 1;
+                    continue;
+                }
+            }
+            let budget = best.as_ref().map_or(f64::INFINITY, |(b, _)| b.key[0] - share[0]);
+            for k in 0..ycap.len() {
+                ycap[k] = ymax[k].min(budget * per_unit[k]);
+            }
+            if base.tail_ripple_floor(&tail, &ycap) > target {
+                *dropped
+                    .entry("no allowed bank reaches the target behind it".into())
+                    .or_default() += 1;
                 continue;
             }
-        }
-        let budget = best.as_ref().map_or(f64::INFINITY, |(b, _)| b.key[0] - share[0]);
-        for k in 0..ycap.len() {
-            ycap[k] = ymax[k].min(budget * per_unit[k]);
-        }
-        if base.tail_ripple_floor(&tail, &ycap) > target {
-            *dropped
-                .entry("no allowed bank reaches the target behind it".into())
-                .or_default() += 1;
-            continue;
-        }
-        if let Some(m) = fs.max_output_impedance {
-            if filter::typical_peak_output_impedance(&tail) > m.0 {
-                *dropped.entry(IMPEDANCE.to_string()).or_default() += 1;
+            let figs = filter::tail_figures(problem, &tail);
+            if let Some(why) = tail_violation(problem, &figs) {
+                *dropped.entry(why.to_string()).or_default() += 1;
                 continue;
             }
+            batch.push((share, fd));
         }
-        let figs = filter::tail_figures(problem, &tail);
-        if let Some(why) = tail_violation(problem, &figs) {
-            *dropped.entry(why.to_string()).or_default() += 1;
-            continue;
+        if batch.is_empty() {
+            break 'outer;
         }
-        let p = problem_with(problem, fd);
-        let inner = Settings {
-            cutoff: best.as_ref().map(|(b, _)| b.key[0] - share[0]),
-            progress: false,
-            ..settings.clone()
+        let cutoff_of = |share: &[f64; 3]| best.as_ref().map(|(b, _)| b.key[0] - share[0]);
+        let solve = |share: &[f64; 3], fd: &FilterDesign| {
+            let p = problem_with(problem, fd);
+            let inner = Settings {
+                cutoff: cutoff_of(share),
+                progress: false,
+                ..settings.clone()
+            };
+            let out = design_for(&p, target, &inner);
+            (p, out)
         };
-        let t_inner = Instant::now();
-        let out: DesignOutcome = design_for(&p, target, &inner);
-        if std::env::var_os("RIPPLEBANK_TRACE").is_some() {
-            eprintln!("filter {searched}: share {:.4} inner {:.3} s {:?} evals {} sets {}/{} rounds {}", share[0], t_inner.elapsed().as_secs_f64(), out.found.as_ref().map(|f| f.key[0]), out.stats.evaluations, out.stats.line_sets_solved, out.stats.line_sets_total, out.stats.region_rounds);
-        }
-        searched += 1;
-        stats.evaluations += out.stats.evaluations;
-        stats.line_sets_solved += out.stats.line_sets_solved;
-        stats.line_sets_total += out.stats.line_sets_total;
-        stats.candidates = out.stats.candidates;
-        stats.dominated = out.stats.dominated;
-        stats.region_rounds = stats.region_rounds.max(out.stats.region_rounds);
-        if !out.stats.proven {
-            complete = false;
-        }
-        let Some(mut f) = out.found else {
-            continue;
+        let outs: Vec<(Problem, DesignOutcome)> = if batch.len() == 1 {
+            vec![solve(batch[0].0, batch[0].1)]
+        } else {
+            std::thread::scope(|scope| {
+                let handles: Vec<_> = batch[1..]
+                    .iter()
+                    .map(|&(share, fd)| scope.spawn(move || solve(share, fd)))
+                    .collect();
+                let mut v = vec![solve(batch[0].0, batch[0].1)];
+                for h in handles {
+                    v.push(h.join().expect("a filter search does not panic"));
+                }
+                v
+            })
         };
-        // The inductor's peak current against its saturation rating.
-        let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
-        let mut ev = p.evaluator(&parts);
-        let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
-        let w = crate::region::worst(&p, &mut ev, &local, Band::Limited);
-        let (_, peak) = filter::inductor_current(&p, &mut ev, &local, Some(&w));
-        let sat = problem
-            .inductors
-            .as_ref()
-            .map_or(f64::INFINITY, |c| c.parts[fd.inductor].saturation_current);
-        if peak > sat {
-            *dropped
-                .entry("inductor peak current above its saturation current".into())
-                .or_default() += 1;
-            // A different bank could have passed: not proven.
-            complete = false;
-            continue;
-        }
-        for j in 0..3 {
-            f.key[j] += share[j];
-        }
-        if best.as_ref().is_none_or(|(b, _)| better(&f.key, &b.key)) {
-            best = Some((f, fd.clone()));
+        for ((share, fd), (p, out)) in batch.into_iter().zip(outs) {
+            searched += 1;
+            stats.evaluations += out.stats.evaluations;
+            stats.line_sets_solved += out.stats.line_sets_solved;
+            stats.line_sets_total += out.stats.line_sets_total;
+            stats.candidates = out.stats.candidates;
+            stats.dominated = out.stats.dominated;
+            stats.region_rounds = stats.region_rounds.max(out.stats.region_rounds);
+            if !out.stats.proven {
+                complete = false;
+            }
+            let Some(mut f) = out.found else {
+                continue;
+            };
+            // The inductor's peak current against its saturation rating.
+            let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
+            let mut ev = p.evaluator(&parts);
+            let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+            let w = crate::region::worst(&p, &mut ev, &local, Band::Limited);
+            let (_, peak) = filter::inductor_current(&p, &mut ev, &local, Some(&w));
+            let sat = problem
+                .inductors
+                .as_ref()
+                .map_or(f64::INFINITY, |c| c.parts[fd.inductor].saturation_current);
+            if peak > sat {
+                *dropped
+                    .entry("inductor peak current above its saturation current".into())
+                    .or_default() += 1;
+                // A different bank could have passed: not proven.
+                complete = false;
+                continue;
+            }
+            for j in 0..3 {
+                f.key[j] += share[j];
+            }
+            if best.as_ref().is_none_or(|(b, _)| better(&f.key, &b.key)) {
+                best = Some((f, fd.clone()));
+            }
         }
     }
     stats.proven = complete;

@@ -428,6 +428,9 @@ pub fn design_from(
         let stages = run_stages(&mut s, settings, &mut stats);
         stats.evaluations += s.evals;
         stopped = stages.stopped;
+        // With no bank found, every line set enumerated proves that none
+        // exists (the filter search relies on it under its cutoff).
+        proven = stages.exhaustive;
         stats.line_sets_solved += s.sets_solved;
         stats.region_rounds = round;
         if let Some((key, bank, _)) = s.incumbent.take().filter(|i| i.2.is_finite()) {

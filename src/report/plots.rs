@@ -746,7 +746,139 @@ pub fn bank_plots(
     if let Some(t) = &a.transient {
         out.push(("load_step.svg".into(), load_step_svg(t)?));
     }
+    if let (Some(f), Some(_)) = (&a.filter, &problem.filter) {
+        out.push(("filter.svg".into(), filter_svg(problem, bank, f)?));
+    }
     Ok(out)
+}
+
+/// The data of `filter.svg` at the typical state of every part: the
+/// frequencies, the filter's output impedance |Z_out| (converter side
+/// held) and the transfer |V_load/I| from the converter's current to the
+/// load node, Ω.
+pub fn filter_data(problem: &Problem, bank: &[(usize, u32)], f0: f64) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+    let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
+    let ev = problem.evaluator(&parts);
+    let tail = ev.tail().to_vec();
+    let st: Vec<LineState> = tail
+        .iter()
+        .map(|t| LineState {
+            c: t.model.c_typical,
+            esr: t.model.esr,
+        })
+        .collect();
+    let f_ripple = ev.f_ripple;
+    let (lo, hi) = ((f0 / 100.0).min(f_ripple / 10.0), (f_ripple * 100.0).max(f0 * 100.0));
+    let n = 480;
+    let freqs: Vec<f64> = (0..=n).map(|i| lo * (hi / lo).powf(i as f64 / n as f64)).collect();
+    let mut zout = Vec::with_capacity(freqs.len());
+    let mut zt = Vec::with_capacity(freqs.len());
+    for &f in &freqs {
+        zout.push(crate::evaluator::tail_output_impedance(&tail, &st, f).map_or(0.0, |z| z.norm()));
+        let mut yb = Complex64::default();
+        for &(i, cnt) in bank {
+            let p = problem.part_model(i);
+            yb += admittance(p.esr, p.esl, p.c_typical, f) * cnt as f64;
+        }
+        let ((ty, h), _) = crate::evaluator::tail_terms_of(&tail, &st, f);
+        let yi = ev.network.internal_admittance(f);
+        zt.push(
+            ev.network
+                .transfer_tail(yb, yi, 2.0 * std::f64::consts::PI * f, ty, h)
+                .norm(),
+        );
+    }
+    (freqs, zout, zt)
+}
+
+fn filter_svg(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    fa: &crate::filter::FilterAssessment,
+) -> Result<String> {
+    let f0 = fa.tail.corner_frequency.max(1.0);
+    let (freqs, zout, zt) = filter_data(problem, bank, f0);
+    let limit = problem.scenario.filter.max_output_impedance.map(|m| m.0);
+    let (clo, chi) = min_max(
+        zout.iter()
+            .chain(&zt)
+            .copied()
+            .filter(|x| x.is_finite() && *x > 0.0)
+            .chain(limit),
+    );
+    let (ylo, yhi) = padded(clo.max(chi * 1e-7), chi, 1.6);
+    let (xlo, xhi) = (freqs[0], *freqs.last().unwrap_or(&freqs[0]));
+    let mut entries = vec![
+        entry(
+            format!(
+                "|Z_out| from the load, converter side held: peak {} at {}",
+                format_si(fa.tail.peak_output_impedance, "Ω"),
+                format_si(fa.tail.peak_frequency, "Hz")
+            ),
+            PALETTE[0],
+            Mark::Line(3),
+        ),
+        entry(
+            "|V_load / I_converter|: the converter's current to the load node",
+            INK,
+            Mark::Line(2),
+        ),
+    ];
+    if let Some(m) = limit {
+        entries.push(entry(
+            format!("max_output_impedance {}", format_si(m, "Ω")),
+            ALERT,
+            Mark::Dashed,
+        ));
+    }
+    let title = "Post-filter: output impedance and transfer";
+    let subtitle = format!(
+        "{} × {} into {} — corner {}, typical state of every part",
+        fa.count,
+        fa.inductor,
+        fa.load_bank
+            .iter()
+            .map(|(id, n)| format!("{n} × {id}"))
+            .collect::<Vec<_>>()
+            .join(" + "),
+        format_si(fa.tail.corner_frequency, "Hz")
+    );
+    let fx = |v: &f64| log_label(*v, "Hz");
+    let fy = |v: &f64| log_label(*v, "Ω");
+    let frame = Frame {
+        height: 600,
+        title,
+        subtitle: &subtitle,
+        x: axis("frequency (Hz)", &fx),
+        y: axis("|Z| (Ω)", &fy),
+        max_light_lines: None,
+        entries: &entries,
+        extra_legend: 0,
+    };
+    let draw = |chart: &mut Chart<LogAxis, LogAxis>| {
+        for run in log_runs(&freqs, &zout, ylo, yhi) {
+            chart
+                .draw_series(LineSeries::new(run, PALETTE[0].stroke_width(3)))
+                .map_err(pe)?;
+        }
+        for run in log_runs(&freqs, &zt, ylo, yhi) {
+            chart
+                .draw_series(LineSeries::new(run, INK.stroke_width(2)))
+                .map_err(pe)?;
+        }
+        if let Some(m) = limit {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(xlo.log10(), m.log10()), (xhi.log10(), m.log10())],
+                    9,
+                    6,
+                    ALERT.stroke_width(2),
+                ))
+                .map_err(pe)?;
+        }
+        Ok(())
+    };
+    chart_svg(frame, log_axis(xlo, xhi), log_axis(ylo, yhi), draw, no_key)
 }
 
 /// The data of `load_step.svg`: the output's excursion after the load step
@@ -898,6 +1030,12 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         .max(need_hi)
         .max(if need_lo.is_finite() { need_lo } else { 0.0 });
     let lo = clo.min(need_lo);
+    // The load step's target impedance is shown too.
+    let z_step = a.transient.as_ref().map(|t| t.z_target).filter(|z| z.is_finite() && *z > 0.0);
+    let (lo, hi) = match z_step {
+        Some(z) => (lo.min(z), hi.max(z)),
+        None => (lo, hi),
+    };
     let (ylo, yhi) = padded(lo, hi, 1.6);
     let off_scale = d.needed.iter().any(|n| n.1 > yhi);
     let (xlo, xhi) = (d.freqs[0], *d.freqs.last().unwrap_or(&d.freqs[0]));
@@ -941,6 +1079,24 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         ALERT,
         Mark::Bar,
     ));
+    // The load step's target impedance over the band it applies to.
+    let step_band = a.transient.as_ref().map(|t| {
+        (
+            t.z_target,
+            t.loop_crossover.max(xlo),
+            (0.35 / t.rise_time).min(xhi),
+        )
+    });
+    if let Some((z, _, _)) = step_band {
+        entries.push(entry(
+            format!(
+                "load-step target impedance max_deviation / load_step: {}",
+                format_si(z, "Ω")
+            ),
+            PALETTE[5],
+            Mark::Dashed,
+        ));
+    }
     let title = "Impedance of the bank and its parts";
     let subtitle = format!(
         "worst-case capacitance, harmonics of the worst corner ({}), budget {} p-p at {}",
@@ -987,6 +1143,18 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
             for run in log_runs(&d.freqs, z, ylo, yhi) {
                 chart
                     .draw_series(DashedLineSeries::new(run, 7, 5, MUTED.stroke_width(2)))
+                    .map_err(pe)?;
+            }
+        }
+        if let Some((z, a, b)) = step_band {
+            if b > a && z >= ylo && z <= yhi {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(a.log10(), z.log10()), (b.log10(), z.log10())],
+                        9,
+                        6,
+                        PALETTE[5].stroke_width(3),
+                    ))
                     .map_err(pe)?;
             }
         }

@@ -1,5 +1,7 @@
 //! Random small cases shared by the brute-force tests (invented data).
 
+pub mod ngspice;
+
 use rand::rngs::StdRng;
 use rand::Rng;
 
