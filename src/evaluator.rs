@@ -1107,6 +1107,24 @@ impl Evaluator {
         self.samples_filled(band, op)
     }
 
+    /// As [`Evaluator::waveform_states`], at the converter-side node of a
+    /// post-filter (the load node's samples without one).
+    pub fn waveform_states_converter_node(
+        &mut self,
+        bank: &Bank,
+        states: &[LineState],
+        band: Band,
+        op: usize,
+    ) -> Vec<f64> {
+        if self.is_empty(bank) {
+            return Vec::new();
+        }
+        let n = self.harmonics_of(band);
+        self.fill_states(bank, states, n);
+        self.to_converter_node(n);
+        self.samples_filled(band, op)
+    }
+
     /// Harmonic voltage phasors V_k of the target figure with each line at
     /// its own state, at operating point `op`.
     pub fn harmonic_voltages_states(

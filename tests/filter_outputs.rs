@@ -177,6 +177,32 @@ fn bill_of_materials_reads_back_as_the_same_design() {
         ])
         .assert()
         .code(0);
+    // Both nodes in the waveform plot, one panel each; the ladder in bank.cir.
+    let svg = std::fs::read_to_string(dir.join("ripple.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).expect("ripple.svg is XML");
+    let panels = doc
+        .root_element()
+        .children()
+        .filter(|n| n.has_tag_name("svg"))
+        .count();
+    assert_eq!(panels, 2, "load node and converter-side node");
+    for want in [
+        "Load node (after the filter",
+        "Converter-side node (before the filter)",
+        "target band",
+    ] {
+        assert!(svg.contains(want), "ripple.svg lacks `{want}`");
+    }
+    assert!(dir.join("filter.svg").is_file());
+    let cir = std::fs::read_to_string(dir.join("bank.cir")).unwrap();
+    for want in [
+        "* ---- post-filter",
+        "\nLf bank ",
+        ".meas tran pp_conv_limited",
+        "PP v(load)",
+    ] {
+        assert!(cir.contains(want), "bank.cir lacks `{want}`");
+    }
     let bom = dir.join("bom.csv");
     let text = std::fs::read_to_string(&bom).unwrap();
     assert!(

@@ -246,15 +246,25 @@ pub struct RippleData {
     pub vin_corner: usize,
     /// Input voltage of that operating point, V.
     pub vin: Option<f64>,
+    /// Behind a post-filter, the same point's ripple at the converter-side
+    /// node: (bandwidth-limited, full bandwidth) samples over one period, V.
+    pub converter_node: Option<(Vec<f64>, Vec<f64>)>,
 }
 
 fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
+    let converter_node = (!p.ev.tail().is_empty()).then(|| {
+        (
+            p.ev.waveform_states_converter_node(&p.local, &p.states, Band::Limited, p.vin_corner),
+            p.ev.waveform_states_converter_node(&p.local, &p.states, Band::Full, p.vin_corner),
+        )
+    });
     let limited =
         p.ev.waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner);
     let full =
         p.ev.waveform_states(&p.local, &p.states, Band::Full, p.vin_corner);
     let (lo, hi) = min_max(limited.iter().copied());
     RippleData {
+        converter_node,
         period: 1.0 / p.ev.f_ripple,
         limited,
         full,
@@ -1180,6 +1190,69 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
 }
 
 fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<String> {
+    let verdict = if a.meets_target {
+        "meets the target"
+    } else {
+        "MISSES the target"
+    };
+    let subtitle = format!(
+        "{}, worst-case capacitance, 2 periods of {} — {verdict}",
+        vin_text(d.vin),
+        format_si(d.period, "s"),
+    );
+    let Some((clim, cfull)) = &d.converter_node else {
+        return ripple_chart(
+            problem,
+            d,
+            (&d.limited, &d.full),
+            Some(d.target),
+            "Output ripple at the worst corner",
+            &subtitle,
+            "output ripple (mV)",
+        );
+    };
+    // Behind a post-filter: the load node (the target's) above, the
+    // converter-side node below, at the same point and time.
+    let title = "Output ripple at the worst corner, at both nodes of the filter";
+    let load = ripple_chart(
+        problem,
+        d,
+        (&d.limited, &d.full),
+        Some(d.target),
+        "Load node (after the filter, where the target applies)",
+        &subtitle,
+        "ripple at the load (mV)",
+    )?;
+    let conv_sub = format!(
+        "the same point and time; {} p-p here, {} p-p at the load ({:.1}× less)",
+        format_si(peak_to_peak(clim), "V"),
+        format_si(peak_to_peak(&d.limited), "V"),
+        peak_to_peak(clim) / peak_to_peak(&d.limited).max(f64::MIN_POSITIVE)
+    );
+    let conv = ripple_chart(
+        problem,
+        d,
+        (clim, cfull),
+        None,
+        "Converter-side node (before the filter)",
+        &conv_sub,
+        "ripple at the converter (mV)",
+    )?;
+    Ok(stack_svgs(title, &[load, conv]))
+}
+
+/// One ripple chart: two periods of the bandwidth-limited and the
+/// full-bandwidth samples `traces`, and the target band around the middle
+/// of the bandwidth-limited trace when `target` is given.
+fn ripple_chart(
+    problem: &Problem,
+    d: &RippleData,
+    traces: (&[f64], &[f64]),
+    target: Option<f64>,
+    title: &str,
+    subtitle: &str,
+    y_desc: &str,
+) -> Result<String> {
     let periods = 2;
     let us = d.period * 1e6;
     let trace = |v: &[f64]| -> Vec<(f64, f64)> {
@@ -1190,68 +1263,59 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
         pts = decimate(&pts, 2400);
         pts
     };
-    let lim = trace(&d.limited);
-    let full = trace(&d.full);
-    let band_lo = (d.mid - d.target / 2.0) * 1e3;
-    let band_hi = (d.mid + d.target / 2.0) * 1e3;
+    let lim = trace(traces.0);
+    let full = trace(traces.1);
+    let (lo, hi) = min_max(traces.0.iter().copied());
+    let mid = (lo + hi) / 2.0;
+    let band = target.map(|t| ((mid - t / 2.0) * 1e3, (mid + t / 2.0) * 1e3));
     let (vlo, vhi) = min_max(
         lim.iter()
             .chain(&full)
             .map(|p| p.1)
-            .chain([band_lo, band_hi]),
+            .chain(band.iter().flat_map(|&(a, b)| [a, b])),
     );
     let pad = (vhi - vlo).max(1e-9) * 0.08;
     let (ylo, yhi) = (vlo - pad, vhi + pad);
     let xhi = periods as f64 * us;
     let bw = band_text(problem);
-    let entries = vec![
+    let mut entries = vec![
         entry(
             format!(
                 "full bandwidth: {} p-p",
-                format_si(peak_to_peak(&d.full), "V")
+                format_si(peak_to_peak(traces.1), "V")
             ),
             PALETTE[5],
             Mark::Line(1),
         ),
         entry(
-            format!("{bw}: {} p-p", format_si(peak_to_peak(&d.limited), "V")),
+            format!("{bw}: {} p-p", format_si(peak_to_peak(traces.0), "V")),
             PALETTE[0],
             Mark::Line(3),
         ),
-        entry(
+    ];
+    if let Some(t) = target {
+        entries.push(entry(
             format!(
                 "target band: {} p-p around the middle of the {bw} trace",
-                format_si(d.target, "V")
+                format_si(t, "V")
             ),
             ALERT,
             Mark::Dashed,
-        ),
-    ];
-    let title = "Output ripple at the worst corner";
-    let subtitle = format!(
-        "{}, worst-case capacitance, {} periods of {} — {}",
-        vin_text(d.vin),
-        periods,
-        format_si(d.period, "s"),
-        if a.meets_target {
-            "meets the target"
-        } else {
-            "MISSES the target"
-        }
-    );
+        ));
+    }
     let fx = |v: &f64| trim_num(*v);
     let fy = |v: &f64| trim_num(*v);
     let frame = Frame {
         height: 560,
         title,
-        subtitle: &subtitle,
+        subtitle,
         x: Axis {
             ticks: Some(12),
             ..axis("time (µs)", &fx)
         },
         y: Axis {
             ticks: Some(10),
-            ..axis("output ripple (mV)", &fy)
+            ..axis(y_desc, &fy)
         },
         max_light_lines: Some(4),
         entries: &entries,
@@ -1266,19 +1330,50 @@ fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<Strin
         chart
             .draw_series(LineSeries::new(full, PALETTE[5].stroke_width(1)))
             .map_err(pe)?;
-        for y in [band_lo, band_hi] {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    vec![(0.0, y), (xhi, y)],
-                    9,
-                    6,
-                    ALERT.stroke_width(2),
-                ))
-                .map_err(pe)?;
+        if let Some((b_lo, b_hi)) = band {
+            for y in [b_lo, b_hi] {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(0.0, y), (xhi, y)],
+                        9,
+                        6,
+                        ALERT.stroke_width(2),
+                    ))
+                    .map_err(pe)?;
+            }
         }
         Ok(())
     };
     chart_svg(frame, 0.0..xhi, ylo..yhi, draw, no_key)
+}
+
+/// Several plots stacked into one SVG (each a nested `<svg>` at its own
+/// height), with `title` as the whole figure's `<title>`.
+fn stack_svgs(title: &str, parts: &[String]) -> String {
+    let height_of = |s: &str| -> u32 {
+        s.split_once("height=\"")
+            .and_then(|(_, r)| r.split_once('"'))
+            .and_then(|(h, _)| h.parse().ok())
+            .unwrap_or(0)
+    };
+    let total: u32 = parts.iter().map(|p| height_of(p)).sum();
+    let mut out = format!(
+        "<svg width=\"{W}\" height=\"{total}\" viewBox=\"0 0 {W} {total}\" xmlns=\"http://www.w3.org/2000/svg\">\n<title>{}</title>\n",
+        xml_escape(title)
+    );
+    let mut y = 0;
+    for p in parts {
+        // The part's root element, placed at its height in the stack.
+        let body = p.trim_start();
+        let body = body.strip_prefix("<svg ").map_or(body.to_string(), |rest| {
+            format!("<svg x=\"0\" y=\"{y}\" {rest}")
+        });
+        out.push_str(&body);
+        out.push('\n');
+        y += height_of(p);
+    }
+    out.push_str("</svg>\n");
+    out
 }
 
 /// A tick number without float noise: 0.30000000000000004 → 0.3.
