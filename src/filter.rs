@@ -56,16 +56,6 @@ pub struct FilterDesign {
     pub damping: Option<DampingLeg>,
 }
 
-/// The one place that stops a command needing the filter's evaluator
-/// before it is wired in: the inputs were read and checked, the figures
-/// cannot be computed yet. `what` names the request.
-pub fn not_yet_wired(what: &str) -> anyhow::Error {
-    anyhow::anyhow!(
-        "{what}: the post-filter's evaluation is not yet wired into this version; nothing was computed and \
-         no file was written"
-    )
-}
-
 use crate::evaluator::{tail_output_impedance, Evaluator, LineState, TailLine, TailRole};
 use crate::problem::Problem;
 use crate::scenario::Objective;
