@@ -5,7 +5,7 @@
 //! (1× 10 µF 0603, 3× 47 µF 1206); a bank is not a result here, only a
 //! workload.
 
-use criterion::{black_box, BatchSize, criterion_group, criterion_main, Criterion};
+use criterion::{black_box, criterion_group, criterion_main, BatchSize, Criterion};
 use ripplebank::evaluator::{Band, Corner};
 use ripplebank::load;
 use ripplebank::problem::Problem;

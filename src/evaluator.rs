@@ -355,7 +355,11 @@ impl Evaluator {
             tail_typical: TailTable::default(),
             hk: vec![Complex64::new(1.0, 0.0); n_full],
             yl: vec![Complex64::default(); n_full],
-            big: (Complex64::default(), Complex64::default(), Complex64::new(1.0, 0.0)),
+            big: (
+                Complex64::default(),
+                Complex64::default(),
+                Complex64::new(1.0, 0.0),
+            ),
             zt: vec![Complex64::default(); n_full],
             buf: vec![Complex64::default(); plan_full.m.max(plan_limited.m)],
             fft_scratch: vec![Complex64::default(); scratch_len],
@@ -557,7 +561,11 @@ impl Evaluator {
             let g = self.network.coupling_with(yi, w);
             let y = ymax[k] * g.norm() + (yi + g * ty).norm();
             let d = self.peak_drive(k) * h.norm();
-            best = best.max(if y > 0.0 { HARMONIC_FLOOR * d / y } else { f64::INFINITY });
+            best = best.max(if y > 0.0 {
+                HARMONIC_FLOOR * d / y
+            } else {
+                f64::INFINITY
+            });
         }
         best
     }
@@ -1053,17 +1061,25 @@ impl Evaluator {
         for k in 0..n {
             let f = self.freqs[k];
             let ((ty, h), yl) = if tail_states.is_empty() {
-                ((self.tail_low.ty[k], self.tail_low.h[k]), Complex64::default())
+                (
+                    (self.tail_low.ty[k], self.tail_low.h[k]),
+                    Complex64::default(),
+                )
             } else {
                 self.tail_terms_at(tail_states, f)
             };
             let w = 2.0 * PI * f;
-            self.zt[k] = self.network.transfer_tail(self.zt[k], self.y_int[k], w, ty, h);
+            self.zt[k] = self
+                .network
+                .transfer_tail(self.zt[k], self.y_int[k], w, ty, h);
             self.hk[k] = h;
             self.yl[k] = yl;
         }
         let ((ty, h), _) = if tail_states.is_empty() {
-            ((self.tail_low.ty_big, self.tail_low.h_big), Complex64::default())
+            (
+                (self.tail_low.ty_big, self.tail_low.h_big),
+                Complex64::default(),
+            )
         } else {
             self.tail_terms_at(tail_states, f_big)
         };
@@ -1206,7 +1222,12 @@ impl Evaluator {
     /// the full harmonic set (0 without a filter). The inductor's current is
     /// smooth (the filter has removed the converter's steps), so its
     /// series converges fast; it is summed on the full grid.
-    pub fn inductor_ripple_filled(&mut self, states: &[LineState], op: usize, bank_len: usize) -> f64 {
+    pub fn inductor_ripple_filled(
+        &mut self,
+        states: &[LineState],
+        op: usize,
+        bank_len: usize,
+    ) -> f64 {
         let nt = self.tail.len();
         let Some(t) = self
             .tail
@@ -1222,12 +1243,16 @@ impl Evaluator {
         let m = self.plan_full.m;
         let line = self.tail[t].clone();
         let st = states[bank_len + t];
-        self.buf[..m].iter_mut().for_each(|x| *x = Complex64::default());
+        self.buf[..m]
+            .iter_mut()
+            .for_each(|x| *x = Complex64::default());
         for k in 0..n {
             self.buf[k + 1] = self.tail_part_current(&line, &st, k) * self.currents[op][k];
         }
         let buf = &mut self.buf[..m];
-        self.plan_full.fft.process_with_scratch(buf, &mut self.fft_scratch);
+        self.plan_full
+            .fft
+            .process_with_scratch(buf, &mut self.fft_scratch);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
         for x in buf.iter() {
             lo = lo.min(x.re);

@@ -268,7 +268,11 @@ pub fn tail_totals(problem: &Problem, f: &FilterDesign) -> (f64, f64, u32) {
         area += p.area.unwrap_or(0.0) * d.count as f64;
         count += d.count + 1;
     }
-    if let Some(ind) = problem.inductors.as_ref().and_then(|c| c.parts.get(f.inductor)) {
+    if let Some(ind) = problem
+        .inductors
+        .as_ref()
+        .and_then(|c| c.parts.get(f.inductor))
+    {
         cost += ind.cost * f.count as f64;
         area += ind.area.unwrap_or(0.0) * f.count as f64;
         count += f.count;
@@ -386,7 +390,12 @@ pub fn assess_filter(
     currents: &[f64],
 ) -> Option<FilterAssessment> {
     let design = problem.filter.clone()?;
-    let ind = problem.inductors.as_ref()?.parts.get(design.inductor)?.clone();
+    let ind = problem
+        .inductors
+        .as_ref()?
+        .parts
+        .get(design.inductor)?
+        .clone();
     let tail_lines = ev.tail().to_vec();
     let tail = tail_figures(problem, &tail_lines);
     let conv = if worst.states.len() == ev.line_count(local) {
@@ -447,29 +456,51 @@ pub fn filter_checks(problem: &Problem, f: &FilterAssessment) -> Vec<crate::asse
     use crate::assessment::{Bound, Check};
     let s = &problem.scenario.filter;
     let mut out = Vec::new();
-    let mut push = |name: &str, value: f64, limit: f64, unit: &str, bound: Bound, part: Option<String>| {
-        let ok = match bound {
-            Bound::AtMost => value <= limit * (1.0 + 1e-9),
-            Bound::AtLeast => value >= limit * (1.0 - 1e-9),
+    let mut push =
+        |name: &str, value: f64, limit: f64, unit: &str, bound: Bound, part: Option<String>| {
+            let ok = match bound {
+                Bound::AtMost => value <= limit * (1.0 + 1e-9),
+                Bound::AtLeast => value >= limit * (1.0 - 1e-9),
+            };
+            out.push(Check {
+                name: name.into(),
+                value,
+                limit,
+                unit: unit.into(),
+                ok,
+                part,
+                bound,
+            });
         };
-        out.push(Check {
-            name: name.into(),
-            value,
-            limit,
-            unit: unit.into(),
-            ok,
-            part,
-            bound,
-        });
-    };
     if let Some(m) = s.min_corner_frequency {
-        push("filter corner_frequency", f.tail.corner_frequency, m.0, "Hz", Bound::AtLeast, None);
+        push(
+            "filter corner_frequency",
+            f.tail.corner_frequency,
+            m.0,
+            "Hz",
+            Bound::AtLeast,
+            None,
+        );
     }
     if let Some(m) = s.max_output_impedance {
-        push("filter peak_output_impedance", f.tail.peak_output_impedance, m.0, "Ω", Bound::AtMost, None);
+        push(
+            "filter peak_output_impedance",
+            f.tail.peak_output_impedance,
+            m.0,
+            "Ω",
+            Bound::AtMost,
+            None,
+        );
     }
     if let Some(m) = s.max_dc_drop {
-        push("filter dc_drop", f.tail.dc_drop, m.0, "V", Bound::AtMost, None);
+        push(
+            "filter dc_drop",
+            f.tail.dc_drop,
+            m.0,
+            "V",
+            Bound::AtMost,
+            None,
+        );
     }
     push(
         "inductor rated_current",
@@ -489,7 +520,14 @@ pub fn filter_checks(problem: &Problem, f: &FilterAssessment) -> Vec<crate::asse
     );
     for (id, rms, rating) in &f.capacitor_currents {
         if let Some(r) = rating {
-            push("ripple_current (filter)", *rms, *r, "A", Bound::AtMost, Some(id.clone()));
+            push(
+                "ripple_current (filter)",
+                *rms,
+                *r,
+                "A",
+                Bound::AtMost,
+                Some(id.clone()),
+            );
         }
     }
     out

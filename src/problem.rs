@@ -617,7 +617,11 @@ impl Problem {
                 },
             });
         }
-        if let Some(ind) = self.inductors.as_ref().and_then(|c| c.parts.get(f.inductor)) {
+        if let Some(ind) = self
+            .inductors
+            .as_ref()
+            .and_then(|c| c.parts.get(f.inductor))
+        {
             out.push(TailLine {
                 model: inductor_model(ind, f.inductor),
                 count: f.count.max(1),

@@ -51,7 +51,9 @@ impl Named {
 
 /// The line states of a named corner.
 pub fn named_states(ev: &Evaluator, bank: &Bank, which: Named) -> Vec<LineState> {
-    let models: Vec<&PartModel> = (0..ev.line_count(bank)).map(|j| ev.line_model(bank, j)).collect();
+    let models: Vec<&PartModel> = (0..ev.line_count(bank))
+        .map(|j| ev.line_model(bank, j))
+        .collect();
     named_of_models(&models, which)
 }
 
@@ -65,21 +67,19 @@ pub(crate) fn named_states_of(parts: &[PartModel], bank: &Bank, which: Named) ->
 fn named_of_models(models: &[&PartModel], which: Named) -> Vec<LineState> {
     models
         .iter()
-        .map(|p| {
-            match which {
-                Named::Low => LineState {
-                    c: p.c_worst,
-                    esr: p.esr_max,
-                },
-                Named::High => LineState {
-                    c: p.c_high,
-                    esr: p.esr_min,
-                },
-                Named::Typical => LineState {
-                    c: p.c_typical,
-                    esr: p.esr,
-                },
-            }
+        .map(|p| match which {
+            Named::Low => LineState {
+                c: p.c_worst,
+                esr: p.esr_max,
+            },
+            Named::High => LineState {
+                c: p.c_high,
+                esr: p.esr_min,
+            },
+            Named::Typical => LineState {
+                c: p.c_typical,
+                esr: p.esr,
+            },
         })
         .collect()
 }
@@ -250,7 +250,9 @@ fn vertex_options(p: &PartModel) -> Vec<LineState> {
 /// Every vertex of the bank's box, or (past 256) the named corners'
 /// single-line flips.
 fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
-    let models: Vec<&PartModel> = (0..ev.line_count(bank)).map(|j| ev.line_model(bank, j)).collect();
+    let models: Vec<&PartModel> = (0..ev.line_count(bank))
+        .map(|j| ev.line_model(bank, j))
+        .collect();
     vertices_of_models(&models)
 }
 

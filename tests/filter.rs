@@ -26,7 +26,9 @@ fn problem(scenario: &str, caps: &str, inductors: &str) -> Problem {
 }
 
 fn cap(p: &Problem, id: &str) -> usize {
-    p.catalog.position(id).unwrap_or_else(|| panic!("no part {id}"))
+    p.catalog
+        .position(id)
+        .unwrap_or_else(|| panic!("no part {id}"))
 }
 
 fn ind(p: &Problem, id: &str) -> usize {
@@ -91,7 +93,10 @@ fn lc_attenuation_and_corner_match_the_closed_form() {
     let f0 = 1.0 / (2.0 * PI * (l * c).sqrt());
     // Corner frequency, closed form (Hayt & Kemmerly, frequency response).
     let fc = filter::corner_frequency(&tail);
-    assert!(rel(fc, f0) < 1e-12, "corner {fc} Hz vs 1/(2π√(LC)) = {f0} Hz");
+    assert!(
+        rel(fc, f0) < 1e-12,
+        "corner {fc} Hz vs 1/(2π√(LC)) = {f0} Hz"
+    );
     let figs = filter::tail_figures(&pf, &tail);
     assert!(rel(figs.corner_frequency, f0) < 1e-12);
 
@@ -306,7 +311,11 @@ fn filter_oracle(p: &Problem) -> Option<(f64, FilterDesign, Vec<(usize, u32)>)> 
     let cat = &p.catalog.parts;
     let lc = &p.inductors.as_ref().unwrap().parts;
     let caps: Vec<usize> = (0..cat.len()).collect();
-    assert_eq!(p.eligible, caps, "every test capacitor is eligible: {:?}", p.excluded);
+    assert_eq!(
+        p.eligible, caps,
+        "every test capacitor is eligible: {:?}",
+        p.excluded
+    );
     let c_typ = |i: usize| cat[i].capacitance * cat[i].bias_factor(vout);
     let rcost = s.filter.damping_resistor_cost.0;
     let min_f0 = s.filter.min_corner_frequency.unwrap().0;
@@ -375,7 +384,10 @@ fn filter_oracle(p: &Problem) -> Option<(f64, FilterDesign, Vec<(usize, u32)>)> 
         }
     }
     banks.retain(|(_, b)| {
-        b.iter().map(|&(i, n)| cat[i].c_nominal_max() * n as f64).sum::<f64>() <= max_cap * (1.0 + 1e-12)
+        b.iter()
+            .map(|&(i, n)| cat[i].c_nominal_max() * n as f64)
+            .sum::<f64>()
+            <= max_cap * (1.0 + 1e-12)
     });
     banks.sort_by(|x, y| x.0.total_cmp(&y.0));
     let mut base = p.clone();
@@ -417,10 +429,17 @@ fn describe(p: &Problem, f: &FilterDesign, bank: &[(usize, u32)]) -> String {
     let c = &p.catalog.parts;
     format!(
         "bank {:?}, inductor {}, load {:?}, damping {:?}",
-        bank.iter().map(|&(i, n)| (c[i].id.as_str(), n)).collect::<Vec<_>>(),
+        bank.iter()
+            .map(|&(i, n)| (c[i].id.as_str(), n))
+            .collect::<Vec<_>>(),
         p.inductor(f.inductor).id,
-        f.load_bank.iter().map(|&(i, n)| (c[i].id.as_str(), n)).collect::<Vec<_>>(),
-        f.damping.as_ref().map(|d| (d.resistance, c[d.capacitor].id.as_str(), d.count))
+        f.load_bank
+            .iter()
+            .map(|&(i, n)| (c[i].id.as_str(), n))
+            .collect::<Vec<_>>(),
+        f.damping
+            .as_ref()
+            .map(|d| (d.resistance, c[d.capacitor].id.as_str(), d.count))
     )
 }
 
@@ -459,7 +478,11 @@ fn filtered_design_matches_brute_force() {
         let (oc, of, ob) = filter_oracle(&p).expect("the oracle finds a filtered design");
         let t_oracle = t0.elapsed().as_secs_f64();
         let t0 = std::time::Instant::now();
-        let out = ripplebank::optimize::design_filtered(&p, tv, &ripplebank::optimize::Settings::default());
+        let out = ripplebank::optimize::design_filtered(
+            &p,
+            tv,
+            &ripplebank::optimize::Settings::default(),
+        );
         let t_tool = t0.elapsed().as_secs_f64();
         let found = out.found.as_ref().expect("design_filtered finds a design");
         let tf = out.filter.as_ref().unwrap();
@@ -478,7 +501,11 @@ fn filtered_design_matches_brute_force() {
             "target {t}: design_filtered cost {} vs the brute-force optimum {oc} (brute-force enumeration)",
             found.key[0]
         );
-        assert_eq!(out.status, ripplebank::optimize::Status::Optimal, "target {t}");
+        assert_eq!(
+            out.status,
+            ripplebank::optimize::Status::Optimal,
+            "target {t}"
+        );
         oracle_cost = oc;
     }
     let oc = oracle_cost;
@@ -496,7 +523,11 @@ fn filtered_design_matches_brute_force() {
     for t in [target, "150m"] {
         let auto = cli_design(t, "auto");
         let off = cli_design(t, "off");
-        let on = if t == target { on.clone() } else { cli_design(t, "on") };
+        let on = if t == target {
+            on.clone()
+        } else {
+            cli_design(t, "on")
+        };
         let cost = |d: &serde_json::Value| {
             if d["status"].as_str() == Some("infeasible") {
                 f64::INFINITY
@@ -511,7 +542,11 @@ fn filtered_design_matches_brute_force() {
             rel(ca, cf.min(cc)) < 1e-9,
             "target {t}: auto {ca} is not the better of on {cf} and off {cc}"
         );
-        assert_eq!(auto["filter"].is_object(), cf < cc, "target {t}: auto's filter");
+        assert_eq!(
+            auto["filter"].is_object(),
+            cf < cc,
+            "target {t}: auto's filter"
+        );
     }
 }
 
@@ -529,16 +564,28 @@ struct Designed {
 /// filter (every figure, every check).
 fn design_and_assess(p: &Problem, what: &str) -> Designed {
     let t = p.scenario.target.ripple_pp.0;
-    let out = ripplebank::optimize::design_filtered(p, t, &ripplebank::optimize::Settings::default());
-    let found = out.found.unwrap_or_else(|| panic!("{what}: no filtered design ({:?})", out.dropped));
+    let out =
+        ripplebank::optimize::design_filtered(p, t, &ripplebank::optimize::Settings::default());
+    let found = out
+        .found
+        .unwrap_or_else(|| panic!("{what}: no filtered design ({:?})", out.dropped));
     let filter = out.filter.unwrap();
-    let a = ripplebank::assessment::assess(&p.with_filter(filter.clone()), &found.bank).expect("assess");
+    let a = ripplebank::assessment::assess(&p.with_filter(filter.clone()), &found.bank)
+        .expect("assess");
     assert!(
         a.all_ok,
         "{what}: the design breaks a check: {:?}",
-        a.checks.iter().filter(|c| !c.ok).map(|c| &c.name).collect::<Vec<_>>()
+        a.checks
+            .iter()
+            .filter(|c| !c.ok)
+            .map(|c| &c.name)
+            .collect::<Vec<_>>()
     );
-    eprintln!("{what}: cost {:.4}: {}", found.key[0], describe(p, &filter, &found.bank));
+    eprintln!(
+        "{what}: cost {:.4}: {}",
+        found.key[0],
+        describe(p, &filter, &found.bank)
+    );
     Designed {
         cost: found.key[0],
         filter,
@@ -573,8 +620,14 @@ fn each_filter_limit_changes_the_answer() {
     // Corner frequency: the limit just above the answer's corner.
     let f0 = fa.tail.corner_frequency;
     let lim = 1.05 * f0;
-    let scen = base_scen.replace("min_corner_frequency = \"40k\"", &format!("min_corner_frequency = {lim}"));
-    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "min_corner_frequency");
+    let scen = base_scen.replace(
+        "min_corner_frequency = \"40k\"",
+        &format!("min_corner_frequency = {lim}"),
+    );
+    let d = design_and_assess(
+        &problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS),
+        "min_corner_frequency",
+    );
     let got = d.assessment.filter.as_ref().unwrap().tail.corner_frequency;
     assert!(got >= lim, "corner {got} Hz below the limit {lim} Hz");
     assert!(d.filter != base.filter && d.cost >= base.cost - 1e-12);
@@ -584,9 +637,21 @@ fn each_filter_limit_changes_the_answer() {
     // load-side bank.
     let peak = fa.tail.peak_output_impedance;
     let lim = 0.5 * peak;
-    let scen = base_scen.replace("[filter]\n", &format!("[filter]\nmax_output_impedance = {lim}\n"));
-    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "max_output_impedance");
-    let got = d.assessment.filter.as_ref().unwrap().tail.peak_output_impedance;
+    let scen = base_scen.replace(
+        "[filter]\n",
+        &format!("[filter]\nmax_output_impedance = {lim}\n"),
+    );
+    let d = design_and_assess(
+        &problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS),
+        "max_output_impedance",
+    );
+    let got = d
+        .assessment
+        .filter
+        .as_ref()
+        .unwrap()
+        .tail
+        .peak_output_impedance;
     eprintln!("  peak |Z_out| {peak:.4} Ω unconstrained, {got:.4} Ω under the limit {lim:.4} Ω");
     assert!(got <= lim, "peak {got} Ω above the limit {lim} Ω");
     assert!(
@@ -599,10 +664,16 @@ fn each_filter_limit_changes_the_answer() {
     // DC drop: just below the answer's iout·DCR.
     let drop = fa.tail.dc_drop;
     let iout = p.scenario.converter.iout.0;
-    assert!(rel(drop, iout * fa.dcr) < 1e-12, "DC drop is iout·DCR (Ohm's law)");
+    assert!(
+        rel(drop, iout * fa.dcr) < 1e-12,
+        "DC drop is iout·DCR (Ohm's law)"
+    );
     let lim = 0.95 * drop;
     let scen = base_scen.replace("max_dc_drop = \"50m\"", &format!("max_dc_drop = {lim}"));
-    let d = design_and_assess(&problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS), "max_dc_drop");
+    let d = design_and_assess(
+        &problem(&scen, ORACLE_CAPS, ORACLE_INDUCTORS),
+        "max_dc_drop",
+    );
     let dfa = d.assessment.filter.as_ref().unwrap();
     assert!(dfa.tail.dc_drop <= lim && dfa.inductor != base_ind);
     assert!(d.cost >= base.cost - 1e-12);
@@ -643,7 +714,10 @@ fn each_filter_limit_changes_the_answer() {
     let sat = iout + ripple / 4.0;
     let inds = with(cols[4].to_string(), format!("{sat:.12}"));
     let ps = problem(&base_scen, ORACLE_CAPS, &inds);
-    assert!(ps.inductors_excluded.iter().all(|e| e.part != base_ind), "eligible before any ripple");
+    assert!(
+        ps.inductors_excluded.iter().all(|e| e.part != base_ind),
+        "eligible before any ripple"
+    );
     let d = design_and_assess(&ps, "saturation_current");
     let dfa = d.assessment.filter.as_ref().unwrap();
     eprintln!(
@@ -686,15 +760,34 @@ fn branch(o: &mut String, tag: &str, node: &str, r: f64, l: f64, c: f64) {
 /// The filter's elements from `bank` (the converter-side node, or ground
 /// for the output impedance) to `load`, the lines at `states`
 /// (load-side bank, damping, inductor: [`Problem::tail_lines`]' order).
-fn write_tail(o: &mut String, tail: &[ripplebank::evaluator::TailLine], states: &[LineState], bank: &str) {
+fn write_tail(
+    o: &mut String,
+    tail: &[ripplebank::evaluator::TailLine],
+    states: &[LineState],
+    bank: &str,
+) {
     use ripplebank::evaluator::TailRole;
     for (j, (t, st)) in tail.iter().zip(states).enumerate() {
         let n = t.count as f64;
         match t.role {
-            TailRole::Load => branch(o, &format!("ld{j}"), "load", st.esr / n, t.model.esl / n, st.c * n),
+            TailRole::Load => branch(
+                o,
+                &format!("ld{j}"),
+                "load",
+                st.esr / n,
+                t.model.esl / n,
+                st.c * n,
+            ),
             TailRole::Damping { resistance } => {
                 o.push_str(&format!("Rdamp load ndamp {}\n", num(resistance)));
-                branch(o, &format!("dp{j}"), "ndamp", st.esr / n, t.model.esl / n, st.c * n);
+                branch(
+                    o,
+                    &format!("dp{j}"),
+                    "ndamp",
+                    st.esr / n,
+                    t.model.esl / n,
+                    st.c * n,
+                );
             }
             TailRole::Inductor { cp } => {
                 // n equal inductors in parallel: DCR/n and L/n in series,
@@ -718,7 +811,11 @@ fn check_ladder(p: &Problem, fd: &FilterDesign, spec: &[(&str, u32)], what: &str
     // (first-order) bandwidth, written as an RC section between buffers.
     let bw = p.scenario.target.bandwidth.map(|b| b.0);
     assert!(p.scenario.target.bandwidth_order == 1 || bw.is_none());
-    let band = if bw.is_some() { Band::Limited } else { Band::Full };
+    let band = if bw.is_some() {
+        Band::Limited
+    } else {
+        Band::Full
+    };
     let pf = p.with_filter(fd.clone());
     let tail = pf.tail_lines(fd);
     let bank: Vec<(usize, u32)> = spec.iter().map(|&(id, n)| (cap(p, id), n)).collect();
@@ -740,17 +837,31 @@ fn check_ladder(p: &Problem, fd: &FilterDesign, spec: &[(&str, u32)], what: &str
     let mean = w.mean();
     let mut o = format!("* {what}: LC post-filter ladder (test netlist)\n");
     let net = ripplebank::network::Network::from_scenario(&p.scenario);
-    let conv = if net.connection_inductance > 0.0 { "conv" } else { "bank" };
+    let conv = if net.connection_inductance > 0.0 {
+        "conv"
+    } else {
+        "bank"
+    };
     if let Some(b) = net.internal {
         branch(&mut o, "int", conv, b.esr, b.esl, b.c);
     }
     if net.connection_inductance > 0.0 {
-        o.push_str(&format!("Lconn conv bank {}\n", num(net.connection_inductance)));
+        o.push_str(&format!(
+            "Lconn conv bank {}\n",
+            num(net.connection_inductance)
+        ));
     }
     for (j, (&(i, c), st)) in bank.iter().zip(&states).enumerate() {
         let m = p.part_model(i);
         let c = c as f64;
-        branch(&mut o, &format!("b{j}"), "bank", st.esr / c, m.esl / c, st.c * c);
+        branch(
+            &mut o,
+            &format!("b{j}"),
+            "bank",
+            st.esr / c,
+            m.esl / c,
+            st.c * c,
+        );
     }
     write_tail(&mut o, &tail, &states[nb..], "bank");
     o.push_str("Rdc bank 0 1e7\n");
@@ -781,30 +892,58 @@ fn check_ladder(p: &Problem, fd: &FilterDesign, spec: &[(&str, u32)], what: &str
         }
     }
     let (t0, v0) = w.points[0];
-    o.push_str(&format!("\n+ {:.12e} {})\n", d + t0 + periods as f64 * t, num(v0 - mean)));
+    o.push_str(&format!(
+        "\n+ {:.12e} {})\n",
+        d + t0 + periods as f64 * t,
+        num(v0 - mean)
+    ));
     let t_end = d + t0 + periods as f64 * t;
     let (a, b, c) = (t_end - 6.0 * t, t_end - 3.0 * t, t_end);
     let tmax = t / 2000.0;
     o.push_str(".options method=gear reltol=1e-5 abstol=1e-9 vntol=1e-9\n");
-    o.push_str(&format!(".tran {} {} {} {}\n", num(tmax), num(c), num(a), num(tmax)));
+    o.push_str(&format!(
+        ".tran {} {} {} {}\n",
+        num(tmax),
+        num(c),
+        num(a),
+        num(tmax)
+    ));
     for (name, node) in [("pp_conv", mconv), ("pp_load", mload)] {
-        o.push_str(&format!(".meas tran {name} PP v({node}) from={} to={}\n", num(b), num(c)));
-        o.push_str(&format!(".meas tran {name}_prev PP v({node}) from={} to={}\n", num(a), num(b)));
+        o.push_str(&format!(
+            ".meas tran {name} PP v({node}) from={} to={}\n",
+            num(b),
+            num(c)
+        ));
+        o.push_str(&format!(
+            ".meas tran {name}_prev PP v({node}) from={} to={}\n",
+            num(a),
+            num(b)
+        ));
     }
     o.push_str(".end\n");
     let out = run_ngspice(&o);
     let mut worst: f64 = 0.0;
     for (name, ours) in [("pp_conv", pp_conv), ("pp_load", pp_load)] {
         let (sim, prev) = (meas(&out, name), meas(&out, &format!("{name}_prev")));
-        assert!(rel(prev, sim) < 2e-3, "{what}: {name} not settled: {prev} vs {sim}");
+        assert!(
+            rel(prev, sim) < 2e-3,
+            "{what}: {name} not settled: {prev} vs {sim}"
+        );
         let e = rel(ours, sim);
         worst = worst.max(e);
         eprintln!(
             "{what}: {name} ({}): evaluator {ours:.6e} V, {SPICE} {sim:.6e} V ({:+.3} %)",
-            if bw.is_some() { "target bandwidth" } else { "full bandwidth" },
+            if bw.is_some() {
+                "target bandwidth"
+            } else {
+                "full bandwidth"
+            },
             100.0 * (ours - sim) / sim
         );
-        assert!(e < 0.01, "{what}: {name}: evaluator {ours} V vs {SPICE} {sim} V");
+        assert!(
+            e < 0.01,
+            "{what}: {name}: evaluator {ours} V vs {SPICE} {sim} V"
+        );
     }
 
     // Output impedance: 1 A into the load node, the converter-side node
@@ -813,16 +952,29 @@ fn check_ladder(p: &Problem, fd: &FilterDesign, spec: &[(&str, u32)], what: &str
     let mut o = format!("* {what}: output impedance of the filter (test netlist)\n");
     write_tail(&mut o, &tail, &states[nb..], "0");
     o.push_str("Iac 0 load AC 1\n");
-    o.push_str(&format!(".ac dec 200 {} {}\n.print ac vm(load)\n.end\n", num(f0 / 100.0), num(f0 * 10.0)));
+    o.push_str(&format!(
+        ".ac dec 200 {} {}\n.print ac vm(load)\n.end\n",
+        num(f0 / 100.0),
+        num(f0 * 10.0)
+    ));
     let rows = print_table(&run_ngspice(&o));
-    assert!(rows.len() > 500, "{what}: ngspice printed {} rows", rows.len());
+    assert!(
+        rows.len() > 500,
+        "{what}: ngspice printed {} rows",
+        rows.len()
+    );
     let (mut peak_s, mut peak_e, mut wz): (f64, f64, f64) = (0.0, 0.0, 0.0);
     for &(f, zs) in &rows {
-        let z = ripplebank::evaluator::tail_output_impedance(&tail, &states[nb..], f).unwrap().norm();
+        let z = ripplebank::evaluator::tail_output_impedance(&tail, &states[nb..], f)
+            .unwrap()
+            .norm();
         wz = wz.max(rel(z, zs));
         peak_s = peak_s.max(zs);
         peak_e = peak_e.max(z);
-        assert!(rel(z, zs) < 0.01, "{what}: |Z_out| at {f} Hz: evaluator {z} Ω, {SPICE} {zs} Ω");
+        assert!(
+            rel(z, zs) < 0.01,
+            "{what}: |Z_out| at {f} Hz: evaluator {z} Ω, {SPICE} {zs} Ω"
+        );
     }
     // The filter's own peak figure at this state (its golden-section
     // refinement lies at or above the sampled peak).
@@ -902,15 +1054,26 @@ fn filter_ladder_matches_ngspice() {
     let no_srf = inductors_without_srf();
     for (scen, name, spec) in [
         (SPICE_MODULE, "module", &[("O-CER-22U", 1u32)][..]),
-        (SPICE_BUCK, "buck", &[("O-CER-22U", 2), ("O-CER-4U7", 1)][..]),
+        (
+            SPICE_BUCK,
+            "buck",
+            &[("O-CER-22U", 2), ("O-CER-4U7", 1)][..],
+        ),
     ] {
         for (inds, bw) in [(no_srf.as_str(), None), (ORACLE_INDUCTORS, Some("20M"))] {
             let scen = match bw {
-                Some(b) => scen.replace("[target]\n", &format!("[target]\nbandwidth = \"{b}\"\nbandwidth_order = 1\n")),
+                Some(b) => scen.replace(
+                    "[target]\n",
+                    &format!("[target]\nbandwidth = \"{b}\"\nbandwidth_order = 1\n"),
+                ),
                 None => scen.to_string(),
             };
             let p = problem(&scen, ORACLE_CAPS, inds);
-            let how = if bw.is_some() { "winding capacitance, 20 MHz" } else { "no winding capacitance, full bandwidth" };
+            let how = if bw.is_some() {
+                "winding capacitance, 20 MHz"
+            } else {
+                "no winding capacitance, full bandwidth"
+            };
             // Undamped: the polymer's own ESR is the only damping.
             let undamped = FilterDesign {
                 inductor: ind(&p, "O-L-0U22"),
@@ -929,8 +1092,18 @@ fn filter_ladder_matches_ngspice() {
                     count: 2,
                 }),
             };
-            worst = worst.max(check_ladder(&p, &undamped, spec, &format!("{name}, undamped filter, {how}")));
-            worst = worst.max(check_ladder(&p, &damped, spec, &format!("{name}, damped filter, {how}")));
+            worst = worst.max(check_ladder(
+                &p,
+                &undamped,
+                spec,
+                &format!("{name}, undamped filter, {how}"),
+            ));
+            worst = worst.max(check_ladder(
+                &p,
+                &damped,
+                spec,
+                &format!("{name}, damped filter, {how}"),
+            ));
         }
     }
     eprintln!("filter ladder against {SPICE}: worst error {worst:.3} %");

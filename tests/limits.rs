@@ -66,7 +66,11 @@ fn min_capacitance() {
     let b = baseline();
     let limit = b.capacitance_effective_total * 1.3;
     let (mut s, c) = demo();
-    let max = s.converter.max_capacitance.expect("the demo has max_capacitance").0;
+    let max = s
+        .converter
+        .max_capacitance
+        .expect("the demo has max_capacitance")
+        .0;
     assert!(
         limit * 1.5 < max,
         "the limit leaves room under max_capacitance ({limit} vs {max})"

@@ -748,21 +748,37 @@ fn check_filter_ripple(p: &Problem, b: &[(usize, u32)], what: &str, check_full: 
     let parts: Vec<usize> = b.iter().map(|x| x.0).collect();
     let local: Vec<(usize, u32)> = b.iter().enumerate().map(|(j, x)| (j, x.1)).collect();
     let mut ev = p.evaluator(&parts);
-    assert!(!ev.tail().is_empty(), "{what}: the evaluator has the filter");
+    assert!(
+        !ev.tail().is_empty(),
+        "{what}: the evaluator has the filter"
+    );
     let w = ripplebank::region::worst(p, &mut ev, &local, Band::Limited);
     let lim = w.value;
     let full = ripplebank::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
     let n = ev.n_full;
     ev.fill_states(&local, &w.states, n);
     ev.to_converter_node(n);
-    let (clim, cfull) = (ev.pp_filled(w.op, Band::Limited), ev.pp_filled(w.op, Band::Full));
+    let (clim, cfull) = (
+        ev.pp_filled(w.op, Band::Limited),
+        ev.pp_filled(w.op, Band::Full),
+    );
     // The assessment reports the same figures.
     let a = ripplebank::assessment::assess(p, b).unwrap();
     let fa = a.filter.as_ref().expect("filter figures");
-    assert!(rel(a.ripple_pp, lim) < 1e-9, "{what}: {} vs {lim}", a.ripple_pp);
-    assert!(rel(fa.ripple_pp_converter_node, clim) < 1e-9, "{what}: converter node");
+    assert!(
+        rel(a.ripple_pp, lim) < 1e-9,
+        "{what}: {} vs {lim}",
+        a.ripple_pp
+    );
+    assert!(
+        rel(fa.ripple_pp_converter_node, clim) < 1e-9,
+        "{what}: converter node"
+    );
     let net = spice::netlist(p, b).unwrap();
-    assert!(net.contains("* ---- post-filter"), "{what}: the ladder is in bank.cir");
+    assert!(
+        net.contains("* ---- post-filter"),
+        "{what}: the ladder is in bank.cir"
+    );
     let out = run_ngspice(&net);
     let (sl, sf) = (meas(&out, "pp_limited"), meas(&out, "pp_full"));
     let (sl0, sf0) = (meas(&out, "pp_limited_prev"), meas(&out, "pp_full_prev"));
@@ -852,7 +868,13 @@ fn filter_output_impedance_matches_ngspice_ac() {
         ("undamped", None, "T-L-1U"),
         ("with C_p", Some((0.22, "T-POLY-220U", 1)), "T-L-2U2-SRF"),
     ] {
-        let (p, _) = filtered(MODULE, &[("T-CER-1U", 2)], inductor, &[("T-CER-22U", 2)], damping);
+        let (p, _) = filtered(
+            MODULE,
+            &[("T-CER-1U", 2)],
+            inductor,
+            &[("T-CER-22U", 2)],
+            damping,
+        );
         let lines = p.tail_lines(p.filter.as_ref().unwrap());
         let low: Vec<ripplebank::evaluator::LineState> = lines
             .iter()
@@ -888,6 +910,9 @@ fn filter_output_impedance_matches_ngspice_ac() {
             worst,
             rows.len()
         );
-        assert!(worst < 0.01, "{what}: |Z_out| differs by {worst} from {REF}");
+        assert!(
+            worst < 0.01,
+            "{what}: |Z_out| differs by {worst} from {REF}"
+        );
     }
 }

@@ -2,6 +2,7 @@
 
 use super::{bank_files, load, show_progress, CommandOutput, Common};
 use crate::assessment::{self, Assessment};
+use crate::filter::FilterUse;
 use crate::load::Overrides;
 use crate::optimize;
 use crate::problem::Problem;
@@ -9,7 +10,6 @@ use crate::report::model::{self, Report, Verdict};
 use crate::report::{self, text, OutFiles};
 use crate::run::Run;
 use crate::scenario::Objective;
-use crate::filter::FilterUse;
 use anyhow::Result;
 
 /// The design to report under `[filter] use` (`auto`: the better of the
@@ -297,7 +297,13 @@ pub fn design(
         std::thread::scope(|scope| {
             let cap = scope.spawn(|| optimize::design(&p, &settings));
             let fo = optimize::design_filtered(&p, target, &settings);
-            (Some(cap.join().expect("the capacitor-only search does not panic")), Some(fo))
+            (
+                Some(
+                    cap.join()
+                        .expect("the capacitor-only search does not panic"),
+                ),
+                Some(fo),
+            )
         })
     } else {
         (None, None)

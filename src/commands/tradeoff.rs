@@ -379,7 +379,14 @@ fn tradeoff_report(
     if let Some((rows, pays, _)) = filtered {
         r.para("With a post-filter (the best filtered design at each target)");
         r.table(Table::new(
-            &["target", "status", "cost", "capacitors only", "better", "filter"],
+            &[
+                "target",
+                "status",
+                "cost",
+                "capacitors only",
+                "better",
+                "filter",
+            ],
             rows.clone(),
         ));
         r.line(match pays {
@@ -421,7 +428,15 @@ pub fn tradeoff(
     } else {
         None
     };
-    let r = tradeoff_report(&p, &run, &span, targets.len(), front.rows, c.quiet, filtered.as_ref());
+    let r = tradeoff_report(
+        &p,
+        &run,
+        &span,
+        targets.len(),
+        front.rows,
+        c.quiet,
+        filtered.as_ref(),
+    );
     let note = &span.note;
     let mut doc = json!({
         "status": "done",
@@ -489,16 +504,22 @@ fn filter_rows(
                 let a = assessment::assess(&q, &f.bank)?;
                 let fa = a.filter.as_ref();
                 let desc = fa.map_or(String::new(), |fa| {
-                    let load: Vec<String> = fa.load_bank.iter().map(|(id, n)| format!("{id}={n}")).collect();
+                    let load: Vec<String> = fa
+                        .load_bank
+                        .iter()
+                        .map(|(id, n)| format!("{id}={n}"))
+                        .collect();
                     format!(
                         "{}×{} → {}{}",
                         fa.count,
                         fa.inductor,
                         load.join(","),
-                        fa.damping.as_ref().map_or(String::new(), |(r, id, n)| format!(
-                            " + R {} with {id}={n}",
-                            crate::units::format_rkm(*r)
-                        ))
+                        fa.damping
+                            .as_ref()
+                            .map_or(String::new(), |(r, id, n)| format!(
+                                " + R {} with {id}={n}",
+                                crate::units::format_rkm(*r)
+                            ))
                     )
                 });
                 (Some(a.cost), desc, Some(a.ripple_pp))
@@ -515,7 +536,11 @@ fn filter_rows(
             cost.map_or("—".into(), |x| format!("{x:.3}")),
             cap_cost.map_or("—".into(), |x| format!("{x:.3}")),
             if better { "filter" } else { "capacitors" }.to_string(),
-            if desc.is_empty() { "no filter meets this target".into() } else { desc.clone() },
+            if desc.is_empty() {
+                "no filter meets this target".into()
+            } else {
+                desc.clone()
+            },
         ]);
         points.push(json!({
             "target": t,

@@ -81,11 +81,12 @@ fn inductor_choices(problem: &Problem) -> Vec<(usize, u32)> {
     };
     let s = &problem.scenario;
     let iout = s.converter.iout.0;
-    let eligible: Vec<usize> = if problem.inductors_eligible.is_empty() && problem.inductors_excluded.is_empty() {
-        (0..cat.parts.len()).collect()
-    } else {
-        problem.inductors_eligible.clone()
-    };
+    let eligible: Vec<usize> =
+        if problem.inductors_eligible.is_empty() && problem.inductors_excluded.is_empty() {
+            (0..cat.parts.len()).collect()
+        } else {
+            problem.inductors_eligible.clone()
+        };
     let mut out = Vec::new();
     for i in eligible {
         let ind = &cat.parts[i];
@@ -209,9 +210,9 @@ pub fn problem_with(problem: &Problem, f: &FilterDesign) -> Problem {
             .iter()
             .map(|&(i, n)| problem.part_model(i).c_limit * n as f64)
             .sum::<f64>()
-            + f.damping
-                .as_ref()
-                .map_or(0.0, |d| problem.part_model(d.capacitor).c_limit * d.count as f64);
+            + f.damping.as_ref().map_or(0.0, |d| {
+                problem.part_model(d.capacitor).c_limit * d.count as f64
+            });
         if let Some(m) = p.scenario.converter.max_capacitance.as_mut() {
             m.0 = (m.0 - c_load).max(0.0);
         }
@@ -276,7 +277,11 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     // Every filter of the space with its own share of the objective.
     let mut filters: Vec<([f64; 3], FilterDesign)> = Vec::new();
     for (ind, count) in inductor_choices(problem) {
-        let l = problem.inductors.as_ref().map_or(0.0, |c| c.parts[ind].inductance) / count as f64;
+        let l = problem
+            .inductors
+            .as_ref()
+            .map_or(0.0, |c| c.parts[ind].inductance)
+            / count as f64;
         for bank in &banks {
             let c_load: f64 = bank
                 .iter()
@@ -303,11 +308,18 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     // The largest admittance any allowed bank can have at each harmonic:
     // its lines' largest counts, the best `max_lines` parts there.
     let base = problem.evaluator(&cands);
-    let max_lines = problem.scenario.board.max_lines.unwrap_or(crate::scenario::DEFAULT_MAX_LINES) as usize;
+    let max_lines = problem
+        .scenario
+        .board
+        .max_lines
+        .unwrap_or(crate::scenario::DEFAULT_MAX_LINES) as usize;
     let mags: Vec<Vec<f64>> = (0..cands.len())
         .map(|j| {
             let m = crate::limits::count_max(&problem.scenario, &base.parts[j]) as f64;
-            base.admittance_magnitudes(j).into_iter().map(|a| a * m).collect()
+            base.admittance_magnitudes(j)
+                .into_iter()
+                .map(|a| a * m)
+                .collect()
         })
         .collect();
     let ymax: Vec<f64> = (0..base.n_limited)
@@ -343,7 +355,9 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     let mut searched = 0;
     // Filters are searched two at a time (one per core); each batch starts
     // from the best design before it, which only loosens its cutoffs.
-    let workers = std::thread::available_parallelism().map_or(1, |n| n.get()).clamp(1, 2);
+    let workers = std::thread::available_parallelism()
+        .map_or(1, |n| n.get())
+        .clamp(1, 2);
     let mut next = 0usize;
     'outer: loop {
         let mut batch: Vec<(&[f64; 3], &FilterDesign)> = Vec::new();
@@ -376,7 +390,9 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
                     continue;
                 }
             }
-            let budget = best.as_ref().map_or(f64::INFINITY, |(b, _)| b.key[0] - share[0]);
+            let budget = best
+                .as_ref()
+                .map_or(f64::INFINITY, |(b, _)| b.key[0] - share[0]);
             for k in 0..ycap.len() {
                 ycap[k] = ymax[k].min(budget * per_unit[k]);
             }
@@ -439,7 +455,8 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
             // The inductor's peak current against its saturation rating.
             let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
             let mut ev = p.evaluator(&parts);
-            let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
+            let local: Vec<(usize, u32)> =
+                f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
             let w = crate::region::worst(&p, &mut ev, &local, Band::Limited);
             let (_, peak) = filter::inductor_current(&p, &mut ev, &local, Some(&w));
             let sat = problem

@@ -251,7 +251,10 @@ fn region_cut(
 ) -> Result<f64, Cut> {
     let w = crate::region::worst(problem, &mut s.ev, bank, Band::Limited);
     if w.value > target * (1.0 + RIPPLE_ROUNDING) {
-        return Err(Cut::Ripple(s.ev.ops[w.op].clone(), cut_states(s, bank, &w.states)));
+        return Err(Cut::Ripple(
+            s.ev.ops[w.op].clone(),
+            cut_states(s, bank, &w.states),
+        ));
     }
     if let Some(m) = s.step.as_mut() {
         let limit = m.spec.max_deviation;

@@ -766,7 +766,11 @@ pub fn bank_plots(
 /// frequencies, the filter's output impedance |Z_out| (converter side
 /// held) and the transfer |V_load/I| from the converter's current to the
 /// load node, Ω.
-pub fn filter_data(problem: &Problem, bank: &[(usize, u32)], f0: f64) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+pub fn filter_data(
+    problem: &Problem,
+    bank: &[(usize, u32)],
+    f0: f64,
+) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
     let ev = problem.evaluator(&parts);
     let tail = ev.tail().to_vec();
@@ -778,9 +782,14 @@ pub fn filter_data(problem: &Problem, bank: &[(usize, u32)], f0: f64) -> (Vec<f6
         })
         .collect();
     let f_ripple = ev.f_ripple;
-    let (lo, hi) = ((f0 / 100.0).min(f_ripple / 10.0), (f_ripple * 100.0).max(f0 * 100.0));
+    let (lo, hi) = (
+        (f0 / 100.0).min(f_ripple / 10.0),
+        (f_ripple * 100.0).max(f0 * 100.0),
+    );
     let n = 480;
-    let freqs: Vec<f64> = (0..=n).map(|i| lo * (hi / lo).powf(i as f64 / n as f64)).collect();
+    let freqs: Vec<f64> = (0..=n)
+        .map(|i| lo * (hi / lo).powf(i as f64 / n as f64))
+        .collect();
     let mut zout = Vec::with_capacity(freqs.len());
     let mut zt = Vec::with_capacity(freqs.len());
     for &f in &freqs {
@@ -1041,7 +1050,11 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         .max(if need_lo.is_finite() { need_lo } else { 0.0 });
     let lo = clo.min(need_lo);
     // The load step's target impedance is shown too.
-    let z_step = a.transient.as_ref().map(|t| t.z_target).filter(|z| z.is_finite() && *z > 0.0);
+    let z_step = a
+        .transient
+        .as_ref()
+        .map(|t| t.z_target)
+        .filter(|z| z.is_finite() && *z > 0.0);
     let (lo, hi) = match z_step {
         Some(z) => (lo.min(z), hi.max(z)),
         None => (lo, hi),

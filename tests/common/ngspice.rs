@@ -114,4 +114,3 @@ pub fn print_table(output: &str) -> Vec<(f64, f64)> {
     }
     rows
 }
-
