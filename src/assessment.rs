@@ -879,6 +879,25 @@ pub fn assess_with(
                 .into(),
         );
     }
+    // Known limit: a winding capacitance resonates with the load-side ESL
+    // far above the summed harmonics (GHz), where the full-bandwidth sum
+    // does not reach; the band-limited figure is not affected.
+    let winding = ev
+        .tail()
+        .iter()
+        .any(|t| matches!(t.role, crate::evaluator::TailRole::Inductor { cp } if cp > 0.0));
+    if winding {
+        warnings.push(format!(
+            "the filter inductor's winding capacitance (from its srf) resonates with the load-side ESL far above the \
+             harmonics summed: the full-bandwidth ripple at the load node can read low (by a third on one checked \
+             case against ngspice){}",
+            if s.target.bandwidth.is_some() {
+                "; the target's band-limited figure is not affected"
+            } else {
+                "; the target has no bandwidth, so the pass/fail figure is affected: give target.bandwidth"
+            }
+        ));
+    }
     let totals = Totals {
         cap_limit: climit,
         cap_effective: ceff,
