@@ -1115,12 +1115,7 @@ impl Evaluator {
         band: Band,
         op: usize,
     ) -> Vec<f64> {
-        if self.is_empty(bank) {
-            return Vec::new();
-        }
-        let n = self.harmonics_of(band);
-        self.fill_states(bank, states, n);
-        self.samples_filled(band, op)
+        self.waveform_at(bank, states, band, op, false)
     }
 
     /// As [`Evaluator::waveform_states`], at the converter-side node of a
@@ -1132,12 +1127,25 @@ impl Evaluator {
         band: Band,
         op: usize,
     ) -> Vec<f64> {
+        self.waveform_at(bank, states, band, op, true)
+    }
+
+    fn waveform_at(
+        &mut self,
+        bank: &Bank,
+        states: &[LineState],
+        band: Band,
+        op: usize,
+        converter_node: bool,
+    ) -> Vec<f64> {
         if self.is_empty(bank) {
             return Vec::new();
         }
         let n = self.harmonics_of(band);
         self.fill_states(bank, states, n);
-        self.to_converter_node(n);
+        if converter_node {
+            self.to_converter_node(n);
+        }
         self.samples_filled(band, op)
     }
 
