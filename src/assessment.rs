@@ -871,14 +871,9 @@ pub fn assess_with(
         });
     }
     // The linear limits, from the one table of them.
-    let transient = crate::transient::figures(s, &ev.parts, local);
-    if transient.is_some() && problem.filter.is_some() {
-        warnings.push(
-            "the load step is evaluated on the converter-side bank alone: the post-filter's inductor and load-side \
-             bank are not yet in the step model, so verify the load step of a filtered design on hardware"
-                .into(),
-        );
-    }
+    // The load step at the measured node: behind a filter, the load node
+    // with the filter's lines in the region.
+    let transient = crate::transient::figures(s, &ev.parts, local, ev.tail());
     // Known limit: a winding capacitance resonates with the load-side ESL
     // far above the summed harmonics (GHz), where the full-bandwidth sum
     // does not reach; the band-limited figure is not affected.

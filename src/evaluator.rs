@@ -152,6 +152,22 @@ pub fn tail_terms_of(
     (crate::network::tail_terms(y_load, zs), y_load)
 }
 
+/// A post-filter's load-node admittance (load-side bank and damping) and
+/// its inductor's series impedance at `f`, `(Y_load, Z_s)`, with its lines
+/// at `states`.
+#[inline]
+pub fn tail_load_and_series(
+    tail: &[TailLine],
+    states: &[LineState],
+    f: f64,
+) -> (Complex64, Complex64) {
+    let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
+    for (t, st) in tail.iter().zip(states) {
+        t.add_at(st, f, &mut y_load, &mut zs);
+    }
+    (y_load, zs)
+}
+
 /// The output impedance of a post-filter at `f` with its lines at
 /// `states`: the load node's impedance with the bank's node held at a fixed
 /// voltage, `1 / (Y_load + 1/Z_s)` (None without lines).

@@ -195,6 +195,38 @@ impl Network {
         )
     }
 
+    /// As [`Network::step_impedances_with`] at the load node of a post-filter
+    /// behind the bank's node: the load node's own admittance `y_load` (the
+    /// load-side bank and the damping leg) and the filter inductor's series
+    /// impedance `zs`, all at angular frequency `w`. The bank's node seen
+    /// by the converter's current is the Norton source `I/G` with
+    /// admittance `Y1 = Y_b + Y_int/G`; the filter loads it with
+    /// `Y_load/(1 + Zs·Y_load)` and divides its voltage by `1 + Zs·Y_load`
+    /// on the way to the load node. Seen from the load node with the
+    /// converter open: `Y_load` in parallel with `Zs + 1/Y1`.
+    #[inline]
+    pub fn step_impedances_tail(
+        &self,
+        yb: Complex64,
+        yi: Complex64,
+        w: f64,
+        y_load: Complex64,
+        zs: Complex64,
+    ) -> (Complex64, Complex64) {
+        let g = self.coupling_with(yi, w);
+        let y1 = yb + yi / g;
+        let div = Complex64::new(1.0, 0.0) + zs * y_load;
+        let z_conv = (g * (y1 + y_load / div)).inv();
+        // Nothing at the bank's node: the inductor leads nowhere.
+        let through = if y1 == Complex64::default() {
+            Complex64::default()
+        } else {
+            (zs + y1.inv()).inv()
+        };
+        let z_open = (y_load + through).inv();
+        (z_conv / div, z_open)
+    }
+
     /// The high-frequency asymptote `(a0, a1)` of the transfer impedance,
     /// `Z_t → a0 + jω·a1`, for the added bank's admittance `yb_big` at
     /// [`OMEGA_ASYMPTOTE`]: a resistance and an inductance. (0, 0) when the
@@ -339,19 +371,17 @@ impl Ladder {
         f: f64,
     ) -> (Complex64, Complex64) {
         let w = 2.0 * PI * f;
-        let yi = self.front.internal_admittance(f);
-        let g = self.front.coupling_with(yi, w);
-        let zs = self.inductor.impedance(f);
         let y2 = y_load
             + self
                 .damping
                 .map_or(Complex64::default(), |d| d.admittance(f));
-        let y1 = y_conv + yi / g;
-        let div = Complex64::new(1.0, 0.0) + zs * y2;
-        let z_conv = (g * (y1 + y2 / div)).inv();
-        // Seen from the load node: Y2 in parallel with Zs + 1/Y1.
-        let z_open = (y2 + (zs + y1.inv()).inv()).inv();
-        (z_conv / div, z_open)
+        self.front.step_impedances_tail(
+            y_conv,
+            self.front.internal_admittance(f),
+            w,
+            y2,
+            self.inductor.impedance(f),
+        )
     }
 
     /// The load node's transfer impedance alone (the measured figure).

@@ -57,14 +57,8 @@ pub fn named_states(ev: &Evaluator, bank: &Bank, which: Named) -> Vec<LineState>
     named_of_models(&models, which)
 }
 
-/// As [`named_states`], for a bank over the part list `parts` (no filter).
-pub(crate) fn named_states_of(parts: &[PartModel], bank: &Bank, which: Named) -> Vec<LineState> {
-    let models: Vec<&PartModel> = bank.iter().map(|&(i, _)| &parts[i]).collect();
-    named_of_models(&models, which)
-}
-
 /// The named corner's state of each line of `models`.
-fn named_of_models(models: &[&PartModel], which: Named) -> Vec<LineState> {
+pub(crate) fn named_of_models(models: &[&PartModel], which: Named) -> Vec<LineState> {
     models
         .iter()
         .map(|p| match which {
@@ -256,15 +250,9 @@ fn vertices(ev: &Evaluator, bank: &Bank) -> Vec<Vec<LineState>> {
     vertices_of_models(&models)
 }
 
-/// As [`vertices`], for a bank over the part list `parts` (no filter).
-pub(crate) fn vertices_of(parts: &[PartModel], bank: &Bank) -> Vec<Vec<LineState>> {
-    let models: Vec<&PartModel> = bank.iter().map(|&(i, _)| &parts[i]).collect();
-    vertices_of_models(&models)
-}
-
 /// Every vertex of the box of the lines `models`, or (past 256) the named
 /// corners' single-line flips.
-fn vertices_of_models(models: &[&PartModel]) -> Vec<Vec<LineState>> {
+pub(crate) fn vertices_of_models(models: &[&PartModel]) -> Vec<Vec<LineState>> {
     let opts: Vec<Vec<LineState>> = models.iter().map(|p| vertex_options(p)).collect();
     let total: usize = opts.iter().map(|o| o.len()).product();
     let mut out = Vec::new();

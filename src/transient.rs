@@ -42,9 +42,9 @@
 //! per part list; evaluating a bank allocates nothing.
 
 use crate::converter::Waveform;
-use crate::evaluator::{Bank, LineState, PartModel};
+use crate::evaluator::{tail_load_and_series, Bank, LineState, PartModel, TailLine, TailRole};
 use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
-use crate::region::{golden, named_states_of, vertices_of, Named};
+use crate::region::{golden, named_of_models, vertices_of_models, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
@@ -141,6 +141,7 @@ struct Core {
     spec: Spec,
     dt: f64,
     grids: Vec<Grid>,
+    planner: FftPlanner<f64>,
     buf: Vec<Complex64>,
     scratch: Vec<Complex64>,
     /// Grid of the last fill.
@@ -153,72 +154,91 @@ impl Core {
     fn new(spec: Spec, tau_max: f64) -> Core {
         let ramp = spec.ramp();
         let dt = ramp / RAMP_SAMPLES as f64;
-        let need = |tau: f64| -> usize {
-            let half = ((ramp + SETTLE * tau) / dt).ceil() as usize;
-            (2 * half).max(1024).next_power_of_two().min(MAX_POINTS)
-        };
-        let first = need(1.0 / spec.omega_c());
-        let last = need(tau_max.max(1.0 / spec.omega_c())).max(first);
-        let mut planner = FftPlanner::new();
-        let mut grids = Vec::new();
-        let mut n = first;
-        loop {
-            let period = n as f64 * dt;
-            let wave = Waveform {
-                period,
-                points: vec![
-                    (0.0, 0.0),
-                    (ramp, spec.load_step),
-                    (period / 2.0, spec.load_step),
-                    (period / 2.0 + ramp, 0.0),
-                ],
-            };
-            let k = n / 2 - 1;
-            let drive = crate::spectrum::harmonics(&wave, k);
-            let w0 = 2.0 * PI / period;
-            let omega: Vec<f64> = (1..=k).map(|j| j as f64 * w0).collect();
-            let wc = spec.omega_c();
-            let conv = omega
-                .iter()
-                .map(|&w| Complex64::new(wc, 0.0) / Complex64::new(wc, w))
-                .collect();
-            grids.push(Grid {
-                points: n,
-                omega,
-                drive,
-                conv,
-                fft: planner.plan_fft_inverse(n),
-            });
-            if n >= last {
-                break;
-            }
-            n *= 2;
-        }
-        let top = grids.last().map_or(0, |g| g.points);
-        let scratch = grids
-            .iter()
-            .map(|g| g.fft.get_inplace_scratch_len())
-            .max()
-            .unwrap_or(0);
-        Core {
+        let mut core = Core {
             spec,
             dt,
-            grids,
-            buf: vec![Complex64::default(); top],
-            scratch: vec![Complex64::default(); scratch],
+            grids: Vec::new(),
+            planner: FftPlanner::new(),
+            buf: Vec::new(),
+            scratch: Vec::new(),
             last: 0,
             asym: (0.0, 0.0),
-        }
+        };
+        let first = core.points_for(1.0 / spec.omega_c());
+        core.push_grid(first);
+        core.grid_for(tau_max);
+        core
     }
 
-    /// The smallest grid whose half period settles time constant `tau`.
-    fn grid_for(&self, tau: f64) -> usize {
+    /// Grid points whose half period settles time constant `tau`.
+    fn points_for(&self, tau: f64) -> usize {
+        let half = ((self.spec.ramp() + SETTLE * tau) / self.dt).ceil();
+        let half = if half.is_finite() {
+            half.min(MAX_POINTS as f64) as usize
+        } else {
+            MAX_POINTS
+        };
+        (2 * half).max(1024).next_power_of_two().min(MAX_POINTS)
+    }
+
+    /// Build the grid of `n` points (its harmonics, response and plan).
+    fn push_grid(&mut self, n: usize) {
+        let spec = self.spec;
+        let ramp = spec.ramp();
+        let period = n as f64 * self.dt;
+        let wave = Waveform {
+            period,
+            points: vec![
+                (0.0, 0.0),
+                (ramp, spec.load_step),
+                (period / 2.0, spec.load_step),
+                (period / 2.0 + ramp, 0.0),
+            ],
+        };
+        let k = n / 2 - 1;
+        let drive = crate::spectrum::harmonics(&wave, k);
+        let w0 = 2.0 * PI / period;
+        let omega: Vec<f64> = (1..=k).map(|j| j as f64 * w0).collect();
+        let wc = spec.omega_c();
+        let conv = omega
+            .iter()
+            .map(|&w| Complex64::new(wc, 0.0) / Complex64::new(wc, w))
+            .collect();
+        let fft = self.planner.plan_fft_inverse(n);
+        let scratch = fft.get_inplace_scratch_len();
+        if self.scratch.len() < scratch {
+            self.scratch.resize(scratch, Complex64::default());
+        }
+        if self.buf.len() < n {
+            self.buf.resize(n, Complex64::default());
+        }
+        self.grids.push(Grid {
+            points: n,
+            omega,
+            drive,
+            conv,
+            fft,
+        });
+    }
+
+    /// The smallest grid whose half period settles time constant `tau`
+    /// (grids double from the first; past [`MAX_POINTS`] the largest).
+    fn grid_for(&mut self, tau: f64) -> usize {
         let ramp = self.spec.ramp();
         let tau = tau.max(1.0 / self.spec.omega_c());
-        self.grids
+        if let Some(g) = self
+            .grids
             .iter()
             .position(|g| g.half() as f64 * self.dt >= ramp + SETTLE * tau)
-            .unwrap_or(self.grids.len() - 1)
+        {
+            return g;
+        }
+        let need = self.points_for(tau);
+        while self.grids.last().map_or(0, |g| g.points) < need {
+            let n = self.grids.last().map_or(need, |g| g.points * 2);
+            self.push_grid(n);
+        }
+        self.grids.len() - 1
     }
 
     /// Fill the remaining series of the response on grid `g` for the
@@ -381,6 +401,10 @@ pub struct StepModel {
     /// ESL (with mounting) of each local part, H.
     esl: Vec<f64>,
     core: Core,
+    /// A post-filter behind the bank (empty without one): the deviation
+    /// is then the load node's, and a full set of line states holds the
+    /// bank's lines followed by these.
+    tail: Vec<TailLine>,
     /// Deviations computed (for reports of the search's work).
     pub evaluations: usize,
 }
@@ -469,6 +493,79 @@ where
     tau
 }
 
+/// `(Z_t, Z_open)` at the measured node at `f` for `bank` (ESLs `esl` by
+/// local part) behind `network`, with the post-filter `tail` (may be
+/// empty), every line at `states` (the bank's, then the filter's).
+#[inline]
+fn step_z(
+    network: &Network,
+    esl: &[f64],
+    tail: &[TailLine],
+    bank: &Bank,
+    states: &[LineState],
+    f: f64,
+) -> (Complex64, Complex64) {
+    let w = 2.0 * PI * f;
+    let mut yb = Complex64::default();
+    for (&(i, n), st) in bank.iter().zip(states) {
+        if n > 0 {
+            yb += admittance(st.esr, esl[i], st.c, f) * n as f64;
+        }
+    }
+    let yi = network.internal_admittance(f);
+    if tail.is_empty() {
+        return network.step_impedances_with(yb, yi, w);
+    }
+    let ts = states.get(bank.len()..).unwrap_or(&[]);
+    let (y_load, zs) = tail_load_and_series(tail, ts, f);
+    network.step_impedances_tail(yb, yi, w, y_load, zs)
+}
+
+/// Slowest decay of a two-node ladder's modes: the loops among the bank
+/// node's branches `front`, among the load node's branches `load`, and the
+/// filter's loop (each side lumped, through the inductor `l` with its DC
+/// resistance `dcr`). Branches are `(R, L, C)`. The lumped resistances are
+/// the branches' parallel values, the least damping: a generous estimate
+/// (hence [`SETTLE`]). Allocates nothing.
+pub fn ladder_tau<I, J>(front: impl Fn() -> I, load: impl Fn() -> J, l: f64, dcr: f64) -> f64
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+    J: Iterator<Item = (f64, f64, f64)>,
+{
+    let own = slowest_loop(&front).max(slowest_loop(&load));
+    let lump = |it: &mut dyn Iterator<Item = (f64, f64, f64)>| {
+        let (mut g, mut gl, mut c, mut r0, mut l0) = (0.0, 0.0, 0.0, false, false);
+        for (r, l, cc) in it {
+            if r > 0.0 {
+                g += 1.0 / r
+            } else {
+                r0 = true
+            }
+            if l > 0.0 {
+                gl += 1.0 / l
+            } else {
+                l0 = true
+            }
+            c += cc;
+        }
+        let r = if r0 || g == 0.0 { 0.0 } else { 1.0 / g };
+        let l = if l0 || gl == 0.0 { 0.0 } else { 1.0 / gl };
+        (r, l, c)
+    };
+    let (rb, lb, cb) = lump(&mut front());
+    let (rl, ll, cl) = lump(&mut load());
+    let filter = if cb > 0.0 && cl > 0.0 {
+        loop_tau(rb + dcr + rl, lb + l + ll, cb * cl / (cb + cl))
+    } else if rl + dcr > 0.0 {
+        // No capacitance on the bank side: the current source drives the
+        // inductor; the load node's RL decay.
+        (l + ll) / (rl + dcr)
+    } else {
+        f64::INFINITY
+    };
+    own.max(filter)
+}
+
 impl StepModel {
     /// The model for the scenario's `[transient]` over `parts` (`None`
     /// without one).
@@ -495,8 +592,22 @@ impl StepModel {
             esl: parts.iter().map(|p| p.esl).collect(),
             core: Core::new(spec, tau),
             network,
+            tail: Vec::new(),
             evaluations: 0,
         }
+    }
+
+    /// The same model with the post-filter `tail` behind the bank (the
+    /// evaluator's lines of [`crate::problem::Problem::tail_lines`]): the
+    /// deviation at the load node, with the filter's lines in the region.
+    pub fn with_tail(mut self, tail: Vec<TailLine>) -> StepModel {
+        self.tail = tail;
+        self
+    }
+
+    /// The post-filter's lines (empty without one).
+    pub fn tail(&self) -> &[TailLine] {
+        &self.tail
     }
 
     /// The network the step sees.
@@ -504,13 +615,15 @@ impl StepModel {
         &self.network
     }
 
-    /// Slowest decay of the bank's own modes at `states` (with the
-    /// converter's internal branch behind the connection inductance).
+    /// Slowest decay of the network's own modes at `states`: the bank's
+    /// loops (with the converter's internal branch behind the connection
+    /// inductance) and, behind a filter, the load node's own loops and the
+    /// filter's loop ([`ladder_tau`]).
     fn tau_of(&self, bank: &Bank, states: &[LineState]) -> f64 {
         let lc = self.network.connection_inductance;
         let internal = self.network.internal.map(|b| (b.esr, b.esl + lc, b.c));
         let esl = &self.esl;
-        slowest_loop(|| {
+        let front = || {
             bank.iter()
                 .zip(states)
                 .filter(|(b, _)| b.1 > 0)
@@ -519,11 +632,59 @@ impl StepModel {
                     (st.esr / nf, esl[i] / nf, st.c * nf)
                 })
                 .chain(internal)
-        })
+        };
+        if self.tail.is_empty() {
+            return slowest_loop(front);
+        }
+        let ts = states.get(bank.len()..).unwrap_or(&[]);
+        let (mut l, mut g_dcr, mut g_l) = (0.0, 0.0, 0.0);
+        for (t, st) in self.tail.iter().zip(ts) {
+            if let TailRole::Inductor { .. } = t.role {
+                let n = t.count as f64;
+                g_l += if st.c > 0.0 { n / st.c } else { f64::INFINITY };
+                g_dcr += if st.esr > 0.0 {
+                    n / st.esr
+                } else {
+                    f64::INFINITY
+                };
+            }
+        }
+        if g_l > 0.0 {
+            l = 1.0 / g_l;
+        }
+        let dcr = if g_dcr > 0.0 { 1.0 / g_dcr } else { 0.0 };
+        let load = || {
+            self.tail
+                .iter()
+                .zip(ts)
+                .filter(|(t, _)| t.count > 0)
+                .filter_map(|(t, st)| {
+                    let n = t.count as f64;
+                    match t.role {
+                        TailRole::Load => Some((st.esr / n, t.model.esl / n, st.c * n)),
+                        TailRole::Damping { resistance } => {
+                            Some((resistance + st.esr / n, t.model.esl / n, st.c * n))
+                        }
+                        TailRole::Inductor { .. } => None,
+                    }
+                })
+        };
+        ladder_tau(front, load, l, dcr)
     }
 
     fn has_capacitance(&self, bank: &Bank) -> bool {
-        self.network.has_internal() || bank.iter().any(|&(_, n)| n > 0)
+        self.network.has_internal()
+            || bank.iter().any(|&(_, n)| n > 0)
+            || self
+                .tail
+                .iter()
+                .any(|t| t.count > 0 && !matches!(t.role, TailRole::Inductor { .. }))
+    }
+
+    /// `(Z_t, Z_open)` at the measured node at `f` (see the module notes).
+    #[inline]
+    fn impedances(&self, bank: &Bank, states: &[LineState], f: f64) -> (Complex64, Complex64) {
+        step_z(&self.network, &self.esl, &self.tail, bank, states, f)
     }
 
     fn fill(&mut self, bank: &Bank, states: &[LineState]) -> bool {
@@ -531,20 +692,16 @@ impl StepModel {
             return false;
         }
         self.evaluations += 1;
-        let g = self.core.grid_for(self.tau_of(bank, states));
+        let tau = self.tau_of(bank, states);
+        let g = self.core.grid_for(tau);
         let StepModel {
-            network, esl, core, ..
+            network,
+            esl,
+            core,
+            tail,
+            ..
         } = self;
-        core.fill(g, |f| {
-            let w = 2.0 * PI * f;
-            let mut yb = Complex64::default();
-            for (&(i, n), st) in bank.iter().zip(states) {
-                if n > 0 {
-                    yb += admittance(st.esr, esl[i], st.c, f) * n as f64;
-                }
-            }
-            network.step_impedances_with(yb, network.internal_admittance(f), w)
-        })
+        core.fill(g, |f| step_z(network, esl, tail, bank, states, f))
     }
 
     /// The deviation of `bank` (local indices) with each line at its state,
@@ -583,16 +740,7 @@ impl StepModel {
 
     /// |Z_open| at `f` for `bank` at `states`, Ω.
     pub fn open_impedance(&self, bank: &Bank, states: &[LineState], f: f64) -> f64 {
-        let w = 2.0 * PI * f;
-        let mut yb = Complex64::default();
-        for (&(i, n), st) in bank.iter().zip(states) {
-            if n > 0 {
-                yb += admittance(st.esr, self.esl[i], st.c, f) * n as f64;
-            }
-        }
-        self.network
-            .open_impedance_with(yb, self.network.internal_admittance(f), w)
-            .norm()
+        self.impedances(bank, states, f).1.norm()
     }
 
     /// The peak of |Z_open| from `f_c` to `0.35 / rise_time` and its
@@ -620,17 +768,27 @@ impl StepModel {
         }
     }
 
+    /// The models of the bank's lines, then the filter's.
+    fn line_models(&self, parts: &[PartModel], bank: &Bank) -> Vec<PartModel> {
+        bank.iter()
+            .map(|&(i, _)| parts[i].clone())
+            .chain(self.tail.iter().map(|t| t.model.clone()))
+            .collect()
+    }
+
     /// The largest deviation over the corner region: the named corners,
     /// every vertex of the lines' box (C low/high × ESR low/high; past 256
     /// vertices the named corners' single-line flips), then from the worst
     /// a golden-section search along each line's capacitance and ESR, two
     /// rounds.
     pub fn worst(&mut self, parts: &[PartModel], bank: &Bank) -> StepWorst {
-        let mut sets = vertices_of(parts, bank);
-        sets.push(named_states_of(parts, bank, Named::Typical));
+        let models = self.line_models(parts, bank);
+        let refs: Vec<&PartModel> = models.iter().collect();
+        let mut sets = vertices_of_models(&refs);
+        sets.push(named_of_models(&refs, Named::Typical));
         let mut best = StepWorst {
             deviation: f64::NEG_INFINITY,
-            states: named_states_of(parts, bank, Named::Low),
+            states: named_of_models(&refs, Named::Low),
         };
         for st in sets {
             let d = self.deviation(bank, &st);
@@ -646,8 +804,7 @@ impl StepModel {
         }
         for _round in 0..2 {
             let before = best.deviation;
-            for j in 0..bank.len() {
-                let p = &parts[bank[j].0];
+            for (j, p) in models.iter().enumerate() {
                 for coord in 0..2 {
                     let (lo, hi) = if coord == 0 {
                         (p.c_worst, p.c_high)
@@ -694,22 +851,37 @@ impl StepModel {
         cuts: &[Vec<LineState>],
         scratch: &mut Vec<LineState>,
     ) -> bool {
+        let low = |m: &PartModel| LineState {
+            c: m.c_worst,
+            esr: m.esr_max,
+        };
         scratch.clear();
-        scratch.extend(bank.iter().map(|&(i, _)| LineState {
-            c: parts[i].c_worst,
-            esr: parts[i].esr_max,
-        }));
+        scratch.extend(bank.iter().map(|&(i, _)| low(&parts[i])));
+        scratch.extend(self.tail.iter().map(|t| low(&t.model)));
         if !(self.deviation(bank, scratch) <= limit) {
             return false;
         }
         for cut in cuts {
             scratch.clear();
             scratch.extend(bank.iter().map(|&(i, _)| cut[i]));
+            // A cut holds every local part's state, then the filter's.
+            let rest = cut.get(parts.len()..).unwrap_or(&[]);
+            for (j, t) in self.tail.iter().enumerate() {
+                scratch.push(rest.get(j).copied().unwrap_or_else(|| low(&t.model)));
+            }
             if !(self.deviation(bank, scratch) <= limit) {
                 return false;
             }
         }
-        for v in vertices_of(parts, bank) {
+        // Behind a filter each deviation is a long grid (the filter rings
+        // slowly): the `low` corner and the cuts only; the region is
+        // verified on the bank the search would return.
+        if !self.tail.is_empty() {
+            return true;
+        }
+        let models = self.line_models(parts, bank);
+        let refs: Vec<&PartModel> = models.iter().collect();
+        for v in vertices_of_models(&refs) {
             if !(self.deviation(bank, &v) <= limit) {
                 return false;
             }
@@ -764,10 +936,47 @@ pub struct StepFigures {
 /// verification and the assessment agree on it).
 pub const ROUNDING: f64 = 1e-9;
 
-/// The load-step figures of `bank` (local indices over `parts`), when the
-/// scenario states a load step.
-pub fn figures(s: &Scenario, parts: &[PartModel], bank: &Bank) -> Option<StepFigures> {
-    let mut m = StepModel::new(s, parts)?;
+/// The load step's deviation at a post-filter's load node with the
+/// bank's node held still (an ideal, lossless, unbounded capacitance
+/// there), every filter line at its `low` corner, V. A screen of filters
+/// for the filtered design's search, not a proof: a real bank behind the
+/// filter is usually worse, rarely a little better (see the search).
+pub fn held_node_deviation(spec: Spec, tail: &[TailLine]) -> f64 {
+    let ideal = PartModel {
+        index: 0,
+        c_worst: 1.0,
+        c_typical: 1.0,
+        c_high: 1.0,
+        esr_min: 0.0,
+        esr_max: 0.0,
+        c_nominal: 1.0,
+        c_limit: 1.0,
+        esr: 0.0,
+        esl: 0.0,
+        cost: 0.0,
+        area: 0.0,
+        rating: None,
+    };
+    let mut m =
+        StepModel::with_network(spec, Network::new(None, 0.0), &[ideal]).with_tail(tail.to_vec());
+    let mut states = vec![LineState { c: 1.0, esr: 0.0 }];
+    states.extend(tail.iter().map(|t| LineState {
+        c: t.model.c_worst,
+        esr: t.model.esr_max,
+    }));
+    m.deviation(&[(0, 1)], &states)
+}
+
+/// The load-step figures of `bank` (local indices over `parts`) with the
+/// post-filter `tail` behind it (empty without one; then at the bank's
+/// node, else at the load node), when the scenario states a load step.
+pub fn figures(
+    s: &Scenario,
+    parts: &[PartModel],
+    bank: &Bank,
+    tail: &[TailLine],
+) -> Option<StepFigures> {
+    let mut m = StepModel::new(s, parts)?.with_tail(tail.to_vec());
     let w = m.worst(parts, bank);
     let (z_peak, z_f) = m.z_peak(bank, &w.states);
     let response = m.response(bank, &w.states);
@@ -776,7 +985,12 @@ pub fn figures(s: &Scenario, parts: &[PartModel], bank: &Bank) -> Option<StepFig
         .iter()
         .map(|&(i, n)| n as f64 * parts[i].c_worst)
         .sum::<f64>()
-        + m.network.internal.map_or(0.0, |b| b.c);
+        + m.network.internal.map_or(0.0, |b| b.c)
+        + tail
+            .iter()
+            .filter(|t| !matches!(t.role, TailRole::Inductor { .. }))
+            .map(|t| t.count as f64 * t.model.c_worst)
+            .sum::<f64>();
     Some(StepFigures {
         load_step: sp.load_step,
         max_deviation: sp.max_deviation,

@@ -112,7 +112,11 @@ fn verified_deviation(
     parts: &[crate::evaluator::PartModel],
     local: &[(usize, u32)],
 ) -> Option<f64> {
-    let mut m = crate::transient::StepModel::new(&problem.scenario, parts)?;
+    let tail = problem
+        .filter
+        .as_ref()
+        .map_or_else(Vec::new, |f| problem.tail_lines(f));
+    let mut m = crate::transient::StepModel::new(&problem.scenario, parts)?.with_tail(tail);
     Some(m.worst(parts, local).deviation)
 }
 

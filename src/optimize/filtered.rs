@@ -42,6 +42,15 @@ use std::time::Instant;
 /// Most filters whose converter-side bank is searched; past it the search
 /// stops (and the answer is `feasible`).
 const MAX_FILTERS: usize = 400;
+/// With a load step (each deviation behind a filter is a long transform),
+/// most filters searched.
+const MAX_FILTERS_STEP: usize = 16;
+/// A filter whose load node misses the load step by more than this factor
+/// with the bank's node held still is not searched.
+const STEP_SCREEN: f64 = 1.5;
+/// The reason a filter is dropped by the load-step screen.
+const STEP: &str =
+    "the load step misses the limit at the load node even with the bank's node held still";
 /// Default largest load-side bank, parts (common practice, no source).
 pub const DEFAULT_LOAD_MAX_COUNT: u32 = 4;
 /// Largest number of damping capacitors in parallel the search tries.
@@ -371,7 +380,12 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
                     break;
                 }
             }
-            if searched + batch.len() >= MAX_FILTERS {
+            let most = if problem.scenario.transient.is_some() {
+                MAX_FILTERS_STEP
+            } else {
+                MAX_FILTERS
+            };
+            if searched + batch.len() >= most {
                 complete = false;
                 break;
             }
@@ -387,6 +401,17 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
             if let Some(m) = fs.max_output_impedance {
                 if filter::typical_peak_output_impedance(&tail) > m.0 {
                     *dropped.entry(IMPEDANCE.to_string()).or_default() += 1;
+                    continue;
+                }
+            }
+            // The load step with the bank's node held still: a filter that
+            // misses the limit by more than STEP_SCREEN that way is not
+            // searched (a screen, so the answer is no longer proven).
+            if let Some(spec) = crate::transient::Spec::of(&problem.scenario) {
+                let d = crate::transient::held_node_deviation(spec, &tail);
+                if !(d <= spec.max_deviation * STEP_SCREEN) {
+                    *dropped.entry(STEP.to_string()).or_default() += 1;
+                    complete = false;
                     continue;
                 }
             }

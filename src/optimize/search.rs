@@ -89,6 +89,18 @@ impl Limits {
         out
     }
 
+    /// Lower the floors on the bank's lowest capacitance by `c`, F: the
+    /// capacitance a post-filter's load side (and damping leg) holds at its
+    /// lowest, which settles a load step as the bank's own does.
+    pub(super) fn credit_capacitance(&mut self, c: f64) {
+        for r in &mut self.at_least {
+            if matches!(limits::limit(r.id).linear, Linear::Floor(_)) {
+                r.value -= c;
+            }
+        }
+        self.at_least.retain(|r| r.value > 0.0);
+    }
+
     /// The value of limit `id` in the search, or the value that does not
     /// constrain (+∞ for an upper limit, 0 for a lower one).
     pub(super) fn value(&self, id: LimitId) -> f64 {
@@ -197,7 +209,16 @@ impl Search {
             Objective::Cost => [lc, 0.0, 0.0],
             _ => [0.0, lc, 0.0],
         };
-        let lim = Limits::of(s, &parts);
+        let mut lim = Limits::of(s, &parts);
+        let behind: f64 = ev
+            .tail()
+            .iter()
+            .filter(|t| !matches!(t.role, crate::evaluator::TailRole::Inductor { .. }))
+            .map(|t| t.count as f64 * t.model.c_worst)
+            .sum();
+        if behind > 0.0 {
+            lim.credit_capacitance(behind);
+        }
         let mut count_min = Vec::new();
         let mut count_max = Vec::new();
         let mut required_parts = Vec::new();
@@ -225,7 +246,8 @@ impl Search {
         }
         let phase_terms = ev.phase_terms(target);
         let ratings = parts.iter().map(|p| p.rating).collect();
-        let step = crate::transient::StepModel::new(s, &parts);
+        let step =
+            crate::transient::StepModel::new(s, &parts).map(|m| m.with_tail(ev.tail().to_vec()));
         Search {
             step,
             step_cuts: Vec::new(),

@@ -227,17 +227,9 @@ fn num(x: f64) -> String {
 }
 
 /// The circuit with every line at the `low` corner, or at the given states
-/// (one per line with a count above zero, in order).
-fn circuit(
-    problem: &Problem,
-    bank: &[(usize, u32)],
-    states: Option<&[LineState]>,
-) -> Result<Circuit> {
-    circuit_with(problem, bank, states, None)
-}
-
-/// As [`circuit`], with the post-filter `tail` behind the bank (its lines
-/// at the states after the bank's, or at `low`).
+/// (one per line with a count above zero, in order), and the post-filter
+/// `tail` behind the bank (its lines at the states after the bank's, or at
+/// `low`).
 fn circuit_with(
     problem: &Problem,
     bank: &[(usize, u32)],
@@ -312,50 +304,14 @@ impl Circuit {
     /// branches; an estimate (hence the generous [`SETTLE_TAUS`]) beyond.
     fn slowest_decay(&self) -> f64 {
         let internal = self.internal.as_ref().map(|b| (b.r, b.l + self.lc, b.c));
-        let own = crate::transient::slowest_loop(|| {
-            self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal)
-        });
+        let front = || self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal);
         let Some(t) = &self.tail else {
-            return own;
+            return crate::transient::slowest_loop(front);
         };
         // Behind a filter: the load node's own loops, and the filter's loop
         // (the bank side and the load side, each lumped, through the
-        // inductor). The lumped resistances are the branches' parallel
-        // values, the least damping: a generous estimate.
-        let load_own = crate::transient::slowest_loop(|| t.branches());
-        let lump = |it: &mut dyn Iterator<Item = (f64, f64, f64)>| {
-            let (mut g, mut gl, mut c, mut r0, mut l0) = (0.0, 0.0, 0.0, false, false);
-            for (r, l, cc) in it {
-                if r > 0.0 {
-                    g += 1.0 / r
-                } else {
-                    r0 = true
-                }
-                if l > 0.0 {
-                    gl += 1.0 / l
-                } else {
-                    l0 = true
-                }
-                c += cc;
-            }
-            let r = if r0 || g == 0.0 { 0.0 } else { 1.0 / g };
-            let l = if l0 || gl == 0.0 { 0.0 } else { 1.0 / gl };
-            (r, l, c)
-        };
-        let (rb, lb, cb) = lump(&mut self.bank.iter().map(|b| (b.r, b.l, b.c)).chain(internal));
-        let (rl, ll, cl) = lump(&mut t.branches());
-        let filter = if cb > 0.0 && cl > 0.0 {
-            crate::transient::loop_tau(rb + t.dcr + rl, lb + t.l + ll, cb * cl / (cb + cl))
-        } else {
-            // No capacitance on the bank side: the current source drives
-            // the inductor; the load node's RL decay.
-            if rl + t.dcr > 0.0 {
-                (t.l + ll) / (rl + t.dcr)
-            } else {
-                f64::INFINITY
-            }
-        };
-        own.max(load_own).max(filter)
+        // inductor).
+        crate::transient::ladder_tau(front, || t.branches(), t.l, t.dcr)
     }
 
     /// Elements of the circuit between the converter's node `conv` and the
@@ -751,12 +707,13 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     // The load step, when the scenario has one: a second copy of the
     // circuit at the load step's worst point, stepped from the start of the
     // saved output.
-    let step = match crate::transient::figures(s, &ev.parts, &local) {
-        Some(f) => Some(write_step(&mut o, problem, &bank, &f, t_prev, rdc)?),
+    let step = match crate::transient::figures(s, &ev.parts, &local, ev.tail()) {
+        Some(f) => Some(write_step(&mut o, problem, &bank, tail, &f, t_prev, rdc)?),
         None => None,
     };
     let mut tmax = period / STEPS_PER_PERIOD;
-    if let Some((end, step_tmax)) = step {
+    if let Some((end, step_tmax, _)) = &step {
+        let (end, step_tmax) = (*end, *step_tmax);
         t_run = t_stop.max(end);
         tmax = tmax.min(step_tmax);
     }
@@ -834,20 +791,20 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
             num(t_stop)
         );
     }
-    if step.is_some() {
+    if let Some((_, _, snode)) = &step {
         let _ = writeln!(
             o,
             "* load step: the lowest and highest output change after it (V), and the deviation"
         );
         let _ = writeln!(
             o,
-            ".meas tran step_min MIN v(sbank) from={} to={}",
+            ".meas tran step_min MIN v({snode}) from={} to={}",
             num(t_prev),
             num(t_run)
         );
         let _ = writeln!(
             o,
-            ".meas tran step_max MAX v(sbank) from={} to={}",
+            ".meas tran step_max MAX v({snode}) from={} to={}",
             num(t_prev),
             num(t_run)
         );
@@ -861,20 +818,22 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
 }
 
 /// The load-step run of `bank.cir`: the circuit at the load step's worst
-/// point (nodes prefixed `s`, its load node `sbank`), a load that draws the
+/// point (nodes prefixed `s`, its measured node `sbank`, or `sload` behind
+/// a post-filter `tail`; the load current as a voltage at `sistep`), a load that draws the
 /// step (a linear ramp from `t0`, 10–90 % in the rise time) and the
 /// converter as a behavioural current source: the load current through a
 /// first-order RC low-pass at the loop crossover. Returns the end of the
-/// run and the time step it needs.
+/// run, the time step it needs and the measured node.
 fn write_step(
     o: &mut String,
     problem: &Problem,
     bank: &[(usize, u32)],
+    tail: Option<&[TailLine]>,
     f: &crate::transient::StepFigures,
     t0: f64,
     rdc: f64,
-) -> Result<(f64, f64)> {
-    let ckt = circuit(problem, bank, Some(&f.states))?;
+) -> Result<(f64, f64, String)> {
+    let ckt = circuit_with(problem, bank, Some(&f.states), tail)?;
     let ramp = f.rise_time * crate::transient::RAMP_PER_RISE;
     let wc = 2.0 * PI * f.loop_crossover;
     let tau = ckt.slowest_decay().min(1.0).max(1.0 / wc);
@@ -897,12 +856,12 @@ fn write_step(
     let _ = writeln!(o, "Rsdc {node} 0 {}", num(rdc));
     let _ = writeln!(
         o,
-        "* the load current as a voltage (1 V per A) at node sload, starting at {} s",
+        "* the load current as a voltage (1 V per A) at node sistep, starting at {} s",
         num(t0)
     );
     let _ = writeln!(
         o,
-        "Vsload sload 0 PWL(0 0 {} 0 {} {})",
+        "Vsistep sistep 0 PWL(0 0 {} 0 {} {})",
         num(t0),
         num(t0 + ramp),
         num(f.load_step)
@@ -912,11 +871,11 @@ fn write_step(
         "* the converter: the load current through a first-order low-pass at the loop crossover"
     );
     let rl = 1e3;
-    let _ = writeln!(o, "Rslp sload sconvi {}", num(rl));
+    let _ = writeln!(o, "Rslp sistep sconvi {}", num(rl));
     let _ = writeln!(o, "Cslp sconvi 0 {}", num(1.0 / (wc * rl)));
     let _ = writeln!(o, "Bsconv 0 {conv} I=V(sconvi)");
-    let _ = writeln!(o, "Bsload {node} 0 I=V(sload)");
-    Ok((end, (ramp / 50.0).min(tau / 200.0)))
+    let _ = writeln!(o, "Bsload {node} 0 I=V(sistep)");
+    Ok((end, (ramp / 50.0).min(tau / 200.0), node))
 }
 
 /// An AC netlist of the same bank: a 1 A current into the converter's node,
