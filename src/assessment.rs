@@ -1,11 +1,12 @@
 //! Everything the reports say about one bank: the ripple at every corner,
 //! the currents, the totals and every limit, computed by the evaluator.
 
-use crate::catalog::Status;
+use crate::catalog::{Part, Status};
 use crate::evaluator::{Band, Evaluator};
 use crate::limits::{self, LimitId, Totals};
 use crate::problem::{cap_limit_value, Problem};
 use crate::region::{self, Named};
+use crate::scenario::Scenario;
 use anyhow::{bail, Result};
 use serde::Serialize;
 use std::path::Path;
@@ -580,17 +581,114 @@ pub fn assess_with(
     opts: &AssessOptions,
 ) -> Assessment {
     let s = &problem.scenario;
-    let cat = &problem.catalog;
+    let fig = ripple_figures(problem, ev, local, opts.corner);
+    let currents = region::currents(ev, local, Some(&fig.worst));
+    let half = half_series_figure(ev, local, &fig);
+    let worst_corner = worst_corner(problem, ev, bank, &fig.worst);
+    let mut warnings = input_warnings(problem, opts.corner, &fig.worst);
+    let mut sums = bank_sums(problem, bank);
+    let lines = bank_lines(problem, bank, &currents);
+    let mut checks = vec![ripple_check(s, fig.ripple_pp)];
+    for (j, &(i, n)) in bank.iter().enumerate() {
+        let p = &problem.catalog.parts[i];
+        part_checks(s, p, n, currents[j], &mut checks);
+        part_warnings(s, p, &mut warnings);
+    }
+    region_warnings(s, ev, local, &fig, half, &mut warnings);
+    // A post-filter's parts count toward the design's totals (and its
+    // load-side capacitance toward the converter's limit when asked).
+    let filter = crate::filter::assess_filter(problem, ev, local, &fig.worst, &currents);
+    if let Some(f) = &filter {
+        add_filter(problem, f, &mut sums);
+        checks.extend(crate::filter::filter_checks(problem, f));
+    }
+    let nlines = bank.len() as u32;
+    let parts_cost = sums.cost;
+    let cost = parts_cost + nlines as f64 * s.selection.line_cost.0;
+    target_checks(s, &fig, &mut checks);
+    let transient = load_step_figures(problem, ev, local);
+    warnings.extend(winding_warning(s, ev));
+    // The linear limits, from the one table of them.
+    let totals = Totals {
+        cap_limit: sums.c_limit,
+        cap_effective: sums.c_effective,
+        count: sums.count,
+        lines: nlines,
+        area: sums.area,
+        area_known: sums.area_known,
+        deviation: transient.as_ref().map(|t| t.deviation),
+    };
+    checks.extend(limits::checks(s, &totals));
+    if s.board.max_area.is_some() && !sums.area_known {
+        warnings.push("some parts have no area: board.max_area cannot be checked".into());
+    }
+    checks.extend(require_checks(problem, bank));
+    let c_at_ripple = capacitance_at_ripple(ev, local, crate::evaluator::Corner::Worst);
+    let meets_target = fig.ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING);
+    let all_ok = checks.iter().all(|c| c.ok);
+    Assessment {
+        corner: opts.corner,
+        bank: lines,
+        worst_corner,
+        ripple_pp_corners: fig.corners,
+        ripple_pp: fig.ripple_pp,
+        ripple_pp_typical: fig.corners.typical,
+        ripple_pp_full_bandwidth: fig.ripple_pp_full,
+        target_ripple_pp: s.target.ripple_pp.0,
+        bandwidth: s.target.bandwidth.map(|b| b.0),
+        harmonics: ev.n_limited,
+        cost,
+        parts_cost,
+        area: sums.area,
+        area_known: sums.area_known,
+        count: sums.count,
+        lines: nlines,
+        capacitance_nominal_total: sums.c_nominal,
+        capacitance_max_total: sums.c_max,
+        capacitance_effective_total: sums.c_effective,
+        capacitance_typical_total: sums.c_typical,
+        capacitance_at_ripple_frequency: c_at_ripple,
+        ripple_frequency: ev.freqs.first().copied().unwrap_or(0.0),
+        ripple_current: ripple_currents(problem, bank, &currents),
+        checks,
+        corners: corner_infos(problem),
+        meets_target,
+        all_ok,
+        warnings,
+        transient,
+        filter,
+    }
+}
+
+/// The ripple figures of a bank: the worst point of the corner region, the
+/// named corners and the judged figure in both bands.
+struct RippleFigures {
+    /// The worst point of the corner region (target bandwidth).
+    worst: region::Worst,
+    /// The named corners' figures.
+    corners: CornerFigures,
+    /// The judged figure, target bandwidth, V.
+    ripple_pp: f64,
+    /// The judged figure, full bandwidth, V.
+    ripple_pp_full: f64,
+}
+
+fn ripple_figures(
+    problem: &Problem,
+    ev: &mut Evaluator,
+    local: &[(usize, u32)],
+    corner: NamedCorner,
+) -> RippleFigures {
     let worst = region::worst(problem, ev, local, Band::Limited);
     let named =
         |ev: &mut Evaluator, w: Named| region::named_value(problem, ev, local, w, Band::Limited);
-    let corners_pp = CornerFigures {
+    let corners = CornerFigures {
         low: named(ev, Named::Low),
         high: named(ev, Named::High),
         typical: named(ev, Named::Typical),
     };
     // `assess --corner`: one named corner instead of the whole region.
-    let judged = match opts.corner {
+    let judged = match corner {
         NamedCorner::Worst => None,
         NamedCorner::Low => Some(Named::Low),
         NamedCorner::High => Some(Named::High),
@@ -606,15 +704,33 @@ pub fn assess_with(
             region::named_value(problem, ev, local, w, Band::Full),
         ),
     };
-    let ripple_pp_typical = corners_pp.typical;
-    let currents = region::currents(ev, local, Some(&worst));
-    let half = if worst.states.len() == ev.line_count(local) {
+    RippleFigures {
+        worst,
+        corners,
+        ripple_pp,
+        ripple_pp_full,
+    }
+}
+
+/// The worst point's figure with half the harmonics (for the convergence
+/// warning); the judged figure when the worst point has no states.
+fn half_series_figure(ev: &mut Evaluator, local: &[(usize, u32)], fig: &RippleFigures) -> f64 {
+    let worst = &fig.worst;
+    if worst.states.len() == ev.line_count(local) {
         ev.fill_states(local, &worst.states, ev.n_limited);
         ev.pp_filled_n(worst.op, Band::Limited, ev.n_limited / 2)
     } else {
-        ripple_pp
-    };
-    let worst_corner = WorstCorner {
+        fig.ripple_pp
+    }
+}
+
+fn worst_corner(
+    problem: &Problem,
+    ev: &Evaluator,
+    bank: &[(usize, u32)],
+    worst: &region::Worst,
+) -> WorstCorner {
+    WorstCorner {
         vin: ev.ops.get(worst.op).and_then(|o| o.vin),
         inductance: ev.ops.get(worst.op).and_then(|o| o.inductance),
         lines: bank
@@ -626,146 +742,215 @@ pub fn assess_with(
                 esr: st.esr,
             })
             .collect(),
-    };
-    let vout = s.converter.vout.0;
-    let mut lines = Vec::new();
+    }
+}
+
+/// The problem's warnings about the inputs, and the judged corner's.
+fn input_warnings(problem: &Problem, corner: NamedCorner, worst: &region::Worst) -> Vec<String> {
     let mut warnings = problem.warnings.clone();
-    if opts.corner != NamedCorner::Worst {
+    if corner != NamedCorner::Worst {
         warnings.push(format!(
             "--corner {}: judged at this named corner only, not over the whole corner region (its worst is {})",
-            opts.corner.name(),
+            corner.name(),
             text_mv(worst.value)
         ));
     }
     // The bank's own parts get one note each below; the catalog-wide note
     // would say the same twice.
     warnings.retain(|w| !w.contains(crate::catalog::NO_TOLERANCE));
-    let mut checks = Vec::new();
-    let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
-    let (mut cn, mut cmax, mut ceff, mut ctyp, mut climit) = (0.0, 0.0, 0.0, 0.0, 0.0);
-    let mut area_known = true;
-    for (j, &(i, n)) in bank.iter().enumerate() {
-        let p = &cat.parts[i];
+    warnings
+}
+
+/// The sums over a bank's lines (and, once added, its post-filter's parts).
+#[derive(Default)]
+struct BankSums {
+    cost: f64,
+    area: f64,
+    area_known: bool,
+    count: u32,
+    c_nominal: f64,
+    c_max: f64,
+    c_effective: f64,
+    c_typical: f64,
+    c_limit: f64,
+}
+
+fn bank_sums(problem: &Problem, bank: &[(usize, u32)]) -> BankSums {
+    let s = &problem.scenario;
+    let vout = s.converter.vout.0;
+    let mut t = BankSums {
+        area_known: true,
+        ..BankSums::default()
+    };
+    for &(i, n) in bank {
+        let p = &problem.catalog.parts[i];
         let nf = n as f64;
-        cost += nf * p.cost;
+        t.cost += nf * p.cost;
         match p.area {
-            Some(a) => area += nf * a,
-            None => area_known = false,
+            Some(a) => t.area += nf * a,
+            None => t.area_known = false,
         }
-        count += n;
-        cn += nf * p.capacitance;
-        cmax += nf * p.c_nominal_max();
-        ceff += nf * p.c_worst(vout);
-        ctyp += nf * p.c_typical(vout);
-        climit += nf * cap_limit_value(s, p);
-        lines.push(BankLine {
-            part: p.id.clone(),
-            count: n,
-            technology: p.technology.name().into(),
-            case: p.case.clone(),
-            capacitance_nominal: p.capacitance,
-            capacitance_typical: p.c_typical(vout),
-            capacitance_worst: p.c_worst(vout),
-            esr: p.esr,
-            esl: p.esl,
-            rated_voltage: p.rated_voltage,
-            unit_cost: p.cost,
-            line_total_cost: nf * p.cost,
-            unit_area: p.area,
-            height: p.height,
-            ripple_current_rms: currents[j],
-            ripple_current_rating: p.ripple_current,
-            status: p.status.name().into(),
-        });
-        // Per-part rules (the same as eligibility, as checks and warnings).
-        if p.technology.polarised() {
-            warnings.push(format!(
-                "{} is a polarised {} capacitor: mind its orientation, never reverse-bias it{}",
-                p.id,
-                p.technology.name(),
-                if p.technology == crate::catalog::Technology::Tantalum {
-                    ", and follow the maker's surge-current and voltage-derating rules"
-                } else {
-                    ""
-                }
-            ));
+        t.count += n;
+        t.c_nominal += nf * p.capacitance;
+        t.c_max += nf * p.c_nominal_max();
+        t.c_effective += nf * p.c_worst(vout);
+        t.c_typical += nf * p.c_typical(vout);
+        t.c_limit += nf * cap_limit_value(s, p);
+    }
+    t
+}
+
+/// A post-filter's cost, area and parts into the sums (and its load-side
+/// capacitance into the converter's limit when `filter.count_load_side`).
+fn add_filter(problem: &Problem, f: &crate::filter::FilterAssessment, t: &mut BankSums) {
+    t.cost += f.cost;
+    t.area += f.area;
+    t.count += f.parts;
+    if problem.scenario.filter.count_load_side {
+        for &(i, n) in &f.design.load_bank {
+            t.c_limit += problem.part_model(i).c_limit * n as f64;
         }
-        let der = s.derating(p.technology);
-        checks.push(Check {
-            name: format!("voltage {}", p.id),
-            part: Some(p.id.clone()),
-            bound: Bound::AtMost,
-            value: vout,
-            limit: p.rated_voltage * der,
-            unit: "V".into(),
-            ok: p.rated_voltage * der >= vout,
-        });
-        let (tmin, tmax) = p.temperature_range();
-        if let Some(t) = tmin {
-            checks.push(Check {
-                name: format!("temperature_min {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: t,
-                limit: s.environment.temperature_min,
-                unit: "°C".into(),
-                ok: t <= s.environment.temperature_min,
-            });
-        }
-        if let Some(t) = tmax {
-            checks.push(Check {
-                name: format!("temperature_max {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtLeast,
-                value: t,
-                limit: s.environment.temperature_max,
-                unit: "°C".into(),
-                ok: t >= s.environment.temperature_max,
-            });
-        }
-        if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
-            checks.push(Check {
-                name: format!("height {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: ph,
-                limit: h.0,
-                unit: "mm".into(),
-                ok: ph <= h.0,
-            });
-        }
-        if let Some(r) = p.ripple_current {
-            checks.push(Check {
-                name: format!("ripple_current {}", p.id),
-                part: Some(p.id.clone()),
-                bound: Bound::AtMost,
-                value: currents[j],
-                limit: r,
-                unit: "A".into(),
-                ok: currents[j] <= r,
-            });
-        }
-        match p.status {
-            Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
-            Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!(
-                "{} is not recommended for new designs (nrnd)",
-                p.id
-            )),
-            _ => {}
-        }
-        if s.selection.exclude.contains(&p.id) {
-            warnings.push(format!("{} is on the scenario's exclude list", p.id));
-        }
-        if !p.tolerance_given {
-            warnings.push(format!(
-                "{}: no tolerance in the catalog; 20 % assumed",
-                p.id
-            ));
-        }
-        if let Some(c) = limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n) {
-            checks.push(c);
+        if let Some(d) = &f.design.damping {
+            t.c_limit += problem.part_model(d.capacitor).c_limit * d.count as f64;
         }
     }
+}
+
+fn bank_lines(problem: &Problem, bank: &[(usize, u32)], currents: &[f64]) -> Vec<BankLine> {
+    let vout = problem.scenario.converter.vout.0;
+    bank.iter()
+        .zip(currents)
+        .map(|(&(i, n), &current)| {
+            let p = &problem.catalog.parts[i];
+            BankLine {
+                part: p.id.clone(),
+                count: n,
+                technology: p.technology.name().into(),
+                case: p.case.clone(),
+                capacitance_nominal: p.capacitance,
+                capacitance_typical: p.c_typical(vout),
+                capacitance_worst: p.c_worst(vout),
+                esr: p.esr,
+                esl: p.esl,
+                rated_voltage: p.rated_voltage,
+                unit_cost: p.cost,
+                line_total_cost: n as f64 * p.cost,
+                unit_area: p.area,
+                height: p.height,
+                ripple_current_rms: current,
+                ripple_current_rating: p.ripple_current,
+                status: p.status.name().into(),
+            }
+        })
+        .collect()
+}
+
+/// One per-part row: `value` against `limit` on the side `bound`.
+fn part_check(p: &Part, what: &str, bound: Bound, value: f64, limit: f64, unit: &str) -> Check {
+    let ok = match bound {
+        Bound::AtMost => value <= limit,
+        Bound::AtLeast => value >= limit,
+    };
+    Check {
+        name: format!("{what} {}", p.id),
+        part: Some(p.id.clone()),
+        bound,
+        value,
+        limit,
+        unit: unit.into(),
+        ok,
+    }
+}
+
+/// A part's own rows (the same rules as eligibility, and the table's
+/// per-part limits), with `n` of it carrying `current` RMS each.
+fn part_checks(s: &Scenario, p: &Part, n: u32, current: f64, checks: &mut Vec<Check>) {
+    let vout = s.converter.vout.0;
+    let rated = p.rated_voltage * s.derating(p.technology);
+    checks.push(part_check(p, "voltage", Bound::AtMost, vout, rated, "V"));
+    let env = &s.environment;
+    let (tmin, tmax) = p.temperature_range();
+    if let Some(t) = tmin {
+        checks.push(part_check(
+            p,
+            "temperature_min",
+            Bound::AtMost,
+            t,
+            env.temperature_min,
+            "°C",
+        ));
+    }
+    if let Some(t) = tmax {
+        checks.push(part_check(
+            p,
+            "temperature_max",
+            Bound::AtLeast,
+            t,
+            env.temperature_max,
+            "°C",
+        ));
+    }
+    if let (Some(h), Some(ph)) = (s.board.max_height, p.height) {
+        checks.push(part_check(p, "height", Bound::AtMost, ph, h.0, "mm"));
+    }
+    if let Some(r) = p.ripple_current {
+        checks.push(part_check(
+            p,
+            "ripple_current",
+            Bound::AtMost,
+            current,
+            r,
+            "A",
+        ));
+    }
+    checks.extend(limits::limit(LimitId::MaxPerPart).check_part(s, &p.id, n));
+}
+
+/// A part's own warnings: polarity, life-cycle status, the exclude list,
+/// an assumed tolerance.
+fn part_warnings(s: &Scenario, p: &Part, warnings: &mut Vec<String>) {
+    if p.technology.polarised() {
+        warnings.push(format!(
+            "{} is a polarised {} capacitor: mind its orientation, never reverse-bias it{}",
+            p.id,
+            p.technology.name(),
+            if p.technology == crate::catalog::Technology::Tantalum {
+                ", and follow the maker's surge-current and voltage-derating rules"
+            } else {
+                ""
+            }
+        ));
+    }
+    match p.status {
+        Status::Obsolete => warnings.push(format!("{} is obsolete", p.id)),
+        Status::Nrnd if !s.selection.allow_nrnd => warnings.push(format!(
+            "{} is not recommended for new designs (nrnd)",
+            p.id
+        )),
+        _ => {}
+    }
+    if s.selection.exclude.contains(&p.id) {
+        warnings.push(format!("{} is on the scenario's exclude list", p.id));
+    }
+    if !p.tolerance_given {
+        warnings.push(format!(
+            "{}: no tolerance in the catalog; 20 % assumed",
+            p.id
+        ));
+    }
+}
+
+/// What the corner region says about the bank: where its worst point lies,
+/// a typical corner above the target, a series that has not converged.
+fn region_warnings(
+    s: &Scenario,
+    ev: &Evaluator,
+    local: &[(usize, u32)],
+    fig: &RippleFigures,
+    half: f64,
+    warnings: &mut Vec<String>,
+) {
+    let (worst, ripple_pp, corners) = (&fig.worst, fig.ripple_pp, &fig.corners);
     // Where the worst point lies, in words an engineer can act on.
     let at_high = worst
         .states
@@ -789,14 +974,14 @@ pub fn assess_with(
             "the worst ripple ({}) occurs {what}: this bank is ESL-dominated or anti-resonant near a harmonic, \
              so more capacitance does not lower its ripple (low corner {}, high corner {})",
             text_mv(ripple_pp),
-            text_mv(corners_pp.low),
-            text_mv(corners_pp.high)
+            text_mv(corners.low),
+            text_mv(corners.high)
         ));
     }
-    if ripple_pp_typical > s.target.ripple_pp.0 && ripple_pp_typical < ripple_pp {
+    if corners.typical > s.target.ripple_pp.0 && corners.typical < ripple_pp {
         warnings.push(format!(
             "the typical corner ({}) is above the target ({}) as well as the worst ({})",
-            text_mv(ripple_pp_typical),
+            text_mv(corners.typical),
             text_mv(s.target.ripple_pp.0),
             text_mv(ripple_pp)
         ));
@@ -816,73 +1001,70 @@ pub fn assess_with(
             ));
         }
     }
-    // A post-filter's parts count toward the design's totals (and its
-    // load-side capacitance toward the converter's limit when asked).
-    let filter = crate::filter::assess_filter(problem, ev, local, &worst, &currents);
-    if let Some(f) = &filter {
-        cost += f.cost;
-        area += f.area;
-        count += f.parts;
-        if s.filter.count_load_side {
-            for &(i, n) in &f.design.load_bank {
-                climit += problem.part_model(i).c_limit * n as f64;
-            }
-            if let Some(d) = &f.design.damping {
-                climit += problem.part_model(d.capacitor).c_limit * d.count as f64;
-            }
-        }
-        checks.extend(crate::filter::filter_checks(problem, f));
+}
+
+/// The target's row of the judged figure.
+fn ripple_check(s: &Scenario, ripple_pp: f64) -> Check {
+    Check {
+        name: "ripple_pp".into(),
+        value: ripple_pp,
+        limit: s.target.ripple_pp.0,
+        unit: "V".into(),
+        ok: ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING),
+        part: None,
+        bound: Bound::AtMost,
     }
-    let nlines = bank.len() as u32;
-    let parts_cost = cost;
-    cost += nlines as f64 * s.selection.line_cost.0;
-    checks.insert(
-        0,
-        Check {
-            name: "ripple_pp".into(),
-            value: ripple_pp,
-            limit: s.target.ripple_pp.0,
-            unit: "V".into(),
-            ok: ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING),
-            part: None,
-            bound: Bound::AtMost,
-        },
-    );
+}
+
+/// The target's further rows: with the design margin, at the typical corner.
+fn target_checks(s: &Scenario, fig: &RippleFigures, checks: &mut Vec<Check>) {
     if s.selection.margin.0 > 0.0 {
         checks.push(Check {
             name: "ripple_pp with margin".into(),
-            value: ripple_pp,
+            value: fig.ripple_pp,
             limit: s.design_target(),
             unit: "V".into(),
-            ok: ripple_pp <= s.design_target() * (1.0 + RIPPLE_ROUNDING),
+            ok: fig.ripple_pp <= s.design_target() * (1.0 + RIPPLE_ROUNDING),
             part: None,
             bound: Bound::AtMost,
         });
     }
     if s.selection.check_typical {
+        let typical = fig.corners.typical;
         checks.push(Check {
             name: "ripple_pp_typical".into(),
-            value: ripple_pp_typical,
+            value: typical,
             limit: s.target.ripple_pp.0,
             unit: "V".into(),
-            ok: ripple_pp_typical <= s.target.ripple_pp.0,
+            ok: typical <= s.target.ripple_pp.0,
             part: None,
             bound: Bound::AtMost,
         });
     }
-    // The linear limits, from the one table of them.
-    // The load step at the measured node: behind a filter, the load node
-    // with the filter's lines in the region.
-    let transient = crate::transient::figures(s, &ev.parts, local, ev.tail());
-    // Known limit: a winding capacitance resonates with the load-side ESL
-    // far above the summed harmonics (GHz), where the full-bandwidth sum
-    // does not reach; the band-limited figure is not affected.
+}
+
+/// The load step's figures (`None` without `[transient]`).
+fn load_step_figures(
+    problem: &Problem,
+    ev: &Evaluator,
+    local: &[(usize, u32)],
+) -> Option<crate::transient::StepFigures> {
+    let s = &problem.scenario;
+    // At the measured node: behind a filter, the load node with the
+    // filter's lines in the region.
+    crate::transient::figures(s, &ev.parts, local, ev.tail())
+}
+
+/// Known limit: a winding capacitance resonates with the load-side ESL
+/// far above the summed harmonics (GHz), where the full-bandwidth sum
+/// does not reach; the band-limited figure is not affected.
+fn winding_warning(s: &Scenario, ev: &Evaluator) -> Option<String> {
     let winding = ev
         .tail()
         .iter()
         .any(|t| matches!(t.role, crate::evaluator::TailRole::Inductor { cp } if cp > 0.0));
-    if winding {
-        warnings.push(format!(
+    winding.then(|| {
+        format!(
             "the filter inductor's winding capacitance (from its srf) resonates with the load-side ESL far above the \
              harmonics summed: the full-bandwidth ripple at the load node can read low (by a third on one checked \
              case against ngspice){}",
@@ -891,37 +1073,50 @@ pub fn assess_with(
             } else {
                 "; the target has no bandwidth, so the pass/fail figure is affected: give target.bandwidth"
             }
-        ));
-    }
-    let totals = Totals {
-        cap_limit: climit,
-        cap_effective: ceff,
-        count,
-        lines: nlines,
-        area,
-        area_known,
-        deviation: transient.as_ref().map(|t| t.deviation),
-    };
-    checks.extend(limits::checks(s, &totals));
-    if s.board.max_area.is_some() && !area_known {
-        warnings.push("some parts have no area: board.max_area cannot be checked".into());
-    }
-    for (id, &req) in &s.selection.require {
-        let have = bank
-            .iter()
-            .find(|(i, _)| &cat.parts[*i].id == id)
-            .map_or(0, |b| b.1);
-        checks.push(Check {
-            name: format!("require {id}"),
-            part: None,
-            bound: Bound::AtLeast,
-            value: have as f64,
-            limit: req as f64,
-            unit: "".into(),
-            ok: have >= req,
-        });
-    }
-    let corners = problem
+        )
+    })
+}
+
+/// The rows of `selection.require`: at least that many of each part.
+fn require_checks<'a>(
+    problem: &'a Problem,
+    bank: &'a [(usize, u32)],
+) -> impl Iterator<Item = Check> + 'a {
+    problem
+        .scenario
+        .selection
+        .require
+        .iter()
+        .map(move |(id, &req)| {
+            let have = bank
+                .iter()
+                .find(|(i, _)| &problem.catalog.parts[*i].id == id)
+                .map_or(0, |b| b.1);
+            Check {
+                name: format!("require {id}"),
+                part: None,
+                bound: Bound::AtLeast,
+                value: have as f64,
+                limit: req as f64,
+                unit: "".into(),
+                ok: have >= req,
+            }
+        })
+}
+
+fn ripple_currents(problem: &Problem, bank: &[(usize, u32)], currents: &[f64]) -> Vec<PartCurrent> {
+    bank.iter()
+        .zip(currents)
+        .map(|(&(i, _), &rms)| PartCurrent {
+            part: problem.catalog.parts[i].id.clone(),
+            rms,
+            rating: problem.catalog.parts[i].ripple_current,
+        })
+        .collect()
+}
+
+fn corner_infos(problem: &Problem) -> Vec<CornerInfo> {
+    problem
         .ops
         .iter()
         .map(|op| CornerInfo {
@@ -931,48 +1126,5 @@ pub fn assess_with(
             ripple_frequency: op.f_ripple,
             current_pp: op.current_pp,
         })
-        .collect();
-    let c_at_ripple = capacitance_at_ripple(ev, local, crate::evaluator::Corner::Worst);
-    let meets_target = ripple_pp <= s.target.ripple_pp.0 * (1.0 + RIPPLE_ROUNDING);
-    let all_ok = checks.iter().all(|c| c.ok);
-    Assessment {
-        corner: opts.corner,
-        bank: lines,
-        worst_corner,
-        ripple_pp_corners: corners_pp,
-        ripple_pp,
-        ripple_pp_typical,
-        ripple_pp_full_bandwidth: ripple_pp_full,
-        target_ripple_pp: s.target.ripple_pp.0,
-        bandwidth: s.target.bandwidth.map(|b| b.0),
-        harmonics: ev.n_limited,
-        cost,
-        parts_cost,
-        area,
-        area_known,
-        count,
-        lines: nlines,
-        capacitance_nominal_total: cn,
-        capacitance_max_total: cmax,
-        capacitance_effective_total: ceff,
-        capacitance_typical_total: ctyp,
-        capacitance_at_ripple_frequency: c_at_ripple,
-        ripple_frequency: ev.freqs.first().copied().unwrap_or(0.0),
-        ripple_current: bank
-            .iter()
-            .enumerate()
-            .map(|(j, &(i, _))| PartCurrent {
-                part: cat.parts[i].id.clone(),
-                rms: currents[j],
-                rating: cat.parts[i].ripple_current,
-            })
-            .collect(),
-        checks,
-        corners,
-        meets_target,
-        all_ok,
-        warnings,
-        transient,
-        filter,
-    }
+        .collect()
 }

@@ -574,6 +574,45 @@ where
     })
 }
 
+/// A log-log plot of impedances against frequency (`impedance.svg`,
+/// `filter.svg`): the frame over `x` Hz and `y` Ω, `draw` for the data.
+fn log_log_svg(
+    title: &str,
+    subtitle: &str,
+    entries: &[Entry],
+    x: (f64, f64),
+    y: (f64, f64),
+    draw: impl FnOnce(&mut Chart<LogAxis, LogAxis>) -> Result<()>,
+) -> Result<String> {
+    let fx = |v: &f64| log_label(*v, "Hz");
+    let fy = |v: &f64| log_label(*v, "Ω");
+    let frame = Frame {
+        height: 600,
+        title,
+        subtitle,
+        x: axis("frequency (Hz)", &fx),
+        y: axis("|Z| (Ω)", &fy),
+        max_light_lines: None,
+        entries,
+        extra_legend: 0,
+    };
+    chart_svg(frame, log_axis(x.0, x.1), log_axis(y.0, y.1), draw, no_key)
+}
+
+/// A solid curve `ys` over `xs` on a log-log chart, in runs inside `y`.
+fn log_curve(
+    chart: &mut Chart<LogAxis, LogAxis>,
+    xs: &[f64],
+    ys: &[f64],
+    y: (f64, f64),
+    style: ShapeStyle,
+) -> Result<()> {
+    for run in log_runs(xs, ys, y.0, y.1) {
+        chart.draw_series(LineSeries::new(run, style)).map_err(pe)?;
+    }
+    Ok(())
+}
+
 /// Escape text for XML/HTML content and attribute values.
 pub fn xml_escape(s: &str) -> String {
     let mut o = String::with_capacity(s.len());
@@ -862,29 +901,9 @@ fn filter_svg(
             .join(" + "),
         format_si(fa.tail.corner_frequency, "Hz")
     );
-    let fx = |v: &f64| log_label(*v, "Hz");
-    let fy = |v: &f64| log_label(*v, "Ω");
-    let frame = Frame {
-        height: 600,
-        title,
-        subtitle: &subtitle,
-        x: axis("frequency (Hz)", &fx),
-        y: axis("|Z| (Ω)", &fy),
-        max_light_lines: None,
-        entries: &entries,
-        extra_legend: 0,
-    };
     let draw = |chart: &mut Chart<LogAxis, LogAxis>| {
-        for run in log_runs(&freqs, &zout, ylo, yhi) {
-            chart
-                .draw_series(LineSeries::new(run, PALETTE[0].stroke_width(3)))
-                .map_err(pe)?;
-        }
-        for run in log_runs(&freqs, &zt, ylo, yhi) {
-            chart
-                .draw_series(LineSeries::new(run, INK.stroke_width(2)))
-                .map_err(pe)?;
-        }
+        log_curve(chart, &freqs, &zout, (ylo, yhi), PALETTE[0].stroke_width(3))?;
+        log_curve(chart, &freqs, &zt, (ylo, yhi), INK.stroke_width(2))?;
         if let Some(m) = limit {
             chart
                 .draw_series(DashedLineSeries::new(
@@ -897,7 +916,7 @@ fn filter_svg(
         }
         Ok(())
     };
-    chart_svg(frame, log_axis(xlo, xhi), log_axis(ylo, yhi), draw, no_key)
+    log_log_svg(title, &subtitle, &entries, (xlo, xhi), (ylo, yhi), draw)
 }
 
 /// The data of `load_step.svg`: the output's excursion after the load step
@@ -944,8 +963,6 @@ fn load_step_svg(t: &crate::transient::StepFigures) -> Result<String> {
             Mark::Dotted,
         ),
     ];
-    let cols = 1;
-    let lh = legend_height(entries.len(), cols);
     let title = "Load step at the worst point of the corner region";
     let subtitle = format!(
         "{} rise time (10–90 %), first-order converter at {} — {}",
@@ -958,35 +975,25 @@ fn load_step_svg(t: &crate::transient::StepFigures) -> Result<String> {
         }
     );
     let settled = -t.settled * 1e3;
-    svg(560 + lh, title, |root| {
-        let rest = titled(root, title, &subtitle)?;
-        let (plot, legend) = rest.split_vertically(560 - 62);
-        let mut chart = ChartBuilder::on(&plot)
-            .margin_left(10)
-            .margin_right(30)
-            .margin_top(10)
-            .x_label_area_size(56)
-            .y_label_area_size(96)
-            .build_cartesian_2d(xlo..xhi, ylo..yhi)
-            .map_err(pe)?;
-        let fx = |v: &f64| trim_num(*v);
-        let fy = |v: &f64| trim_num(*v);
-        chart
-            .configure_mesh()
-            .x_desc("time after the start of the step (µs)")
-            .y_desc("output voltage change (mV)")
-            .x_label_formatter(&fx)
-            .y_label_formatter(&fy)
-            .x_labels(12)
-            .y_labels(10)
-            .max_light_lines(4)
-            .label_style((FONT, 15).into_font().color(&INK))
-            .axis_desc_style((FONT, 17).into_font().color(&INK))
-            .bold_line_style(GRID_BOLD.stroke_width(1))
-            .light_line_style(GRID_LIGHT.stroke_width(1))
-            .axis_style(INK.stroke_width(1))
-            .draw()
-            .map_err(pe)?;
+    let fx = |v: &f64| trim_num(*v);
+    let fy = |v: &f64| trim_num(*v);
+    let frame = Frame {
+        height: 560,
+        title,
+        subtitle: &subtitle,
+        x: Axis {
+            ticks: Some(12),
+            ..axis("time after the start of the step (µs)", &fx)
+        },
+        y: Axis {
+            ticks: Some(10),
+            ..axis("output voltage change (mV)", &fy)
+        },
+        max_light_lines: Some(4),
+        entries: &entries,
+        extra_legend: 0,
+    };
+    let draw = |chart: &mut Chart<RangedCoordf64, RangedCoordf64>| {
         for y in [lim, -lim] {
             chart
                 .draw_series(DashedLineSeries::new(
@@ -1010,8 +1017,9 @@ fn load_step_svg(t: &crate::transient::StepFigures) -> Result<String> {
         chart
             .draw_series(LineSeries::new(pts, PALETTE[0].stroke_width(3)))
             .map_err(pe)?;
-        draw_legend(&legend, &entries, cols, 110)
-    })
+        Ok(())
+    };
+    chart_svg(frame, xlo..xhi, ylo..yhi, draw, no_key)
 }
 
 fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result<String> {
@@ -1127,26 +1135,10 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         format_si(a.target_ripple_pp, "V"),
         band_text(problem)
     );
-    let fx = |v: &f64| log_label(*v, "Hz");
-    let fy = |v: &f64| log_label(*v, "Ω");
-    let frame = Frame {
-        height: 600,
-        title,
-        subtitle: &subtitle,
-        x: axis("frequency (Hz)", &fx),
-        y: axis("|Z| (Ω)", &fy),
-        max_light_lines: None,
-        entries: &entries,
-        extra_legend: 0,
-    };
     let draw = |chart: &mut Chart<LogAxis, LogAxis>| {
         // The bank first and thick, the lines on top and thin: a bank of
         // one line shows both curves, one inside the other.
-        for run in log_runs(&d.freqs, &d.bank, ylo, yhi) {
-            chart
-                .draw_series(LineSeries::new(run, INK.stroke_width(4)))
-                .map_err(pe)?;
-        }
+        log_curve(chart, &d.freqs, &d.bank, (ylo, yhi), INK.stroke_width(4))?;
         // The high corner, dashed: the band between the two is the bank's
         // |Z| over the capacitance box of the corner region.
         for run in log_runs(&d.freqs, &d.bank_high, ylo, yhi) {
@@ -1156,11 +1148,7 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
         }
         for (j, g) in d.groups.iter().enumerate() {
             let col = PALETTE[j % PALETTE.len()];
-            for run in log_runs(&d.freqs, &g.1, ylo, yhi) {
-                chart
-                    .draw_series(LineSeries::new(run, col.stroke_width(2)))
-                    .map_err(pe)?;
-            }
+            log_curve(chart, &d.freqs, &g.1, (ylo, yhi), col.stroke_width(2))?;
         }
         if let Some(z) = &d.internal {
             for run in log_runs(&d.freqs, z, ylo, yhi) {
@@ -1199,7 +1187,7 @@ fn impedance_svg(problem: &Problem, d: &ImpedanceData, a: &Assessment) -> Result
             .map_err(pe)?;
         Ok(())
     };
-    chart_svg(frame, log_axis(xlo, xhi), log_axis(ylo, yhi), draw, no_key)
+    log_log_svg(title, &subtitle, &entries, (xlo, xhi), (ylo, yhi), draw)
 }
 
 fn ripple_svg(problem: &Problem, d: &RippleData, a: &Assessment) -> Result<String> {

@@ -84,6 +84,44 @@ struct Branch {
     c: f64,
 }
 
+impl Branch {
+    /// A bank line of `count` parts (at least one) of `p` in parallel, each
+    /// of capacitance `c`, ESR `esr` and ESL `esl`: one branch with ESR/n,
+    /// ESL/n and C·n. `note` follows the ESR in the comment line.
+    fn line(
+        p: &crate::catalog::Part,
+        count: u32,
+        c: f64,
+        esr: f64,
+        esl: f64,
+        note: &str,
+    ) -> Branch {
+        let n = count.max(1) as f64;
+        Branch {
+            label: format!(
+                "{} x {count} ({}): per part C = {} F, ESR = {} ohm{note}, ESL + mounting = {} H",
+                p.id,
+                p.technology.name(),
+                num(c),
+                num(esr),
+                num(esl)
+            ),
+            r: esr / n,
+            l: esl / n,
+            c: c * n,
+        }
+    }
+}
+
+/// Each branch from `node` to ground with its comment line
+/// `* {comment} {k}: label`, its elements tagged `{tag}{k}` (k from 1).
+fn write_branches(o: &mut String, branches: &[Branch], comment: &str, tag: &str, node: &str) {
+    for (j, b) in branches.iter().enumerate() {
+        let _ = writeln!(o, "* {comment} {}: {}", j + 1, b.label);
+        series_rlc(o, &format!("{tag}{}", j + 1), node, b);
+    }
+}
+
 /// The circuit shared by the transient and the impedance netlists.
 struct Circuit {
     /// Branches at the bank's node (one per bank line, counts folded in).
@@ -155,20 +193,7 @@ impl Tail {
                     t.cp = cp * n;
                 }
                 TailRole::Load | TailRole::Damping { .. } => {
-                    let b = Branch {
-                        label: format!(
-                            "{} x {} ({}): per part C = {} F, ESR = {} ohm, ESL + mounting = {} H",
-                            cat[m.index].id,
-                            line.count,
-                            cat[m.index].technology.name(),
-                            num(c),
-                            num(esr),
-                            num(m.esl)
-                        ),
-                        r: esr / n,
-                        l: m.esl / n,
-                        c: c * n,
-                    };
+                    let b = Branch::line(&cat[m.index], line.count, c, esr, m.esl, "");
                     match line.role {
                         TailRole::Damping { resistance } => t.damping = Some((resistance, b)),
                         _ => t.load.push(b),
@@ -202,10 +227,7 @@ impl Tail {
         if self.cp > 0.0 {
             let _ = writeln!(o, "C{pre}fp {bank} {load} {}", num(self.cp));
         }
-        for (j, b) in self.load.iter().enumerate() {
-            let _ = writeln!(o, "* load-side line {}: {}", j + 1, b.label);
-            series_rlc(o, &format!("{pre}ld{}", j + 1), load, b);
-        }
+        write_branches(o, &self.load, "load-side line", &format!("{pre}ld"), load);
         if let Some((r, b)) = &self.damping {
             let _ = writeln!(
                 o,
@@ -248,22 +270,14 @@ fn circuit_with(
             m.c_worst = st.c;
             m.esr = st.esr;
         }
-        let p = &problem.catalog.parts[i];
-        let nf = n as f64;
-        lines.push(Branch {
-            label: format!(
-                "{} x {} ({}): per part C = {} F, ESR = {} ohm (worst point of the corner region found), ESL + mounting = {} H",
-                p.id,
-                n,
-                p.technology.name(),
-                num(m.c_worst),
-                num(m.esr),
-                num(m.esl)
-            ),
-            r: m.esr / nf,
-            l: m.esl / nf,
-            c: m.c_worst * nf,
-        });
+        lines.push(Branch::line(
+            &problem.catalog.parts[i],
+            n,
+            m.c_worst,
+            m.esr,
+            m.esl,
+            " (worst point of the corner region found)",
+        ));
     }
     let network = Network::from_scenario(s);
     let internal = network.internal.map(|b| Branch {
@@ -343,10 +357,7 @@ impl Circuit {
             o,
             "* inductance. Elements of zero value are left out (their nodes joined)."
         );
-        for (j, b) in self.bank.iter().enumerate() {
-            let _ = writeln!(o, "* line {}: {}", j + 1, b.label);
-            series_rlc(o, &format!("{pre}{}", j + 1), &bank, b);
-        }
+        write_branches(o, &self.bank, "line", pre, &bank);
         if let Some(b) = &self.internal {
             let _ = writeln!(o, "* {}", b.label);
             series_rlc(o, &format!("{pre}int"), &conv, b);
@@ -450,7 +461,7 @@ fn header(o: &mut String, problem: &Problem, what: &str) {
 /// The converter's current of one corner prepared for the netlist: jumps
 /// made into short ramps, mean removed, and rotated to start at a zero
 /// crossing (so the DC operating point at t = 0 is all zero).
-fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
+fn source_points(w: &Waveform, min_ramp: f64) -> (Vec<(f64, f64)>, f64) {
     let t = w.period;
     let has_jump = w.segments().any(|((ta, _), (tb, _))| tb - ta <= 0.0);
     let w = if has_jump {
@@ -459,11 +470,7 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
         w.clone()
     };
     let mean = w.mean();
-    let pts: Vec<(f64, f64)> = w
-        .points
-        .iter()
-        .map(|&(ti, v)| (ti, (v - mean) * scale))
-        .collect();
+    let pts: Vec<(f64, f64)> = w.points.iter().map(|&(ti, v)| (ti, v - mean)).collect();
     // Unrolled over [t0, t0 + T] with the closing vertex.
     let n = pts.len();
     let mut un: Vec<(f64, f64)> = pts.clone();
@@ -515,7 +522,7 @@ fn source_points(w: &Waveform, scale: f64, min_ramp: f64) -> (Vec<(f64, f64)>, f
             out[i].0 = out[i - 1].0 + eps;
         }
     }
-    (out, mean * scale)
+    (out, mean)
 }
 
 /// The transient netlist `bank.cir` for a bank (catalog indices and counts).
@@ -531,33 +538,122 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     let tail = ev.tail().to_vec();
     let tail = (!tail.is_empty()).then_some(&tail[..]);
     let ckt = circuit_with(problem, &bank, Some(&w.states), tail)?;
-    let corner = w.op;
-    let full_here = crate::region::value_at(&mut ev, &local, &w.states, w.op, Band::Full);
+    let point = point_figures(&mut ev, &local, &w, tail.is_some());
+    let op = &ev.ops[w.op].clone();
+    let period = op.waveform.period;
+    let f_top = ev.n_full as f64 * ev.f_ripple;
+    let min_ramp = (0.1 / f_top).min(1e-3 * period);
+
+    let mut o = String::new();
+    write_point(&mut o, problem, &ev, op, &point);
+    let (conv, bank_node, bnode) = ckt.write(&mut o);
+    let rdc = write_dc_path(&mut o, &ckt, op.f_ripple, &bnode);
+    let run = RunLength::of(&ckt, period, tail.is_some());
+    write_source(&mut o, op, &run, min_ramp, &conv);
+    let (filtered, conv_filtered) = write_bandwidths(&mut o, s, &bnode, &bank_node, tail.is_some());
+
+    let t_stop = run.total as f64 * period;
+    // The run goes a quarter period past the measurements: the simulator's
+    // last time points (where it shortens its step to land on the stop
+    // time) are not measured.
+    let mut t_run = t_stop + period / 4.0;
+    let t_meas = (run.total - MEASURE_PERIODS) as f64 * period;
+    let t_prev = (run.total - 2 * MEASURE_PERIODS) as f64 * period;
+    // The load step, when the scenario has one: a second copy of the
+    // circuit at the load step's worst point, stepped from the start of the
+    // saved output.
+    let step = match crate::transient::figures(s, &ev.parts, &local, ev.tail()) {
+        Some(f) => Some(write_step(&mut o, problem, &bank, tail, &f, t_prev, rdc)?),
+        None => None,
+    };
+    let mut tmax = period / STEPS_PER_PERIOD;
+    if let Some((end, step_tmax, _)) = &step {
+        let (end, step_tmax) = (*end, *step_tmax);
+        t_run = t_stop.max(end);
+        tmax = tmax.min(step_tmax);
+    }
+    if s.converter.edge_time.0 > 0.0 {
+        tmax = tmax.min(s.converter.edge_time.0 / 10.0);
+    }
+    if let Some(bw) = s.target.bandwidth {
+        tmax = tmax.min(0.05 / bw.0);
+    }
+    write_tran(&mut o, &run, tmax, t_run, t_prev);
+    let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
+    let (meas, stop, prev) = (num(t_meas), num(t_stop), num(t_prev));
+    write_meas(&mut o, "pp_full PP", &bnode, &meas, &stop);
+    write_meas(&mut o, "pp_limited PP", &filtered, &meas, &stop);
+    write_meas(&mut o, "pp_full_prev PP", &bnode, &prev, &meas);
+    write_meas(&mut o, "pp_limited_prev PP", &filtered, &prev, &meas);
+    if let Some(cf) = &conv_filtered {
+        let _ = writeln!(
+            o,
+            "* the ripple at the converter-side node (before the post-filter), same windows"
+        );
+        write_meas(&mut o, "pp_conv_full PP", &bank_node, &meas, &stop);
+        write_meas(&mut o, "pp_conv_limited PP", cf, &meas, &stop);
+    }
+    if let Some((_, _, snode)) = &step {
+        let _ = writeln!(
+            o,
+            "* load step: the lowest and highest output change after it (V), and the deviation"
+        );
+        let run_end = num(t_run);
+        write_meas(&mut o, "step_min MIN", snode, &prev, &run_end);
+        write_meas(&mut o, "step_max MAX", snode, &prev, &run_end);
+        let _ = writeln!(
+            o,
+            ".meas tran deviation param='max(abs(step_min),abs(step_max))'"
+        );
+    }
+    let _ = writeln!(o, ".end");
+    Ok(o)
+}
+
+/// The evaluator's figures at the worst point, for the netlist's header.
+struct PointFigures {
+    /// Ripple at the target bandwidth and at full bandwidth, V.
+    limited: f64,
+    full: f64,
+    /// Behind a filter: the same at the converter-side node, V.
+    converter_node: Option<(f64, f64)>,
+}
+
+fn point_figures(
+    ev: &mut crate::evaluator::Evaluator,
+    local: &[(usize, u32)],
+    w: &crate::region::Worst,
+    filtered: bool,
+) -> PointFigures {
+    let full = crate::region::value_at(ev, local, &w.states, w.op, Band::Full);
     // Behind a filter: the evaluator's ripple at the converter-side node
     // at the same point.
-    let conv_node = tail.map(|_| {
+    let converter_node = filtered.then(|| {
         let n = ev.n_full;
-        ev.fill_states(&local, &w.states, n);
+        ev.fill_states(local, &w.states, n);
         ev.to_converter_node(n);
         (
             ev.pp_filled(w.op, Band::Limited),
             ev.pp_filled(w.op, Band::Full),
         )
     });
-    let per_corner = vec![(w.value, full_here)];
-    let op = &ev.ops[corner].clone();
-    let scale = 1.0;
-    let period = op.waveform.period;
-    let f_top = ev.n_full as f64 * ev.f_ripple;
-    let min_ramp = (0.1 / f_top).min(1e-3 * period);
-    let (pts, mean) = source_points(&op.waveform, scale, min_ramp);
+    PointFigures {
+        limited: w.value,
+        full,
+        converter_node,
+    }
+}
 
-    let mut o = String::new();
-    header(
-        &mut o,
-        problem,
-        "Output ripple of a capacitor bank (transient)",
-    );
+/// The netlist's header: the scenario, the operating point and the
+/// evaluator's figures there.
+fn write_point(
+    o: &mut String,
+    problem: &Problem,
+    ev: &crate::evaluator::Evaluator,
+    op: &crate::converter::OperatingPoint,
+    point: &PointFigures,
+) {
+    header(o, problem, "Output ripple of a capacitor bank (transient)");
     match op.vin {
         Some(v) => {
             let _ = writeln!(o, "* vin: {} V, inductance {} H (the worst point of the corner region per the evaluator)", v, op.inductance.map_or("-".to_string(), num));
@@ -569,7 +665,7 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
     let _ = writeln!(
         o,
         "* converter: {}, ripple frequency {} Hz, duty {:.6}{}",
-        s.converter.topology.name(),
+        problem.scenario.converter.topology.name(),
         num(op.f_ripple),
         op.duty,
         if op.mode.is_empty() {
@@ -578,15 +674,14 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
             format!(", {}", op.mode)
         }
     );
-    let (lim, full) = per_corner[0];
     let _ = writeln!(
         o,
         "* evaluator at this point: ripple_pp {} V at the target bandwidth, {} V at full bandwidth",
-        num(lim),
-        num(full)
+        num(point.limited),
+        num(point.full)
     );
     let _ = writeln!(o, "*   ({} and {} harmonics)", ev.n_limited, ev.n_full);
-    if let Some((lim, full)) = conv_node {
+    if let Some((lim, full)) = point.converter_node {
         let _ = writeln!(
             o,
             "* (at the load node, behind the post-filter); at the converter-side node: {} V and {} V",
@@ -595,35 +690,70 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         );
     }
     let _ = writeln!(o);
+}
 
-    let (conv, bank_node, bnode) = ckt.write(&mut o);
-
-    // The DC-level resistor: small enough a conductance to change the
-    // ripple by < 1e-6, large enough that the DC offset left by the start
-    // drifts by < 1e-5 of the ripple per period.
-    let y1 = ckt.y_total(op.f_ripple).norm();
+/// The DC-level resistor at the measured node `node`: small enough a
+/// conductance to change the ripple by < 1e-6, large enough that the DC
+/// offset left by the start drifts by < 1e-5 of the ripple per period.
+/// Returns its resistance, Ω.
+fn write_dc_path(o: &mut String, ckt: &Circuit, f_ripple: f64, node: &str) -> f64 {
+    let y1 = ckt.y_total(f_ripple).norm();
     let rdc = (1e6_f64).max(1e6 / y1);
     let _ = writeln!(
         o,
         "* DC path only (no DC operating point without it): |G| <= 1e-6 |Y_bank(f_ripple)|"
     );
-    let _ = writeln!(o, "Rdc {bnode} 0 {}", num(rdc));
+    let _ = writeln!(o, "Rdc {node} 0 {}", num(rdc));
+    rdc
+}
 
-    // Run length.
-    let tau = ckt.slowest_decay();
-    let max_periods = if tail.is_some() {
-        MAX_PERIODS_FILTER
-    } else {
-        MAX_PERIODS
-    };
-    let settle = if tau.is_finite() {
-        (SETTLE_TAUS * tau / period).ceil() as usize
-    } else {
-        max_periods
-    };
-    let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, max_periods);
+/// How long the transient run is, in periods of the ripple.
+struct RunLength {
+    /// Slowest decay time of the circuit's own modes (estimate), s.
+    tau: f64,
+    /// Periods needed to settle.
+    settle: usize,
+    /// The cap on the run, periods.
+    max_periods: usize,
+    /// Periods run (settling and both measurement windows, within the cap).
+    total: usize,
+}
 
-    // Source.
+impl RunLength {
+    fn of(ckt: &Circuit, period: f64, filtered: bool) -> RunLength {
+        let tau = ckt.slowest_decay();
+        let max_periods = if filtered {
+            MAX_PERIODS_FILTER
+        } else {
+            MAX_PERIODS
+        };
+        let settle = if tau.is_finite() {
+            (SETTLE_TAUS * tau / period).ceil() as usize
+        } else {
+            max_periods
+        };
+        let total = (settle + 2 * MEASURE_PERIODS).clamp(4 * MEASURE_PERIODS, max_periods);
+        RunLength {
+            tau,
+            settle,
+            max_periods,
+            total,
+        }
+    }
+}
+
+/// The converter's current into node `conv`: the operating point's
+/// waveform written out over the whole run and one period past it.
+fn write_source(
+    o: &mut String,
+    op: &crate::converter::OperatingPoint,
+    run: &RunLength,
+    min_ramp: f64,
+    conv: &str,
+) {
+    let period = op.waveform.period;
+    let total = run.total;
+    let (pts, mean) = source_points(&op.waveform, min_ramp);
     let _ = writeln!(o);
     let _ = writeln!(
         o,
@@ -638,9 +768,6 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         o,
         "* (every corner is then a breakpoint of the simulator; a repeat option is not relied on)."
     );
-    if scale != 1.0 {
-        let _ = writeln!(o, "* module: the unit triangle is scaled by {} (standalone ripple), as the evaluator does", num(scale));
-    }
     let _ = writeln!(
         o,
         "* mean {} A removed (DC does not reach a capacitor bank); starts at a zero crossing.",
@@ -672,65 +799,51 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         }
     }
     let _ = writeln!(o, ")");
+}
 
-    // Filter.
+/// The measurement-bandwidth filters: at the measured node `out`, and
+/// behind a post-filter at the converter-side node `bank` too. Returns the
+/// nodes to measure the band-limited figures at.
+fn write_bandwidths(
+    o: &mut String,
+    s: &crate::scenario::Scenario,
+    out: &str,
+    bank: &str,
+    filtered: bool,
+) -> (String, Option<String>) {
     let _ = writeln!(o);
-    let filtered = match s.target.bandwidth {
-        Some(bw) => write_filter(&mut o, &bnode, bw.0, s.target.bandwidth_order.max(1)),
+    let order = s.target.bandwidth_order.max(1);
+    let at_out = match s.target.bandwidth {
+        Some(bw) => write_filter(o, out, bw.0, order),
         None => {
             let _ = writeln!(o, "* no measurement bandwidth in the target: pp_limited is measured at the bank's node");
-            bnode.to_string()
+            out.to_string()
         }
     };
-    let conv_filtered = match (tail, s.target.bandwidth) {
-        (None, _) => None,
-        (Some(_), Some(bw)) => {
+    let at_bank = match (filtered, s.target.bandwidth) {
+        (false, _) => None,
+        (true, Some(bw)) => {
             let _ = writeln!(o, "* the same measurement at the converter-side node");
-            Some(write_filter_tagged(
-                &mut o,
-                &bank_node,
-                bw.0,
-                s.target.bandwidth_order.max(1),
-                "c",
-            ))
+            Some(write_filter_tagged(o, bank, bw.0, order, "c"))
         }
-        (Some(_), None) => Some(bank_node.clone()),
+        (true, None) => Some(bank.to_string()),
     };
+    (at_out, at_bank)
+}
 
-    let t_stop = total as f64 * period;
-    // The run goes a quarter period past the measurements: the simulator's
-    // last time points (where it shortens its step to land on the stop
-    // time) are not measured.
-    let mut t_run = t_stop + period / 4.0;
-    let t_meas = (total - MEASURE_PERIODS) as f64 * period;
-    let t_prev = (total - 2 * MEASURE_PERIODS) as f64 * period;
-    // The load step, when the scenario has one: a second copy of the
-    // circuit at the load step's worst point, stepped from the start of the
-    // saved output.
-    let step = match crate::transient::figures(s, &ev.parts, &local, ev.tail()) {
-        Some(f) => Some(write_step(&mut o, problem, &bank, tail, &f, t_prev, rdc)?),
-        None => None,
-    };
-    let mut tmax = period / STEPS_PER_PERIOD;
-    if let Some((end, step_tmax, _)) = &step {
-        let (end, step_tmax) = (*end, *step_tmax);
-        t_run = t_stop.max(end);
-        tmax = tmax.min(step_tmax);
-    }
-    if s.converter.edge_time.0 > 0.0 {
-        tmax = tmax.min(s.converter.edge_time.0 / 10.0);
-    }
-    if let Some(bw) = s.target.bandwidth {
-        tmax = tmax.min(0.05 / bw.0);
-    }
+/// The run's options and `.tran` line, saving from `t_save`.
+fn write_tran(o: &mut String, run: &RunLength, tmax: f64, t_run: f64, t_save: f64) {
     let _ = writeln!(o);
     let _ = writeln!(
         o,
         "* slowest decay of the bank's own modes (estimate): {} s; run {} periods{}",
-        num(tau),
-        total,
-        if settle + 2 * MEASURE_PERIODS > max_periods {
-            format!(" (capped at {max_periods}: the last periods may not have settled fully)")
+        num(run.tau),
+        run.total,
+        if run.settle + 2 * MEASURE_PERIODS > run.max_periods {
+            format!(
+                " (capped at {}: the last periods may not have settled fully)",
+                run.max_periods
+            )
         } else {
             String::new()
         }
@@ -745,76 +858,15 @@ pub fn netlist(problem: &Problem, bank: &[(usize, u32)]) -> Result<String> {
         ".tran {} {} {} {}",
         num(tmax),
         num(t_run),
-        num(t_prev),
+        num(t_save),
         num(tmax)
     );
-    let _ = writeln!(o, "* peak-to-peak ripple over the last {MEASURE_PERIODS} periods (V), and over the {MEASURE_PERIODS} before");
-    let _ = writeln!(
-        o,
-        ".meas tran pp_full PP v({bnode}) from={} to={}",
-        num(t_meas),
-        num(t_stop)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_limited PP v({filtered}) from={} to={}",
-        num(t_meas),
-        num(t_stop)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_full_prev PP v({bnode}) from={} to={}",
-        num(t_prev),
-        num(t_meas)
-    );
-    let _ = writeln!(
-        o,
-        ".meas tran pp_limited_prev PP v({filtered}) from={} to={}",
-        num(t_prev),
-        num(t_meas)
-    );
-    if let Some(cf) = &conv_filtered {
-        let _ = writeln!(
-            o,
-            "* the ripple at the converter-side node (before the post-filter), same windows"
-        );
-        let _ = writeln!(
-            o,
-            ".meas tran pp_conv_full PP v({bank_node}) from={} to={}",
-            num(t_meas),
-            num(t_stop)
-        );
-        let _ = writeln!(
-            o,
-            ".meas tran pp_conv_limited PP v({cf}) from={} to={}",
-            num(t_meas),
-            num(t_stop)
-        );
-    }
-    if let Some((_, _, snode)) = &step {
-        let _ = writeln!(
-            o,
-            "* load step: the lowest and highest output change after it (V), and the deviation"
-        );
-        let _ = writeln!(
-            o,
-            ".meas tran step_min MIN v({snode}) from={} to={}",
-            num(t_prev),
-            num(t_run)
-        );
-        let _ = writeln!(
-            o,
-            ".meas tran step_max MAX v({snode}) from={} to={}",
-            num(t_prev),
-            num(t_run)
-        );
-        let _ = writeln!(
-            o,
-            ".meas tran deviation param='max(abs(step_min),abs(step_max))'"
-        );
-    }
-    let _ = writeln!(o, ".end");
-    Ok(o)
+}
+
+/// One `.meas tran` line: `what` (the name and the measure, `pp_full PP`)
+/// of `v(node)` from `from` to `to` (written numbers).
+fn write_meas(o: &mut String, what: &str, node: &str, from: &str, to: &str) {
+    let _ = writeln!(o, ".meas tran {what} v({node}) from={from} to={to}");
 }
 
 /// The load-step run of `bank.cir`: the circuit at the load step's worst
