@@ -400,3 +400,41 @@ fn same_footprint_replacement_wins_a_tie() {
         "plain design {db:?} would already pick B"
     );
 }
+
+/// A rework that cannot hold the load step says the lowest deviation any
+/// bank meeting the other limits reaches, as `design` does: the bundled
+/// core rail with its limit cut to a fifth (well below what its count and
+/// area limits allow: the settled value of the most capacitance is the
+/// floor, closed form of the step model), from its own design's BOM.
+#[test]
+fn infeasible_rework_gives_the_lowest_deviation() {
+    let root = env!("CARGO_MANIFEST_DIR");
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("d");
+    let scen = format!("{root}/scenarios/fpga-core-step.toml");
+    Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["design", "--scenario", &scen, "--out"])
+        .arg(&out)
+        .assert()
+        .code(0);
+    let tight = std::fs::read_to_string(&scen)
+        .unwrap()
+        .replace("../catalogs", &format!("{root}/catalogs"))
+        .replace("max_deviation = \"27m\"", "max_deviation = \"5m\"");
+    assert!(tight.contains("\"5m\""));
+    let sp = dir.path().join("tight.toml");
+    std::fs::write(&sp, tight).unwrap();
+    let run = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--scenario"])
+        .arg(&sp)
+        .arg("--bom")
+        .arg(out.join("bom.csv"))
+        .output()
+        .unwrap();
+    assert_eq!(run.status.code(), Some(1));
+    let doc: serde_json::Value = serde_json::from_slice(&run.stdout).unwrap();
+    let best = doc["best_deviation"].as_f64().expect("best_deviation");
+    assert!(best > 5e-3 && best < 0.027, "lowest deviation {best}");
+}
