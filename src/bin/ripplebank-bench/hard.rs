@@ -116,6 +116,8 @@ pub fn run_one(name: &str, a: &Args) -> Result<()> {
             let c = Common {
                 scenario: Some(scen),
                 catalog: Some(cat),
+                inductors: None,
+                filter: None,
                 out: None,
                 json: true,
                 quiet: true,
@@ -138,6 +140,8 @@ pub fn run_one(name: &str, a: &Args) -> Result<()> {
             let c = Common {
                 scenario: Some(scen),
                 catalog: None,
+                inductors: None,
+                filter: None,
                 out: None,
                 json: true,
                 quiet: true,
