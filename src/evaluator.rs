@@ -192,10 +192,68 @@ struct TailTable {
     h_big: Complex64,
 }
 
+/// A real-output inverse transform of `m` samples (`m` even), computed as
+/// a complex inverse FFT of `m/2` points: the packed sequence
+/// `z_j = x_{2j} + j·x_{2j+1}` has the spectrum
+/// `Z_k = Xe_k + j·W^k·Xo_k` with `Xe_k = X_k + X_{k+m/2}`,
+/// `Xo_k = X_k − X_{k+m/2}` and `W = e^{j2π/m}` (the even and odd samples'
+/// spectra; e.g. Oppenheim & Schafer, *Discrete-Time Signal Processing*,
+/// the FFT of real sequences). A real signal's spectrum `X` is known from
+/// its one-sided coefficients (`X_h = c_h/2`, `X_{m−h} = conj(c_h)/2`), so
+/// each spectral bin `K` lands in `Z_{K mod m/2}` with the weight
+/// `(1 + j·W^K)` ([`Plan::put`]).
 #[derive(Clone)]
 struct Plan {
+    /// Real samples per period.
     m: usize,
+    /// Complex inverse FFT of `m/2` points.
     fft: Arc<dyn Fft<f64>>,
+    /// `(1 + j·W^K)/2` for K in 0..m.
+    pk: Arc<[Complex64]>,
+}
+
+impl Plan {
+    fn new(m: usize, planner: &mut FftPlanner<f64>) -> Plan {
+        debug_assert!(m % 2 == 0);
+        let pk: Vec<Complex64> = (0..m)
+            .map(|k| {
+                let w = Complex64::from_polar(1.0, 2.0 * PI * k as f64 / m as f64);
+                (Complex64::new(1.0, 0.0) + Complex64::new(0.0, 1.0) * w) * 0.5
+            })
+            .collect();
+        Plan {
+            m,
+            fft: planner.plan_fft_inverse(m / 2),
+            pk: pk.into(),
+        }
+    }
+
+    /// Add harmonic `h` (1 ≤ h < m/2) of one-sided coefficient `c` (the
+    /// signal holds Re(c·e^{j2πht/T})) to the packed spectrum `z` (m/2 long).
+    #[inline(always)]
+    fn put(&self, z: &mut [Complex64], h: usize, c: Complex64) {
+        let half = self.m / 2;
+        z[h] += c * self.pk[h];
+        z[half - h] += c.conj() * self.pk[self.m - h];
+    }
+
+    /// Inverse transform of the packed spectrum in `z` (m/2 long), in place:
+    /// afterwards sample `j` is [`sample`]`(z, j)`.
+    #[inline]
+    fn run(&self, z: &mut [Complex64], scratch: &mut [Complex64]) {
+        self.fft.process_with_scratch(&mut z[..self.m / 2], scratch);
+    }
+}
+
+/// Sample `j` of a packed real sequence ([`Plan`]).
+#[inline(always)]
+fn sample(z: &[Complex64], j: usize) -> f64 {
+    let c = z[j / 2];
+    if j % 2 == 0 {
+        c.re
+    } else {
+        c.im
+    }
 }
 
 /// Evaluates banks built from a fixed list of parts.
@@ -221,6 +279,11 @@ pub struct Evaluator {
     pub network: Network,
     /// The network's internal admittance at every harmonic, n_full long.
     y_int: Vec<Complex64>,
+    /// Per harmonic: jω·Lc·Y_int (the network's coupling term less one),
+    /// n_full long.
+    zs_yi: Vec<Complex64>,
+    /// Per harmonic: ω_k = 2π·k·f_ripple, n_full long.
+    omega: Vec<f64>,
     y_worst: Vec<Complex64>,
     y_typical: Vec<Complex64>,
     /// Per part: admittance at [`OMEGA_ASYMPTOTE`], worst and typical corner.
@@ -228,8 +291,8 @@ pub struct Evaluator {
     y_big_typical: Vec<Complex64>,
     /// Per vin corner: the closed-form part of the target figure's waveform
     /// (on `plan_limited`'s grid) and of the full-bandwidth one (`plan_full`).
-    closed_limited: Vec<Closed>,
-    closed_full: Vec<Closed>,
+    closed_limited: Vec<Grid>,
+    closed_full: Vec<Grid>,
     /// Operating points of the named corners (nominal inductance).
     pub ops_named: Vec<usize>,
     /// Operating points the region search starts from (and the optimizer's
@@ -279,6 +342,73 @@ const SUB: usize = 512;
 /// Samples per period of the first, cheapest pass.
 const SUB_FIRST: usize = 64;
 
+/// The closed-form part of one operating point's waveform
+/// ([`timedomain::closed`]) and its grid samples packed two to a complex
+/// number, as [`Plan`] packs the series' samples.
+#[derive(Clone)]
+struct Grid {
+    closed: Closed,
+    /// `(g0_{2j}, g0_{2j+1})`.
+    g0: Vec<Complex64>,
+    /// `(g1_{2j}, g1_{2j+1})`.
+    g1: Vec<Complex64>,
+}
+
+impl Grid {
+    fn new(closed: Closed) -> Grid {
+        let pack = |g: &[f64]| -> Vec<Complex64> {
+            g.chunks_exact(2)
+                .map(|p| Complex64::new(p[0], p[1]))
+                .collect()
+        };
+        Grid {
+            g0: pack(&closed.g0),
+            g1: pack(&closed.g1),
+            closed,
+        }
+    }
+}
+
+/// Lowest and highest of `x_j + a0·g0_j + a1·g1_j` over the samples of
+/// the packed real sequence `z` ([`Plan`]), `g0` and `g1` packed the same
+/// way ([`Grid`]). A NaN sample is skipped (as `f64::min` would). Four
+/// running extremes of each kind, written as `v < lo ? v : lo` (one
+/// `minpd` per pair of lanes on x86-64; the highest as the lowest of −v),
+/// so that the loop vectorises and the compares do not chain.
+#[inline]
+fn scan(z: &[Complex64], g0: &[Complex64], g1: &[Complex64], a0: f64, a1: f64) -> (f64, f64) {
+    let len = z.len().min(g0.len()).min(g1.len());
+    let (z, g0, g1) = (&z[..len], &g0[..len], &g1[..len]);
+    let mut lo = [Complex64::new(f64::INFINITY, f64::INFINITY); 4];
+    let mut nhi = lo;
+    let blocks = len / 4;
+    for ((z, g0), g1) in z
+        .chunks_exact(4)
+        .zip(g0.chunks_exact(4))
+        .zip(g1.chunks_exact(4))
+    {
+        for q in 0..4 {
+            let v = z[q] + g0[q] * a0 + g1[q] * a1;
+            let l = &mut lo[q];
+            l.re = if v.re < l.re { v.re } else { l.re };
+            l.im = if v.im < l.im { v.im } else { l.im };
+            let h = &mut nhi[q];
+            h.re = if -v.re < h.re { -v.re } else { h.re };
+            h.im = if -v.im < h.im { -v.im } else { h.im };
+        }
+    }
+    let (mut lo, mut hi) = (
+        lo.iter().fold(f64::INFINITY, |a, b| a.min(b.re).min(b.im)),
+        -nhi.iter().fold(f64::INFINITY, |a, b| a.min(b.re).min(b.im)),
+    );
+    for j in 4 * blocks..len {
+        let v = z[j] + g0[j] * a0 + g1[j] * a1;
+        lo = lo.min(v.re).min(v.im);
+        hi = hi.max(v.re).max(v.im);
+    }
+    (lo, hi)
+}
+
 fn samples_for(n: usize) -> usize {
     (8 * n).max(4096).next_power_of_two()
 }
@@ -311,20 +441,19 @@ impl Evaluator {
             .iter()
             .map(|&f| network.internal_admittance(f))
             .collect();
+        let omega: Vec<f64> = freqs.iter().map(|&f| 2.0 * PI * f).collect();
+        let zs_yi: Vec<Complex64> = omega
+            .iter()
+            .zip(&y_int)
+            .map(|(&w, &yi)| Complex64::new(0.0, w * network.connection_inductance) * yi)
+            .collect();
         let currents: Vec<Vec<Complex64>> = ops
             .iter()
             .map(|op| spectrum::harmonics(&op.waveform, n_full))
             .collect();
         let mut planner = FftPlanner::new();
-        let mk = |n: usize, planner: &mut FftPlanner<f64>| {
-            let m = samples_for(n);
-            Plan {
-                m,
-                fft: planner.plan_fft_inverse(m),
-            }
-        };
-        let plan_limited = mk(n_limited, &mut planner);
-        let plan_full = mk(n_full, &mut planner);
+        let plan_limited = Plan::new(samples_for(n_limited), &mut planner);
+        let plan_full = Plan::new(samples_for(n_full), &mut planner);
         let plan_sub = planner.plan_fft_inverse(SUB);
         let plan_first = planner.plan_fft_inverse(SUB_FIRST);
         let scratch_len = plan_limited
@@ -335,13 +464,13 @@ impl Evaluator {
             .max(plan_first.get_inplace_scratch_len());
         let tau = bw.map_or(0.0, |b| 1.0 / (2.0 * PI * b));
         let order_lim = if bw.is_some() { order as u32 } else { 0 };
-        let closed_limited: Vec<Closed> = ops
+        let closed_limited: Vec<Grid> = ops
             .iter()
-            .map(|op| timedomain::closed(&op.waveform, order_lim, tau, plan_limited.m))
+            .map(|op| Grid::new(timedomain::closed(&op.waveform, order_lim, tau, plan_limited.m)))
             .collect();
-        let closed_full: Vec<Closed> = ops
+        let closed_full: Vec<Grid> = ops
             .iter()
-            .map(|op| timedomain::closed(&op.waveform, 0, 1.0, plan_full.m))
+            .map(|op| Grid::new(timedomain::closed(&op.waveform, 0, 1.0, plan_full.m)))
             .collect();
         let mut ev = Evaluator {
             parts: Vec::new(),
@@ -354,6 +483,8 @@ impl Evaluator {
             filter,
             network,
             y_int,
+            zs_yi,
+            omega,
             y_worst: Vec::new(),
             y_typical: Vec::new(),
             y_big_worst: Vec::new(),
@@ -445,13 +576,15 @@ impl Evaluator {
     /// named state of `corner`.
     #[inline]
     fn transfer_of(&self, yb: Complex64, k: usize, corner: Corner) -> Complex64 {
-        let w = 2.0 * PI * self.freqs[k];
+        let yi = self.y_int[k];
         if self.tail.is_empty() {
-            return self.network.transfer_with(yb, self.y_int[k], w);
+            // Network::transfer_with, its jωLc·Y_int tabulated.
+            return (yb + yi + self.zs_yi[k] * yb).inv();
         }
         let t = self.tail_table(corner);
-        self.network
-            .transfer_tail(yb, self.y_int[k], w, t.ty[k], t.h[k])
+        // Network::transfer_tail, its coupling 1 + jωLc·Y_int tabulated.
+        let g = Complex64::new(1.0, 0.0) + self.zs_yi[k];
+        t.h[k] * (g * (yb + t.ty[k]) + yi).inv()
     }
 
     fn tail_table(&self, corner: Corner) -> &TailTable {
@@ -614,9 +747,7 @@ impl Evaluator {
                 *z += y * c;
             }
         }
-        for k in 0..n {
-            self.zt[k] = self.transfer_of(self.zt[k], k, corner);
-        }
+        self.transfer_in_place(n, corner);
         if !self.tail.is_empty() {
             let t = match corner {
                 Corner::Worst => &self.tail_low,
@@ -627,24 +758,42 @@ impl Evaluator {
         self.set_asymptote(yb_big, corner);
     }
 
+    /// The transfer impedance in `zt[..n]` from the bank's admittance
+    /// there, in place (the named state of `corner` for a post-filter).
+    fn transfer_in_place(&mut self, n: usize, corner: Corner) {
+        if self.tail.is_empty() {
+            // Network::transfer_with, its jωLc·Y_int tabulated: the hot loop.
+            for ((z, &yi), &zy) in self.zt[..n].iter_mut().zip(&self.y_int).zip(&self.zs_yi) {
+                *z = (*z + yi + zy * *z).inv();
+            }
+            return;
+        }
+        for k in 0..n {
+            self.zt[k] = self.transfer_of(self.zt[k], k, corner);
+        }
+    }
+
     /// Write the remaining series `D_k · (Z_k − a0 − jω_k·a1)` of vin
-    /// corner `c` into `buf[1..=n]` (the asymptote's share is in the
-    /// closed-form tables).
+    /// corner `c`, harmonics 1..=n, into `buf` as the packed spectrum of
+    /// the band's real-output transform ([`Plan`]; the asymptote's share is
+    /// in the closed-form tables).
     fn load_remainder(&mut self, c: usize, band: Band, n: usize) {
         let (a0, a1) = self.asym;
-        for k in 0..n {
-            let drive = match band {
-                Band::Limited => self.drive_limited[c][k],
-                Band::Full => self.currents[c][k],
-            };
-            let w = 2.0 * PI * self.freqs[k];
-            self.buf[k + 1] = drive * (self.zt[k] - Complex64::new(a0, w * a1));
+        let (plan, drive) = match band {
+            Band::Limited => (&self.plan_limited, &self.drive_limited[c][..n]),
+            Band::Full => (&self.plan_full, &self.currents[c][..n]),
+        };
+        let z = &mut self.buf[..plan.m / 2];
+        z.fill(Complex64::default());
+        for (k, ((d, zt), &w)) in drive.iter().zip(&self.zt[..n]).zip(&self.omega).enumerate() {
+            plan.put(z, k + 1, d * (zt - Complex64::new(a0, w * a1)));
         }
     }
 
     /// Peak-to-peak of the exact waveform of vin corner `c` whose remaining
-    /// series is in `buf[1..=n]`: inverse FFT of the series plus the
-    /// closed-form part, on the grid and on both sides of every breakpoint.
+    /// series is packed in `buf` ([`Evaluator::load_remainder`]): inverse
+    /// FFT of the series plus the closed-form part, on the grid and on both
+    /// sides of every breakpoint.
     fn pp_from_buf(&mut self, n: usize, band: Band, c: usize) -> f64 {
         let full = band == Band::Full;
         let plan = if full {
@@ -660,28 +809,19 @@ impl Evaluator {
         } else {
             &self.closed_limited[c]
         };
-        if full && closed.impulsive && a1 != 0.0 {
+        if full && closed.closed.impulsive && a1 != 0.0 {
             // A current step through ESL: an impulse of voltage.
             return f64::INFINITY;
         }
-        let buf = &mut self.buf[..m];
-        buf[0] = Complex64::default();
-        for x in buf[n + 1..].iter_mut() {
-            *x = Complex64::default();
-        }
-        // buf[1..=n] hold the series; the inverse FFT sums them times e^{+j2πkm/M}.
-        plan.fft.process_with_scratch(buf, &mut self.fft_scratch);
-        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-        for ((x, g0), g1) in buf.iter().zip(&closed.g0).zip(&closed.g1) {
-            let v = x.re + a0 * g0 + a1 * g1;
-            lo = lo.min(v);
-            hi = hi.max(v);
-        }
-        for b in &closed.breaks {
+        let buf = &mut self.buf[..m / 2];
+        // The inverse FFT sums the series times e^{+j2πkm/M}.
+        plan.run(buf, &mut self.fft_scratch);
+        let (mut lo, mut hi) = scan(buf, &closed.g0, &closed.g1, a0, a1);
+        for b in &closed.closed.breaks {
             // The series is smooth: interpolate it between grid samples.
             let j = b.pos.floor() as usize % m;
             let f = b.pos - b.pos.floor();
-            let r = buf[j].re * (1.0 - f) + buf[(j + 1) % m].re * f;
+            let r = sample(buf, j) * (1.0 - f) + sample(buf, (j + 1) % m) * f;
             for side in 0..2 {
                 let v = r + a0 * b.g0[side] + a1 * b.g1[side];
                 lo = lo.min(v);
@@ -755,9 +895,8 @@ impl Evaluator {
         if self.is_empty(bank) {
             return f64::INFINITY;
         }
-        for k in 0..n {
-            self.zt[k] = self.transfer_of(yb[k], k, Corner::Worst);
-        }
+        self.zt[..n].copy_from_slice(&yb[..n]);
+        self.transfer_in_place(n, Corner::Worst);
         if !self.tail.is_empty() {
             self.hk[..n].copy_from_slice(&self.tail_low.h[..n]);
         }
@@ -811,12 +950,12 @@ impl Evaluator {
                 let sub = &mut self.buf[..size];
                 sub.iter_mut().for_each(|x| *x = Complex64::default());
                 for k in 0..n {
-                    let w = 2.0 * PI * self.freqs[k];
+                    let w = self.omega[k];
                     sub[(k + 1) % size] +=
                         self.drive_limited[c][k] * (self.zt[k] - Complex64::new(a0, w * a1));
                 }
                 plan.process_with_scratch(sub, &mut self.fft_scratch);
-                let closed = &self.closed_limited[c];
+                let closed = &self.closed_limited[c].closed;
                 let stride = m / size;
                 let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
                 for (j, x) in sub.iter().enumerate() {
@@ -945,16 +1084,14 @@ impl Evaluator {
             return Vec::new();
         }
         let (m, closed) = if band == Band::Full {
-            (self.plan_full.m, &self.closed_full[op])
+            (self.plan_full.m, &self.closed_full[op].closed)
         } else {
-            (self.plan_limited.m, &self.closed_limited[op])
+            (self.plan_limited.m, &self.closed_limited[op].closed)
         };
         let (a0, a1) = self.asym;
-        self.buf[..m]
-            .iter()
-            .zip(&closed.g0)
-            .zip(&closed.g1)
-            .map(|((x, g0), g1)| x.re + a0 * g0 + a1 * g1)
+        let buf = &self.buf[..m / 2];
+        (0..m)
+            .map(|j| sample(buf, j) + a0 * closed.g0[j] + a1 * closed.g1[j])
             .collect()
     }
 
@@ -1025,14 +1162,18 @@ impl Evaluator {
             .zip(&self.filter)
             .map(|(i, h)| i * h)
             .collect();
-        self.closed_limited.push(timedomain::closed(
+        self.closed_limited.push(Grid::new(timedomain::closed(
             &op.waveform,
             self.order_lim,
             self.tau,
             self.plan_limited.m,
-        ));
-        self.closed_full
-            .push(timedomain::closed(&op.waveform, 0, 1.0, self.plan_full.m));
+        )));
+        self.closed_full.push(Grid::new(timedomain::closed(
+            &op.waveform,
+            0,
+            1.0,
+            self.plan_full.m,
+        )));
         self.currents.push(cur);
         self.drive_limited.push(drive);
         self.ops.push(op.clone());
@@ -1059,9 +1200,7 @@ impl Evaluator {
             }
         }
         if self.tail.is_empty() {
-            for k in 0..n {
-                self.zt[k] = self.transfer_of(self.zt[k], k, Corner::Worst);
-            }
+            self.transfer_in_place(n, Corner::Worst);
             self.set_asymptote(yb_big, Corner::Worst);
             return;
         }
@@ -1264,23 +1403,20 @@ impl Evaluator {
             return 0.0;
         }
         let n = self.n_full;
-        let m = self.plan_full.m;
+        let half = self.plan_full.m / 2;
         let line = self.tail[t].clone();
         let st = states[bank_len + t];
-        self.buf[..m]
-            .iter_mut()
-            .for_each(|x| *x = Complex64::default());
+        self.buf[..half].fill(Complex64::default());
         for k in 0..n {
-            self.buf[k + 1] = self.tail_part_current(&line, &st, k) * self.currents[op][k];
+            let v = self.tail_part_current(&line, &st, k) * self.currents[op][k];
+            self.plan_full.put(&mut self.buf[..half], k + 1, v);
         }
-        let buf = &mut self.buf[..m];
-        self.plan_full
-            .fft
-            .process_with_scratch(buf, &mut self.fft_scratch);
+        let buf = &mut self.buf[..half];
+        self.plan_full.run(buf, &mut self.fft_scratch);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
         for x in buf.iter() {
-            lo = lo.min(x.re);
-            hi = hi.max(x.re);
+            lo = lo.min(x.re).min(x.im);
+            hi = hi.max(x.re).max(x.im);
         }
         (hi - lo).max(0.0)
     }
