@@ -466,7 +466,14 @@ impl Evaluator {
         let order_lim = if bw.is_some() { order as u32 } else { 0 };
         let closed_limited: Vec<Grid> = ops
             .iter()
-            .map(|op| Grid::new(timedomain::closed(&op.waveform, order_lim, tau, plan_limited.m)))
+            .map(|op| {
+                Grid::new(timedomain::closed(
+                    &op.waveform,
+                    order_lim,
+                    tau,
+                    plan_limited.m,
+                ))
+            })
             .collect();
         let closed_full: Vec<Grid> = ops
             .iter()
