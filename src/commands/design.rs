@@ -226,23 +226,9 @@ pub(crate) fn design_report(
                 )),
                 None => r.line("  No part may be used, so no bank can be built."),
             }
-            if let (Some(ld), Some(t)) = (&why.lowest_deviation, &p.scenario.transient) {
-                r.line(if ld.deviation.is_finite() {
-                    format!(
-                        "  The lowest load-step deviation any bank meeting the other limits reached is {} against a limit of {}.",
-                        text::mv(ld.deviation),
-                        text::mv(t.max_deviation.0)
-                    )
-                } else {
-                    "  No bank meeting the other limits was found, so no load-step deviation can be given.".into()
-                });
-            }
-            r.line(binding_text(&why.binding).trim_end().to_string());
             let mut doc = super::infeasible_doc(p, best, &why.binding);
-            if let Some(ld) = &why.lowest_deviation {
-                doc["best_deviation"] = serde_json::json!(ld.deviation);
-                doc["lowest_deviation_search"] = serde_json::to_value(ld)?;
-            }
+            super::lowest_deviation_part(&mut r, p, why.lowest_deviation.as_ref(), &mut doc)?;
+            r.line(binding_text(&why.binding).trim_end().to_string());
             doc["search"] = serde_json::to_value(st)?;
             doc["lowest_search"] = serde_json::to_value(&why.lowest)?;
             let mut shown = None;

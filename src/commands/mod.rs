@@ -73,6 +73,32 @@ impl CommandOutput {
     }
 }
 
+/// The lowest load-step deviation of an infeasible run: its report line
+/// (when the scenario has a load step) and its JSON keys `best_deviation`
+/// and `lowest_deviation_search` in `doc`.
+pub(crate) fn lowest_deviation_part(
+    r: &mut Report,
+    p: &Problem,
+    ld: Option<&crate::optimize::LowestDeviation>,
+    doc: &mut serde_json::Value,
+) -> Result<()> {
+    let Some(ld) = ld else { return Ok(()) };
+    if let Some(t) = &p.scenario.transient {
+        r.line(if ld.deviation.is_finite() {
+            format!(
+                "  The lowest load-step deviation any bank meeting the other limits reached is {} against a limit of {}.",
+                text::mv(ld.deviation),
+                text::mv(t.max_deviation.0)
+            )
+        } else {
+            "  No bank meeting the other limits was found, so no load-step deviation can be given.".into()
+        });
+    }
+    doc["best_deviation"] = json!(ld.deviation);
+    doc["lowest_deviation_search"] = serde_json::to_value(ld)?;
+    Ok(())
+}
+
 /// The JSON document of a run with no bank: every key present, the bank
 /// figures null or zero, plus the lowest ripple found and the binding limits.
 pub(crate) fn infeasible_doc(

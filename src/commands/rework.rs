@@ -231,25 +231,11 @@ fn infeasible_part(r: &mut Report, p: &Problem, settings: &Settings, quiet: bool
             text::mv(lowest)
         ));
     }
-    let ld = optimize::lowest_deviation(p, settings);
-    if let (Some(ld), Some(t)) = (&ld, &p.scenario.transient) {
-        r.line(if ld.deviation.is_finite() {
-            format!(
-                "  The lowest load-step deviation any bank meeting the other limits reached is {} against a limit of {}.",
-                text::mv(ld.deviation),
-                text::mv(t.max_deviation.0)
-            )
-        } else {
-            "  No bank meeting the other limits was found, so no load-step deviation can be given.".into()
-        });
-    }
     let binding = optimize::binding(p, p.scenario.design_target());
-    r.line(binding_text(&binding).trim_end().to_string());
     let mut doc = super::infeasible_doc(p, lowest.is_finite().then_some(lowest), &binding);
-    if let Some(ld) = &ld {
-        doc["best_deviation"] = json!(ld.deviation);
-        doc["lowest_deviation_search"] = serde_json::to_value(ld)?;
-    }
+    let ld = optimize::lowest_deviation(p, settings);
+    super::lowest_deviation_part(r, p, ld.as_ref(), &mut doc)?;
+    r.line(binding_text(&binding).trim_end().to_string());
     for k in ["kept", "removed", "added"] {
         doc[k] = json!([]);
     }
