@@ -409,6 +409,47 @@ fn scan(z: &[Complex64], g0: &[Complex64], g1: &[Complex64], a0: f64, a1: f64) -
     (lo, hi)
 }
 
+/// The most harmonics a full-bandwidth sum extended by [`full_band_top`]
+/// takes.
+pub const MAX_HARMONICS_FULL: usize = 1 << 16;
+
+/// How far a full-bandwidth sum must reach behind the post-filter `tail`,
+/// Hz, or `None` when the usual 500 MHz serve. An inductor's winding
+/// capacitance C_p couples the two nodes above its self-resonance and, in
+/// series with the load side's high-frequency inductance, resonates far above
+/// the usual harmonics: the load side's lines alone (ESL over count, in
+/// parallel) give the loop's least inductance L, so 1/(2π·sqrt(C_p·L)) bounds
+/// that resonance from above. The sum reaches ten times it, where the
+/// transfer is within 1 % of its high-frequency asymptote (the divider
+/// 1/(1 − 1/(ω²C_pL)), second order in f_r/f).
+pub fn full_band_top(tail: &[TailLine]) -> Option<f64> {
+    let mut cp = 0.0;
+    let mut inv_l = 0.0;
+    for t in tail {
+        let n = t.count as f64;
+        match t.role {
+            TailRole::Inductor { cp: c } => cp += c * n,
+            TailRole::Load => {
+                if t.model.esl > 0.0 {
+                    inv_l += n / t.model.esl;
+                }
+            }
+            TailRole::Damping { .. } => {
+                if t.model.esl > 0.0 {
+                    // The leg's capacitors in parallel: ESL/n, in series with R.
+                    inv_l += n / t.model.esl;
+                }
+            }
+        }
+    }
+    if cp <= 0.0 || inv_l <= 0.0 {
+        return None;
+    }
+    let f_r = 1.0 / (2.0 * PI * (cp / inv_l).sqrt());
+    let top = 10.0 * f_r;
+    (top > 500e6).then_some(top)
+}
+
 fn samples_for(n: usize) -> usize {
     (8 * n).max(4096).next_power_of_two()
 }
@@ -419,14 +460,35 @@ impl Evaluator {
     /// admittance at every harmonic (see "The evaluator's hot path" in
     /// DEVELOPERS.md).
     pub fn new(s: &Scenario, ops: &[OperatingPoint], parts: Vec<PartModel>) -> Evaluator {
+        Evaluator::with_top(s, ops, parts, None)
+    }
+
+    /// As [`Evaluator::new`], the full-bandwidth sum reaching at least `top`
+    /// Hz (see [`full_band_top`]) when the harmonic count is automatic. At
+    /// full bandwidth the target figure then sums as far.
+    pub fn with_top(
+        s: &Scenario,
+        ops: &[OperatingPoint],
+        parts: Vec<PartModel>,
+        top: Option<f64>,
+    ) -> Evaluator {
         let f_ripple = ops[0].f_ripple;
         let bw = s.target.bandwidth.map(|b| b.0);
-        let n_limited = if s.target.harmonics > 0 {
+        let auto = s.target.harmonics == 0;
+        let n_top = match top {
+            Some(t) if auto => ((t / f_ripple).ceil() as usize).min(MAX_HARMONICS_FULL),
+            _ => 0,
+        };
+        let n_limited = if !auto {
             s.target.harmonics
+        } else if bw.is_none() {
+            spectrum::auto_count(f_ripple, None).max(n_top)
         } else {
             spectrum::auto_count(f_ripple, bw)
         };
-        let n_full = n_limited.max(spectrum::auto_count(f_ripple, None));
+        let n_full = n_limited
+            .max(spectrum::auto_count(f_ripple, None))
+            .max(n_top);
         let freqs: Vec<f64> = (1..=n_full).map(|k| k as f64 * f_ripple).collect();
         let order = s.target.bandwidth_order as i32;
         let filt = |f: f64, b: Option<f64>| -> Complex64 {

@@ -560,11 +560,13 @@ impl Problem {
 
     /// An evaluator over the given catalog indices (its local part order).
     pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
+        let tail = self.filter.as_ref().map(|f| self.tail_lines(f));
+        let top = tail.as_deref().and_then(crate::evaluator::full_band_top);
         if let Some(t) = &self.template {
-            if t.0 == parts {
+            if t.0 == parts && top.is_none() {
                 let mut ev = t.1.clone();
-                if let Some(f) = &self.filter {
-                    ev.set_tail(self.tail_lines(f));
+                if let Some(tail) = tail {
+                    ev.set_tail(tail);
                 }
                 return ev;
             }
@@ -572,11 +574,11 @@ impl Problem {
         let models: Vec<PartModel> = parts.iter().map(|&i| self.part_model(i)).collect();
         let mut all = self.ops.clone();
         all.extend(self.region_ops.iter().cloned());
-        let mut ev = Evaluator::new(&self.scenario, &all, models);
+        let mut ev = Evaluator::with_top(&self.scenario, &all, models, top);
         ev.ops_named = (0..self.ops.len()).collect();
         ev.ops_region = (self.ops.len()..all.len()).collect();
-        if let Some(f) = &self.filter {
-            ev.set_tail(self.tail_lines(f));
+        if let Some(tail) = tail {
+            ev.set_tail(tail);
         }
         ev
     }

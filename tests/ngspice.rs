@@ -842,7 +842,7 @@ fn damped_and_undamped_filters_match_ngspice_transient_at_both_nodes() {
 }
 
 #[test]
-fn filter_with_winding_capacitance_matches_ngspice_at_the_target_bandwidth() {
+fn filter_with_winding_capacitance_matches_ngspice() {
     if !have_ngspice() {
         return;
     }
@@ -855,7 +855,7 @@ fn filter_with_winding_capacitance_matches_ngspice_at_the_target_bandwidth() {
         &[("T-CER-22U", 2)],
         Some((0.22, "T-POLY-220U", 1)),
     );
-    check_filter_ripple(&p, &b, "module, filter with C_p", false);
+    check_filter_ripple(&p, &b, "module, filter with C_p", true);
 }
 
 #[test]
