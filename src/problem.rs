@@ -560,8 +560,25 @@ impl Problem {
 
     /// An evaluator over the given catalog indices (its local part order).
     pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
+        self.evaluator_reaching(parts, true)
+    }
+
+    /// As [`Problem::evaluator`] for the optimizer, which needs the target
+    /// figure only: the full-bandwidth sum is extended behind a winding
+    /// capacitance ([`crate::evaluator::full_band_top`]) only when the target
+    /// itself is at full bandwidth. The ripple currents do not need it (the
+    /// harmonics above 500 MHz carry a negligible share of the RMS current).
+    pub fn search_evaluator(&self, parts: &[usize]) -> Evaluator {
+        self.evaluator_reaching(parts, self.scenario.target.bandwidth.is_none())
+    }
+
+    fn evaluator_reaching(&self, parts: &[usize], extend: bool) -> Evaluator {
         let tail = self.filter.as_ref().map(|f| self.tail_lines(f));
-        let top = tail.as_deref().and_then(crate::evaluator::full_band_top);
+        let top = if extend {
+            tail.as_deref().and_then(crate::evaluator::full_band_top)
+        } else {
+            None
+        };
         if let Some(t) = &self.template {
             if t.0 == parts && top.is_none() {
                 let mut ev = t.1.clone();

@@ -1112,8 +1112,8 @@ fn filter_ladder_matches_ngspice() {
 /// At full bandwidth, an inductor's winding capacitance (from its
 /// self-resonant frequency) resonates with the load-side bank's ESL far
 /// above the usual 500 MHz of harmonics (here 5.1 pF with 1.8 nH, about
-/// 1.7 GHz). The evaluator then sums the series to ten times a bound on
-/// that resonance; before it did, the load-node ripple of this module read
+/// 1.7 GHz). The evaluator then sums the series to twice a bound on
+/// that resonance (`evaluator::full_band_top`); before it did, the load-node ripple of this module read
 /// about 24 % below ngspice's (1.26 mV against 1.67 mV). Checked against
 /// ngspice (Debian package) transient and AC analyses, within 1 %.
 #[test]

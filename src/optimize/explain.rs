@@ -85,7 +85,7 @@ pub fn explain(problem: &Problem, target: f64, settings: &Settings) -> Explanati
 /// region; infinite when the bank misses the scenario's load step.
 fn verified(problem: &Problem, bank: &[(usize, u32)]) -> f64 {
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
-    let mut ev = problem.evaluator(&parts);
+    let mut ev = problem.search_evaluator(&parts);
     let local: Vec<(usize, u32)> = bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
     if ev.is_empty(&local) {
         return f64::INFINITY;

@@ -316,7 +316,7 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
     let filters_total = filters.len();
     // The largest admittance any allowed bank can have at each harmonic:
     // its lines' largest counts, the best `max_lines` parts there.
-    let base = problem.evaluator(&cands);
+    let base = problem.search_evaluator(&cands);
     let max_lines = problem
         .scenario
         .board
@@ -479,7 +479,7 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
             };
             // The inductor's peak current against its saturation rating.
             let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
-            let mut ev = p.evaluator(&parts);
+            let mut ev = p.search_evaluator(&parts);
             let local: Vec<(usize, u32)> =
                 f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
             let w = crate::region::worst(&p, &mut ev, &local, Band::Limited);

@@ -491,7 +491,7 @@ pub fn cheapest_bank(problem: &Problem) -> Option<Found> {
     let out = design_for(problem, f64::MAX, &settings);
     out.found.map(|mut f| {
         let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
-        let mut ev = problem.evaluator(&parts);
+        let mut ev = problem.search_evaluator(&parts);
         let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
         f.ripple_pp = ev.ripple_pp(
             &local,

@@ -237,7 +237,7 @@ fn refine(
     let target = sc.design_target();
     let max_n = sc.selection.max_per_part.max(1);
     let universe: Vec<usize> = kept.iter().chain(pool).copied().collect();
-    let mut ev = problem.evaluator(&universe);
+    let mut ev = problem.search_evaluator(&universe);
     let local_of = |cat: usize| {
         universe
             .iter()

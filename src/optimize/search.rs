@@ -194,7 +194,7 @@ pub(super) fn weights(obj: Objective, p: &PartModel) -> Key {
 impl Search {
     pub(super) fn new(problem: &Problem, candidates: &[usize], target: f64) -> Search {
         let s = &problem.scenario;
-        let ev = problem.evaluator(candidates);
+        let ev = problem.search_evaluator(candidates);
         let parts = ev.parts.clone();
         let obj = s.selection.objective;
         let mut per_part: [Vec<f64>; 3] = [vec![], vec![], vec![]];
