@@ -147,6 +147,9 @@ pub(super) struct Search {
     /// r_k of the necessary condition Σ n_i |Y_ik| ≥ r_k per harmonic
     /// ([`Evaluator::required_admittance`]).
     pub(super) required: Vec<f64>,
+    /// The harmonics whose `required` is positive: the only ones the
+    /// necessary condition can fail at.
+    pub(super) needed: Vec<usize>,
     /// Complex admittance Y_ik per part (worst corner), n harmonics each.
     pub(super) adm_worst: Vec<Complex64>,
     /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
@@ -264,6 +267,7 @@ impl Search {
             count_min,
             count_max,
             adm_mag,
+            needed: (0..required.len()).filter(|&k| required[k] > 0.0).collect(),
             required,
             harmonics,
             target,
@@ -320,7 +324,7 @@ impl Search {
             .map(|&i| (i, (self.count_max[i] - self.count_min[i]) as f64))
             .collect();
         let left = &left[..self.lim.at_most.len()];
-        for k in 0..self.harmonics {
+        for &k in &self.needed {
             let (mut at_lb, mut best_ratio) = (0.0, f64::INFINITY);
             for &i in set {
                 let ai = self.adm_mag[i * self.harmonics + k];
