@@ -590,6 +590,23 @@ impl Search {
                 }
             }
         }
+        // The load step: its `low` corner, its cuts and the box's vertices
+        // (before the ripple's region: where the step binds most candidates
+        // fail it, and behind a filter the region's vertices with their
+        // ripple currents cost more; both tests are pure, so the order
+        // changes no answer).
+        if let Some(m) = self.step.as_mut() {
+            let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
+            if !m.screen(
+                &self.parts,
+                &self.bank_buf,
+                limit,
+                &self.step_cuts,
+                &mut self.step_buf,
+            ) {
+                return false;
+            }
+        }
         // The rest of the corner region: the active points and the box's vertices.
         if self.target.is_finite() {
             let Search {
@@ -601,19 +618,6 @@ impl Search {
                 ..
             } = self;
             if !crate::region::screen(ev, bank_buf, *target, active, ratings) {
-                return false;
-            }
-        }
-        // The load step: its `low` corner, its cuts and the box's vertices.
-        if let Some(m) = self.step.as_mut() {
-            let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
-            if !m.screen(
-                &self.parts,
-                &self.bank_buf,
-                limit,
-                &self.step_cuts,
-                &mut self.step_buf,
-            ) {
                 return false;
             }
         }
