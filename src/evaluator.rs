@@ -50,6 +50,18 @@ pub struct PartModel {
     pub rating: Option<f64>,
 }
 
+impl PartModel {
+    /// The corner region along coordinate `coord`: 0 is capacitance
+    /// (`c_worst` … `c_high`), 1 is ESR (`esr_min` … `esr_max`).
+    pub(crate) fn range(&self, coord: usize) -> (f64, f64) {
+        if coord == 0 {
+            (self.c_worst, self.c_high)
+        } else {
+            (self.esr_min, self.esr_max)
+        }
+    }
+}
+
 /// Which capacitance corner.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Corner {
