@@ -1126,8 +1126,14 @@ impl Evaluator {
             return vec![Complex64::default(); n];
         }
         self.fill_transfer(bank, corner, n);
-        (0..n)
-            .map(|k| self.drive_limited[vin_corner][k] * self.zt[k])
+        self.filled_voltages(vin_corner)
+    }
+
+    /// V_k = drive_k · Z_t,k over the limited harmonics, with `zt` just
+    /// filled, for the drive of vin corner (operating point) `op`.
+    fn filled_voltages(&self, op: usize) -> Vec<Complex64> {
+        (0..self.n_limited)
+            .map(|k| self.drive_limited[op][k] * self.zt[k])
             .collect()
     }
 
@@ -1336,9 +1342,7 @@ impl Evaluator {
             return vec![Complex64::default(); n];
         }
         self.fill_states(bank, states, n);
-        (0..n)
-            .map(|k| self.drive_limited[op][k] * self.zt[k])
-            .collect()
+        self.filled_voltages(op)
     }
 
     /// Harmonic count of a band.
