@@ -123,6 +123,17 @@ pub struct TailLine {
     pub role: TailRole,
 }
 
+/// Every tail line at its typical corner (nominal capacitance under DC
+/// bias, the catalog ESR).
+pub(crate) fn typical_states(tail: &[TailLine]) -> Vec<LineState> {
+    tail.iter()
+        .map(|t| LineState {
+            c: t.model.c_typical,
+            esr: t.model.esr,
+        })
+        .collect()
+}
+
 impl TailLine {
     /// Add this line's share at `f` to the load-side admittance `y_load`
     /// and the inductor's impedance `zs`, with the line at `st`.
