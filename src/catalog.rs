@@ -679,23 +679,13 @@ impl<T: SheetPart> Table<T> {
     }
 }
 
-impl SheetPart for Part {
-    const WHAT: &'static str = "catalog";
-    const NOUN: &'static str = "part(s)";
-    const KNOWN: &'static [(&'static str, Col)] = KNOWN;
-    const REQUIRED: &'static [&'static str] = REQUIRED;
-    fn read(row: &Row) -> Result<Part> {
-        read_part(row)
-    }
-    fn id(&self) -> &str {
-        &self.id
-    }
-    fn line(&self) -> u64 {
-        self.line
-    }
-    fn tolerance_given(&self) -> bool {
-        self.tolerance_given
-    }
+crate::sheet::sheet_part!(
+    Part,
+    "catalog",
+    "part(s)",
+    KNOWN,
+    REQUIRED,
+    read_part,
     fn notes(
         parts: &[Part],
         col: &HashMap<&'static str, usize>,
@@ -708,7 +698,7 @@ impl SheetPart for Part {
         }
         unusual.into_warnings(source, out);
     }
-}
+);
 
 /// Values that are possible but unusual enough to be a slip of the unit:
 /// one warning per kind, listing the parts with their line and column.

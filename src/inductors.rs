@@ -5,7 +5,7 @@
 //! names the file, the line and the column.
 
 use crate::catalog::{read_status, Status, Table};
-use crate::sheet::{Col, Footprint, Row, SheetPart};
+use crate::sheet::{Col, Footprint, Row};
 use crate::units::{self, Unit};
 use anyhow::Result;
 
@@ -141,24 +141,14 @@ pub const REQUIRED: &[&str] = &[
     "cost",
 ];
 
-impl SheetPart for Inductor {
-    const WHAT: &'static str = "inductor catalog";
-    const NOUN: &'static str = "inductor(s)";
-    const KNOWN: &'static [(&'static str, Col)] = KNOWN;
-    const REQUIRED: &'static [&'static str] = REQUIRED;
-    fn read(row: &Row) -> Result<Inductor> {
-        read_inductor(row)
-    }
-    fn id(&self) -> &str {
-        &self.id
-    }
-    fn line(&self) -> u64 {
-        self.line
-    }
-    fn tolerance_given(&self) -> bool {
-        self.tolerance_given
-    }
-}
+crate::sheet::sheet_part!(
+    Inductor,
+    "inductor catalog",
+    "inductor(s)",
+    KNOWN,
+    REQUIRED,
+    read_inductor,
+);
 
 fn read_inductor(row: &Row) -> Result<Inductor> {
     let id = row.part_id()?;

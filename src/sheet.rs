@@ -508,6 +508,34 @@ pub trait SheetPart: Sized {
     }
 }
 
+/// `impl SheetPart` for a row type with `id`, `line` and `tolerance_given`
+/// fields: (type, what, noun, known, required, row reader, then any other
+/// items of the impl, such as `notes`).
+macro_rules! sheet_part {
+    ($t:ty, $what:expr, $noun:expr, $known:expr, $required:expr, $read:path, $($more:item)*) => {
+        impl $crate::sheet::SheetPart for $t {
+            const WHAT: &'static str = $what;
+            const NOUN: &'static str = $noun;
+            const KNOWN: &'static [(&'static str, $crate::sheet::Col)] = $known;
+            const REQUIRED: &'static [&'static str] = $required;
+            fn read(row: &$crate::sheet::Row) -> anyhow::Result<$t> {
+                $read(row)
+            }
+            fn id(&self) -> &str {
+                &self.id
+            }
+            fn line(&self) -> u64 {
+                self.line
+            }
+            fn tolerance_given(&self) -> bool {
+                self.tolerance_given
+            }
+            $($more)*
+        }
+    };
+}
+pub(crate) use sheet_part;
+
 /// The parts of a sheet read by [`read_parts`], with their warnings.
 pub struct Parts<T> {
     /// In file order.
