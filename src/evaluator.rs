@@ -1132,18 +1132,24 @@ impl Evaluator {
         corner: Corner,
         vin_corner: usize,
     ) -> Vec<Complex64> {
+        self.limited_voltages(bank, vin_corner, |ev, n| ev.fill_transfer(bank, corner, n))
+    }
+
+    /// V_k = drive_k · Z_t,k over the limited harmonics for the drive of vin
+    /// corner (operating point) `op`, `zt` filled by `fill` (zeros for an
+    /// empty bank).
+    fn limited_voltages(
+        &mut self,
+        bank: &Bank,
+        op: usize,
+        fill: impl FnOnce(&mut Self, usize),
+    ) -> Vec<Complex64> {
         let n = self.n_limited;
         if self.is_empty(bank) {
             return vec![Complex64::default(); n];
         }
-        self.fill_transfer(bank, corner, n);
-        self.filled_voltages(vin_corner)
-    }
-
-    /// V_k = drive_k · Z_t,k over the limited harmonics, with `zt` just
-    /// filled, for the drive of vin corner (operating point) `op`.
-    fn filled_voltages(&self, op: usize) -> Vec<Complex64> {
-        (0..self.n_limited)
+        fill(self, n);
+        (0..n)
             .map(|k| self.drive_limited[op][k] * self.zt[k])
             .collect()
     }
@@ -1348,12 +1354,7 @@ impl Evaluator {
         states: &[LineState],
         op: usize,
     ) -> Vec<Complex64> {
-        let n = self.n_limited;
-        if self.is_empty(bank) {
-            return vec![Complex64::default(); n];
-        }
-        self.fill_states(bank, states, n);
-        self.filled_voltages(op)
+        self.limited_voltages(bank, op, |ev, n| ev.fill_states(bank, states, n))
     }
 
     /// Harmonic count of a band.
