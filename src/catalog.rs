@@ -3,7 +3,7 @@
 //! Every error names the file, the line and the column. Extra columns are
 //! kept and carried through to the bill of materials.
 
-use crate::sheet::{name_list, read_parts, Col, Footprint, Row, Sheet};
+use crate::sheet::{name_list, read_parts, Col, Footprint, Row, SheetPart};
 use crate::units::{self, Unit};
 use anyhow::Result;
 use std::collections::HashMap;
@@ -578,19 +578,36 @@ impl Part {
 /// replaces it with one note per part of its bank).
 pub const NO_TOLERANCE: &str = "give no tolerance; 20 % assumed";
 
-/// A loaded catalog.
-#[derive(Debug, Clone, Default)]
-pub struct Catalog {
+/// A loaded catalog of `T` rows: capacitors ([`Catalog`]) or inductors
+/// ([`InductorCatalog`](crate::inductors::InductorCatalog)).
+#[derive(Debug, Clone)]
+pub struct Table<T> {
     /// Where the catalog came from (path or bundled name), for messages.
     pub source: String,
     /// The parts in file order.
-    pub parts: Vec<Part>,
+    pub parts: Vec<T>,
     /// Headers of the extra columns, in file order.
     pub extra_columns: Vec<String>,
-    /// Warnings found while reading.
+    /// Warnings found while reading (missing tolerances, misspelled
+    /// columns, unusual values).
     pub warnings: Vec<String>,
     index: HashMap<String, usize>,
 }
+
+impl<T> Default for Table<T> {
+    fn default() -> Self {
+        Table {
+            source: String::new(),
+            parts: Vec::new(),
+            extra_columns: Vec::new(),
+            warnings: Vec::new(),
+            index: HashMap::new(),
+        }
+    }
+}
+
+/// A loaded capacitor catalog.
+pub type Catalog = Table<Part>;
 
 /// The catalog's columns and what each holds.
 pub(crate) const KNOWN: &[(&str, Col)] = &[
@@ -631,16 +648,16 @@ pub(crate) const REQUIRED: &[&str] = &[
     "cost",
 ];
 
-impl Catalog {
+impl<T: SheetPart> Table<T> {
     /// Read a catalog file; errors name the file, line and column.
-    pub fn from_path(path: &Path) -> Result<Catalog> {
+    pub fn from_path(path: &Path) -> Result<Table<T>> {
         let bytes = std::fs::read(path)
-            .map_err(|e| anyhow::anyhow!("{}: cannot read the catalog: {e}", path.display()))?;
-        Catalog::from_bytes(&bytes, &path.display().to_string())
+            .map_err(|e| anyhow::anyhow!("{}: cannot read the {}: {e}", path.display(), T::WHAT))?;
+        Table::from_bytes(&bytes, &path.display().to_string())
     }
 
     /// The part with this id.
-    pub fn get(&self, id: &str) -> Option<&Part> {
+    pub fn get(&self, id: &str) -> Option<&T> {
         self.index.get(id).map(|&i| &self.parts[i])
     }
 
@@ -650,33 +667,38 @@ impl Catalog {
     }
 
     /// Parse catalog text; `source` names it in messages.
-    pub fn from_bytes(bytes: &[u8], source: &str) -> Result<Catalog> {
-        let sheet = Sheet::read(bytes, source, "catalog", KNOWN, REQUIRED)?;
-        let mut cat = Catalog {
+    pub fn from_bytes(bytes: &[u8], source: &str) -> Result<Table<T>> {
+        let read = read_parts::<T>(bytes, source)?;
+        Ok(Table {
             source: source.to_string(),
-            extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
-            warnings: sheet.warnings.clone(),
-            ..Default::default()
-        };
-        let mut unusual = Unusual::default();
-        let read = read_parts(
-            &sheet,
-            "catalog",
-            |row| {
-                let part = read_part(row)?;
-                unusual.note(&part, &sheet.col, row.line);
-                Ok(part)
-            },
-            |p: &Part| (p.id.as_str(), p.line, p.tolerance_given),
-        )?;
-        let no_tolerance = read.no_tolerance_note(source, "part(s)");
-        cat.parts = read.parts;
-        cat.index = read.index;
-        unusual.into_warnings(source, &mut cat.warnings);
-        cat.warnings.extend(no_tolerance);
-        Ok(cat)
+            parts: read.parts,
+            extra_columns: read.extra_columns,
+            warnings: read.warnings,
+            index: read.index,
+        })
     }
 }
+
+crate::sheet::sheet_part!(
+    Part,
+    "catalog",
+    "part(s)",
+    KNOWN,
+    REQUIRED,
+    read_part,
+    fn notes(
+        parts: &[Part],
+        col: &HashMap<&'static str, usize>,
+        source: &str,
+        out: &mut Vec<String>,
+    ) {
+        let mut unusual = Unusual::default();
+        for p in parts {
+            unusual.note(p, col, p.line);
+        }
+        unusual.into_warnings(source, out);
+    }
+);
 
 /// Values that are possible but unusual enough to be a slip of the unit:
 /// one warning per kind, listing the parts with their line and column.
@@ -880,7 +902,7 @@ fn read_part(row: &Row) -> Result<Part> {
     }
     let cost = row.req("cost", Unit::Cost)?;
     row.positive("cost", cost, true)?;
-    let tol = row.tolerance()?;
+    let tol = row.tolerance(false)?;
     let dielectric = match row.text("dielectric") {
         None => None,
         Some(code) => match decode_dielectric(&code) {

@@ -50,6 +50,18 @@ pub struct PartModel {
     pub rating: Option<f64>,
 }
 
+impl PartModel {
+    /// The corner region along coordinate `coord`: 0 is capacitance
+    /// (`c_worst` … `c_high`), 1 is ESR (`esr_min` … `esr_max`).
+    pub(crate) fn range(&self, coord: usize) -> (f64, f64) {
+        if coord == 0 {
+            (self.c_worst, self.c_high)
+        } else {
+            (self.esr_min, self.esr_max)
+        }
+    }
+}
+
 /// Which capacitance corner.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Corner {
@@ -109,6 +121,17 @@ pub struct TailLine {
     pub count: u32,
     /// Where it sits.
     pub role: TailRole,
+}
+
+/// Every tail line at its typical corner (nominal capacitance under DC
+/// bias, the catalog ESR).
+pub(crate) fn typical_states(tail: &[TailLine]) -> Vec<LineState> {
+    tail.iter()
+        .map(|t| LineState {
+            c: t.model.c_typical,
+            esr: t.model.esr,
+        })
+        .collect()
 }
 
 impl TailLine {
@@ -1178,13 +1201,25 @@ impl Evaluator {
         corner: Corner,
         vin_corner: usize,
     ) -> Vec<Complex64> {
+        self.limited_voltages(bank, vin_corner, |ev, n| ev.fill_transfer(bank, corner, n))
+    }
+
+    /// V_k = drive_k · Z_t,k over the limited harmonics for the drive of vin
+    /// corner (operating point) `op`, `zt` filled by `fill` (zeros for an
+    /// empty bank).
+    fn limited_voltages(
+        &mut self,
+        bank: &Bank,
+        op: usize,
+        fill: impl FnOnce(&mut Self, usize),
+    ) -> Vec<Complex64> {
         let n = self.n_limited;
         if self.is_empty(bank) {
             return vec![Complex64::default(); n];
         }
-        self.fill_transfer(bank, corner, n);
+        fill(self, n);
         (0..n)
-            .map(|k| self.drive_limited[vin_corner][k] * self.zt[k])
+            .map(|k| self.drive_limited[op][k] * self.zt[k])
             .collect()
     }
 
@@ -1388,14 +1423,7 @@ impl Evaluator {
         states: &[LineState],
         op: usize,
     ) -> Vec<Complex64> {
-        let n = self.n_limited;
-        if self.is_empty(bank) {
-            return vec![Complex64::default(); n];
-        }
-        self.fill_states(bank, states, n);
-        (0..n)
-            .map(|k| self.drive_limited[op][k] * self.zt[k])
-            .collect()
+        self.limited_voltages(bank, op, |ev, n| ev.fill_states(bank, states, n))
     }
 
     /// Harmonic count of a band.

@@ -243,13 +243,7 @@ pub fn typical_peak_output_impedance(tail: &[TailLine]) -> f64 {
     if f0 <= 0.0 {
         return 0.0;
     }
-    let st: Vec<LineState> = tail
-        .iter()
-        .map(|t| LineState {
-            c: t.model.c_typical,
-            esr: t.model.esr,
-        })
-        .collect();
+    let st = crate::evaluator::typical_states(tail);
     peak_over(tail, &[st], f0 / 100.0, f0 * 10.0).0
 }
 

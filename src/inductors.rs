@@ -4,12 +4,10 @@
 //! semicolon exports with decimal commas, Latin-1 fallback), and every error
 //! names the file, the line and the column.
 
-use crate::catalog::{read_status, Status};
-use crate::sheet::{read_parts, Col, Footprint, Row, Sheet};
+use crate::catalog::{read_status, Status, Table};
+use crate::sheet::{Col, Footprint, Row};
 use crate::units::{self, Unit};
 use anyhow::Result;
-use std::collections::HashMap;
-use std::path::Path;
 
 /// One inductor row.
 #[derive(Debug, Clone)]
@@ -110,18 +108,7 @@ impl Inductor {
 }
 
 /// A loaded inductor catalog.
-#[derive(Debug, Clone, Default)]
-pub struct InductorCatalog {
-    /// Where the catalog came from, for messages.
-    pub source: String,
-    /// The inductors, in file order.
-    pub parts: Vec<Inductor>,
-    /// Headers of the extra columns, in file order.
-    pub extra_columns: Vec<String>,
-    /// Warnings about the file (missing tolerances, misspelled columns).
-    pub warnings: Vec<String>,
-    index: HashMap<String, usize>,
-}
+pub type InductorCatalog = Table<Inductor>;
 
 /// The inductor catalog's columns and what each holds.
 pub(crate) const KNOWN: &[(&str, Col)] = &[
@@ -154,44 +141,14 @@ pub const REQUIRED: &[&str] = &[
     "cost",
 ];
 
-impl InductorCatalog {
-    /// Read an inductor catalog file; errors name the file, line and column.
-    pub fn from_path(path: &Path) -> Result<InductorCatalog> {
-        let bytes = std::fs::read(path).map_err(|e| {
-            anyhow::anyhow!("{}: cannot read the inductor catalog: {e}", path.display())
-        })?;
-        InductorCatalog::from_bytes(&bytes, &path.display().to_string())
-    }
-
-    /// The inductor with this id.
-    pub fn get(&self, id: &str) -> Option<&Inductor> {
-        self.index.get(id).map(|&i| &self.parts[i])
-    }
-
-    /// The index of the inductor with this id.
-    pub fn position(&self, id: &str) -> Option<usize> {
-        self.index.get(id).copied()
-    }
-
-    /// Parse inductor-catalog text; `source` names it in messages.
-    pub fn from_bytes(bytes: &[u8], source: &str) -> Result<InductorCatalog> {
-        let sheet = Sheet::read(bytes, source, "inductor catalog", KNOWN, REQUIRED)?;
-        let mut cat = InductorCatalog {
-            source: source.to_string(),
-            extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
-            warnings: sheet.warnings.clone(),
-            ..Default::default()
-        };
-        let read = read_parts(&sheet, "inductor catalog", read_inductor, |p: &Inductor| {
-            (p.id.as_str(), p.line, p.tolerance_given)
-        })?;
-        let no_tolerance = read.no_tolerance_note(source, "inductor(s)");
-        cat.parts = read.parts;
-        cat.index = read.index;
-        cat.warnings.extend(no_tolerance);
-        Ok(cat)
-    }
-}
+crate::sheet::sheet_part!(
+    Inductor,
+    "inductor catalog",
+    "inductor(s)",
+    KNOWN,
+    REQUIRED,
+    read_inductor,
+);
 
 fn read_inductor(row: &Row) -> Result<Inductor> {
     let id = row.part_id()?;
@@ -207,25 +164,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
             ),
         ));
     }
-    let tol = row.num("tolerance", Unit::Fraction)?;
-    if let Some(t) = tol {
-        if !(0.0..1.0).contains(&t) {
-            return Err(row.err(
-                "tolerance",
-                format!(
-                    "{t} must be at least 0 and below 1 (100 %){}",
-                    if (1.0..=100.0).contains(&t) && units::is_bare(row.cell("tolerance")) {
-                        format!(
-                            "; bare numbers are fractions — did you mean \"{}%\"?",
-                            row.cell("tolerance")
-                        )
-                    } else {
-                        String::new()
-                    }
-                ),
-            ));
-        }
-    }
+    let tol = row.tolerance(true)?;
     let dcr = row.req("dcr", Unit::Ohm)?;
     row.positive("dcr", dcr, true)?;
     if dcr > 10.0 {
@@ -300,6 +239,7 @@ fn read_inductor(row: &Row) -> Result<Inductor> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::path::Path;
 
     const HEAD: &str =
         "part,inductance,tolerance,dcr,rated_current,saturation_current,srf,cost,case,area,height";

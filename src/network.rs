@@ -394,6 +394,18 @@ impl Ladder {
 mod tests {
     use super::*;
 
+    /// An internal 10 µF branch (5 mΩ, 1 nH) behind `line` H of line.
+    fn ten_microfarad_branch(line: f64) -> Network {
+        Network::new(
+            Some(Branch {
+                esr: 5e-3,
+                esl: 1e-9,
+                c: 10e-6,
+            }),
+            line,
+        )
+    }
+
     fn close(a: Complex64, b: Complex64, rel: f64) -> bool {
         (a - b).norm() <= rel * b.norm().max(1e-300)
     }
@@ -404,14 +416,7 @@ mod tests {
         // Kemmerly, Engineering Circuit Analysis, nodal analysis): the
         // current I into node 1 splits into Y_int and the path jωLc + 1/Y_b;
         // V_b = V_1 · (1/Y_b) / (jωLc + 1/Y_b).
-        let net = Network::new(
-            Some(Branch {
-                esr: 5e-3,
-                esl: 1e-9,
-                c: 10e-6,
-            }),
-            2e-9,
-        );
+        let net = ten_microfarad_branch(2e-9);
         for f in [1e4, 3e5, 1e6, 7e6, 5e7] {
             let yb = admittance(3e-3, 0.5e-9, 47e-6, f) * 3.0;
             let w = 2.0 * PI * f;
@@ -473,14 +478,7 @@ mod tests {
     #[test]
     fn ladder_with_a_short_inductor_is_the_front_network() {
         // A zero inductor joins the two nodes: the banks are in parallel.
-        let front = Network::new(
-            Some(Branch {
-                esr: 5e-3,
-                esl: 1e-9,
-                c: 10e-6,
-            }),
-            1e-9,
-        );
+        let front = ten_microfarad_branch(1e-9);
         let ladder = Ladder {
             front: front.clone(),
             inductor: SeriesInductor {
@@ -511,14 +509,7 @@ mod tests {
         // Nodal analysis with the current source removed (Hayt & Kemmerly,
         // Engineering Circuit Analysis, nodal analysis): the bank's node sees
         // Y_b in parallel with jωLc in series with the internal branch.
-        let net = Network::new(
-            Some(Branch {
-                esr: 5e-3,
-                esl: 1e-9,
-                c: 10e-6,
-            }),
-            2e-9,
-        );
+        let net = ten_microfarad_branch(2e-9);
         for f in [1e3, 5e4, 1e6, 3e7] {
             let w = 2.0 * PI * f;
             let yb = admittance(3e-3, 0.5e-9, 47e-6, f) * 2.0;
@@ -543,14 +534,7 @@ mod tests {
         // series (Hayt & Kemmerly, nodal analysis); the transfer to the load
         // is the one of `transfer`. A zero inductor gives the front network's
         // open impedance with both banks in parallel.
-        let front = Network::new(
-            Some(Branch {
-                esr: 5e-3,
-                esl: 1e-9,
-                c: 10e-6,
-            }),
-            1e-9,
-        );
+        let front = ten_microfarad_branch(1e-9);
         let ind = SeriesInductor {
             l: 0.47e-6,
             dcr: 4e-3,

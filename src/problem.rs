@@ -55,20 +55,9 @@ pub struct Problem {
     pub(crate) template: Option<std::sync::Arc<(Vec<usize>, Evaluator)>>,
 }
 
-/// Why a part may not be used in this scenario, or `None` if it may.
-pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<String> {
-    let vout = s.converter.vout.0;
-    let der = s.derating(p.technology);
-    if p.rated_voltage * der < vout {
-        return Some(format!(
-            "rated {} V × derating {} = {:.2} V is below vout {} V",
-            p.rated_voltage,
-            der,
-            p.rated_voltage * der,
-            vout
-        ));
-    }
-    let (tmin, tmax) = p.temperature_range();
+/// Why a part or inductor rated from `tmin` to `tmax` °C may not be used
+/// in the scenario's environment, or `None`.
+fn temperature_reason(s: &Scenario, tmin: Option<f64>, tmax: Option<f64>) -> Option<String> {
     let env = &s.environment;
     if let Some(t) = tmin {
         if t > env.temperature_min {
@@ -86,17 +75,25 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
             ));
         }
     }
-    match p.status {
-        Status::Obsolete => return Some("status obsolete".into()),
+    None
+}
+
+/// Why a part or inductor of this status may not be used, or `None`.
+fn status_reason(s: &Scenario, status: Status) -> Option<String> {
+    match status {
+        Status::Obsolete => Some("status obsolete".into()),
         Status::Nrnd if !s.selection.allow_nrnd => {
-            return Some(
-                "status nrnd (not recommended for new designs; set selection.allow_nrnd)".into(),
-            )
+            Some("status nrnd (not recommended for new designs; set selection.allow_nrnd)".into())
         }
-        _ => {}
+        _ => None,
     }
+}
+
+/// Why a part or inductor of this height (mm) and id may not be used:
+/// above or without a height under `board.max_height`, or excluded.
+fn height_or_exclusion(s: &Scenario, height: Option<f64>, id: &str) -> Option<String> {
     if let Some(h) = s.board.max_height {
-        match p.height {
+        match height {
             Some(ph) if ph > h.0 => {
                 return Some(format!(
                     "height {ph} mm is above board.max_height {} mm",
@@ -112,8 +109,34 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
             _ => {}
         }
     }
-    if s.selection.exclude.iter().any(|e| e == &p.id) {
+    if s.selection.exclude.iter().any(|e| e == id) {
         return Some("excluded by the scenario or the command line".into());
+    }
+    None
+}
+
+/// Why a part may not be used in this scenario, or `None` if it may.
+pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<String> {
+    let vout = s.converter.vout.0;
+    let der = s.derating(p.technology);
+    if p.rated_voltage * der < vout {
+        return Some(format!(
+            "rated {} V × derating {} = {:.2} V is below vout {} V",
+            p.rated_voltage,
+            der,
+            p.rated_voltage * der,
+            vout
+        ));
+    }
+    let (tmin, tmax) = p.temperature_range();
+    if let Some(r) = temperature_reason(s, tmin, tmax) {
+        return Some(r);
+    }
+    if let Some(r) = status_reason(s, p.status) {
+        return Some(r);
+    }
+    if let Some(r) = height_or_exclusion(s, p.height, &p.id) {
+        return Some(r);
     }
     if let Some(r) = limits::ineligible(s, p, LimitId::MaxCapacitance) {
         return Some(r);
@@ -143,51 +166,14 @@ pub fn inductor_ineligibility(s: &Scenario, l: &Inductor, objective: Objective) 
     } else {
         String::new()
     };
-    match l.status {
-        Status::Obsolete => return Some("status obsolete".into()),
-        Status::Nrnd if !s.selection.allow_nrnd => {
-            return Some(
-                "status nrnd (not recommended for new designs; set selection.allow_nrnd)".into(),
-            )
-        }
-        _ => {}
+    if let Some(r) = status_reason(s, l.status) {
+        return Some(r);
     }
-    let env = &s.environment;
-    if let Some(t) = l.temp_min {
-        if t > env.temperature_min {
-            return Some(format!(
-                "rated down to {t} °C only; the environment reaches {} °C",
-                env.temperature_min
-            ));
-        }
+    if let Some(r) = temperature_reason(s, l.temp_min, l.temp_max) {
+        return Some(r);
     }
-    if let Some(t) = l.temp_max {
-        if t < env.temperature_max {
-            return Some(format!(
-                "rated up to {t} °C only; the environment reaches {} °C",
-                env.temperature_max
-            ));
-        }
-    }
-    if let Some(h) = s.board.max_height {
-        match l.height {
-            Some(lh) if lh > h.0 => {
-                return Some(format!(
-                    "height {lh} mm is above board.max_height {} mm",
-                    h.0
-                ))
-            }
-            None => {
-                return Some(format!(
-                    "no height given, and board.max_height is {} mm",
-                    h.0
-                ))
-            }
-            _ => {}
-        }
-    }
-    if s.selection.exclude.iter().any(|e| e == &l.id) {
-        return Some("excluded by the scenario or the command line".into());
+    if let Some(r) = height_or_exclusion(s, l.height, &l.id) {
+        return Some(r);
     }
     let fmt_a = |i: f64| crate::units::format_si(i, "A");
     if l.rated_current * (n as f64) < iout {

@@ -364,11 +364,7 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
             for j in 0..ev.line_count(bank) {
                 let p = ev.line_model(bank, j).clone();
                 for coord in 0..2 {
-                    let (lo, hi) = if coord == 0 {
-                        (p.c_worst, p.c_high)
-                    } else {
-                        (p.esr_min, p.esr_max)
-                    };
+                    let (lo, hi) = p.range(coord);
                     if hi <= lo {
                         continue;
                     }

@@ -409,13 +409,28 @@ impl Row<'_> {
     }
 
     /// The `tolerance` column, from 0 to below 1 (`None` when empty).
-    pub fn tolerance(&self) -> Result<Option<f64>> {
+    /// With `percent_hint`, a bare number from 1 to 100 is met with "did
+    /// you mean N%?".
+    pub fn tolerance(&self, percent_hint: bool) -> Result<Option<f64>> {
         let tol = self.num("tolerance", Unit::Fraction)?;
         if let Some(t) = tol {
             if !(0.0..1.0).contains(&t) {
                 return Err(self.err(
                     "tolerance",
-                    format!("{t} must be at least 0 and below 1 (100 %)"),
+                    format!(
+                        "{t} must be at least 0 and below 1 (100 %){}",
+                        if percent_hint
+                            && (1.0..=100.0).contains(&t)
+                            && units::is_bare(self.cell("tolerance"))
+                        {
+                            format!(
+                                "; bare numbers are fractions — did you mean \"{}%\"?",
+                                self.cell("tolerance")
+                            )
+                        } else {
+                            String::new()
+                        }
+                    ),
                 ));
             }
         }
@@ -463,70 +478,127 @@ pub struct Footprint {
     pub height: Option<f64>,
 }
 
-/// The parts of a catalog sheet, read row by row with `read`.
+/// A kind of catalog row (a capacitor, an inductor) and how its catalog
+/// sheet is read; [`crate::catalog::Table`] reads any of them the same way.
+pub trait SheetPart: Sized {
+    /// What the sheet is called in messages ("catalog", "inductor catalog").
+    const WHAT: &'static str;
+    /// The parts counted in the missing-tolerance warning ("part(s)").
+    const NOUN: &'static str;
+    /// The sheet's columns and what each holds.
+    const KNOWN: &'static [(&'static str, Col)];
+    /// The columns every sheet of this kind must have.
+    const REQUIRED: &'static [&'static str];
+    /// Read one row; errors name the line and column.
+    fn read(row: &Row) -> Result<Self>;
+    /// The part's id.
+    fn id(&self) -> &str;
+    /// Line of the part's row in its file.
+    fn line(&self) -> u64;
+    /// Whether the row gave a tolerance.
+    fn tolerance_given(&self) -> bool;
+    /// Warnings about the parts as a whole (pushed after the sheet's own),
+    /// given the sheet's column positions; none by default.
+    fn notes(
+        _parts: &[Self],
+        _col: &HashMap<&'static str, usize>,
+        _source: &str,
+        _out: &mut Vec<String>,
+    ) {
+    }
+}
+
+/// `impl SheetPart` for a row type with `id`, `line` and `tolerance_given`
+/// fields: (type, what, noun, known, required, row reader, then any other
+/// items of the impl, such as `notes`).
+macro_rules! sheet_part {
+    ($t:ty, $what:expr, $noun:expr, $known:expr, $required:expr, $read:path, $($more:item)*) => {
+        impl $crate::sheet::SheetPart for $t {
+            const WHAT: &'static str = $what;
+            const NOUN: &'static str = $noun;
+            const KNOWN: &'static [(&'static str, $crate::sheet::Col)] = $known;
+            const REQUIRED: &'static [&'static str] = $required;
+            fn read(row: &$crate::sheet::Row) -> anyhow::Result<$t> {
+                $read(row)
+            }
+            fn id(&self) -> &str {
+                &self.id
+            }
+            fn line(&self) -> u64 {
+                self.line
+            }
+            fn tolerance_given(&self) -> bool {
+                self.tolerance_given
+            }
+            $($more)*
+        }
+    };
+}
+pub(crate) use sheet_part;
+
+/// The parts of a sheet read by [`read_parts`], with their warnings.
 pub struct Parts<T> {
     /// In file order.
     pub parts: Vec<T>,
     /// Part id to its index in `parts`.
     pub index: HashMap<String, usize>,
-    /// Ids of the parts without a tolerance.
-    pub no_tolerance: Vec<String>,
+    /// Headers of the extra columns, in file order.
+    pub extra_columns: Vec<String>,
+    /// The sheet's warnings, then the kind's notes, then the one about
+    /// parts without a tolerance.
+    pub warnings: Vec<String>,
 }
 
-impl<T> Parts<T> {
-    /// The one warning about parts without a tolerance (`noun`: "part(s)",
-    /// "inductor(s)"), naming the first few.
-    pub fn no_tolerance_note(&self, source: &str, noun: &str) -> Option<String> {
-        (!self.no_tolerance.is_empty()).then(|| {
-            format!(
-                "{source}: {} {noun} {}: {}",
-                self.no_tolerance.len(),
-                crate::catalog::NO_TOLERANCE,
-                name_list(&self.no_tolerance)
-            )
-        })
-    }
-}
-
-/// Read every row of `sheet` (a `what`, e.g. "catalog") into parts; `key`
-/// gives a part's id, line and whether its tolerance was given. A repeated
-/// id is an error naming both lines; a sheet without rows is an error.
-pub fn read_parts<T>(
-    sheet: &Sheet,
-    what: &str,
-    mut read: impl FnMut(&Row) -> Result<T>,
-    key: impl Fn(&T) -> (&str, u64, bool),
-) -> Result<Parts<T>> {
-    let mut out = Parts {
-        parts: Vec::new(),
-        index: HashMap::new(),
-        no_tolerance: Vec::new(),
-    };
+/// Read every row of a `T` sheet. A repeated id is an error naming both
+/// lines; a sheet without rows is an error; parts without a tolerance get
+/// one warning naming the first few.
+pub fn read_parts<T: SheetPart>(bytes: &[u8], source: &str) -> Result<Parts<T>> {
+    let sheet = Sheet::read(bytes, source, T::WHAT, T::KNOWN, T::REQUIRED)?;
+    let mut parts: Vec<T> = Vec::new();
+    let mut index: HashMap<String, usize> = HashMap::new();
+    let mut no_tolerance = Vec::new();
     for row in sheet.rows() {
-        let part = read(&row)?;
-        let (id, _, tolerance_given) = key(&part);
-        if !tolerance_given {
-            out.no_tolerance.push(id.to_string());
+        let part = T::read(&row)?;
+        let id = part.id();
+        if !part.tolerance_given() {
+            no_tolerance.push(id.to_string());
         }
-        if let Some(&prev) = out.index.get(id) {
+        if let Some(&prev) = index.get(id) {
             bail!(
                 "{}: line {}, column {} (part): part `{id}` already defined on line {}",
                 sheet.source,
                 row.line,
                 row.column("part"),
-                key(&out.parts[prev]).1
+                parts[prev].line()
             );
         }
-        out.index.insert(id.to_string(), out.parts.len());
-        out.parts.push(part);
+        index.insert(id.to_string(), parts.len());
+        parts.push(part);
     }
-    if out.parts.is_empty() {
+    if parts.is_empty() {
         bail!(
-            "{}: line 1: the {what} has a header row but no parts below it",
-            sheet.source
+            "{}: line 1: the {} has a header row but no parts below it",
+            sheet.source,
+            T::WHAT
         );
     }
-    Ok(out)
+    let mut warnings = sheet.warnings.clone();
+    T::notes(&parts, &sheet.col, source, &mut warnings);
+    if !no_tolerance.is_empty() {
+        warnings.push(format!(
+            "{source}: {} {} {}: {}",
+            no_tolerance.len(),
+            T::NOUN,
+            crate::catalog::NO_TOLERANCE,
+            name_list(&no_tolerance)
+        ));
+    }
+    Ok(Parts {
+        parts,
+        index,
+        extra_columns: sheet.extra.iter().map(|(_, h)| h.clone()).collect(),
+        warnings,
+    })
 }
 
 /// The first eight names, then ", …" when there are more.

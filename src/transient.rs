@@ -806,11 +806,7 @@ impl StepModel {
             let before = best.deviation;
             for (j, p) in models.iter().enumerate() {
                 for coord in 0..2 {
-                    let (lo, hi) = if coord == 0 {
-                        (p.c_worst, p.c_high)
-                    } else {
-                        (p.esr_min, p.esr_max)
-                    };
+                    let (lo, hi) = p.range(coord);
                     if hi <= lo {
                         continue;
                     }

@@ -813,13 +813,7 @@ pub fn filter_data(
     let parts: Vec<usize> = bank.iter().map(|b| b.0).collect();
     let ev = problem.evaluator(&parts);
     let tail = ev.tail().to_vec();
-    let st: Vec<LineState> = tail
-        .iter()
-        .map(|t| LineState {
-            c: t.model.c_typical,
-            esr: t.model.esr,
-        })
-        .collect();
+    let st = crate::evaluator::typical_states(&tail);
     let f_ripple = ev.f_ripple;
     let (lo, hi) = (
         (f0 / 100.0).min(f_ripple / 10.0),
