@@ -1055,19 +1055,21 @@ fn load_step_figures(
     crate::transient::figures(s, &ev.parts, local, ev.tail())
 }
 
-/// Known limit: a winding capacitance resonates with the load-side ESL
-/// far above the summed harmonics (GHz), where the full-bandwidth sum
-/// does not reach; the band-limited figure is not affected.
+/// A winding capacitance resonates with the load-side ESL far above the
+/// usual harmonics; the full-bandwidth sum reaches past it
+/// ([`crate::evaluator::full_band_top`]) unless that would take more than
+/// [`crate::evaluator::MAX_HARMONICS_FULL`] harmonics: then say so.
 fn winding_warning(s: &Scenario, ev: &Evaluator) -> Option<String> {
-    let winding = ev
-        .tail()
-        .iter()
-        .any(|t| matches!(t.role, crate::evaluator::TailRole::Inductor { cp } if cp > 0.0));
-    winding.then(|| {
+    let top = crate::evaluator::full_band_top(ev.tail())?;
+    let reached = ev.n_full as f64 * ev.f_ripple;
+    (top > reached * (1.0 + 1e-9)).then(|| {
         format!(
-            "the filter inductor's winding capacitance (from its srf) resonates with the load-side ESL far above the \
-             harmonics summed: the full-bandwidth ripple at the load node can read low (by a third on one checked \
-             case against ngspice){}",
+            "the full-bandwidth sum stops at {} ({} harmonics), short of {}, twice the bound on the filter \
+             inductor's winding-capacitance resonance with the load-side ESL: the full-bandwidth ripple at the \
+             load node can read low{}",
+            crate::units::format_si(reached, "Hz"),
+            ev.n_full,
+            crate::units::format_si(top, "Hz"),
             if s.target.bandwidth.is_some() {
                 "; the target's band-limited figure is not affected"
             } else {

@@ -1553,6 +1553,64 @@ impl Evaluator {
 mod tests {
     use super::*;
 
+    fn line(esl: f64, count: u32, role: TailRole) -> TailLine {
+        TailLine {
+            model: PartModel {
+                index: 0,
+                c_worst: 22e-6,
+                c_typical: 22e-6,
+                c_high: 22e-6,
+                esr_min: 3e-3,
+                esr_max: 3e-3,
+                c_nominal: 22e-6,
+                c_limit: 22e-6,
+                esr: 3e-3,
+                esl,
+                cost: 0.0,
+                area: 0.0,
+                rating: None,
+            },
+            count,
+            role,
+        }
+    }
+
+    #[test]
+    fn full_band_top_bounds_the_winding_resonance() {
+        // Series resonance of C_p with the load side's inductance (any
+        // circuits textbook, e.g. Hayt & Kemmerly, Engineering Circuit
+        // Analysis, frequency-response chapter, from memory: f =
+        // 1/(2π·sqrt(LC))); two 1.8 nH lines in
+        // parallel give 0.9 nH, two inductors' 2.5 pF in parallel 5 pF.
+        let tail = vec![
+            line(1.8e-9, 2, TailRole::Load),
+            line(0.0, 2, TailRole::Inductor { cp: 2.5e-12 }),
+        ];
+        let f_r = 1.0 / (2.0 * PI * (5e-12f64 * 0.9e-9).sqrt());
+        let top = full_band_top(&tail).expect("a top above 500 MHz");
+        assert!(
+            (top / (TOP_PER_RESONANCE * f_r) - 1.0).abs() < 1e-12,
+            "{top} vs {f_r}"
+        );
+        // Without winding capacitance, or with a resonance low enough for
+        // the usual 500 MHz, nothing changes.
+        let plain = vec![
+            line(1.8e-9, 2, TailRole::Load),
+            line(0.0, 1, TailRole::Inductor { cp: 0.0 }),
+        ];
+        assert_eq!(full_band_top(&plain), None);
+        let slow = vec![
+            line(100e-9, 1, TailRole::Load),
+            line(0.0, 1, TailRole::Inductor { cp: 100e-12 }),
+        ];
+        assert_eq!(
+            full_band_top(&slow),
+            None,
+            "{:?}",
+            1.0 / (2.0 * PI * (1e-17f64).sqrt())
+        );
+    }
+
     #[test]
     fn harmonic_floor_holds_on_sampled_signals() {
         // Brute force: the two lower bounds of `check_filled` on many
