@@ -438,3 +438,116 @@ fn infeasible_rework_gives_the_lowest_deviation() {
     let best = doc["best_deviation"].as_f64().expect("best_deviation");
     assert!(best > 5e-3 && best < 0.027, "lowest deviation {best}");
 }
+
+#[test]
+fn dropping_a_filter_part_says_how_to_replace_it() {
+    // A filtered design's bill of materials (the bundled filter demo's
+    // parts, invented): rework keeps the filter, so dropping one of its
+    // parts is refused with the position named and the command that does
+    // replace it, and nothing is written.
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(
+        &bom,
+        "part,count,position\n\
+         RB-L2520-0U47,1,inductor\n\
+         RB-C1206-X5R-47U-6V3,1,load\n\
+         R 0R056,1,damping\n\
+         RB-PT-3528-21-100U-6V3,2,damping\n",
+    )
+    .unwrap();
+    let scen = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/adc-rail-5v.toml");
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args([
+            "rework",
+            "--scenario",
+            scen,
+            "--drop",
+            "RB-PT-3528-21-100U-6V3",
+            "--bom",
+        ])
+        .arg(&bom)
+        .assert()
+        .code(2)
+        .get_output()
+        .stderr
+        .clone();
+    let msg = String::from_utf8(out).unwrap();
+    assert!(msg.contains("position `damping`"), "{msg}");
+    assert!(msg.contains("line 5"), "{msg}");
+    assert!(
+        msg.contains("design --filter on --exclude RB-PT-3528-21-100U-6V3"),
+        "{msg}"
+    );
+    // The same bill of materials with nothing dropped is reworked (the
+    // filter kept): still good.
+    let ok = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--scenario", scen, "--bom"])
+        .arg(&bom)
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&ok).unwrap();
+    assert_eq!(v["still_good"], true, "{v}");
+}
+
+#[test]
+fn an_obsolete_filter_part_is_warned_about() {
+    // The bundled filter demo's parts with the damping polymer marked
+    // obsolete in a copy of the demo catalog (invented data): rework keeps
+    // the filter, and says in the text and in JSON `warnings` that the
+    // filter must be redesigned.
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(
+        &bom,
+        "part,count,position\n\
+         RB-L2520-0U47,1,inductor\n\
+         RB-C1206-X5R-47U-6V3,1,load\n\
+         R 0R056,1,damping\n\
+         RB-PT-3528-21-100U-6V3,2,damping\n",
+    )
+    .unwrap();
+    let demo = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/catalogs/demo-parts.csv"
+    ))
+    .unwrap();
+    let cat: String = demo
+        .lines()
+        .map(|l| {
+            if l.starts_with("RB-PT-3528-21-100U-6V3,") {
+                l.replace(",active,", ",obsolete,")
+            } else {
+                l.to_string()
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    assert!(cat.contains("RB-PT-3528-21-100U-6V3,") && cat != demo);
+    let catalog = dir.path().join("parts.csv");
+    std::fs::write(&catalog, cat).unwrap();
+    let scen = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/adc-rail-5v.toml");
+    let out = Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["rework", "--json", "--scenario", scen, "--catalog"])
+        .arg(&catalog)
+        .arg("--bom")
+        .arg(&bom)
+        .assert()
+        .code(0)
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    let warned = v["warnings"].as_array().unwrap().iter().any(|w| {
+        w.as_str()
+            .unwrap()
+            .contains("RB-PT-3528-21-100U-6V3` is obsolete")
+    });
+    assert!(warned, "{}", v["warnings"]);
+}

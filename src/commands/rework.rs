@@ -43,6 +43,62 @@ fn check_drops(rows: &[(String, u32, u64)], drop: &[String], src: &str) -> Resul
     Ok(())
 }
 
+/// `--drop` of a post-filter part: rework keeps the filter, so say what
+/// to do instead rather than "not on the bill of materials".
+fn check_filter_drops(rows: &[assessment::BomRow], drop: &[String], src: &str) -> Result<()> {
+    for d in drop {
+        if let Some(r) = rows
+            .iter()
+            .find(|r| &r.part == d && r.position != assessment::Position::Converter)
+        {
+            anyhow::bail!(
+                "--drop: part `{d}` is in the post-filter of {src} (line {}, position `{}`); rework replaces \
+                 parts of the converter-side bank and keeps the filter as it is. To replace a filter part, run \
+                 `design --filter on --exclude {d}`",
+                r.line,
+                r.position.name()
+            );
+        }
+    }
+    Ok(())
+}
+
+/// Report lines for post-filter parts whose catalog status says they
+/// should go: rework keeps the filter, so the user must redesign it.
+fn filter_status_notes(p: &Problem, rows: &[assessment::BomRow]) -> Vec<String> {
+    use crate::catalog::Status as Life;
+    let mut out = Vec::new();
+    for r in rows
+        .iter()
+        .filter(|r| r.position != assessment::Position::Converter)
+    {
+        let status = if r.position == assessment::Position::Inductor {
+            p.inductors
+                .as_ref()
+                .and_then(|c| c.position(&r.part).map(|i| c.parts[i].status))
+        } else {
+            p.catalog
+                .position(&r.part)
+                .map(|i| p.catalog.parts[i].status)
+        };
+        let gone = match status {
+            Some(Life::Obsolete) => Some("obsolete"),
+            Some(Life::Nrnd) if !p.scenario.selection.allow_nrnd => Some("nrnd"),
+            _ => None,
+        };
+        if let Some(g) = gone {
+            out.push(format!(
+                "WARNING: the post-filter's {} `{}` is {g} in the catalog; rework keeps the filter as it is — \
+                 redesign it with `design --filter on --exclude {}`",
+                r.position.name(),
+                r.part,
+                r.part
+            ));
+        }
+    }
+    out
+}
+
 /// Which lines must go, and why: dropped, obsolete, nrnd (unless allowed),
 /// no longer allowed for another reason, or missing from the catalog.
 fn current_bank(p: &Problem, rows: &[(String, u32, u64)], drop: &[String]) -> Current {
@@ -414,6 +470,8 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
     } else {
         p
     };
+    check_filter_drops(&all_rows, drop, &src)?;
+    let filter_notes = filter_status_notes(&p, &all_rows);
     let rows: Vec<(String, u32, u64)> = all_rows
         .into_iter()
         .filter(|r| r.position == assessment::Position::Converter)
@@ -422,7 +480,9 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
     check_drops(&rows, drop, &src)?;
     let cur = current_bank(&p, &rows, drop);
     // The current bank with today's catalog data.
-    let before = if cur.bank.is_empty() {
+    // Behind a filter an empty converter-side bank is a design (the
+    // converter's own capacitance there is enough).
+    let before = if cur.bank.is_empty() && p.filter.is_none() {
         None
     } else {
         Some(assessment::assess(&p, &cur.bank)?)
@@ -440,6 +500,9 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
         p.scenario.selection.objective.name()
     ));
     current_section(&mut r, &src, &cur, before.as_ref());
+    for n in &filter_notes {
+        r.line(n.clone());
+    }
     let out = if still_good {
         Outcome {
             status: Status::Optimal,
@@ -479,6 +542,9 @@ pub fn rework(c: &Common, bom: &Path, drop: &[String]) -> Result<CommandOutput> 
         before.as_ref(),
         fresh.as_ref(),
     )?;
+    if let Some(w) = doc.get_mut("warnings").and_then(|w| w.as_array_mut()) {
+        w.extend(filter_notes.iter().map(|n| json!(n)));
+    }
     if !c.quiet {
         if let Some(x) = model::excluded(&p) {
             r.push(x);
