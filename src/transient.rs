@@ -407,6 +407,25 @@ pub struct StepModel {
     tail: Vec<TailLine>,
     /// Deviations computed (for reports of the search's work).
     pub evaluations: usize,
+    /// The filter's terms on the last grid for the last filter states.
+    tail_cache: TailCache,
+}
+
+/// A post-filter's terms at every frequency of one step grid, for one
+/// state of its lines: the search tests many banks behind the same filter
+/// state (its `low` corner and its cuts), and the filter's terms are most of
+/// each frequency's arithmetic. Holds exactly what [`step_z`] computes.
+#[derive(Debug, Clone, Default)]
+struct TailCache {
+    /// The grid, `usize::MAX` when empty.
+    grid: usize,
+    /// The filter's line states.
+    states: Vec<LineState>,
+    /// The frequencies in the order [`Core::fill`] asks for them (the
+    /// asymptote, then the grid's harmonics), Hz.
+    f: Vec<f64>,
+    /// (load-side admittance, series impedance, internal admittance) there.
+    terms: Vec<(Complex64, Complex64, Complex64)>,
 }
 
 /// Slowest time constant of one branch (`ESR·C`, `2·L/ESR`), s: an upper
@@ -506,12 +525,7 @@ fn step_z(
     f: f64,
 ) -> (Complex64, Complex64) {
     let w = 2.0 * PI * f;
-    let mut yb = Complex64::default();
-    for (&(i, n), st) in bank.iter().zip(states) {
-        if n > 0 {
-            yb += admittance(st.esr, esl[i], st.c, f) * n as f64;
-        }
-    }
+    let yb = bank_admittance(esl, bank, states, f);
     let yi = network.internal_admittance(f);
     if tail.is_empty() {
         return network.step_impedances_with(yb, yi, w);
@@ -519,6 +533,18 @@ fn step_z(
     let ts = states.get(bank.len()..).unwrap_or(&[]);
     let (y_load, zs) = tail_load_and_series(tail, ts, f);
     network.step_impedances_tail(yb, yi, w, y_load, zs)
+}
+
+/// The bank's admittance at `f` with its lines at `states`.
+#[inline]
+fn bank_admittance(esl: &[f64], bank: &Bank, states: &[LineState], f: f64) -> Complex64 {
+    let mut yb = Complex64::default();
+    for (&(i, n), st) in bank.iter().zip(states) {
+        if n > 0 {
+            yb += admittance(st.esr, esl[i], st.c, f) * n as f64;
+        }
+    }
+    yb
 }
 
 /// Slowest decay of a two-node ladder's modes: the loops among the bank
@@ -594,6 +620,10 @@ impl StepModel {
             network,
             tail: Vec::new(),
             evaluations: 0,
+            tail_cache: TailCache {
+                grid: usize::MAX,
+                ..TailCache::default()
+            },
         }
     }
 
@@ -699,9 +729,43 @@ impl StepModel {
             esl,
             core,
             tail,
+            tail_cache,
             ..
         } = self;
-        core.fill(g, |f| step_z(network, esl, tail, bank, states, f))
+        if tail.is_empty() {
+            return core.fill(g, |f| step_z(network, esl, tail, bank, states, f));
+        }
+        let ts = states.get(bank.len()..).unwrap_or(&[]);
+        if tail_cache.grid != g || tail_cache.states != ts {
+            tail_cache.grid = g;
+            tail_cache.states = ts.to_vec();
+            tail_cache.f.clear();
+            tail_cache.f.push(OMEGA_ASYMPTOTE / (2.0 * PI));
+            tail_cache
+                .f
+                .extend(core.grids[g].omega.iter().map(|&w| w / (2.0 * PI)));
+            tail_cache.terms.clear();
+            for &f in &tail_cache.f {
+                let (y_load, zs) = tail_load_and_series(tail, ts, f);
+                tail_cache
+                    .terms
+                    .push((y_load, zs, network.internal_admittance(f)));
+            }
+        }
+        let cache = &*tail_cache;
+        let mut at = 0usize;
+        core.fill(g, |f| {
+            let j = at;
+            at += 1;
+            // The cache follows Core::fill's order; any other frequency is
+            // computed afresh.
+            if cache.f.get(j) != Some(&f) {
+                return step_z(network, esl, tail, bank, states, f);
+            }
+            let (y_load, zs, yi) = cache.terms[j];
+            let yb = bank_admittance(esl, bank, states, f);
+            network.step_impedances_tail(yb, yi, 2.0 * PI * f, y_load, zs)
+        })
     }
 
     /// The deviation of `bank` (local indices) with each line at its state,
