@@ -445,17 +445,7 @@ fn dropping_a_filter_part_says_how_to_replace_it() {
     // parts, invented): rework keeps the filter, so dropping one of its
     // parts is refused with the position named and the command that does
     // replace it, and nothing is written.
-    let dir = tempfile::tempdir().unwrap();
-    let bom = dir.path().join("bom.csv");
-    std::fs::write(
-        &bom,
-        "part,count,position\n\
-         RB-L2520-0U47,1,inductor\n\
-         RB-C1206-X5R-47U-6V3,1,load\n\
-         R 0R056,1,damping\n\
-         RB-PT-3528-21-100U-6V3,2,damping\n",
-    )
-    .unwrap();
+    let (_dir, bom) = filtered_demo_bom();
     let scen = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/adc-rail-5v.toml");
     let out = Command::cargo_bin("ripplebank")
         .unwrap()
@@ -501,17 +491,7 @@ fn an_obsolete_filter_part_is_warned_about() {
     // obsolete in a copy of the demo catalog (invented data): rework keeps
     // the filter, and says in the text and in JSON `warnings` that the
     // filter must be redesigned.
-    let dir = tempfile::tempdir().unwrap();
-    let bom = dir.path().join("bom.csv");
-    std::fs::write(
-        &bom,
-        "part,count,position\n\
-         RB-L2520-0U47,1,inductor\n\
-         RB-C1206-X5R-47U-6V3,1,load\n\
-         R 0R056,1,damping\n\
-         RB-PT-3528-21-100U-6V3,2,damping\n",
-    )
-    .unwrap();
+    let (dir, bom) = filtered_demo_bom();
     let demo = std::fs::read_to_string(concat!(
         env!("CARGO_MANIFEST_DIR"),
         "/catalogs/demo-parts.csv"
@@ -550,4 +530,21 @@ fn an_obsolete_filter_part_is_warned_about() {
             .contains("RB-PT-3528-21-100U-6V3` is obsolete")
     });
     assert!(warned, "{}", v["warnings"]);
+}
+
+/// The bundled filter demo's design as a bill of materials with a
+/// `position` column (invented parts), in a fresh folder.
+fn filtered_demo_bom() -> (tempfile::TempDir, std::path::PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let bom = dir.path().join("bom.csv");
+    std::fs::write(
+        &bom,
+        "part,count,position\n\
+         RB-L2520-0U47,1,inductor\n\
+         RB-C1206-X5R-47U-6V3,1,load\n\
+         R 0R056,1,damping\n\
+         RB-PT-3528-21-100U-6V3,2,damping\n",
+    )
+    .unwrap();
+    (dir, bom)
 }
