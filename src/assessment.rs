@@ -278,7 +278,7 @@ pub fn capacitance_at_ripple(
 
 /// The most parts of one line a bank may hold (far beyond any real bank; it
 /// keeps every count and sum within `u32`).
-pub const MAX_COUNT_PER_PART: u32 = 100_000;
+pub(crate) const MAX_COUNT_PER_PART: u32 = 100_000;
 
 /// Parse `PART=N,PART=N` into catalog indices and counts.
 pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>> {
@@ -287,7 +287,11 @@ pub fn parse_bank_arg(problem: &Problem, text: &str) -> Result<Vec<(usize, u32)>
 
 /// As [`parse_bank_arg`], with errors naming the argument `arg`
 /// (`--load-bank`).
-pub fn parse_bank_arg_as(problem: &Problem, text: &str, arg: &str) -> Result<Vec<(usize, u32)>> {
+pub(crate) fn parse_bank_arg_as(
+    problem: &Problem,
+    text: &str,
+    arg: &str,
+) -> Result<Vec<(usize, u32)>> {
     let mut out: Vec<(usize, u32)> = Vec::new();
     for item in text.split(',').map(str::trim).filter(|s| !s.is_empty()) {
         let Some((id, n)) = item.split_once('=') else {
@@ -375,9 +379,9 @@ pub struct BomRow {
 }
 
 /// Header names read as the `part` column, in order of preference.
-pub const BOM_PART_HEADERS: &[&str] = &["part", "part_number", "item"];
+pub(crate) const BOM_PART_HEADERS: &[&str] = &["part", "part_number", "item"];
 /// Header names read as the `count` column, in order of preference.
-pub const BOM_COUNT_HEADERS: &[&str] = &["count", "qty", "quantity"];
+pub(crate) const BOM_COUNT_HEADERS: &[&str] = &["count", "qty", "quantity"];
 
 /// A bill of materials as read from CSV, every row with its position.
 /// Rows of the same part and position are summed.
@@ -519,31 +523,11 @@ fn did_you_mean(problem: &Problem, id: &str) -> String {
     })
 }
 
-/// Resolve a bill of materials against the catalog; unknown parts are errors.
-pub fn bom_to_bank(
-    problem: &Problem,
-    bom: &[(String, u32, u64)],
-    src: &str,
-) -> Result<Vec<(usize, u32)>> {
-    let mut out = Vec::new();
-    for (id, n, line) in bom {
-        let Some(i) = problem.catalog.position(id) else {
-            bail!(
-                "{src}: line {line}, column `part`: part `{id}` is not in the catalog {}{}",
-                problem.catalog.source,
-                did_you_mean(problem, id)
-            );
-        };
-        add(&mut out, i, *n);
-    }
-    Ok(out)
-}
-
 /// Relative rounding allowed when a ripple figure is compared with its
 /// limit (the optimizer's region check uses the same): a module's current is
 /// calibrated to its standalone ripple, which the converter alone must then
 /// meet at a target equal to it.
-pub const RIPPLE_ROUNDING: f64 = 1e-9;
+pub(crate) const RIPPLE_ROUNDING: f64 = 1e-9;
 
 /// A voltage in millivolts with sensible digits.
 fn text_mv(v: f64) -> String {
@@ -557,7 +541,7 @@ pub fn assess(problem: &Problem, bank: &[(usize, u32)]) -> Result<Assessment> {
 }
 
 /// As [`assess`], with options (the corner to judge at).
-pub fn assess_opts(
+pub(crate) fn assess_opts(
     problem: &Problem,
     bank: &[(usize, u32)],
     opts: &AssessOptions,
@@ -573,7 +557,7 @@ pub fn assess_opts(
 }
 
 /// As [`assess`], with an evaluator already built over (at least) the bank's parts.
-pub fn assess_with(
+pub(crate) fn assess_with(
     problem: &Problem,
     ev: &mut Evaluator,
     bank: &[(usize, u32)],

@@ -58,7 +58,7 @@ impl Technology {
 
     /// Default voltage derating (common practice, no source):
     /// 0.5 for MnO2 tantalum, 0.8 for every other technology.
-    pub fn default_derating(self) -> f64 {
+    pub(crate) fn default_derating(self) -> f64 {
         match self {
             Technology::Tantalum => 0.5,
             _ => 0.8,
@@ -66,7 +66,7 @@ impl Technology {
     }
 
     /// Polarised parts: reverse voltage and surge cautions apply.
-    pub fn polarised(self) -> bool {
+    pub(crate) fn polarised(self) -> bool {
         !matches!(self, Technology::Ceramic | Technology::Film)
     }
 }
@@ -140,7 +140,7 @@ pub struct Dielectric {
 /// Decode an EIA-198 dielectric code: class II `[XYZ][2-9][PRSTUV]`
 /// (e.g. X7R: −55…125 °C, ±15 %; Y5V: −30…85 °C, +22/−82 %) or class I
 /// `C0G`/`NP0` (−55…125 °C, 0).
-pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
+pub(crate) fn decode_dielectric(code: &str) -> Option<Dielectric> {
     let c = code.trim().to_ascii_uppercase();
     if matches!(c.as_str(), "C0G" | "COG" | "NP0" | "NPO") {
         return Some(Dielectric {
@@ -191,7 +191,7 @@ pub fn decode_dielectric(code: &str) -> Option<Dielectric> {
 }
 
 /// Footprint (body length × width, mm²) of an imperial EIA case code.
-pub fn eia_case_area(case: &str) -> Option<f64> {
+pub(crate) fn eia_case_area(case: &str) -> Option<f64> {
     if let Some(a) = imperial_case_area(case.trim()) {
         return Some(a);
     }
@@ -344,7 +344,7 @@ pub struct TempCurve {
 
 impl TempCurve {
     /// Largest factor accepted (an electrolytic at −55 °C may reach tens).
-    pub const MAX_FACTOR: f64 = 100.0;
+    pub(crate) const MAX_FACTOR: f64 = 100.0;
 
     /// Read `°C:factor` points joined by `;`.
     pub fn parse(text: &str) -> std::result::Result<TempCurve, String> {
@@ -396,7 +396,7 @@ impl TempCurve {
 
 /// Read an `aging` cell: percent per decade of hours, `2.5` or `"2.5%"`
 /// (also `"2.5%/decade"`).
-pub fn parse_aging(text: &str) -> std::result::Result<f64, String> {
+pub(crate) fn parse_aging(text: &str) -> std::result::Result<f64, String> {
     let t = text.trim();
     let t = t
         .strip_suffix("/decade")
@@ -478,7 +478,7 @@ pub struct Part {
 
 impl Part {
     /// Worst-case fractional capacitance loss over temperature.
-    pub fn temperature_drop(&self) -> f64 {
+    pub(crate) fn temperature_drop(&self) -> f64 {
         self.temp_drop
             .or(self.dielectric.as_ref().map(|(_, d)| d.drop))
             .unwrap_or(0.0)
@@ -486,7 +486,7 @@ impl Part {
 
     /// Worst-case fractional capacitance gain over temperature: the
     /// `temp_rise` column, else the EIA-198 letter, else 0.
-    pub fn temperature_rise(&self) -> f64 {
+    pub(crate) fn temperature_rise(&self) -> f64 {
         self.temp_rise
             .or(self.dielectric.as_ref().map(|(_, d)| d.rise))
             .unwrap_or(0.0)
@@ -495,7 +495,7 @@ impl Part {
     /// Fraction of capacitance lost to aging after `service_hours`:
     /// `(aging % / 100) · log10(service_hours / 1000)` beyond the 1000 h
     /// referee time, else 0 (capped below 1).
-    pub fn aging_loss(&self, service_hours: f64) -> f64 {
+    pub(crate) fn aging_loss(&self, service_hours: f64) -> f64 {
         if self.aging > 0.0 && service_hours > 1000.0 {
             (self.aging / 100.0 * (service_hours / 1000.0).log10()).min(0.99)
         } else {
@@ -503,8 +503,9 @@ impl Part {
         }
     }
 
+    #[cfg(test)]
     /// ESR factor at temperature `t` °C (1 without an `esr_temp` curve).
-    pub fn esr_factor(&self, t: f64) -> f64 {
+    pub(crate) fn esr_factor(&self, t: f64) -> f64 {
         self.esr_temp.as_ref().map_or(1.0, |c| c.at(t))
     }
 
@@ -513,7 +514,7 @@ impl Part {
     /// falls with temperature. A curve that is not monotonic in the range
     /// gives its lowest and highest factor there instead, so the range
     /// always covers every temperature in between.
-    pub fn esr_range(&self, temp_min: f64, temp_max: f64) -> (f64, f64) {
+    pub(crate) fn esr_range(&self, temp_min: f64, temp_max: f64) -> (f64, f64) {
         let (lo, hi) = if temp_min <= temp_max {
             (temp_min, temp_max)
         } else {
@@ -532,7 +533,7 @@ impl Part {
     }
 
     /// Rated temperature range, from the columns or else the EIA code.
-    pub fn temperature_range(&self) -> (Option<f64>, Option<f64>) {
+    pub(crate) fn temperature_range(&self) -> (Option<f64>, Option<f64>) {
         let d = self.dielectric.as_ref().map(|(_, d)| *d);
         (
             self.temp_min.or(d.map(|d| d.temp_min)),
@@ -576,7 +577,7 @@ impl Part {
 
 /// The catalog-wide note about parts without a tolerance (an assessment
 /// replaces it with one note per part of its bank).
-pub const NO_TOLERANCE: &str = "give no tolerance; 20 % assumed";
+pub(crate) const NO_TOLERANCE: &str = "give no tolerance; 20 % assumed";
 
 /// A loaded catalog of `T` rows: capacitors ([`Catalog`]) or inductors
 /// ([`InductorCatalog`](crate::inductors::InductorCatalog)).

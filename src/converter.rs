@@ -75,7 +75,7 @@ impl Waveform {
     }
 
     /// Lowest and highest value over the period.
-    pub fn min_max(&self) -> (f64, f64) {
+    pub(crate) fn min_max(&self) -> (f64, f64) {
         self.points
             .iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &(_, v)| {
@@ -85,7 +85,7 @@ impl Waveform {
 
     /// Sum of `n` copies shifted by `period / n` (interleaved phases). Exact
     /// for continuous waveforms: the breakpoints of every copy are kept.
-    pub fn interleave(&self, n: u32) -> Waveform {
+    pub(crate) fn interleave(&self, n: u32) -> Waveform {
         if n <= 1 {
             return self.clone();
         }
@@ -111,7 +111,7 @@ impl Waveform {
     /// Replace every jump by a linear ramp of `edge` seconds centred on it;
     /// the ramp's ends take the ideal waveform's values there. A
     /// ramp is shortened to half of a neighbouring segment if it would not fit.
-    pub fn with_edges(&self, edge: f64) -> Waveform {
+    pub(crate) fn with_edges(&self, edge: f64) -> Waveform {
         if edge <= 0.0 {
             return self.clone();
         }
@@ -172,7 +172,7 @@ impl Waveform {
 ///
 /// For a module the triangle has unit peak-to-peak amplitude; the caller
 /// scales it to the measured standalone ripple.
-pub fn operating_points(s: &Scenario) -> Vec<OperatingPoint> {
+pub(crate) fn operating_points(s: &Scenario) -> Vec<OperatingPoint> {
     let mut corners: Vec<Option<f64>> = s.vin_corners().into_iter().map(Some).collect();
     if corners.is_empty() {
         corners.push(None);
@@ -229,7 +229,7 @@ pub fn region_vins(s: &Scenario) -> Vec<Option<f64>> {
 
 /// The operating point at one input voltage and one converter inductance,
 /// with the scenario's edge time applied.
-pub fn operating_point_at(s: &Scenario, vin: Option<f64>, l: Option<f64>) -> OperatingPoint {
+pub(crate) fn operating_point_at(s: &Scenario, vin: Option<f64>, l: Option<f64>) -> OperatingPoint {
     let mut op = operating_point(s, vin, l.unwrap_or(0.0));
     op.inductance = l;
     op.waveform = op.waveform.with_edges(s.converter.edge_time.0);

@@ -62,6 +62,15 @@ impl PartModel {
     }
 }
 
+/// Which node of the output network a waveform is taken at.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Node {
+    /// The measured (load) node: behind the post-filter when there is one.
+    Load,
+    /// The converter-side node of a post-filter (the load node without one).
+    Converter,
+}
+
 /// Which capacitance corner.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Corner {
@@ -163,7 +172,7 @@ impl TailLine {
 /// A post-filter's `(ty, h)` of [`crate::network::tail_terms`] at `f` with
 /// its lines at `states`, and the load node's total admittance there.
 #[inline]
-pub fn tail_terms_of(
+pub(crate) fn tail_terms_of(
     tail: &[TailLine],
     states: &[LineState],
     f: f64,
@@ -179,7 +188,7 @@ pub fn tail_terms_of(
 /// its inductor's series impedance at `f`, `(Y_load, Z_s)`, with its lines
 /// at `states`.
 #[inline]
-pub fn tail_load_and_series(
+pub(crate) fn tail_load_and_series(
     tail: &[TailLine],
     states: &[LineState],
     f: f64,
@@ -496,7 +505,7 @@ impl Evaluator {
     /// As [`Evaluator::new`], the full-bandwidth sum reaching at least `top`
     /// Hz (see [`full_band_top`]) when the harmonic count is automatic. At
     /// full bandwidth the target figure then sums as far.
-    pub fn with_top(
+    pub(crate) fn with_top(
         s: &Scenario,
         ops: &[OperatingPoint],
         parts: Vec<PartModel>,
@@ -630,7 +639,7 @@ impl Evaluator {
     }
 
     /// Replace the part list (tables are rebuilt).
-    pub fn set_parts(&mut self, parts: Vec<PartModel>) {
+    pub(crate) fn set_parts(&mut self, parts: Vec<PartModel>) {
         let n = self.n_full;
         self.y_worst = Vec::with_capacity(parts.len() * n);
         self.y_typical = Vec::with_capacity(parts.len() * n);
@@ -720,7 +729,7 @@ impl Evaluator {
     /// Put a post-filter behind the bank: every figure is then taken at the
     /// load node, with the bank on the converter's side of the inductor.
     /// Allocates: once per evaluator.
-    pub fn set_tail(&mut self, tail: Vec<TailLine>) {
+    pub(crate) fn set_tail(&mut self, tail: Vec<TailLine>) {
         self.tail = tail;
         let low: Vec<LineState> = self
             .tail
@@ -791,7 +800,7 @@ impl Evaluator {
     /// most `ymax[k]` in magnitude: max_k 1.53·|D_k·h_k| / (ymax_k·|G_k| +
     /// |Y_int + G_k·ty_k|) (the argument of [`Evaluator::required_admittance`]).
     /// Used to drop filters no allowed bank can make pass.
-    pub fn tail_ripple_floor(&self, tail: &[TailLine], ymax: &[f64]) -> f64 {
+    pub(crate) fn tail_ripple_floor(&self, tail: &[TailLine], ymax: &[f64]) -> f64 {
         let mut best: f64 = 0.0;
         for k in 0..self.n_limited.min(ymax.len()) {
             let f = self.freqs[k];
@@ -816,13 +825,6 @@ impl Evaluator {
             });
         }
         best
-    }
-
-    /// The filter's output impedance at `f`: the load node's impedance with
-    /// the converter's side held at a fixed voltage (bank node shorted),
-    /// `1 / (Y_load + 1/Z_s)`, its lines at `states` (None without a filter).
-    pub fn output_impedance(&self, states: &[LineState], f: f64) -> Option<Complex64> {
-        tail_output_impedance(&self.tail, states, f)
     }
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {
@@ -956,23 +958,6 @@ impl Evaluator {
         worst
     }
 
-    /// The target figure (worst corner) from only the first `n` harmonics
-    /// of the remaining series, to judge how well it has converged.
-    pub fn ripple_pp_first(&mut self, bank: &Bank, n: usize) -> f64 {
-        if self.is_empty(bank) {
-            return f64::INFINITY;
-        }
-        let n = n.min(self.n_limited);
-        self.fill_transfer(bank, Corner::Worst, n);
-        let mut worst: f64 = 0.0;
-        for j in 0..self.ops_named.len() {
-            let c = self.ops_named[j];
-            self.load_remainder(c, Band::Limited, n);
-            worst = worst.max(self.pp_from_buf(n, Band::Limited, c));
-        }
-        worst
-    }
-
     /// Worst-corner ripple of the target figure, stopping early once it is
     /// known to exceed `limit`: then the value returned is a lower bound
     /// above `limit` (the largest harmonic, or the first corner over it).
@@ -989,7 +974,12 @@ impl Evaluator {
     /// As [`Evaluator::ripple_check`], from the added bank's admittance per
     /// harmonic (worst corner, `n_limited` values) instead of a bank; `bank`
     /// is the same bank, for its high-frequency asymptote.
-    pub fn ripple_check_admittance(&mut self, yb: &[Complex64], bank: &Bank, limit: f64) -> f64 {
+    pub(crate) fn ripple_check_admittance(
+        &mut self,
+        yb: &[Complex64],
+        bank: &Bank,
+        limit: f64,
+    ) -> f64 {
         let n = self.n_limited;
         if self.is_empty(bank) {
             return f64::INFINITY;
@@ -1147,7 +1137,7 @@ impl Evaluator {
     }
 
     /// |Y_ik| of one capacitor at the worst corner, for the target's harmonics.
-    pub fn admittance_magnitudes(&self, i: usize) -> Vec<f64> {
+    pub(crate) fn admittance_magnitudes(&self, i: usize) -> Vec<f64> {
         (0..self.n_limited)
             .map(|k| self.y(i, k, Corner::Worst).norm())
             .collect()
@@ -1195,7 +1185,7 @@ impl Evaluator {
     }
 
     /// Harmonic voltage phasors V_k of the target figure at one vin corner.
-    pub fn harmonic_voltages(
+    pub(crate) fn harmonic_voltages(
         &mut self,
         bank: &Bank,
         corner: Corner,
@@ -1241,7 +1231,7 @@ impl Evaluator {
 
     /// As [`Evaluator::part_currents`], into `out` (one value per bank line),
     /// allocating nothing.
-    pub fn part_currents_into(&mut self, bank: &Bank, out: &mut [f64]) {
+    pub(crate) fn part_currents_into(&mut self, bank: &Bank, out: &mut [f64]) {
         out.iter_mut().for_each(|x| *x = 0.0);
         if self.is_empty(bank) {
             return;
@@ -1365,51 +1355,29 @@ impl Evaluator {
 
     /// As [`Evaluator::pp_filled`] from only the first `n` harmonics of the
     /// remaining series (to judge its convergence).
-    pub fn pp_filled_n(&mut self, op: usize, band: Band, n: usize) -> f64 {
+    pub(crate) fn pp_filled_n(&mut self, op: usize, band: Band, n: usize) -> f64 {
         let n = n.min(self.harmonics_of(band));
         self.load_remainder(op, band, n);
         self.pp_from_buf(n, band, op)
     }
 
     /// Samples of one period of the exact ripple with each line at its own
-    /// state, at operating point `op` (empty for an empty bank or a
-    /// non-finite figure).
-    pub fn waveform_states(
+    /// state, at operating point `op`, at `node` (empty for an empty bank or
+    /// a non-finite figure).
+    pub(crate) fn waveform_states(
         &mut self,
         bank: &Bank,
         states: &[LineState],
         band: Band,
         op: usize,
-    ) -> Vec<f64> {
-        self.waveform_at(bank, states, band, op, false)
-    }
-
-    /// As [`Evaluator::waveform_states`], at the converter-side node of a
-    /// post-filter (the load node's samples without one).
-    pub fn waveform_states_converter_node(
-        &mut self,
-        bank: &Bank,
-        states: &[LineState],
-        band: Band,
-        op: usize,
-    ) -> Vec<f64> {
-        self.waveform_at(bank, states, band, op, true)
-    }
-
-    fn waveform_at(
-        &mut self,
-        bank: &Bank,
-        states: &[LineState],
-        band: Band,
-        op: usize,
-        converter_node: bool,
+        node: Node,
     ) -> Vec<f64> {
         if self.is_empty(bank) {
             return Vec::new();
         }
         let n = self.harmonics_of(band);
         self.fill_states(bank, states, n);
-        if converter_node {
+        if node == Node::Converter {
             self.to_converter_node(n);
         }
         self.samples_filled(band, op)
@@ -1417,7 +1385,7 @@ impl Evaluator {
 
     /// Harmonic voltage phasors V_k of the target figure with each line at
     /// its own state, at operating point `op`.
-    pub fn harmonic_voltages_states(
+    pub(crate) fn harmonic_voltages_states(
         &mut self,
         bank: &Bank,
         states: &[LineState],
@@ -1427,7 +1395,7 @@ impl Evaluator {
     }
 
     /// Harmonic count of a band.
-    pub fn harmonics_of(&self, band: Band) -> usize {
+    pub(crate) fn harmonics_of(&self, band: Band) -> usize {
         match band {
             Band::Limited => self.n_limited,
             Band::Full => self.n_full,
@@ -1489,7 +1457,7 @@ impl Evaluator {
     /// the full harmonic set (0 without a filter). The inductor's current is
     /// smooth (the filter has removed the converter's steps), so its
     /// series converges fast; it is summed on the full grid.
-    pub fn inductor_ripple_filled(
+    pub(crate) fn inductor_ripple_filled(
         &mut self,
         states: &[LineState],
         op: usize,

@@ -238,7 +238,7 @@ fn peak_over(tail: &[TailLine], states: &[Vec<LineState>], f_lo: f64, f_hi: f64)
 
 /// The peak output impedance with every filter line at its typical state
 /// (a quick necessary test: the region's peak is at least this).
-pub fn typical_peak_output_impedance(tail: &[TailLine]) -> f64 {
+pub(crate) fn typical_peak_output_impedance(tail: &[TailLine]) -> f64 {
     let f0 = corner_frequency(tail);
     if f0 <= 0.0 {
         return 0.0;
@@ -248,7 +248,7 @@ pub fn typical_peak_output_impedance(tail: &[TailLine]) -> f64 {
 }
 
 /// The filter's parts in the objective's terms: `(cost, area, count)`.
-pub fn tail_totals(problem: &Problem, f: &FilterDesign) -> (f64, f64, u32) {
+pub(crate) fn tail_totals(problem: &Problem, f: &FilterDesign) -> (f64, f64, u32) {
     let cat = &problem.catalog.parts;
     let (mut cost, mut area, mut count) = (0.0, 0.0, 0u32);
     for &(i, n) in &f.load_bank {
@@ -276,7 +276,7 @@ pub fn tail_totals(problem: &Problem, f: &FilterDesign) -> (f64, f64, u32) {
 
 /// The filter's share of the objective key (primary, then tie-breakers),
 /// in the same terms as a bank's.
-pub fn tail_key(problem: &Problem, f: &FilterDesign) -> [f64; 3] {
+pub(crate) fn tail_key(problem: &Problem, f: &FilterDesign) -> [f64; 3] {
     let (cost, area, count) = tail_totals(problem, f);
     let lines = (f.load_bank.len() + usize::from(f.damping.is_some()) + 1) as f64;
     let lc = problem.scenario.selection.line_cost.0 * lines;
@@ -291,7 +291,7 @@ pub fn tail_key(problem: &Problem, f: &FilterDesign) -> [f64; 3] {
 /// (converter-side, local indices of `ev`) at the worst point found for the
 /// ripple and at the filter's named corners: peak-to-peak ripple and the
 /// peak (DC share plus half the ripple), per inductor, A.
-pub fn inductor_current(
+pub(crate) fn inductor_current(
     problem: &Problem,
     ev: &mut Evaluator,
     bank: &[(usize, u32)],
@@ -376,7 +376,7 @@ pub struct FilterAssessment {
 /// The filter of `problem` (set) behind the bank `local` of `ev`, at the
 /// worst point `worst` of the load node's ripple, with `currents` the
 /// region's per-line RMS currents (bank lines, then the filter's).
-pub fn assess_filter(
+pub(crate) fn assess_filter(
     problem: &Problem,
     ev: &mut Evaluator,
     local: &[(usize, u32)],
@@ -446,7 +446,10 @@ pub fn assess_filter(
 }
 
 /// The filter's checks: its own limits and its parts' ratings.
-pub fn filter_checks(problem: &Problem, f: &FilterAssessment) -> Vec<crate::assessment::Check> {
+pub(crate) fn filter_checks(
+    problem: &Problem,
+    f: &FilterAssessment,
+) -> Vec<crate::assessment::Check> {
     use crate::assessment::{Bound, Check};
     let s = &problem.scenario.filter;
     let mut out = Vec::new();

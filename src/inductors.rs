@@ -57,13 +57,13 @@ pub struct Inductor {
 impl Inductor {
     /// Winding capacitance that resonates with the inductance at the
     /// self-resonant frequency: `C_p = 1 / ((2π·srf)² · L)`.
-    pub fn parallel_capacitance(&self) -> Option<f64> {
+    pub(crate) fn parallel_capacitance(&self) -> Option<f64> {
         self.srf
             .map(|f| 1.0 / ((2.0 * std::f64::consts::PI * f).powi(2) * self.inductance))
     }
 
     /// Lowest and highest inductance within the tolerance.
-    pub fn inductance_range(&self) -> (f64, f64) {
+    pub(crate) fn inductance_range(&self) -> (f64, f64) {
         (
             self.inductance * (1.0 - self.tolerance),
             self.inductance * (1.0 + self.tolerance),
@@ -79,7 +79,7 @@ impl Inductor {
     /// Peak current in one of `count` equal inductors in parallel: its
     /// share of the load plus half its own peak-to-peak ripple current,
     /// `iout / count + ΔI_L / 2` (`ripple_pp` is one inductor's ripple).
-    pub fn peak_current(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+    pub(crate) fn peak_current(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
         iout / count.max(1) as f64 + ripple_pp / 2.0
     }
 
@@ -96,13 +96,14 @@ impl Inductor {
         (i * i + ripple_pp * ripple_pp / 12.0).sqrt()
     }
 
+    #[cfg(test)]
     /// Thermal margin, A: `rated_current − I_rms` (see [`Inductor::rms_current`]).
-    pub fn rated_margin(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
+    pub(crate) fn rated_margin(&self, iout: f64, ripple_pp: f64, count: u32) -> f64 {
         self.rated_current - self.rms_current(iout, ripple_pp, count)
     }
 
     /// The rated temperature range; a bound not given is `None`.
-    pub fn temperature_range(&self) -> (Option<f64>, Option<f64>) {
+    pub(crate) fn temperature_range(&self) -> (Option<f64>, Option<f64>) {
         (self.temp_min, self.temp_max)
     }
 }
@@ -132,7 +133,7 @@ pub(crate) const KNOWN: &[(&str, Col)] = &[
 ];
 
 /// The columns every inductor catalog must have.
-pub const REQUIRED: &[&str] = &[
+pub(crate) const REQUIRED: &[&str] = &[
     "part",
     "inductance",
     "dcr",

@@ -205,8 +205,9 @@ fn deviation_floor(s: &Scenario) -> Option<f64> {
     Some(spec.capacitance_floor() / (1.0 + crate::transient::ROUNDING) - own)
 }
 
+#[cfg(test)]
 /// The least Σ n·C_low the table's floors ask of a bank (0 when none does).
-pub fn capacitance_floor(s: &Scenario) -> f64 {
+pub(crate) fn capacitance_floor(s: &Scenario) -> f64 {
     LIMITS
         .iter()
         .filter_map(|l| match l.linear {
@@ -225,9 +226,10 @@ pub fn limit(id: LimitId) -> &'static Limit {
 }
 
 impl Limit {
+    #[cfg(test)]
     /// The limit's value in `s`, or the value that does not constrain
     /// (+∞ for an upper limit, 0 for a lower one).
-    pub fn value_or_open(&self, s: &Scenario) -> f64 {
+    pub(crate) fn value_or_open(&self, s: &Scenario) -> f64 {
         (self.value)(s).unwrap_or(match self.bound {
             Bound::AtMost => f64::INFINITY,
             Bound::AtLeast => 0.0,
@@ -282,7 +284,7 @@ impl Limit {
 
     /// The report row of one part's count `n` for a per-part limit, when
     /// the count breaks it (only broken per-part limits are listed).
-    pub fn check_part(&self, s: &Scenario, id: &str, n: u32) -> Option<Check> {
+    pub(crate) fn check_part(&self, s: &Scenario, id: &str, n: u32) -> Option<Check> {
         if !matches!(self.linear, Linear::EachCount) {
             return None;
         }

@@ -14,20 +14,20 @@ pub const DEMO_SCENARIO: &str = include_str!("../scenarios/pol-buck-3v3.toml");
 /// The bundled demo catalog (invented data).
 pub const DEMO_CATALOG: &str = include_str!("../catalogs/demo-parts.csv");
 /// The name the bundled demo scenario goes by in messages.
-pub const DEMO_SCENARIO_NAME: &str = "scenarios/pol-buck-3v3.toml (bundled demo)";
+pub(crate) const DEMO_SCENARIO_NAME: &str = "scenarios/pol-buck-3v3.toml (bundled demo)";
 /// The name the bundled demo catalog goes by in messages.
 pub const DEMO_CATALOG_NAME: &str = "catalogs/demo-parts.csv (bundled demo)";
 /// The path the bundled demo scenario is reported under in `inputs`.
-pub const DEMO_SCENARIO_INPUT: &str = "(bundled) scenarios/pol-buck-3v3.toml";
+pub(crate) const DEMO_SCENARIO_INPUT: &str = "(bundled) scenarios/pol-buck-3v3.toml";
 /// The path the bundled demo catalog is reported under in `inputs`.
-pub const DEMO_CATALOG_INPUT: &str = "(bundled) catalogs/demo-parts.csv";
+pub(crate) const DEMO_CATALOG_INPUT: &str = "(bundled) catalogs/demo-parts.csv";
 /// The bundled demo inductor catalog (invented data), used when a filter is
 /// considered and neither `[filter] inductors` nor `--inductors` names one.
-pub const DEMO_INDUCTORS: &str = include_str!("../catalogs/demo-inductors.csv");
+pub(crate) const DEMO_INDUCTORS: &str = include_str!("../catalogs/demo-inductors.csv");
 /// The name the bundled demo inductor catalog goes by in messages.
-pub const DEMO_INDUCTORS_NAME: &str = "catalogs/demo-inductors.csv (bundled demo)";
+pub(crate) const DEMO_INDUCTORS_NAME: &str = "catalogs/demo-inductors.csv (bundled demo)";
 /// The path the bundled demo inductor catalog is reported under in `inputs`.
-pub const DEMO_INDUCTORS_INPUT: &str = "(bundled) catalogs/demo-inductors.csv";
+pub(crate) const DEMO_INDUCTORS_INPUT: &str = "(bundled) catalogs/demo-inductors.csv";
 
 /// Options that adjust a scenario from the command line.
 #[derive(Debug, Default, Clone)]
@@ -61,7 +61,7 @@ pub fn scenario_and_catalog(
 }
 
 /// As [`scenario_and_catalog`], with the input files' paths and hashes.
-pub fn scenario_catalog_inputs(
+pub(crate) fn scenario_catalog_inputs(
     scenario: Option<&Path>,
     catalog: Option<&Path>,
 ) -> Result<(Scenario, Catalog, Inputs)> {
@@ -111,7 +111,7 @@ pub fn problem(scenario: Option<&Path>, catalog: Option<&Path>, o: &Overrides) -
 }
 
 /// As [`problem`], with the input files' paths and hashes.
-pub fn problem_and_inputs(
+pub(crate) fn problem_and_inputs(
     scenario: Option<&Path>,
     catalog: Option<&Path>,
     o: &Overrides,
@@ -152,7 +152,7 @@ pub fn problem_and_inputs(
 /// considered (`use` auto or on) or the command needs one; else none. With
 /// the input's path and hash, and a note when a scenario file of the user's
 /// gets the bundled demo inductors.
-pub fn inductor_catalog(
+pub(crate) fn inductor_catalog(
     s: &Scenario,
     user_scenario: bool,
     o: &Overrides,

@@ -96,29 +96,24 @@ impl Network {
     }
 
     /// Whether the converter has capacitance of its own.
-    pub fn has_internal(&self) -> bool {
+    pub(crate) fn has_internal(&self) -> bool {
         self.internal.is_some()
     }
 
     /// Admittance of the internal branch at `f` (0 without one).
     #[inline]
-    pub fn internal_admittance(&self, f: f64) -> Complex64 {
+    pub(crate) fn internal_admittance(&self, f: f64) -> Complex64 {
         match &self.internal {
             Some(b) => b.admittance(f),
             None => Complex64::new(0.0, 0.0),
         }
     }
 
-    /// The internal admittance at [`OMEGA_ASYMPTOTE`].
-    pub fn internal_admittance_big(&self) -> Complex64 {
-        self.internal_big
-    }
-
     /// `G = 1 + jωLc·Y_int` for the internal admittance `yi` at angular
     /// frequency `w`, so that the total admittance the current sees is
     /// `1/Z_t = Y_b·G + Y_int` (linear in the bank's admittance).
     #[inline]
-    pub fn coupling_with(&self, yi: Complex64, w: f64) -> Complex64 {
+    pub(crate) fn coupling_with(&self, yi: Complex64, w: f64) -> Complex64 {
         Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.connection_inductance) * yi
     }
 
@@ -156,7 +151,7 @@ impl Network {
     /// converter's current source open (through the connection inductance):
     /// `Y_int / (1 + jωLc·Y_int)`. With the bank's own admittance added it
     /// is what an impedance meter at the bank's node sees.
-    pub fn internal_at_bank(&self, f: f64) -> Complex64 {
+    pub(crate) fn internal_at_bank(&self, f: f64) -> Complex64 {
         let yi = self.internal_admittance(f);
         yi / self.coupling_with(yi, 2.0 * PI * f)
     }
@@ -165,7 +160,7 @@ impl Network {
     /// converter's current phasor `current` when the transfer impedance is
     /// `z_t`: the part's share `Y_i / Y_total` with `Y_total = 1/Z_t`.
     #[inline]
-    pub fn part_current(current: Complex64, z_t: Complex64, y_part: Complex64) -> Complex64 {
+    pub(crate) fn part_current(current: Complex64, z_t: Complex64, y_part: Complex64) -> Complex64 {
         current * z_t * y_part
     }
 
@@ -205,7 +200,7 @@ impl Network {
     /// on the way to the load node. Seen from the load node with the
     /// converter open: `Y_load` in parallel with `Zs + 1/Y1`.
     #[inline]
-    pub fn step_impedances_tail(
+    pub(crate) fn step_impedances_tail(
         &self,
         yb: Complex64,
         yi: Complex64,
@@ -237,7 +232,12 @@ impl Network {
 
     /// As [`Network::asymptote`] with a post-filter's terms `(ty, h)` at
     /// [`OMEGA_ASYMPTOTE`] ([`Network::transfer_tail`]).
-    pub fn asymptote_tail(&self, yb_big: Complex64, ty: Complex64, h: Complex64) -> (f64, f64) {
+    pub(crate) fn asymptote_tail(
+        &self,
+        yb_big: Complex64,
+        ty: Complex64,
+        h: Complex64,
+    ) -> (f64, f64) {
         let z = self.transfer_tail(yb_big, self.internal_big, OMEGA_ASYMPTOTE, ty, h);
         if z.is_finite() {
             let a1 = z.im / OMEGA_ASYMPTOTE;
@@ -384,8 +384,14 @@ impl Ladder {
         )
     }
 
+    #[cfg(test)]
     /// The load node's transfer impedance alone (the measured figure).
-    pub fn transfer_to_load(&self, y_conv: Complex64, y_load: Complex64, f: f64) -> Complex64 {
+    pub(crate) fn transfer_to_load(
+        &self,
+        y_conv: Complex64,
+        y_load: Complex64,
+        f: f64,
+    ) -> Complex64 {
         self.transfer(y_conv, y_load, f).1
     }
 }

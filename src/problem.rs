@@ -116,7 +116,7 @@ fn height_or_exclusion(s: &Scenario, height: Option<f64>, id: &str) -> Option<St
 }
 
 /// Why a part may not be used in this scenario, or `None` if it may.
-pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<String> {
+pub(crate) fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<String> {
     let vout = s.converter.vout.0;
     let der = s.derating(p.technology);
     if p.rated_voltage * der < vout {
@@ -158,7 +158,11 @@ pub fn ineligibility(s: &Scenario, p: &Part, objective: Objective) -> Option<Str
 /// sharing the load equally); the saturation check with the inductor's own
 /// ripple current needs a design and is the evaluator's
 /// ([`Inductor::saturation_margin`]).
-pub fn inductor_ineligibility(s: &Scenario, l: &Inductor, objective: Objective) -> Option<String> {
+pub(crate) fn inductor_ineligibility(
+    s: &Scenario,
+    l: &Inductor,
+    objective: Objective,
+) -> Option<String> {
     let iout = s.converter.iout.0;
     let n = s.filter.max_inductor_count.max(1);
     let in_parallel = if n > 1 {
@@ -228,10 +232,10 @@ pub fn inductor_ineligibility(s: &Scenario, l: &Inductor, objective: Objective) 
 }
 
 /// Reason for a part with no footprint where one is needed.
-pub const NO_AREA: &str = "no area and no EIA case code to derive it from";
+pub(crate) const NO_AREA: &str = "no area and no EIA case code to derive it from";
 
 /// A part's contribution to the added-capacitance limit on the scenario's basis.
-pub fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
+pub(crate) fn cap_limit_value(s: &Scenario, p: &Part) -> f64 {
     match s.selection.max_capacitance_basis {
         CapBasis::Nominal => p.c_nominal_max(),
         CapBasis::Effective => p.c_nominal_max() * p.bias_factor(s.converter.vout.0),
@@ -554,7 +558,7 @@ impl Problem {
     /// capacitance ([`crate::evaluator::full_band_top`]) only when the target
     /// itself is at full bandwidth. The ripple currents do not need it (the
     /// harmonics above 500 MHz carry a negligible share of the RMS current).
-    pub fn search_evaluator(&self, parts: &[usize]) -> Evaluator {
+    pub(crate) fn search_evaluator(&self, parts: &[usize]) -> Evaluator {
         self.evaluator_reaching(parts, self.scenario.target.bandwidth.is_none())
     }
 
@@ -728,7 +732,7 @@ fn filter_warnings(s: &Scenario, lc: &InductorCatalog, eligible: &[usize]) -> Ve
 /// The evaluator's model of a filter inductor: the inductance range in the
 /// capacitance fields (`low` is the lowest inductance, the least
 /// attenuation), the DCR (the catalog's maximum) in the ESR fields.
-pub fn inductor_model(ind: &crate::inductors::Inductor, index: usize) -> PartModel {
+pub(crate) fn inductor_model(ind: &crate::inductors::Inductor, index: usize) -> PartModel {
     let (lo, hi) = ind.inductance_range();
     PartModel {
         index,

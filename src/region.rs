@@ -104,7 +104,7 @@ pub fn value_at(
 
 /// The largest figure over the named corner's input-voltage range
 /// (nominal inductance), refined between the sweep's points.
-pub fn named_value(
+pub(crate) fn named_value(
     problem: &Problem,
     ev: &mut Evaluator,
     bank: &Bank,
@@ -357,37 +357,20 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         .into_iter()
         .flatten()
         .collect();
+    let ranges: Vec<[(f64, f64); 2]> = (0..ev.line_count(bank))
+        .map(|j| {
+            let p = ev.line_model(bank, j);
+            [p.range(0), p.range(1)]
+        })
+        .collect();
     for start in starts {
         let mut cur = start;
         for _round in 0..2 {
             let before = cur.value;
-            for j in 0..ev.line_count(bank) {
-                let p = ev.line_model(bank, j).clone();
-                for coord in 0..2 {
-                    let (lo, hi) = p.range(coord);
-                    if hi <= lo {
-                        continue;
-                    }
-                    let op = cur.op;
-                    let mut st = cur.states.clone();
-                    let (x, v) = golden(lo, hi, 12, |x| {
-                        if coord == 0 {
-                            st[j].c = x;
-                        } else {
-                            st[j].esr = x;
-                        }
-                        value_at(ev, bank, &st, op, band)
-                    });
-                    if v > cur.value {
-                        if coord == 0 {
-                            cur.states[j].c = x;
-                        } else {
-                            cur.states[j].esr = x;
-                        }
-                        cur.value = v;
-                    }
-                }
-            }
+            let op = cur.op;
+            ascend_lines(&ranges, &mut cur.states, &mut cur.value, |st| {
+                value_at(ev, bank, st, op, band)
+            });
             // Input voltage, between the sweep's neighbours.
             let op0 = ev.ops[cur.op].clone();
             if let (Some(v0), true) = (op0.vin, vins.len() > 1) {
@@ -414,6 +397,41 @@ pub fn worst(problem: &Problem, ev: &mut Evaluator, bank: &Bank, band: Band) -> 
         }
     }
     best
+}
+
+/// One pass of the coordinate ascent over every line's capacitance and ESR
+/// (`ranges[j]`, as [`PartModel::range`]): a golden-section search of
+/// `figure` along each coordinate with a range, the other states kept; the
+/// states move to its largest figure where that is larger than `value`.
+pub(crate) fn ascend_lines(
+    ranges: &[[(f64, f64); 2]],
+    states: &mut [LineState],
+    value: &mut f64,
+    mut figure: impl FnMut(&[LineState]) -> f64,
+) {
+    let set = |s: &mut LineState, coord: usize, x: f64| {
+        if coord == 0 {
+            s.c = x;
+        } else {
+            s.esr = x;
+        }
+    };
+    for (j, r) in ranges.iter().enumerate() {
+        for (coord, &(lo, hi)) in r.iter().enumerate() {
+            if hi <= lo {
+                continue;
+            }
+            let mut st = states.to_vec();
+            let (x, v) = golden(lo, hi, 12, |x| {
+                set(&mut st[j], coord, x);
+                figure(&st)
+            });
+            if v > *value {
+                set(&mut states[j], coord, x);
+                *value = v;
+            }
+        }
+    }
 }
 
 /// One step of the coordinate ascent along an operating-point coordinate

@@ -23,7 +23,7 @@ impl Input {
     }
 
     /// The first 12 hexadecimal digits of the hash, for readable reports.
-    pub fn short_hash(&self) -> &str {
+    pub(crate) fn short_hash(&self) -> &str {
         &self.sha256[..12.min(self.sha256.len())]
     }
 }
@@ -64,7 +64,7 @@ impl Run {
     }
 
     /// Add `version`, `inputs` and `date` to a JSON document (an object).
-    pub fn stamp(&self, doc: &mut Value) {
+    pub(crate) fn stamp(&self, doc: &mut Value) {
         if let Some(o) = doc.as_object_mut() {
             o.insert("version".into(), json!(self.version));
             o.insert(
@@ -126,7 +126,7 @@ pub fn civil_from_days(z: i64) -> (i64, u32, u32) {
 }
 
 /// Seconds since the Unix epoch as an RFC 3339 UTC time, `YYYY-MM-DDThh:mm:ssZ`.
-pub fn rfc3339(secs: i64) -> String {
+pub(crate) fn rfc3339(secs: i64) -> String {
     let (days, s) = (secs.div_euclid(86400), secs.rem_euclid(86400));
     let (y, m, d) = civil_from_days(days);
     format!(

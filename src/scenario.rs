@@ -159,7 +159,7 @@ words!(
 impl BridgeKind {
     /// Voltage across the primary while a switch pair conducts: `vin`
     /// (full bridge, push-pull) or `vin / 2` (half bridge).
-    pub fn primary_voltage(self, vin: f64) -> f64 {
+    pub(crate) fn primary_voltage(self, vin: f64) -> f64 {
         match self {
             BridgeKind::Half => vin / 2.0,
             BridgeKind::Full | BridgeKind::PushPull => vin,
@@ -232,12 +232,12 @@ impl Converter {
     }
 
     /// The bridge kind (full when not given).
-    pub fn bridge_kind(&self) -> BridgeKind {
+    pub(crate) fn bridge_kind(&self) -> BridgeKind {
         self.bridge.unwrap_or_default()
     }
 
     /// `vin` on the transformer primary (the bridge kind's, else `vin`).
-    pub fn primary_voltage(&self, vin: f64) -> f64 {
+    pub(crate) fn primary_voltage(&self, vin: f64) -> f64 {
         if self.topology == Topology::Bridge {
             self.bridge_kind().primary_voltage(vin)
         } else {
@@ -463,7 +463,7 @@ pub struct Filter {
 }
 
 /// Default unit cost of one damping resistor (common practice, no source).
-pub const DAMPING_RESISTOR_COST: f64 = 0.002;
+pub(crate) const DAMPING_RESISTOR_COST: f64 = 0.002;
 
 fn damping_resistor_cost() -> Money {
     Money(DAMPING_RESISTOR_COST)
@@ -506,7 +506,7 @@ impl Default for Filter {
 impl Filter {
     /// The damping resistor values the search may use: the series' values
     /// from `damping_resistance_min` to `damping_resistance_max`, Ω.
-    pub fn damping_resistor_values(&self) -> Vec<f64> {
+    pub(crate) fn damping_resistor_values(&self) -> Vec<f64> {
         crate::eseries::values(
             self.damping_resistors,
             self.damping_resistance_min.0,
@@ -555,7 +555,7 @@ pub struct Scenario {
 }
 
 /// Default line-item limit when the board gives none (common practice, no source).
-pub const DEFAULT_MAX_LINES: u32 = 3;
+pub(crate) const DEFAULT_MAX_LINES: u32 = 3;
 
 impl Scenario {
     /// Read a scenario file; errors name the file and the key.
@@ -599,7 +599,7 @@ impl Scenario {
 
     /// Path of the inductor catalog named by `[filter] inductors`, relative
     /// to the scenario's file.
-    pub fn inductors_path(&self) -> Option<PathBuf> {
+    pub(crate) fn inductors_path(&self) -> Option<PathBuf> {
         let c = self.filter.inductors.as_ref()?;
         let p = Path::new(c);
         Some(match (&self.dir, p.is_absolute()) {
@@ -1331,7 +1331,7 @@ impl Scenario {
 
     /// As [`Scenario::check_against`]; `exclude` may name inductors of the
     /// inductor catalog too.
-    pub fn check_against_parts(
+    pub(crate) fn check_against_parts(
         &self,
         catalog: &crate::catalog::Catalog,
         inductors: Option<&crate::inductors::InductorCatalog>,

@@ -46,7 +46,7 @@ pub struct Sheet {
 }
 
 /// Levenshtein distance between two short names.
-pub fn edit_distance(a: &str, b: &str) -> usize {
+pub(crate) fn edit_distance(a: &str, b: &str) -> usize {
     let b: Vec<char> = b.chars().collect();
     let mut prev: Vec<usize> = (0..=b.len()).collect();
     for (i, ca) in a.chars().enumerate() {
@@ -62,7 +62,7 @@ pub fn edit_distance(a: &str, b: &str) -> usize {
 }
 
 /// Header name in the form the known columns are spelled.
-pub fn normalise_header(h: &str) -> String {
+pub(crate) fn normalise_header(h: &str) -> String {
     h.trim()
         .trim_start_matches('\u{feff}')
         .to_ascii_lowercase()
@@ -71,7 +71,7 @@ pub fn normalise_header(h: &str) -> String {
 
 /// Split `Capacitance (uF)` / `ESR [mOhm]` into the normalised name and
 /// the unit as written (case kept: `m` and `M` differ).
-pub fn split_header(h: &str) -> (String, Option<String>) {
+pub(crate) fn split_header(h: &str) -> (String, Option<String>) {
     let t = h.trim().trim_start_matches('\u{feff}').trim();
     for (open, close) in [('(', ')'), ('[', ']')] {
         if let Some(body) = t.strip_suffix(close) {
@@ -316,7 +316,7 @@ impl Row<'_> {
 
     /// Text with decimal commas turned into points in a semicolon file
     /// (for curves and other compound cells).
-    pub fn decimal_text(&self, name: &str) -> Option<String> {
+    pub(crate) fn decimal_text(&self, name: &str) -> Option<String> {
         let t = self.text(name)?;
         Some(if self.sheet.semicolon {
             t.replace(',', ".")
@@ -352,7 +352,7 @@ impl Row<'_> {
     }
 
     /// A value that must be given: [`Row::num`], empty is an error.
-    pub fn req(&self, name: &str, unit: Unit) -> Result<f64> {
+    pub(crate) fn req(&self, name: &str, unit: Unit) -> Result<f64> {
         self.num(name, unit)?
             .ok_or_else(|| self.err(name, "required value is empty"))
     }
@@ -403,7 +403,7 @@ impl Row<'_> {
     }
 
     /// The `part` column: the part's id, never empty.
-    pub fn part_id(&self) -> Result<String> {
+    pub(crate) fn part_id(&self) -> Result<String> {
         self.text("part")
             .ok_or_else(|| self.err("part", "part id is empty"))
     }
@@ -456,7 +456,7 @@ impl Row<'_> {
     }
 
     /// The `temp_min` and `temp_max` columns, °C; `temp_max` above `temp_min`.
-    pub fn temperature_range(&self) -> Result<(Option<f64>, Option<f64>)> {
+    pub(crate) fn temperature_range(&self) -> Result<(Option<f64>, Option<f64>)> {
         let temp_min = self.num("temp_min", Unit::Plain)?;
         let temp_max = self.num("temp_max", Unit::Plain)?;
         if let (Some(a), Some(b)) = (temp_min, temp_max) {
@@ -602,7 +602,7 @@ pub fn read_parts<T: SheetPart>(bytes: &[u8], source: &str) -> Result<Parts<T>> 
 }
 
 /// The first eight names, then ", …" when there are more.
-pub fn name_list(names: &[String]) -> String {
+pub(crate) fn name_list(names: &[String]) -> String {
     let mut list = names.iter().take(8).cloned().collect::<Vec<_>>().join(", ");
     if names.len() > 8 {
         list.push_str(", …");

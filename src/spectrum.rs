@@ -35,7 +35,7 @@ pub fn harmonics(w: &Waveform, n: usize) -> Vec<Complex64> {
 
 /// Number of harmonics when `target.harmonics = 0`: the smallest N
 /// with N · f ≥ 10 × bandwidth (500 MHz at full bandwidth), at most 4000.
-pub fn auto_count(f_ripple: f64, bandwidth: Option<f64>) -> usize {
+pub(crate) fn auto_count(f_ripple: f64, bandwidth: Option<f64>) -> usize {
     let top = bandwidth.map_or(500e6, |b| 10.0 * b);
     ((top / f_ripple).ceil() as usize).clamp(1, 4000)
 }

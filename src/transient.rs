@@ -44,7 +44,7 @@
 use crate::converter::Waveform;
 use crate::evaluator::{tail_load_and_series, Bank, LineState, PartModel, TailLine, TailRole};
 use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
-use crate::region::{golden, named_of_models, vertices_of_models, Named};
+use crate::region::{ascend_lines, golden, named_of_models, vertices_of_models, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
@@ -53,14 +53,14 @@ use std::f64::consts::PI;
 use std::sync::Arc;
 
 /// Samples of the grid per load ramp (the ramp's corners fall on samples).
-pub const RAMP_SAMPLES: usize = 32;
+pub(crate) const RAMP_SAMPLES: usize = 32;
 /// The half period is the ramp plus this many of the slowest time constant
 /// (e^−16 ≈ 1e−7 of an edge is left when the next one comes).
 pub const SETTLE: f64 = 16.0;
 /// Largest grid (points per period).
 pub const MAX_POINTS: usize = 1 << 19;
 /// 10–90 % of a linear ramp is 0.8 of its length.
-pub const RAMP_PER_RISE: f64 = 1.0 / 0.8;
+pub(crate) const RAMP_PER_RISE: f64 = 1.0 / 0.8;
 
 /// The scenario's `[transient]` in SI units.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -92,7 +92,7 @@ impl Spec {
     }
 
     /// ω_c = 2π·f_c, rad/s.
-    pub fn omega_c(&self) -> f64 {
+    pub(crate) fn omega_c(&self) -> f64 {
         2.0 * PI * self.crossover
     }
 
@@ -108,12 +108,12 @@ impl Spec {
 
     /// The least total capacitance (at its lowest) any bank meeting the
     /// limit has: `ΔI / (ω_c·max_deviation)`, F.
-    pub fn capacitance_floor(&self) -> f64 {
+    pub(crate) fn capacitance_floor(&self) -> f64 {
         self.load_step / (self.omega_c() * self.max_deviation)
     }
 
     /// The band of the impedance peak, `f_c … 0.35 / rise_time`, Hz.
-    pub fn z_band(&self) -> (f64, f64) {
+    pub(crate) fn z_band(&self) -> (f64, f64) {
         (self.crossover, (0.35 / self.rise_time).max(self.crossover))
     }
 }
@@ -605,7 +605,7 @@ impl StepModel {
     }
 
     /// The model for `spec` and a network over `parts`.
-    pub fn with_network(spec: Spec, network: Network, parts: &[PartModel]) -> StepModel {
+    pub(crate) fn with_network(spec: Spec, network: Network, parts: &[PartModel]) -> StepModel {
         let lc = network.connection_inductance;
         let mut tau = network
             .internal
@@ -630,7 +630,7 @@ impl StepModel {
     /// The same model with the post-filter `tail` behind the bank (the
     /// evaluator's lines of [`crate::problem::Problem::tail_lines`]): the
     /// deviation at the load node, with the filter's lines in the region.
-    pub fn with_tail(mut self, tail: Vec<TailLine>) -> StepModel {
+    pub(crate) fn with_tail(mut self, tail: Vec<TailLine>) -> StepModel {
         self.tail = tail;
         self
     }
@@ -778,19 +778,6 @@ impl StepModel {
         }
     }
 
-    /// The deviation for any network given by its impedances at the load
-    /// node, `z(f) = (Z_t, Z_open)` (see the module notes), whose slowest
-    /// time constant is `tau`: the form a post-filter's ladder uses.
-    pub fn deviation_of(&mut self, tau: f64, z: impl FnMut(f64) -> (Complex64, Complex64)) -> f64 {
-        self.evaluations += 1;
-        let g = self.core.grid_for(tau);
-        if self.core.fill(g, z) {
-            self.core.peak()
-        } else {
-            f64::INFINITY
-        }
-    }
-
     /// The step response `(t, v)` of `bank` at `states` (v from the level
     /// before the step, V; t from the start of the ramp, s), from before
     /// the step to where it settles. Empty without any capacitance.
@@ -803,7 +790,7 @@ impl StepModel {
     }
 
     /// |Z_open| at `f` for `bank` at `states`, Ω.
-    pub fn open_impedance(&self, bank: &Bank, states: &[LineState], f: f64) -> f64 {
+    pub(crate) fn open_impedance(&self, bank: &Bank, states: &[LineState], f: f64) -> f64 {
         self.impedances(bank, states, f).1.norm()
     }
 
@@ -866,33 +853,13 @@ impl StepModel {
         if !best.deviation.is_finite() {
             return best;
         }
+        let ranges: Vec<[(f64, f64); 2]> =
+            models.iter().map(|p| [p.range(0), p.range(1)]).collect();
         for _round in 0..2 {
             let before = best.deviation;
-            for (j, p) in models.iter().enumerate() {
-                for coord in 0..2 {
-                    let (lo, hi) = p.range(coord);
-                    if hi <= lo {
-                        continue;
-                    }
-                    let mut st = best.states.clone();
-                    let (x, v) = golden(lo, hi, 12, |x| {
-                        if coord == 0 {
-                            st[j].c = x;
-                        } else {
-                            st[j].esr = x;
-                        }
-                        self.deviation(bank, &st)
-                    });
-                    if v > best.deviation {
-                        if coord == 0 {
-                            best.states[j].c = x;
-                        } else {
-                            best.states[j].esr = x;
-                        }
-                        best.deviation = v;
-                    }
-                }
-            }
+            ascend_lines(&ranges, &mut best.states, &mut best.deviation, |st| {
+                self.deviation(bank, st)
+            });
             if best.deviation <= before * (1.0 + 1e-4) {
                 break;
             }
@@ -994,14 +961,14 @@ pub struct StepFigures {
 
 /// Relative rounding the load-step check allows (the optimizer's region
 /// verification and the assessment agree on it).
-pub const ROUNDING: f64 = 1e-9;
+pub(crate) const ROUNDING: f64 = 1e-9;
 
 /// The load step's deviation at a post-filter's load node with the
 /// bank's node held still (an ideal, lossless, unbounded capacitance
 /// there), every filter line at its `low` corner, V. A screen of filters
 /// for the filtered design's search, not a proof: a real bank behind the
 /// filter is usually worse, rarely a little better (see the search).
-pub fn held_node_deviation(spec: Spec, tail: &[TailLine]) -> f64 {
+pub(crate) fn held_node_deviation(spec: Spec, tail: &[TailLine]) -> f64 {
     let ideal = PartModel {
         index: 0,
         c_worst: 1.0,

@@ -112,7 +112,7 @@ const ALL_UNITS: &[(&str, Unit)] = &[
 const CURRENCY: &[char] = &['$', '€', '£', '¥', '\u{80}'];
 
 /// A cost without its currency symbol (`"$0.12"` → `"0.12"`).
-pub fn strip_currency(text: &str) -> &str {
+pub(crate) fn strip_currency(text: &str) -> &str {
     let t = text.trim();
     let t = t.strip_prefix(CURRENCY).unwrap_or(t).trim_start();
     let t = t.strip_suffix(CURRENCY).unwrap_or(t).trim_end();
@@ -296,7 +296,7 @@ fn parse_value(text: &str, unit: Unit) -> Result<f64, ValueError> {
 /// ohms, `k`, `M`) stands at the decimal point: 0.22 Ω = `0R22`, 4.7 Ω =
 /// `4R7`, 22 Ω = `22R`, 2.2 kΩ = `2k2`. Up to six significant digits;
 /// `parse` reads it back.
-pub fn format_rkm(ohms: f64) -> String {
+pub(crate) fn format_rkm(ohms: f64) -> String {
     if !(ohms > 0.0) || !ohms.is_finite() {
         return format!("{ohms}R");
     }
@@ -366,12 +366,12 @@ pub fn format_si(value: f64, symbol: &str) -> String {
 
 /// A value with an SI prefix and no space or unit, as the catalog reader
 /// accepts it back (`4.7u`, `450p`, `3m`): for bills of materials.
-pub fn format_compact(value: f64) -> String {
+pub(crate) fn format_compact(value: f64) -> String {
     format_si(value, "").replace(' ', "").replace('µ', "u")
 }
 
 /// The number at the start of a value as written (`"4.7uF"` → `"4.7"`).
-pub fn mantissa(text: &str) -> &str {
+pub(crate) fn mantissa(text: &str) -> &str {
     let t = text.trim();
     let end = t
         .find(|c: char| !(c.is_ascii_digit() || c == '.' || c == ',' || c == '+' || c == '-'))
@@ -390,7 +390,7 @@ pub fn suggest(value: f64, prefix: &str) -> String {
 
 /// As [`suggest`], from the text as written: its leading number with
 /// `prefix` after it (`"4.7"` → `"4.7u"`, `"22000"` → `"22000u"`).
-pub fn suggest_text(text: &str, prefix: &str) -> String {
+pub(crate) fn suggest_text(text: &str, prefix: &str) -> String {
     let m = mantissa(text);
     if m.is_empty() {
         return prefix.to_string();
@@ -399,7 +399,7 @@ pub fn suggest_text(text: &str, prefix: &str) -> String {
 }
 
 /// True when the text is a bare number (no prefix, no unit symbol).
-pub fn is_bare(text: &str) -> bool {
+pub(crate) fn is_bare(text: &str) -> bool {
     text.trim().parse::<f64>().is_ok()
 }
 

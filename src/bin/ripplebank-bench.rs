@@ -94,6 +94,28 @@ mod hard;
 
 /// xorshift64* (Vigna, "An experimental exploration of Marsaglia's xorshift
 /// generators, scrambled", 2016): small, seedable, good enough for jitter.
+/// `n` varied 3-line banks over `np` parts: three distinct parts, counts 1..=6.
+pub(crate) fn three_line_banks(rng: &mut Rng, np: usize, n: usize) -> Vec<[(usize, u32); 3]> {
+    (0..n)
+        .map(|_| {
+            let i = rng.below(np);
+            let mut j = rng.below(np);
+            while j == i {
+                j = rng.below(np);
+            }
+            let mut k = rng.below(np);
+            while k == i || k == j {
+                k = rng.below(np);
+            }
+            [
+                (i, 1 + rng.below(6) as u32),
+                (j, 1 + rng.below(6) as u32),
+                (k, 1 + rng.below(6) as u32),
+            ]
+        })
+        .collect()
+}
+
 pub(crate) struct Rng(u64);
 
 impl Rng {
@@ -341,27 +363,7 @@ fn evaluator_section(a: &Args) -> Result<String> {
     let problem = Problem::new(s, c)?;
     let mut ev = problem.evaluator(&problem.eligible);
     let np = ev.parts.len();
-    let mut rng = Rng::new(a.seed);
-    // Varied 3-line banks: distinct parts, counts 1..=6.
-    let n_banks = 512.min(a.evals.max(1));
-    let banks: Vec<[(usize, u32); 3]> = (0..n_banks)
-        .map(|_| {
-            let i = rng.below(np);
-            let mut j = rng.below(np);
-            while j == i {
-                j = rng.below(np);
-            }
-            let mut k = rng.below(np);
-            while k == i || k == j {
-                k = rng.below(np);
-            }
-            [
-                (i, 1 + rng.below(6) as u32),
-                (j, 1 + rng.below(6) as u32),
-                (k, 1 + rng.below(6) as u32),
-            ]
-        })
-        .collect();
+    let banks = three_line_banks(&mut Rng::new(a.seed), np, 512.min(a.evals.max(1)));
     type Call<'a> = dyn FnMut(&[(usize, u32)]) -> f64 + 'a;
     // (calls per second of wall time, wall seconds, calls per CPU second)
     let time = |f: &mut Call| -> (f64, f64, f64) {

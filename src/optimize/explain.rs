@@ -35,7 +35,7 @@ use serde_json::{json, Value};
 /// The bisection stops when the upper end is within this fraction of the lower.
 pub const BISECT_TOLERANCE: f64 = 0.005;
 /// Exact evaluations per line-count stage of one bisection probe.
-pub const PROBE_EVALUATIONS: usize = 60_000;
+pub(crate) const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
 

@@ -52,7 +52,7 @@ const STEP_SCREEN: f64 = 1.5;
 const STEP: &str =
     "the load step misses the limit at the load node even with the bank's node held still";
 /// Default largest load-side bank, parts (common practice, no source).
-pub const DEFAULT_LOAD_MAX_COUNT: u32 = 4;
+pub(crate) const DEFAULT_LOAD_MAX_COUNT: u32 = 4;
 /// Largest number of damping capacitors in parallel the search tries.
 const MAX_DAMPING_COUNT: u32 = 2;
 /// A resistor series of at most this many values between the scenario's
@@ -233,7 +233,10 @@ const CORNER: &str = "corner frequency below filter.min_corner_frequency";
 const IMPEDANCE: &str = "output-impedance peak above filter.max_output_impedance";
 
 /// Why a filter breaks one of its own limits, or `None`.
-pub fn tail_violation(problem: &Problem, figs: &filter::TailFigures) -> Option<&'static str> {
+pub(crate) fn tail_violation(
+    problem: &Problem,
+    figs: &filter::TailFigures,
+) -> Option<&'static str> {
     let f = &problem.scenario.filter;
     if let Some(m) = f.min_corner_frequency {
         if figs.corner_frequency < m.0 {

@@ -18,7 +18,7 @@ pub struct Proposal {
 }
 
 /// The harmonics where the condition is hardest to meet.
-pub fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
+pub(crate) fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
     let mut d: Vec<(f64, usize)> = (0..s.harmonics)
         .filter(|&k| s.required[k] > 0.0)
         .map(|k| {
@@ -37,7 +37,7 @@ pub fn hard_harmonics(s: &Search, over: &[usize], count: usize) -> Vec<usize> {
     ks
 }
 
-pub fn propose(
+pub(crate) fn propose(
     s: &Search,
     over: &[usize],
     harmonics: &[usize],

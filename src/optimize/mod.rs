@@ -379,7 +379,7 @@ fn run_stages(s: &mut Search, settings: &Settings, stats: &mut Stats) -> Stages 
 /// bank, catalog indices and counts, known to meet a tighter problem on the
 /// same catalog): the answer is then never worse than `warm` when `warm`
 /// still holds.
-pub fn design_from(
+pub(crate) fn design_from(
     problem: &Problem,
     target: f64,
     settings: &Settings,
@@ -479,27 +479,6 @@ pub fn design_from(
     };
     out.stats.seconds = t0.elapsed().as_secs_f64();
     out
-}
-
-/// The cheapest bank the other limits allow, whatever its ripple (the
-/// loose end of a trade-off), with that ripple.
-pub fn cheapest_bank(problem: &Problem) -> Option<Found> {
-    let settings = Settings {
-        milp_proposals: 0,
-        ..Settings::default()
-    };
-    let out = design_for(problem, f64::MAX, &settings);
-    out.found.map(|mut f| {
-        let parts: Vec<usize> = f.bank.iter().map(|b| b.0).collect();
-        let mut ev = problem.search_evaluator(&parts);
-        let local: Vec<(usize, u32)> = f.bank.iter().enumerate().map(|(j, b)| (j, b.1)).collect();
-        f.ripple_pp = ev.ripple_pp(
-            &local,
-            crate::evaluator::Corner::Worst,
-            crate::evaluator::Band::Limited,
-        );
-        f
-    })
 }
 
 #[cfg(test)]

@@ -25,7 +25,7 @@ pub const CAUTIONS: &[&str] = &[
 ];
 
 /// The JSON document shared by `design`, `assess` and `rework`.
-pub fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value {
+pub(crate) fn assessment_json(status: &str, a: &Assessment, problem: &Problem) -> Value {
     let mut v = serde_json::to_value(a).expect("serialisable");
     let o = v.as_object_mut().expect("object");
     o.insert("status".into(), json!(status));
@@ -87,7 +87,7 @@ impl OutFiles {
     /// rename it into place (or, when `dir` exists, rename each file into
     /// it). Nothing is touched until every file is written; files in `dir`
     /// that this run does not write are kept.
-    pub fn commit(&self, dir: &Path) -> Result<()> {
+    pub(crate) fn commit(&self, dir: &Path) -> Result<()> {
         let parent = match dir.parent() {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
             _ => PathBuf::from("."),
@@ -184,7 +184,7 @@ const BOM_FILTER_HEAD: &[&str] = &[
 /// outward: the converter-side bank, the inductor, the load-side bank, the
 /// damping resistor (its `part` is its value in the RKM code, `R 0R22`) and
 /// the damping capacitor. `assess --bom` reads it back as the same design.
-pub fn bom_csv_with(
+pub(crate) fn bom_csv_with(
     problem: &Problem,
     bank: &[(usize, u32)],
     filter: Option<&crate::filter::FilterDesign>,
@@ -334,7 +334,7 @@ pub fn bom_csv_with(
 /// extensions, the inductor's currents and ratings, the characteristic
 /// impedance, the filter's capacitors' ripple currents and its parts'
 /// totals.
-pub fn filter_json(a: &Assessment, f: &crate::filter::FilterAssessment) -> Value {
+pub(crate) fn filter_json(a: &Assessment, f: &crate::filter::FilterAssessment) -> Value {
     let bank = |b: &mut dyn Iterator<Item = (String, u32)>| -> Vec<Value> {
         b.map(|(part, count)| json!({"part": part, "count": count}))
             .collect()
@@ -382,7 +382,7 @@ pub fn characteristic_impedance(f: &crate::filter::FilterAssessment) -> f64 {
 }
 
 /// Pretty JSON text with non-finite numbers removed.
-pub fn json_text(mut v: Value) -> String {
+pub(crate) fn json_text(mut v: Value) -> String {
     sanitize(&mut v);
     serde_json::to_string_pretty(&v).expect("serialisable") + "\n"
 }

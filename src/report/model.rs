@@ -35,7 +35,7 @@ impl Verdict {
     }
 
     /// The verdict of an optimizer status.
-    pub fn of_status(s: crate::optimize::Status) -> Verdict {
+    pub(crate) fn of_status(s: crate::optimize::Status) -> Verdict {
         match s {
             crate::optimize::Status::Optimal => Verdict::Optimal,
             crate::optimize::Status::Feasible => Verdict::Feasible,
@@ -124,7 +124,7 @@ impl Report {
     }
 
     /// Start a section without a heading, holding `line`.
-    pub fn para(&mut self, line: impl Into<String>) {
+    pub(crate) fn para(&mut self, line: impl Into<String>) {
         self.sections.push(Section {
             items: vec![Item::Line(line.into())],
             ..Default::default()
@@ -596,7 +596,7 @@ pub fn excluded(problem: &Problem) -> Option<Section> {
 
 /// Cautions of a design with an LC post-filter (common practice, no
 /// source; the copper coefficient from memory).
-pub const FILTER_CAUTIONS: &[&str] = &[
+pub(crate) const FILTER_CAUTIONS: &[&str] = &[
     "Remote sense stays on the converter side of the filter: a sense point after the inductor puts the filter inside the converter's control loop, where its resonance adds phase lag that can make the loop unstable.",
     "Keep the filter's corner frequency well above the converter's loop crossover and not below the converter maker's guidance (tens of kHz is common practice, no source): a corner near the crossover interacts with the loop.",
     "An LC filter rings: without enough damping its output impedance peaks at the corner frequency and a load step excites a decaying oscillation. The damping here is the damping leg and the load-side capacitors' own ESR; an ESR that falls when hot or with a part change removes damping. Choose the damping resistor's power and pulse rating for its ripple and load-step current.",
@@ -606,7 +606,7 @@ pub const FILTER_CAUTIONS: &[&str] = &[
 
 /// The post-filter: its parts, its figures against their limits and the
 /// ripple at both nodes.
-pub fn filter_section(a: &Assessment, f: &crate::filter::FilterAssessment) -> Section {
+pub(crate) fn filter_section(a: &Assessment, f: &crate::filter::FilterAssessment) -> Section {
     let mut items = Vec::new();
     let lim = |name: &str| a.checks.iter().find(|c| c.name == name);
     let limit_text = |name: &str, bound: &str, unit: &str| -> String {
@@ -735,7 +735,7 @@ pub fn filter_section(a: &Assessment, f: &crate::filter::FilterAssessment) -> Se
 }
 
 /// The cautions of a filtered design, in a cautions box of their own.
-pub fn filter_cautions() -> Section {
+pub(crate) fn filter_cautions() -> Section {
     Section {
         heading: Some("Filter cautions".into()),
         kind: SectionKind::Cautions,

@@ -9,7 +9,7 @@
 //! with units and a legend drawn below the chart so it never covers data.
 
 use crate::assessment::Assessment;
-use crate::evaluator::{Band, Corner, Evaluator, LineState, PartModel};
+use crate::evaluator::{Band, Corner, Evaluator, LineState, Node, PartModel};
 use crate::network::{admittance, Network};
 use crate::problem::Problem;
 use crate::units::format_si;
@@ -42,7 +42,7 @@ pub struct TradeoffPoint {
 }
 
 /// How a trade-off names the empty bank (the converter's own capacitance alone).
-pub const EMPTY_BANK: &str = "converter alone (no added capacitors)";
+pub(crate) const EMPTY_BANK: &str = "converter alone (no added capacitors)";
 
 // ---------------------------------------------------------------- data
 
@@ -130,7 +130,7 @@ pub fn bank_impedance(problem: &Problem, bank: &[(usize, u32)], freqs: &[f64]) -
 
 /// |Z| of the whole bank at the low corner (`high = false`: worst
 /// capacitance) or the high corner (highest capacitance, lowest ESR).
-pub fn bank_impedance_at(
+pub(crate) fn bank_impedance_at(
     problem: &Problem,
     bank: &[(usize, u32)],
     freqs: &[f64],
@@ -254,14 +254,26 @@ pub struct RippleData {
 fn ripple_of(p: &mut Prep, problem: &Problem) -> RippleData {
     let converter_node = (!p.ev.tail().is_empty()).then(|| {
         (
-            p.ev.waveform_states_converter_node(&p.local, &p.states, Band::Limited, p.vin_corner),
-            p.ev.waveform_states_converter_node(&p.local, &p.states, Band::Full, p.vin_corner),
+            p.ev.waveform_states(
+                &p.local,
+                &p.states,
+                Band::Limited,
+                p.vin_corner,
+                Node::Converter,
+            ),
+            p.ev.waveform_states(
+                &p.local,
+                &p.states,
+                Band::Full,
+                p.vin_corner,
+                Node::Converter,
+            ),
         )
     });
     let limited =
-        p.ev.waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner);
+        p.ev.waveform_states(&p.local, &p.states, Band::Limited, p.vin_corner, Node::Load);
     let full =
-        p.ev.waveform_states(&p.local, &p.states, Band::Full, p.vin_corner);
+        p.ev.waveform_states(&p.local, &p.states, Band::Full, p.vin_corner, Node::Load);
     let (lo, hi) = min_max(limited.iter().copied());
     RippleData {
         converter_node,
@@ -614,7 +626,7 @@ fn log_curve(
 }
 
 /// Escape text for XML/HTML content and attribute values.
-pub fn xml_escape(s: &str) -> String {
+pub(crate) fn xml_escape(s: &str) -> String {
     let mut o = String::with_capacity(s.len());
     for c in s.chars() {
         match c {
@@ -805,7 +817,7 @@ pub fn bank_plots(
 /// frequencies, the filter's output impedance |Z_out| (converter side
 /// held) and the transfer |V_load/I| from the converter's current to the
 /// load node, Ω.
-pub fn filter_data(
+pub(crate) fn filter_data(
     problem: &Problem,
     bank: &[(usize, u32)],
     f0: f64,
@@ -911,15 +923,6 @@ fn filter_svg(
         Ok(())
     };
     log_log_svg(title, &subtitle, &entries, (xlo, xhi), (ylo, yhi), draw)
-}
-
-/// The data of `load_step.svg`: the output's excursion after the load step
-/// at the worst point of the corner region, `(t, v)` in s and V (v from
-/// the level before the step), and the limit, V.
-pub fn load_step_data(a: &Assessment) -> Option<(Vec<(f64, f64)>, f64)> {
-    a.transient
-        .as_ref()
-        .map(|t| (t.response.clone(), t.max_deviation))
 }
 
 fn load_step_svg(t: &crate::transient::StepFigures) -> Result<String> {

@@ -42,10 +42,10 @@ use std::fmt::Write;
 /// Periods in each measurement window.
 pub const MEASURE_PERIODS: usize = 3;
 /// Longest run, in periods of the ripple frequency.
-pub const MAX_PERIODS: usize = 200;
+pub(crate) const MAX_PERIODS: usize = 200;
 /// Longest run behind a post-filter, in periods: a lightly damped filter's
 /// resonance decays over many periods of the ripple.
-pub const MAX_PERIODS_FILTER: usize = 1000;
+pub(crate) const MAX_PERIODS_FILTER: usize = 1000;
 /// Settling allowance in multiples of the slowest decay time (e^-12 ≈ 6e-6).
 const SETTLE_TAUS: f64 = 12.0;
 /// Timepoints per period at most apart (`.tran` TMAX = period / this).

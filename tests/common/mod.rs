@@ -1,3 +1,4 @@
+#![allow(dead_code)] // each test binary uses its own part of these helpers
 //! Random small cases shared by the brute-force tests (invented data).
 
 pub mod ngspice;

@@ -3,7 +3,7 @@
 //! own peak memory and a wall-clock limit.
 
 use super::families::{family_a, family_b, FAMILY_A_SCENARIO};
-use super::{vm_hwm_mb, Args, Rng};
+use super::{three_line_banks, vm_hwm_mb, Args, Rng};
 use anyhow::{bail, Context, Result};
 use ripplebank::catalog::Catalog;
 use ripplebank::commands::{self, Common};
@@ -113,15 +113,7 @@ pub fn run_one(name: &str, a: &Args) -> Result<()> {
                 .replace("TARGET", &format!("{:.6e}", best * 0.5))
                 .replace("LINES", "3");
             std::fs::write(&scen, format!("catalog = \"{}\"\n{text}", cat.display()))?;
-            let c = Common {
-                scenario: Some(scen),
-                catalog: Some(cat),
-                inductors: None,
-                filter: None,
-                out: None,
-                json: true,
-                quiet: true,
-            };
+            let c = json_input(scen, Some(cat));
             let t = Instant::now();
             let out = commands::design(&c, None, &[])?;
             let secs = t.elapsed().as_secs_f64();
@@ -137,15 +129,7 @@ pub fn run_one(name: &str, a: &Args) -> Result<()> {
         }
         "tradeoff" => {
             let scen = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("scenarios/core-2phase.toml");
-            let c = Common {
-                scenario: Some(scen),
-                catalog: None,
-                inductors: None,
-                filter: None,
-                out: None,
-                json: true,
-                quiet: true,
-            };
+            let c = json_input(scen, None);
             let t = Instant::now();
             let out = commands::tradeoff(&c, None, None, 8)?;
             let secs = t.elapsed().as_secs_f64();
@@ -172,6 +156,19 @@ pub fn run_one(name: &str, a: &Args) -> Result<()> {
     Ok(())
 }
 
+/// The command-line input of a quiet JSON run on `scenario` (and `catalog`).
+fn json_input(scenario: PathBuf, catalog: Option<PathBuf>) -> Common {
+    Common {
+        scenario: Some(scenario),
+        catalog,
+        inductors: None,
+        filter: None,
+        out: None,
+        json: true,
+        quiet: true,
+    }
+}
+
 fn eval_row(a: &Args) -> Result<Value> {
     let (mut s, c) = load::scenario_and_catalog(None, None)?;
     s.target.harmonics = 500;
@@ -179,22 +176,7 @@ fn eval_row(a: &Args) -> Result<Value> {
     let p = Problem::new(s, c)?;
     let mut ev = p.evaluator(&p.eligible);
     let np = ev.parts.len();
-    let mut rng = Rng::new(a.seed);
-    let banks: Vec<[(usize, u32); 3]> = (0..512)
-        .map(|_| {
-            let i = rng.below(np);
-            let j = (i + 1 + rng.below(np - 1)) % np;
-            let mut k = rng.below(np);
-            while k == i || k == j {
-                k = rng.below(np);
-            }
-            [
-                (i, 1 + rng.below(6) as u32),
-                (j, 1 + rng.below(6) as u32),
-                (k, 1 + rng.below(6) as u32),
-            ]
-        })
-        .collect();
+    let banks = three_line_banks(&mut Rng::new(a.seed), np, 512);
     let n = a.evals;
     let t = Instant::now();
     let mut acc = 0.0;
