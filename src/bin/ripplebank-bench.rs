@@ -289,16 +289,19 @@ fn run_one(rows: usize, a: &Args) -> Result<()> {
     Ok(())
 }
 
-/// Parent: run one size in a child process with a wall-clock limit.
-fn spawn_one(rows: usize, a: &Args, exhaustive: bool) -> Result<Value> {
-    // The running image itself, even if a concurrent build has replaced the file.
+/// The running image itself, even if a concurrent build has replaced the file.
+fn running_image() -> Result<PathBuf> {
     let self_exe = PathBuf::from("/proc/self/exe");
-    let exe = if self_exe.exists() {
+    Ok(if self_exe.exists() {
         self_exe
     } else {
         std::env::current_exe()?
-    };
-    let mut child = Command::new(exe)
+    })
+}
+
+/// Parent: run one size in a child process with a wall-clock limit.
+fn spawn_one(rows: usize, a: &Args, exhaustive: bool) -> Result<Value> {
+    let mut child = Command::new(running_image()?)
         .args([
             "--one",
             &rows.to_string(),

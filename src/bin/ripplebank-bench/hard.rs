@@ -3,7 +3,7 @@
 //! own peak memory and a wall-clock limit.
 
 use super::families::{family_a, family_b, FAMILY_A_SCENARIO};
-use super::{three_line_banks, vm_hwm_mb, Args, Rng};
+use super::{running_image, three_line_banks, vm_hwm_mb, Args, Rng};
 use anyhow::{bail, Context, Result};
 use ripplebank::catalog::Catalog;
 use ripplebank::commands::{self, Common};
@@ -203,13 +203,7 @@ fn eval_row(a: &Args) -> Result<Value> {
 
 /// Parent: one row in a child process with a wall-clock limit.
 fn spawn(name: &str, a: &Args) -> Result<Value> {
-    let self_exe = PathBuf::from("/proc/self/exe");
-    let exe = if self_exe.exists() {
-        self_exe
-    } else {
-        std::env::current_exe()?
-    };
-    let mut child = Command::new(exe)
+    let mut child = Command::new(running_image()?)
         .args([
             "--hard-one",
             name,
