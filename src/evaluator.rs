@@ -148,22 +148,53 @@ impl TailLine {
     /// and the inductor's impedance `zs`, with the line at `st`.
     #[inline]
     fn add_at(&self, st: &LineState, f: f64, y_load: &mut Complex64, zs: &mut Complex64) {
+        self.add_with(
+            st,
+            |esr, esl, c| admittance(esr, esl, c, f),
+            |ind| ind.impedance(f),
+            y_load,
+            zs,
+        );
+    }
+
+    /// As [`TailLine::add_at`] at the complex frequency `s`.
+    #[inline]
+    fn add_at_s(&self, st: &LineState, s: Complex64, y_load: &mut Complex64, zs: &mut Complex64) {
+        self.add_with(
+            st,
+            |esr, esl, c| crate::network::admittance_s(esr, esl, c, s),
+            |ind| ind.impedance_s(s),
+            y_load,
+            zs,
+        );
+    }
+
+    /// Add this line's share with a capacitor's admittance `y(esr, esl, c)`
+    /// and an inductor's impedance `z(inductor)` at one frequency.
+    #[inline]
+    fn add_with(
+        &self,
+        st: &LineState,
+        y: impl Fn(f64, f64, f64) -> Complex64,
+        z: impl Fn(crate::network::SeriesInductor) -> Complex64,
+        y_load: &mut Complex64,
+        zs: &mut Complex64,
+    ) {
         let n = self.count as f64;
         match self.role {
-            TailRole::Load => *y_load += admittance(st.esr, self.model.esl, st.c, f) * n,
+            TailRole::Load => *y_load += y(st.esr, self.model.esl, st.c) * n,
             TailRole::Damping { resistance } => {
                 // One resistor in series with n capacitors in parallel.
-                let zc = admittance(st.esr, self.model.esl, st.c, f).inv() / n;
+                let zc = y(st.esr, self.model.esl, st.c).inv() / n;
                 *y_load += (Complex64::new(resistance, 0.0) + zc).inv();
             }
             TailRole::Inductor { cp } => {
-                let z = crate::network::SeriesInductor {
+                let zi = z(crate::network::SeriesInductor {
                     l: st.c,
                     dcr: st.esr,
                     cp,
-                }
-                .impedance(f);
-                *zs += z / n;
+                });
+                *zs += zi / n;
             }
         }
     }
@@ -185,17 +216,17 @@ pub(crate) fn tail_terms_of(
 }
 
 /// A post-filter's load-node admittance (load-side bank and damping) and
-/// its inductor's series impedance at `f`, `(Y_load, Z_s)`, with its lines
+/// its inductor's series impedance at the complex frequency `s`, `(Y_load, Z_s)`, with its lines
 /// at `states`.
 #[inline]
 pub(crate) fn tail_load_and_series(
     tail: &[TailLine],
     states: &[LineState],
-    f: f64,
+    s: Complex64,
 ) -> (Complex64, Complex64) {
     let (mut y_load, mut zs) = (Complex64::default(), Complex64::default());
     for (t, st) in tail.iter().zip(states) {
-        t.add_at(st, f, &mut y_load, &mut zs);
+        t.add_at_s(st, s, &mut y_load, &mut zs);
     }
     (y_load, zs)
 }

@@ -38,6 +38,13 @@ pub fn admittance(esr: f64, esl: f64, c: f64, f: f64) -> Complex64 {
     Complex64::new(esr, w * esl - 1.0 / (w * c)).inv()
 }
 
+/// Admittance of one capacitor at the complex frequency `s`:
+/// 1 / (ESR + sL + 1/(sC)) (the load step's shifted contour).
+#[inline]
+pub fn admittance_s(esr: f64, esl: f64, c: f64, s: Complex64) -> Complex64 {
+    (Complex64::new(esr, 0.0) + s * esl + (s * c).inv()).inv()
+}
+
 /// One series R-L-C branch to ground.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Branch {
@@ -54,6 +61,12 @@ impl Branch {
     #[inline]
     pub fn admittance(&self, f: f64) -> Complex64 {
         admittance(self.esr, self.esl, self.c, f)
+    }
+
+    /// The branch's admittance at the complex frequency `s`.
+    #[inline]
+    pub fn admittance_s(&self, s: Complex64) -> Complex64 {
+        admittance_s(self.esr, self.esl, self.c, s)
     }
 }
 
@@ -109,12 +122,27 @@ impl Network {
         }
     }
 
+    /// Admittance of the internal branch at the complex frequency `s`.
+    #[inline]
+    pub(crate) fn internal_admittance_s(&self, s: Complex64) -> Complex64 {
+        match &self.internal {
+            Some(b) => b.admittance_s(s),
+            None => Complex64::new(0.0, 0.0),
+        }
+    }
+
     /// `G = 1 + jωLc·Y_int` for the internal admittance `yi` at angular
     /// frequency `w`, so that the total admittance the current sees is
     /// `1/Z_t = Y_b·G + Y_int` (linear in the bank's admittance).
     #[inline]
     pub(crate) fn coupling_with(&self, yi: Complex64, w: f64) -> Complex64 {
-        Complex64::new(1.0, 0.0) + Complex64::new(0.0, w * self.connection_inductance) * yi
+        self.coupling_s(yi, Complex64::new(0.0, w))
+    }
+
+    /// `G = 1 + s·Lc·Y_int` at the complex frequency `s`.
+    #[inline]
+    pub(crate) fn coupling_s(&self, yi: Complex64, s: Complex64) -> Complex64 {
+        Complex64::new(1.0, 0.0) + s * self.connection_inductance * yi
     }
 
     /// Transfer impedance (V at the bank's node per A of converter current)
@@ -182,11 +210,11 @@ impl Network {
         &self,
         yb: Complex64,
         yi: Complex64,
-        w: f64,
+        s: Complex64,
     ) -> (Complex64, Complex64) {
         (
-            self.transfer_with(yb, yi, w),
-            self.open_impedance_with(yb, yi, w),
+            two_node_transfer(yi, s * self.connection_inductance, yb),
+            (yb + yi / self.coupling_s(yi, s)).inv(),
         )
     }
 
@@ -204,11 +232,11 @@ impl Network {
         &self,
         yb: Complex64,
         yi: Complex64,
-        w: f64,
+        s: Complex64,
         y_load: Complex64,
         zs: Complex64,
     ) -> (Complex64, Complex64) {
-        let g = self.coupling_with(yi, w);
+        let g = self.coupling_s(yi, s);
         let y1 = yb + yi / g;
         let div = Complex64::new(1.0, 0.0) + zs * y_load;
         let z_conv = (g * (y1 + y_load / div)).inv();
@@ -290,6 +318,15 @@ impl SeriesInductor {
             return zl;
         }
         (zl.inv() + Complex64::new(0.0, w * self.cp)).inv()
+    }
+
+    /// `(DCR + sL) ∥ 1/(sC_p)` at the complex frequency `s`.
+    pub fn impedance_s(&self, s: Complex64) -> Complex64 {
+        let zl = Complex64::new(self.dcr, 0.0) + s * self.l;
+        if zl == Complex64::default() {
+            return zl;
+        }
+        (zl.inv() + s * self.cp).inv()
     }
 }
 
@@ -378,7 +415,7 @@ impl Ladder {
         self.front.step_impedances_tail(
             y_conv,
             self.front.internal_admittance(f),
-            w,
+            Complex64::new(0.0, w),
             y2,
             self.inductor.impedance(f),
         )
@@ -521,7 +558,7 @@ mod tests {
             let yb = admittance(3e-3, 0.5e-9, 47e-6, f) * 2.0;
             let yi = net.internal_admittance(f);
             let want = (yb + (Complex64::new(0.0, w * 2e-9) + yi.inv()).inv()).inv();
-            let (zt, zo) = net.step_impedances_with(yb, yi, w);
+            let (zt, zo) = net.step_impedances_with(yb, yi, Complex64::new(0.0, w));
             assert!(close(zo, want, 1e-9), "f = {f}");
             assert!(close(zt, net.transfer(yb, f), 1e-12));
         }
@@ -529,7 +566,11 @@ mod tests {
         let flat = Network::new(net.internal, 0.0);
         let f = 2e5;
         let yb = admittance(3e-3, 0.5e-9, 47e-6, f);
-        let (zt, zo) = flat.step_impedances_with(yb, flat.internal_admittance(f), 2.0 * PI * f);
+        let (zt, zo) = flat.step_impedances_with(
+            yb,
+            flat.internal_admittance(f),
+            Complex64::new(0.0, 2.0 * PI * f),
+        );
         assert!(close(zt, zo, 1e-12));
     }
 

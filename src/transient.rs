@@ -41,9 +41,8 @@
 //! harmonics, the converter's response, FFT plans, scratch) is built once
 //! per part list; evaluating a bank allocates nothing.
 
-use crate::converter::Waveform;
 use crate::evaluator::{tail_load_and_series, Bank, LineState, PartModel, TailLine, TailRole};
-use crate::network::{admittance, Network, OMEGA_ASYMPTOTE};
+use crate::network::{admittance_s, Network, OMEGA_ASYMPTOTE};
 use crate::region::{ascend_lines, golden, named_of_models, vertices_of_models, Named};
 use crate::scenario::Scenario;
 use num_complex::Complex64;
@@ -118,21 +117,39 @@ impl Spec {
     }
 }
 
-/// One periodic grid: `points` samples of `dt`.
+/// Weight with which the response comes back from each later period on
+/// the shifted contour: `e^{−σT}` (the wrap-around error is at most this
+/// fraction of the response's largest value, at every time).
+pub(crate) const WRAP: f64 = 1e-8;
+
+/// One grid of the shifted contour: `points` samples of `dt` over the
+/// period `T = points·dt`, of which the first half is the window used.
 struct Grid {
     points: usize,
-    /// ω_k of harmonics 1 … points/2 − 1.
-    omega: Vec<f64>,
-    /// Load-current phasors I_k.
+    /// `s_k = σ + j·k·2π/T` of k = 0 … points/2 − 1.
+    s: Vec<Complex64>,
+    /// The load current's transform `I(s_k)` (the k = 0 term halved).
     drive: Vec<Complex64>,
-    /// The converter's response ω_c / (jω_k + ω_c).
+    /// The converter's response ω_c / (s_k + ω_c).
     conv: Vec<Complex64>,
+    /// `(2/T)·e^{σ·t_m}` of the window's samples m = 0 … points/2.
+    gain: Vec<f64>,
     fft: Arc<dyn Fft<f64>>,
 }
 
 impl Grid {
     fn half(&self) -> usize {
         self.points / 2
+    }
+}
+
+/// `(1 − e^{−x}) / x`, accurate for small |x|.
+fn ramp_factor(x: Complex64) -> Complex64 {
+    if x.norm() < 1e-2 {
+        // Taylor series; the next term is x⁴/120 < 1e−10.
+        Complex64::new(1.0, 0.0) - x / 2.0 + x * x / 6.0 - x * x * x / 24.0
+    } else {
+        (Complex64::new(1.0, 0.0) - (-x).exp()) / x
     }
 }
 
@@ -170,7 +187,7 @@ impl Core {
         core
     }
 
-    /// Grid points whose half period settles time constant `tau`.
+    /// Grid points whose window covers time constant `tau`.
     fn points_for(&self, tau: f64) -> usize {
         let half = ((self.spec.ramp() + SETTLE * tau) / self.dt).ceil();
         let half = if half.is_finite() {
@@ -181,28 +198,36 @@ impl Core {
         (2 * half).max(1024).next_power_of_two().min(MAX_POINTS)
     }
 
-    /// Build the grid of `n` points (its harmonics, response and plan).
+    /// Build the grid of `n` points (its contour, drive, response and plan).
     fn push_grid(&mut self, n: usize) {
         let spec = self.spec;
         let ramp = spec.ramp();
         let period = n as f64 * self.dt;
-        let wave = Waveform {
-            period,
-            points: vec![
-                (0.0, 0.0),
-                (ramp, spec.load_step),
-                (period / 2.0, spec.load_step),
-                (period / 2.0 + ramp, 0.0),
-            ],
-        };
-        let k = n / 2 - 1;
-        let drive = crate::spectrum::harmonics(&wave, k);
+        let sigma = (1.0 / WRAP).ln() / period;
         let w0 = 2.0 * PI / period;
-        let omega: Vec<f64> = (1..=k).map(|j| j as f64 * w0).collect();
-        let wc = spec.omega_c();
-        let conv = omega
+        let s: Vec<Complex64> = (0..n / 2)
+            .map(|k| Complex64::new(sigma, k as f64 * w0))
+            .collect();
+        // A ramp of ΔI over `ramp`: I(s) = ΔI·(1 − e^{−s·ramp}) / (ramp·s²).
+        let drive = s
             .iter()
-            .map(|&w| Complex64::new(wc, 0.0) / Complex64::new(wc, w))
+            .enumerate()
+            .map(|(k, &sk)| {
+                let d = spec.load_step * ramp_factor(sk * ramp) / sk;
+                if k == 0 {
+                    d / 2.0
+                } else {
+                    d
+                }
+            })
+            .collect();
+        let wc = spec.omega_c();
+        let conv = s
+            .iter()
+            .map(|&sk| Complex64::new(wc, 0.0) / (sk + wc))
+            .collect();
+        let gain = (0..=n / 2)
+            .map(|m| 2.0 / period * (sigma * m as f64 * self.dt).exp())
             .collect();
         let fft = self.planner.plan_fft_inverse(n);
         let scratch = fft.get_inplace_scratch_len();
@@ -214,15 +239,16 @@ impl Core {
         }
         self.grids.push(Grid {
             points: n,
-            omega,
+            s,
             drive,
             conv,
+            gain,
             fft,
         });
     }
 
-    /// The smallest grid whose half period settles time constant `tau`
-    /// (grids double from the first; past [`MAX_POINTS`] the largest).
+    /// The smallest grid whose window covers time constant `tau` (grids
+    /// double from the first; past [`MAX_POINTS`] the largest).
     fn grid_for(&mut self, tau: f64) -> usize {
         let ramp = self.spec.ramp();
         let tau = tau.max(1.0 / self.spec.omega_c());
@@ -241,18 +267,15 @@ impl Core {
         self.grids.len() - 1
     }
 
-    /// Fill the remaining series of the response on grid `g` for the
-    /// network's impedances `z(f) = (Z_t, Z_open)` and take its inverse FFT.
-    /// False when the response is not finite.
-    fn fill(&mut self, g: usize, mut z: impl FnMut(f64) -> (Complex64, Complex64)) -> bool {
+    /// Fill the remaining transform of the response on grid `g` for the
+    /// network's impedances `z(s) = (Z_t, Z_open)` and take its inverse
+    /// FFT. False when the response is not finite.
+    fn fill(&mut self, g: usize, mut z: impl FnMut(Complex64) -> (Complex64, Complex64)) -> bool {
         let wc = self.spec.omega_c();
         let bracket = |zt: Complex64, zo: Complex64, conv: Complex64| zt * conv - zo;
-        let (zt, zo) = z(OMEGA_ASYMPTOTE / (2.0 * PI));
-        let h = bracket(
-            zt,
-            zo,
-            Complex64::new(wc, 0.0) / Complex64::new(wc, OMEGA_ASYMPTOTE),
-        );
+        let big = Complex64::new(0.0, OMEGA_ASYMPTOTE);
+        let (zt, zo) = z(big);
+        let h = bracket(zt, zo, Complex64::new(wc, 0.0) / (big + wc));
         if !h.is_finite() {
             return false;
         }
@@ -265,21 +288,14 @@ impl Core {
         let grid = &self.grids[g];
         let n = grid.points;
         let buf = &mut self.buf[..n];
-        buf[0] = Complex64::default();
         let mut finite = true;
-        for (k, ((&w, &d), &c)) in grid
-            .omega
-            .iter()
-            .zip(&grid.drive)
-            .zip(&grid.conv)
-            .enumerate()
-        {
-            let (zt, zo) = z(w / (2.0 * PI));
-            let v = d * (bracket(zt, zo, c) - Complex64::new(b0, w * b1));
+        for (k, ((&sk, &d), &c)) in grid.s.iter().zip(&grid.drive).zip(&grid.conv).enumerate() {
+            let (zt, zo) = z(sk);
+            let v = d * (bracket(zt, zo, c) - (sk * b1 + b0));
             finite &= v.is_finite();
-            buf[k + 1] = v;
+            buf[k] = v;
         }
-        for x in buf[grid.omega.len() + 1..].iter_mut() {
+        for x in buf[grid.s.len()..].iter_mut() {
             *x = Complex64::default();
         }
         if !finite {
@@ -294,7 +310,6 @@ impl Core {
         let r = RAMP_SAMPLES;
         let di = self.spec.load_step;
         let slope = di / self.spec.ramp();
-        let half = self.grids[self.last].half();
         if m < r {
             (
                 di * m as f64 / r as f64,
@@ -302,35 +317,26 @@ impl Core {
             )
         } else if m == r {
             (di, if right { 0.0 } else { slope })
-        } else if m < half {
-            (di, 0.0)
         } else {
-            (di, if right { -slope } else { 0.0 })
+            (di, 0.0)
         }
     }
 
-    /// The voltage at sample `m` of the last fill (left or right side).
+    /// The step response at sample `m` of the last fill (left or right of
+    /// a corner of the load current), V from the level before the step.
     fn v(&self, m: usize, right: bool) -> f64 {
         let (i, di) = self.load_at(m, right);
-        self.buf[m].re + self.asym.0 * i + self.asym.1 * di
+        let gain = self.grids[self.last].gain[m];
+        gain * self.buf[m].re + self.asym.0 * i + self.asym.1 * di
     }
 
-    /// The step response `y(t) = v(t) − v(0⁻)` at sample `m`.
-    fn y(&self, m: usize, right: bool, base: f64) -> f64 {
-        self.v(m, right) - base
-    }
-
-    /// Peak |y| over the step's half period of the last fill.
+    /// Peak |v| over the window of the last fill.
     fn peak(&self) -> f64 {
         let half = self.grids[self.last].half();
-        let base = self.v(0, false);
         let mut best: f64 = 0.0;
         // Two smooth pieces: the ramp [0, R] and the flat top [R, half].
         for (a, b) in [(0usize, RAMP_SAMPLES), (RAMP_SAMPLES, half)] {
-            let at = |m: usize| -> f64 {
-                let right = m == a;
-                self.y(m, right, base)
-            };
+            let at = |m: usize| -> f64 { self.v(m, m == a) };
             let mut prev = at(a);
             best = best.max(prev.abs());
             let mut cur = at(a + 1);
@@ -360,13 +366,12 @@ impl Core {
         }
     }
 
-    /// Samples `(t, y)` of the last fill's step response from a tenth of
+    /// Samples `(t, v)` of the last fill's step response from a tenth of
     /// the shown span before the step to where it has settled.
     fn samples(&self) -> Vec<(f64, f64)> {
         let half = self.grids[self.last].half();
-        let base = self.v(0, false);
         let ys: Vec<f64> = (0..=half)
-            .map(|m| self.y(m, m == RAMP_SAMPLES || m == 0, base))
+            .map(|m| self.v(m, m == RAMP_SAMPLES || m == 0))
             .collect();
         let peak = ys.iter().fold(0.0_f64, |a, y| a.max(y.abs()));
         let fin = ys[half];
@@ -421,9 +426,9 @@ struct TailCache {
     grid: usize,
     /// The filter's line states.
     states: Vec<LineState>,
-    /// The frequencies in the order [`Core::fill`] asks for them (the
-    /// asymptote, then the grid's harmonics), Hz.
-    f: Vec<f64>,
+    /// The complex frequencies in the order [`Core::fill`] asks for them
+    /// (the asymptote, then the grid's contour).
+    s: Vec<Complex64>,
     /// (load-side admittance, series impedance, internal admittance) there.
     terms: Vec<(Complex64, Complex64, Complex64)>,
 }
@@ -440,17 +445,38 @@ fn branch_tau(esr_max: f64, esr_min: f64, l: f64, c: f64) -> f64 {
     rc.max(lr)
 }
 
-/// Slower decay time of a series R-L-C loop (`L s² + R s + 1/C = 0`), s.
-pub(crate) fn loop_tau(r: f64, l: f64, c: f64) -> f64 {
+/// What a loop's time constant is asked for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Horizon {
+    /// Until its mode has died away ([`SETTLE`] of these).
+    Settle,
+    /// Until the peak of the step response is past: a ringing loop's
+    /// envelope only shrinks once the step is over, so [`SETTLE`] of these
+    /// cover [`RINGS`] of its periods rather than its whole decay.
+    Peak,
+}
+
+/// Periods of a ringing loop the load-step window covers (common practice,
+/// no source: the envelope of a ring shrinks from its first swings on; the
+/// converter's own recovery, `SETTLE/ω_c`, is always covered).
+pub(crate) const RINGS: f64 = 8.0;
+
+/// The time constant of a series R-L-C loop (`L s² + R s + 1/C = 0`) for
+/// `horizon`, s: the slower decay, or for [`Horizon::Peak`] of a ringing
+/// loop the shorter of its decay and [`RINGS`] periods over [`SETTLE`].
+fn loop_time(r: f64, l: f64, c: f64, horizon: Horizon) -> f64 {
     if l <= 0.0 {
         return r * c;
     }
     let disc = r * r - 4.0 * l / c;
     if disc < 0.0 {
-        if r > 0.0 {
-            2.0 * l / r
-        } else {
-            f64::INFINITY
+        let decay = if r > 0.0 { 2.0 * l / r } else { f64::INFINITY };
+        match horizon {
+            Horizon::Settle => decay,
+            Horizon::Peak => {
+                let period = 2.0 * PI / (-disc).sqrt() * 2.0 * l;
+                decay.min(RINGS * period / SETTLE)
+            }
         }
     } else {
         c * (r + disc.sqrt()) / 2.0
@@ -466,8 +492,16 @@ pub fn slowest_loop<I>(branches: impl Fn() -> I) -> f64
 where
     I: Iterator<Item = (f64, f64, f64)>,
 {
+    slowest_loop_for(branches, Horizon::Settle)
+}
+
+/// As [`slowest_loop`] for `horizon`.
+pub(crate) fn slowest_loop_for<I>(branches: impl Fn() -> I, horizon: Horizon) -> f64
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+{
     let series = |a: (f64, f64, f64), b: (f64, f64, f64)| {
-        loop_tau(a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2))
+        loop_time(a.0 + b.0, a.1 + b.1, a.2 * b.2 / (a.2 + b.2), horizon)
     };
     let (mut n, mut g, mut gl, mut ctot) = (0usize, 0.0, 0.0, 0.0);
     let (mut r_zero, mut l_zero) = (0usize, 0usize);
@@ -512,7 +546,7 @@ where
     tau
 }
 
-/// `(Z_t, Z_open)` at the measured node at `f` for `bank` (ESLs `esl` by
+/// `(Z_t, Z_open)` at the measured node at the complex frequency `s` for `bank` (ESLs `esl` by
 /// local part) behind `network`, with the post-filter `tail` (may be
 /// empty), every line at `states` (the bank's, then the filter's).
 #[inline]
@@ -522,26 +556,25 @@ fn step_z(
     tail: &[TailLine],
     bank: &Bank,
     states: &[LineState],
-    f: f64,
+    s: Complex64,
 ) -> (Complex64, Complex64) {
-    let w = 2.0 * PI * f;
-    let yb = bank_admittance(esl, bank, states, f);
-    let yi = network.internal_admittance(f);
+    let yb = bank_admittance(esl, bank, states, s);
+    let yi = network.internal_admittance_s(s);
     if tail.is_empty() {
-        return network.step_impedances_with(yb, yi, w);
+        return network.step_impedances_with(yb, yi, s);
     }
     let ts = states.get(bank.len()..).unwrap_or(&[]);
-    let (y_load, zs) = tail_load_and_series(tail, ts, f);
-    network.step_impedances_tail(yb, yi, w, y_load, zs)
+    let (y_load, zs) = tail_load_and_series(tail, ts, s);
+    network.step_impedances_tail(yb, yi, s, y_load, zs)
 }
 
-/// The bank's admittance at `f` with its lines at `states`.
+/// The bank's admittance at the complex frequency `s` with its lines at `states`.
 #[inline]
-fn bank_admittance(esl: &[f64], bank: &Bank, states: &[LineState], f: f64) -> Complex64 {
+fn bank_admittance(esl: &[f64], bank: &Bank, states: &[LineState], s: Complex64) -> Complex64 {
     let mut yb = Complex64::default();
     for (&(i, n), st) in bank.iter().zip(states) {
         if n > 0 {
-            yb += admittance(st.esr, esl[i], st.c, f) * n as f64;
+            yb += admittance_s(st.esr, esl[i], st.c, s) * n as f64;
         }
     }
     yb
@@ -558,7 +591,22 @@ where
     I: Iterator<Item = (f64, f64, f64)>,
     J: Iterator<Item = (f64, f64, f64)>,
 {
-    let own = slowest_loop(&front).max(slowest_loop(&load));
+    ladder_tau_for(front, load, l, dcr, Horizon::Settle)
+}
+
+/// As [`ladder_tau`] for `horizon`.
+pub(crate) fn ladder_tau_for<I, J>(
+    front: impl Fn() -> I,
+    load: impl Fn() -> J,
+    l: f64,
+    dcr: f64,
+    horizon: Horizon,
+) -> f64
+where
+    I: Iterator<Item = (f64, f64, f64)>,
+    J: Iterator<Item = (f64, f64, f64)>,
+{
+    let own = slowest_loop_for(&front, horizon).max(slowest_loop_for(&load, horizon));
     let lump = |it: &mut dyn Iterator<Item = (f64, f64, f64)>| {
         let (mut g, mut gl, mut c, mut r0, mut l0) = (0.0, 0.0, 0.0, false, false);
         for (r, l, cc) in it {
@@ -581,7 +629,7 @@ where
     let (rb, lb, cb) = lump(&mut front());
     let (rl, ll, cl) = lump(&mut load());
     let filter = if cb > 0.0 && cl > 0.0 {
-        loop_tau(rb + dcr + rl, lb + l + ll, cb * cl / (cb + cl))
+        loop_time(rb + dcr + rl, lb + l + ll, cb * cl / (cb + cl), horizon)
     } else if rl + dcr > 0.0 {
         // No capacitance on the bank side: the current source drives the
         // inductor; the load node's RL decay.
@@ -664,7 +712,7 @@ impl StepModel {
                 .chain(internal)
         };
         if self.tail.is_empty() {
-            return slowest_loop(front);
+            return slowest_loop_for(front, Horizon::Peak);
         }
         let ts = states.get(bank.len()..).unwrap_or(&[]);
         let (mut l, mut g_dcr, mut g_l) = (0.0, 0.0, 0.0);
@@ -699,7 +747,7 @@ impl StepModel {
                     }
                 })
         };
-        ladder_tau(front, load, l, dcr)
+        ladder_tau_for(front, load, l, dcr, Horizon::Peak)
     }
 
     fn has_capacitance(&self, bank: &Bank) -> bool {
@@ -711,10 +759,11 @@ impl StepModel {
                 .any(|t| t.count > 0 && !matches!(t.role, TailRole::Inductor { .. }))
     }
 
-    /// `(Z_t, Z_open)` at the measured node at `f` (see the module notes).
+    /// `(Z_t, Z_open)` at the measured node at `f`, Hz (see the module notes).
     #[inline]
     fn impedances(&self, bank: &Bank, states: &[LineState], f: f64) -> (Complex64, Complex64) {
-        step_z(&self.network, &self.esl, &self.tail, bank, states, f)
+        let s = Complex64::new(0.0, 2.0 * PI * f);
+        step_z(&self.network, &self.esl, &self.tail, bank, states, s)
     }
 
     fn fill(&mut self, bank: &Bank, states: &[LineState]) -> bool {
@@ -733,38 +782,36 @@ impl StepModel {
             ..
         } = self;
         if tail.is_empty() {
-            return core.fill(g, |f| step_z(network, esl, tail, bank, states, f));
+            return core.fill(g, |s| step_z(network, esl, tail, bank, states, s));
         }
         let ts = states.get(bank.len()..).unwrap_or(&[]);
         if tail_cache.grid != g || tail_cache.states != ts {
             tail_cache.grid = g;
             tail_cache.states = ts.to_vec();
-            tail_cache.f.clear();
-            tail_cache.f.push(OMEGA_ASYMPTOTE / (2.0 * PI));
-            tail_cache
-                .f
-                .extend(core.grids[g].omega.iter().map(|&w| w / (2.0 * PI)));
+            tail_cache.s.clear();
+            tail_cache.s.push(Complex64::new(0.0, OMEGA_ASYMPTOTE));
+            tail_cache.s.extend_from_slice(&core.grids[g].s);
             tail_cache.terms.clear();
-            for &f in &tail_cache.f {
-                let (y_load, zs) = tail_load_and_series(tail, ts, f);
+            for &s in &tail_cache.s {
+                let (y_load, zs) = tail_load_and_series(tail, ts, s);
                 tail_cache
                     .terms
-                    .push((y_load, zs, network.internal_admittance(f)));
+                    .push((y_load, zs, network.internal_admittance_s(s)));
             }
         }
         let cache = &*tail_cache;
         let mut at = 0usize;
-        core.fill(g, |f| {
+        core.fill(g, |s| {
             let j = at;
             at += 1;
             // The cache follows Core::fill's order; any other frequency is
             // computed afresh.
-            if cache.f.get(j) != Some(&f) {
-                return step_z(network, esl, tail, bank, states, f);
+            if cache.s.get(j) != Some(&s) {
+                return step_z(network, esl, tail, bank, states, s);
             }
             let (y_load, zs, yi) = cache.terms[j];
-            let yb = bank_admittance(esl, bank, states, f);
-            network.step_impedances_tail(yb, yi, 2.0 * PI * f, y_load, zs)
+            let yb = bank_admittance(esl, bank, states, s);
+            network.step_impedances_tail(yb, yi, s, y_load, zs)
         })
     }
 
