@@ -412,6 +412,9 @@ pub struct StepModel {
     tail: Vec<TailLine>,
     /// Deviations computed (for reports of the search's work).
     pub evaluations: usize,
+    /// Frequencies evaluated for them (each deviation costs its grid's
+    /// half): the search charges this work to its evaluation budget.
+    pub work: usize,
     /// The filter's terms on the last grid for the last filter states.
     tail_cache: TailCache,
 }
@@ -668,6 +671,7 @@ impl StepModel {
             network,
             tail: Vec::new(),
             evaluations: 0,
+            work: 0,
             tail_cache: TailCache {
                 grid: usize::MAX,
                 ..TailCache::default()
@@ -773,6 +777,7 @@ impl StepModel {
         self.evaluations += 1;
         let tau = self.tau_of(bank, states);
         let g = self.core.grid_for(tau);
+        self.work += self.core.grids[g].half();
         let StepModel {
             network,
             esl,

@@ -443,9 +443,17 @@ pub fn design_filtered(problem: &Problem, target: f64, settings: &Settings) -> F
         let cutoff_of = |share: &[f64; 3]| best.as_ref().map(|(b, _)| b.key[0] - share[0]);
         let solve = |share: &[f64; 3], fd: &FilterDesign| {
             let p = problem_with(problem, fd);
+            // With a load step each filter's search shares the budget of
+            // one design (a deviation behind a filter is a long transform).
+            let max_evaluations = if problem.scenario.transient.is_some() {
+                settings.max_evaluations / MAX_FILTERS_STEP
+            } else {
+                settings.max_evaluations
+            };
             let inner = Settings {
                 cutoff: cutoff_of(share),
                 progress: false,
+                max_evaluations,
                 ..settings.clone()
             };
             let out = design_for(&p, target, &inner);

@@ -597,13 +597,20 @@ impl Search {
         // changes no answer).
         if let Some(m) = self.step.as_mut() {
             let limit = m.spec.max_deviation * (1.0 + crate::transient::ROUNDING);
-            if !m.screen(
+            let before = m.work;
+            let ok = m.screen(
                 &self.parts,
                 &self.bank_buf,
                 limit,
                 &self.step_cuts,
                 &mut self.step_buf,
-            ) {
+            );
+            // A deviation evaluates a whole grid of frequencies: charged to
+            // the budget as that many ripple evaluations' worth of work, so
+            // that a load step that fails every candidate cannot run on
+            // without end.
+            self.evals += (m.work - before) / self.harmonics.max(1);
+            if !ok {
                 return false;
             }
         }
