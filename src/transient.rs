@@ -415,6 +415,9 @@ pub struct StepModel {
     /// Frequencies evaluated for them (each deviation costs its grid's
     /// half): the search charges this work to its evaluation budget.
     pub work: usize,
+    /// How far the window reaches ([`Horizon::Peak`]; the tests compare it
+    /// with the whole decay).
+    horizon: Horizon,
     /// The filter's terms on the last grid for the last filter states.
     tail_cache: TailCache,
 }
@@ -672,6 +675,7 @@ impl StepModel {
             tail: Vec::new(),
             evaluations: 0,
             work: 0,
+            horizon: Horizon::Peak,
             tail_cache: TailCache {
                 grid: usize::MAX,
                 ..TailCache::default()
@@ -716,7 +720,7 @@ impl StepModel {
                 .chain(internal)
         };
         if self.tail.is_empty() {
-            return slowest_loop_for(front, Horizon::Peak);
+            return slowest_loop_for(front, self.horizon);
         }
         let ts = states.get(bank.len()..).unwrap_or(&[]);
         let (mut l, mut g_dcr, mut g_l) = (0.0, 0.0, 0.0);
@@ -751,7 +755,7 @@ impl StepModel {
                     }
                 })
         };
-        ladder_tau_for(front, load, l, dcr, Horizon::Peak)
+        ladder_tau_for(front, load, l, dcr, self.horizon)
     }
 
     fn has_capacitance(&self, bank: &Bank) -> bool {
@@ -1126,6 +1130,76 @@ mod tests {
         let parts = [part(c, esr, esl)];
         let mut m = StepModel::with_network(sp, Network::new(None, 0.0), &parts);
         m.deviation(&[(0, 1)], &[LineState { c, esr }])
+    }
+
+    /// A lightly damped post-filter: the window that covers [`RINGS`]
+    /// periods of the ring gives the same deviation as the one that
+    /// covers its whole decay (the periodic reference of the same
+    /// transform, wrap-around below 1e−7), and both grids differ in size.
+    #[test]
+    fn the_peak_window_matches_the_whole_decay_behind_a_ringing_filter() {
+        let sp = Spec {
+            load_step: 0.5,
+            max_deviation: 0.02,
+            crossover: 20e3,
+            rise_time: 1e-6,
+        };
+        let inductor = |l: f64, dcr: f64| TailLine {
+            model: part(l, dcr, 0.0),
+            count: 1,
+            role: TailRole::Inductor { cp: 2e-12 },
+        };
+        let cap = |c: f64, esr: f64, esl: f64, n: u32, role: TailRole| TailLine {
+            model: part(c, esr, esl),
+            count: n,
+            role,
+        };
+        for (l, dcr, r_damp) in [
+            (1e-6, 5e-3, 0.5),
+            (2.2e-6, 10e-3, 2.0),
+            (0.47e-6, 2e-3, 0.2),
+        ] {
+            let tail = vec![
+                inductor(l, dcr),
+                cap(10e-6, 3e-3, 0.4e-9, 4, TailRole::Load),
+                cap(
+                    47e-6,
+                    30e-3,
+                    1e-9,
+                    1,
+                    TailRole::Damping { resistance: r_damp },
+                ),
+            ];
+            let parts = [part(22e-6, 3e-3, 0.5e-9), part(100e-6, 25e-3, 1.5e-9)];
+            let bank = [(0usize, 3u32), (1, 1)];
+            let states: Vec<LineState> = parts
+                .iter()
+                .map(|p| LineState {
+                    c: p.c_worst,
+                    esr: p.esr_max,
+                })
+                .chain(tail.iter().map(|t| LineState {
+                    c: t.model.c_worst,
+                    esr: t.model.esr_max,
+                }))
+                .collect();
+            let mk = || {
+                StepModel::with_network(sp, Network::new(None, 1e-9), &parts)
+                    .with_tail(tail.clone())
+            };
+            let mut fast = mk();
+            let d_fast = fast.deviation(&bank, &states);
+            let mut slow = mk();
+            slow.horizon = Horizon::Settle;
+            let d_slow = slow.deviation(&bank, &states);
+            let (n_fast, n_slow) = (fast.work, slow.work);
+            eprintln!("L {l:e}: peak window {d_fast:.6e} V ({n_fast} points), whole decay {d_slow:.6e} V ({n_slow} points)");
+            assert!(n_slow > n_fast, "the whole decay is the longer window");
+            assert!(
+                (d_fast - d_slow).abs() <= 1e-5 * d_slow,
+                "{d_fast} vs {d_slow}"
+            );
+        }
     }
 
     #[test]

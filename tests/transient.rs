@@ -353,3 +353,64 @@ fn filtered_load_step_matches_ngspice() {
     );
     assert!(e < 0.01, "evaluator {dev} vs ngspice {sim}");
 }
+
+/// A new user's filtered rail with a load step: `design` (the bundled
+/// low-noise module rail, the step of the ngspice check above with a 40 mV
+/// limit) returns a damped filter design that meets the ripple and holds
+/// the step at the load node, and `assess` of the bill of materials it
+/// writes finds the same deviation (one evaluator for both; the design's
+/// own deviation is verified over the corner region, not screened).
+#[test]
+fn filtered_design_holds_the_step_at_the_load_node() {
+    let root = env!("CARGO_MANIFEST_DIR");
+    let dir = tempfile::tempdir().unwrap();
+    let scen = std::fs::read_to_string(format!("{root}/scenarios/adc-rail-5v.toml"))
+        .unwrap()
+        .replace("../catalogs", &format!("{root}/catalogs"));
+    let scen = format!(
+        "{scen}\n[transient]\nload_step = \"0.5\"\nmax_deviation = \"40m\"\nloop_crossover = \"20k\"\nrise_time = \"1u\"\n"
+    );
+    let sp = dir.path().join("rail.toml");
+    std::fs::write(&sp, scen).unwrap();
+    let out = dir.path().join("out");
+    let run = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["design", "--json", "--scenario"])
+        .arg(&sp)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        run.status.success(),
+        "{}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&run.stdout).unwrap();
+    let status = json["status"].as_str().unwrap();
+    assert!(status == "optimal" || status == "feasible", "{status}");
+    assert!(
+        json["filter"].is_object(),
+        "the answer is a filtered design"
+    );
+    let t = &json["transient"];
+    let dev = t["deviation"].as_f64().unwrap();
+    assert!(t["ok"].as_bool().unwrap() && dev <= 0.04, "deviation {dev}");
+    assert!(json["ripple_pp"].as_f64().unwrap() <= json["target_ripple_pp"].as_f64().unwrap());
+    let again = assert_cmd::Command::cargo_bin("ripplebank")
+        .unwrap()
+        .args(["assess", "--json", "--scenario"])
+        .arg(&sp)
+        .arg("--bom")
+        .arg(out.join("bom.csv"))
+        .output()
+        .unwrap();
+    let a: serde_json::Value = serde_json::from_slice(&again.stdout).unwrap();
+    let dev_a = a["transient"]["deviation"].as_f64().unwrap();
+    eprintln!(
+        "filtered step design: {status}, deviation {:.3} mV, assess {:.3} mV",
+        dev * 1e3,
+        dev_a * 1e3
+    );
+    assert!((dev_a - dev).abs() <= 1e-9 * dev, "{dev_a} vs {dev}");
+}
