@@ -26,20 +26,30 @@
 //!
 //! # Method (exact for the network)
 //!
-//! The load current is made periodic: a square wave of period `T` whose
-//! half period is far longer than every time constant of the response
-//! (`ramp + 16·τ`, `τ` the largest of `1/ω_c`, each branch's `ESR·C` and
-//! `2·L/ESR`), so that each edge starts from a settled state. Its
-//! harmonics are exact (linear segments, [`crate::spectrum::harmonics`]).
-//! As for the ripple, the network's high-frequency asymptote `b0 + jω·b1`
-//! of the bracket above is taken out and added back in closed form
+//! One edge of the load current (a linear ramp of `ΔI`,
+//! `I(s) = ΔI·(1 − e^{−s·ramp})/(ramp·s²)`) is inverted on a shifted
+//! contour (the FFT form of the Fourier-series inversion of the Laplace
+//! transform; Dubner & Abate, J. ACM 1968, and Crump, J. ACM 1976): the
+//! transform is taken at `s_k = σ + j·k·2π/T` and one inverse FFT gives
+//! `e^{−σt}·Σ_n v(t + nT)·e^{−σnT}`, so that multiplying by `e^{σt}`
+//! leaves `v(t)` plus the later periods' wrap-around, each weighted by
+//! `e^{−σT}` ([`WRAP`] = 1e−8, at every time, whatever the response does
+//! after the window). Only the first half of the period is used, where
+//! `e^{σt}` stays below `1/√WRAP`. The window is the ramp plus
+//! [`SETTLE`] of the longest time constant that matters for the peak:
+//! `1/ω_c`, each branch loop's `ESR·C` and overdamped decay, and for a
+//! ringing loop the shorter of its decay and [`RINGS`] of its periods —
+//! the ring's envelope only shrinks once the step is over, so a lightly
+//! damped filter does not need a window as long as its whole decay. As
+//! for the ripple, the network's high-frequency asymptote `b0 + s·b1` of
+//! the bracket above is taken out and added back in closed form
 //! (`b0·i_load + b1·di_load/dt`, exact on both sides of the ramp's
-//! corners); the remaining series decays as `1/ω³` and is summed by one
-//! inverse FFT on a grid of 32 samples per ramp whose corners fall on
-//! samples. The peak between samples is refined by a parabola through the
-//! three samples around each local maximum. Every table (frequencies, load
-//! harmonics, the converter's response, FFT plans, scratch) is built once
-//! per part list; evaluating a bank allocates nothing.
+//! corners); the remaining transform decays as `1/|s|³` and is summed on a
+//! grid of 32 samples per ramp whose corners fall on samples. The peak
+//! between samples is refined by a parabola through the three samples
+//! around each local maximum. Every table (contour, load transform, the
+//! converter's response, gains, FFT plans, scratch) is built once per part
+//! list; evaluating a bank allocates nothing.
 
 use crate::evaluator::{tail_load_and_series, Bank, LineState, PartModel, TailLine, TailRole};
 use crate::network::{admittance_s, Network, OMEGA_ASYMPTOTE};
@@ -53,10 +63,10 @@ use std::sync::Arc;
 
 /// Samples of the grid per load ramp (the ramp's corners fall on samples).
 pub(crate) const RAMP_SAMPLES: usize = 32;
-/// The half period is the ramp plus this many of the slowest time constant
-/// (e^−16 ≈ 1e−7 of an edge is left when the next one comes).
+/// The window is the ramp plus this many of the longest time constant that
+/// matters for the peak (e^−16 ≈ 1e−7 of a mode is left at its end).
 pub const SETTLE: f64 = 16.0;
-/// Largest grid (points per period).
+/// Largest grid (points per period; the window is half of it).
 pub const MAX_POINTS: usize = 1 << 19;
 /// 10–90 % of a linear ramp is 0.8 of its length.
 pub(crate) const RAMP_PER_RISE: f64 = 1.0 / 0.8;
