@@ -224,6 +224,9 @@ pub(crate) fn design_report(
                     text::mv(x),
                     text::mv(p.scenario.target.ripple_pp.0)
                 )),
+                None if st.candidates > 0 => r.line(
+                    "  No bank of the allowed parts meets the other limits together, so no lowest ripple can be given (see below).",
+                ),
                 None => r.line("  No part may be used, so no bank can be built."),
             }
             let mut doc = super::infeasible_doc(p, best, &why.binding);
