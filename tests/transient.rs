@@ -289,6 +289,22 @@ fn design_matches_brute_force_where_the_step_binds() {
     assert!(exact as f64 >= 0.9 * cases as f64, "{exact} of {cases}");
 }
 
+/// The bundled low-noise module rail (damped LC post-filter) with a 0.5 A
+/// load step at a 20 kHz crossover and a 1 µs rise, limit `limit`,
+/// written into `dir`; returns the scenario's path.
+fn filtered_step_rail(dir: &std::path::Path, limit: &str) -> std::path::PathBuf {
+    let root = env!("CARGO_MANIFEST_DIR");
+    let scen = std::fs::read_to_string(format!("{root}/scenarios/adc-rail-5v.toml"))
+        .unwrap()
+        .replace("../catalogs", &format!("{root}/catalogs"));
+    let scen = format!(
+        "{scen}\n[transient]\nload_step = \"0.5\"\nmax_deviation = \"{limit}\"\nloop_crossover = \"20k\"\nrise_time = \"1u\"\n"
+    );
+    let sp = dir.join("rail.toml");
+    std::fs::write(&sp, scen).unwrap();
+    sp
+}
+
 /// The load step of a filtered design is taken at the load node, through
 /// the filter: `assess` of a damped LC post-filter design (the bundled
 /// low-noise module rail with a load step added) against an ngspice
@@ -296,16 +312,8 @@ fn design_matches_brute_force_where_the_step_binds() {
 /// run holds the whole ladder at the evaluator's worst point. Within 1 %.
 #[test]
 fn filtered_load_step_matches_ngspice() {
-    let root = env!("CARGO_MANIFEST_DIR");
     let dir = tempfile::tempdir().unwrap();
-    let scen = std::fs::read_to_string(format!("{root}/scenarios/adc-rail-5v.toml"))
-        .unwrap()
-        .replace("../catalogs", &format!("{root}/catalogs"));
-    let scen = format!(
-        "{scen}\n[transient]\nload_step = \"0.5\"\nmax_deviation = \"20m\"\nloop_crossover = \"20k\"\nrise_time = \"1u\"\n"
-    );
-    let sp = dir.path().join("rail.toml");
-    std::fs::write(&sp, scen).unwrap();
+    let sp = filtered_step_rail(dir.path(), "20m");
     // The demo's damped filter design (its bom.csv, as `design` writes it).
     let bom = "part,count,position,resistance\n\
         RB-L2520-0U47,1,inductor,\n\
@@ -362,16 +370,8 @@ fn filtered_load_step_matches_ngspice() {
 /// own deviation is verified over the corner region, not screened).
 #[test]
 fn filtered_design_holds_the_step_at_the_load_node() {
-    let root = env!("CARGO_MANIFEST_DIR");
     let dir = tempfile::tempdir().unwrap();
-    let scen = std::fs::read_to_string(format!("{root}/scenarios/adc-rail-5v.toml"))
-        .unwrap()
-        .replace("../catalogs", &format!("{root}/catalogs"));
-    let scen = format!(
-        "{scen}\n[transient]\nload_step = \"0.5\"\nmax_deviation = \"40m\"\nloop_crossover = \"20k\"\nrise_time = \"1u\"\n"
-    );
-    let sp = dir.path().join("rail.toml");
-    std::fs::write(&sp, scen).unwrap();
+    let sp = filtered_step_rail(dir.path(), "40m");
     let out = dir.path().join("out");
     let run = assert_cmd::Command::cargo_bin("ripplebank")
         .unwrap()
