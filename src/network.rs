@@ -621,6 +621,23 @@ mod tests {
     }
 
     #[test]
+    fn complex_frequency_forms_agree_with_the_real_ones_on_the_axis() {
+        // The load step's contour forms at s = j·2πf are the impedances of
+        // the ripple path, which the nodal-analysis checks above hold.
+        for f in [1e3, 2e5, 3e7] {
+            let s = Complex64::new(0.0, 2.0 * PI * f);
+            let a = admittance(3e-3, 0.5e-9, 47e-6, f);
+            assert!(close(admittance_s(3e-3, 0.5e-9, 47e-6, s), a, 1e-12));
+            let ind = SeriesInductor {
+                l: 0.47e-6,
+                dcr: 4e-3,
+                cp: 3e-12,
+            };
+            assert!(close(ind.impedance_s(s), ind.impedance(f), 1e-12));
+        }
+    }
+
+    #[test]
     fn asymptote_is_the_esr_and_esl_in_parallel() {
         // Far above resonance each capacitor is R + jωL; two equal ones in
         // parallel are R/2 + jωL/2 (series-parallel reduction).
