@@ -114,7 +114,8 @@ pub struct Stats {
     pub line_sets_total: usize,
     /// Line sets whose counts were searched.
     pub line_sets_solved: usize,
-    /// Exact ripple evaluations made.
+    /// Exact ripple evaluations made, with the count enumeration charged as
+    /// one evaluation per eight nodes and the load step as its grid work.
     pub evaluations: usize,
     /// The bank found is proven the best under the model: every line set
     /// was enumerated, or the incumbent met a proven lower bound.
