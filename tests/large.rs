@@ -205,8 +205,9 @@ fn lowest_ripple_is_not_far_above_what_design_meets() {
 
 #[test]
 fn a_target_no_bank_meets_stops_on_the_budget() {
-    // The two-phase core scenario at 0.2 mV: no bank of the demo catalog
-    // reaches it (its lowest ripple is about 2 mV). Every line set's counts
+    // The two-phase core scenario at 1 mV: no bank of the demo catalog
+    // reaches it (its lowest ripple is about 2 mV), yet the line-set bounds
+    // leave sets open (at 0.2 mV they rule out every set). Their counts
     // fail the per-harmonic test, so no exact evaluation is made; the
     // enumeration itself must be charged to the budget, or the search runs
     // through every count vector of every line set (minutes). Source: the
@@ -214,7 +215,7 @@ fn a_target_no_bank_meets_stops_on_the_budget() {
     // the lowest-ripple figure is checked against design elsewhere.
     let text = std::fs::read_to_string("scenarios/core-2phase.toml").unwrap();
     let mut sc = Scenario::from_str(&text, "scenarios/core-2phase.toml").unwrap();
-    sc.target.ripple_pp.0 = 0.2e-3;
+    sc.target.ripple_pp.0 = 1.0e-3;
     let cat = Catalog::from_bytes(
         &std::fs::read("catalogs/demo-parts.csv").unwrap(),
         "catalogs/demo-parts.csv",
