@@ -227,7 +227,11 @@ fn a_target_no_bank_meets_stops_on_the_budget() {
     };
     let out = optimize::design(&p, &settings);
     assert_eq!(out.status, Status::Infeasible);
-    assert!(out.stats.stopped, "the search must stop on its budget: {:?}", out.stats);
+    assert!(
+        out.stats.stopped,
+        "the search must stop on its budget: {:?}",
+        out.stats
+    );
     let stages = p.scenario.max_lines() as usize;
     assert!(
         out.stats.evaluations > 0 && out.stats.evaluations <= stages * (budget + 1),
@@ -241,6 +245,10 @@ fn a_target_no_bank_meets_stops_on_the_budget() {
     // charge removed it still passes here in about 2 s.)
     let t0 = std::time::Instant::now();
     let b = optimize::binding(&p, 0.2e-3);
-    eprintln!("binding {:?} in {:.1} s", b.limits, t0.elapsed().as_secs_f64());
+    eprintln!(
+        "binding {:?} in {:.1} s",
+        b.limits,
+        t0.elapsed().as_secs_f64()
+    );
     assert_eq!(b.limits, vec!["catalog".to_string()]);
 }
