@@ -336,6 +336,8 @@ pub struct Evaluator {
     pub currents: Vec<Vec<Complex64>>,
     /// Per vin corner: I_k · H_k, n_limited long.
     drive_limited: Vec<Vec<Complex64>>,
+    /// Per vin corner: |I_k · H_k|², n_limited long (the cascade's floors).
+    drive_n2: Vec<Vec<f64>>,
     /// Bandwidth filter H_k, n_full long.
     pub filter: Vec<Complex64>,
     /// What stands between the converter's current and the measured node.
@@ -470,6 +472,32 @@ fn scan(z: &[Complex64], g0: &[Complex64], g1: &[Complex64], a0: f64, a1: f64) -
         hi = hi.max(v.re).max(v.im);
     }
     (lo, hi)
+}
+
+/// `(max_k, Σ_k)` of |d_k|²·|z_k|² over the harmonics (`dn2` holds
+/// |d_k|²): four lanes without branches, so that it vectorises.
+#[inline]
+fn floor_terms(dn2: &[f64], z: &[Complex64]) -> (f64, f64) {
+    let len = dn2.len().min(z.len());
+    let (dn2, z) = (&dn2[..len], &z[..len]);
+    let (mut peak, mut sum) = ([0.0_f64; 4], [0.0_f64; 4]);
+    for (d, z) in dn2.chunks_exact(4).zip(z.chunks_exact(4)) {
+        for q in 0..4 {
+            let v = d[q] * (z[q].re * z[q].re + z[q].im * z[q].im);
+            peak[q] = if v > peak[q] { v } else { peak[q] };
+            sum[q] += v;
+        }
+    }
+    let (mut p, mut s) = (
+        peak[0].max(peak[1]).max(peak[2]).max(peak[3]),
+        (sum[0] + sum[1]) + (sum[2] + sum[3]),
+    );
+    for k in 4 * (len / 4)..len {
+        let v = dn2[k] * z[k].norm_sqr();
+        p = p.max(v);
+        s += v;
+    }
+    (p, s)
 }
 
 /// How far past the bound on the winding-capacitance resonance the
@@ -619,6 +647,7 @@ impl Evaluator {
             freqs,
             currents: Vec::new(),
             drive_limited: Vec::new(),
+            drive_n2: Vec::new(),
             filter,
             network,
             y_int,
@@ -664,6 +693,11 @@ impl Evaluator {
                     .collect()
             })
             .collect();
+        ev.drive_n2 = ev
+            .drive_limited
+            .iter()
+            .map(|d| d.iter().map(|x| x.norm_sqr()).collect())
+            .collect();
         ev.currents = currents;
         ev.set_parts(parts);
         ev
@@ -702,6 +736,17 @@ impl Evaluator {
             Corner::Typical => &self.y_typical,
         };
         t[i * self.n_full + k]
+    }
+
+    /// Admittances of one capacitor of local part `i` at every harmonic
+    /// (`n_full` values).
+    #[inline]
+    pub(crate) fn y_row(&self, i: usize, corner: Corner) -> &[Complex64] {
+        let t = match corner {
+            Corner::Worst => &self.y_worst,
+            Corner::Typical => &self.y_typical,
+        };
+        &t[i * self.n_full..(i + 1) * self.n_full]
     }
 
     /// Number of input-voltage corners.
@@ -1038,13 +1083,7 @@ impl Evaluator {
         // pp ≥ 2·rms ≥ sqrt(2·Σ|V_k|²) (Parseval).
         let mut floor: f64 = 0.0;
         for &c in &self.ops_region {
-            let d = &self.drive_limited[c];
-            let (mut peak, mut sum) = (0.0_f64, 0.0);
-            for k in 0..n {
-                let v = (d[k] * self.zt[k]).norm_sqr();
-                peak = peak.max(v);
-                sum += v;
-            }
+            let (peak, sum) = floor_terms(&self.drive_n2[c][..n], &self.zt[..n]);
             floor = floor
                 .max(HARMONIC_FLOOR * peak.sqrt())
                 .max((2.0 * sum).sqrt());
@@ -1307,6 +1346,8 @@ impl Evaluator {
             self.plan_full.m,
         )));
         self.currents.push(cur);
+        self.drive_n2
+            .push(drive.iter().map(|x| x.norm_sqr()).collect());
         self.drive_limited.push(drive);
         self.ops.push(op.clone());
         self.ops.len() - 1

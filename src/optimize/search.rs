@@ -150,10 +150,27 @@ pub(super) struct Search {
     /// The harmonics whose `required` is positive: the only ones the
     /// necessary condition can fail at.
     pub(super) needed: Vec<usize>,
-    /// Complex admittance Y_ik per part (worst corner), n harmonics each.
-    pub(super) adm_worst: Vec<Complex64>,
     /// (r_k, G_k, Y_int,k) of [`Evaluator::phase_terms`].
     pub(super) phase_terms: Vec<(f64, Complex64, Complex64)>,
+    /// The phase screen of the count enumeration ([`Search::phase_need`]):
+    /// the harmonics it tests, those whose r_k is not negligible (an
+    /// interleaved converter's cancelled harmonics are left out; any subset
+    /// gives a valid necessary condition).
+    pub(super) ph_k: Vec<usize>,
+    /// Per part, Y_ik·G_k at the screen's harmonics: P real parts, then P
+    /// imaginary parts (2P values per part, P = `ph_k.len()`).
+    pub(super) ph_b: Vec<f64>,
+    /// The offset Y_int,k at the screen's harmonics, laid out as `ph_b`:
+    /// the screen's sum for no added part.
+    pub(super) ph_a0: Vec<f64>,
+    /// r_k² at the screen's harmonics.
+    pub(super) ph_r2: Vec<f64>,
+    /// r_k²·(1 − 1e−9): the screen's pass threshold.
+    pub(super) ph_r2_pass: Vec<f64>,
+    /// required·(1 − 1e−9): the magnitude condition's pruning threshold.
+    pub(super) req_thr: Vec<f64>,
+    /// Scratch: the worst-corner admittance of the enumeration's fixed parts.
+    pub(super) yb_base: Vec<Complex64>,
     /// Harmonics of the target figure.
     pub(super) harmonics: usize,
     pub(super) target: f64,
@@ -196,6 +213,42 @@ pub(super) struct Search {
 /// 25 s on the command line; 6.4 s with the charge); with it
 /// the budget bounds every search's work.
 pub(super) const NODES_PER_EVAL: usize = 8;
+
+/// Harmonics whose r_k is below this share of the largest are left out of
+/// the phase screen: their condition is met by any bank up to rounding
+/// (the harmonics an interleaved converter cancels), and leaving a
+/// harmonic out only weakens a necessary condition the exact evaluation
+/// follows.
+pub(super) const PHASE_NEGLIGIBLE: f64 = 1e-9;
+
+/// Whether |a_k + c·b_k|² ≥ `pass`_k at every harmonic of the phase screen
+/// (`a` and `b` laid out as [`Search::ph_b`]): one pass without branches,
+/// four running minima, so that it vectorises.
+#[inline]
+fn phase_clear(a: &[f64], b: &[f64], pass: &[f64], c: f64) -> bool {
+    let p = pass.len();
+    let (are, aim) = a.split_at(p);
+    let (bre, bim) = b.split_at(p);
+    let mut lo = [f64::INFINITY; 4];
+    let mut k = 0;
+    while k + 4 <= p {
+        for q in 0..4 {
+            let xr = are[k + q] + c * bre[k + q];
+            let xi = aim[k + q] + c * bim[k + q];
+            let v = xr * xr + xi * xi - pass[k + q];
+            lo[q] = if v < lo[q] { v } else { lo[q] };
+        }
+        k += 4;
+    }
+    let mut m = lo[0].min(lo[1]).min(lo[2]).min(lo[3]);
+    while k < p {
+        let xr = are[k] + c * bre[k];
+        let xi = aim[k] + c * bim[k];
+        m = m.min(xr * xr + xi * xi - pass[k]);
+        k += 1;
+    }
+    m >= 0.0
+}
 
 pub(super) fn weights(obj: Objective, p: &PartModel) -> Key {
     match obj {
@@ -252,13 +305,24 @@ impl Search {
             adm_mag.extend(ev.admittance_magnitudes(j));
         }
         let check_currents = parts.iter().any(|p| p.rating.is_some());
-        let mut adm_worst = Vec::with_capacity(parts.len() * harmonics);
-        for j in 0..parts.len() {
-            for k in 0..harmonics {
-                adm_worst.push(ev.y(j, k, crate::evaluator::Corner::Worst));
-            }
-        }
         let phase_terms = ev.phase_terms(target);
+        let r_top = phase_terms.iter().map(|t| t.0).fold(0.0, f64::max);
+        let ph_k: Vec<usize> = (0..harmonics)
+            .filter(|&k| phase_terms[k].0 > PHASE_NEGLIGIBLE * r_top)
+            .collect();
+        let np_k = ph_k.len();
+        let mut ph_b = Vec::with_capacity(parts.len() * 2 * np_k);
+        for j in 0..parts.len() {
+            let row = ev.y_row(j, crate::evaluator::Corner::Worst);
+            let b: Vec<Complex64> = ph_k.iter().map(|&k| row[k] * phase_terms[k].1).collect();
+            ph_b.extend(b.iter().map(|x| x.re));
+            ph_b.extend(b.iter().map(|x| x.im));
+        }
+        let mut ph_a0: Vec<f64> = ph_k.iter().map(|&k| phase_terms[k].2.re).collect();
+        ph_a0.extend(ph_k.iter().map(|&k| phase_terms[k].2.im));
+        let ph_r2: Vec<f64> = ph_k.iter().map(|&k| phase_terms[k].0.powi(2)).collect();
+        let ph_r2_pass = ph_r2.iter().map(|r| r * (1.0 - 1e-9)).collect();
+        let req_thr = required.iter().map(|r| r * (1.0 - 1e-9)).collect();
         let ratings = parts.iter().map(|p| p.rating).collect();
         let step =
             crate::transient::StepModel::new(s, &parts).map(|m| m.with_tail(ev.tail().to_vec()));
@@ -268,8 +332,14 @@ impl Search {
             step_buf: Vec::new(),
             active: Vec::new(),
             ratings,
-            adm_worst,
             phase_terms,
+            ph_k,
+            ph_b,
+            ph_a0,
+            ph_r2,
+            ph_r2_pass,
+            req_thr,
+            yb_base: vec![Complex64::default(); harmonics],
             catalog_index: candidates.to_vec(),
             ev,
             parts,
@@ -453,7 +523,7 @@ impl Search {
                 tops.clear();
                 let rg = rot * g;
                 for i in 0..np {
-                    let v = (rg * self.adm_worst[i * n + k]).re;
+                    let v = (rg * self.ev.y(i, k, crate::evaluator::Corner::Worst)).re;
                     if v > 0.0 && self.count_max[i] > 0 {
                         let cap = self.count_max[i] as f64;
                         items.push((self.weights[0][i] / v, v, cap));
@@ -671,7 +741,7 @@ impl Search {
             }
         }
         let mut stack = vec![vec![0.0; n]; m + 1];
-        let mut cstack = vec![vec![Complex64::default(); n]; m + 1];
+        let mut cstack = vec![self.ph_a0.clone(); m + 1];
         let mut counts = vec![0u32; m];
         let start = Partial {
             key0: m as f64 * self.line_w[0],
@@ -690,24 +760,31 @@ impl Search {
     }
 
     /// Smallest count c ≥ lo of part i such that, with the other parts'
-    /// admittance `sum` fixed, every harmonic meets |Y_tot,k| ≥ r_k exactly
-    /// (phases kept): |A + c·B|² ≥ r² is a quadratic in c whose failing set
-    /// is one open interval. `None` if no count up to `hi` does.
-    pub(super) fn phase_need(&self, i: usize, sum: &[Complex64], lo: f64, hi: f64) -> Option<f64> {
-        let n = self.harmonics;
-        let row = &self.adm_worst[i * n..(i + 1) * n];
+    /// screen sum `a` fixed (Σ n_j·Y_jk·G_k + Y_int,k, laid out as
+    /// [`Search::ph_b`]), every harmonic of the phase screen meets
+    /// |Y_tot,k| ≥ r_k exactly (phases kept): |A + c·B|² ≥ r² is a
+    /// quadratic in c whose failing set is one open interval. `None` if no
+    /// count up to `hi` does. A branch-free pass ([`phase_clear`]) accepts
+    /// a count; only a count it refuses is moved harmonic by harmonic.
+    pub(super) fn phase_need(&self, i: usize, a: &[f64], lo: f64, hi: f64) -> Option<f64> {
+        let p = self.ph_k.len();
+        let b = &self.ph_b[2 * i * p..2 * (i + 1) * p];
+        let (are, aim) = a.split_at(p);
+        let (bre, bim) = b.split_at(p);
         let mut c = lo;
         loop {
+            if phase_clear(a, b, &self.ph_r2_pass, c) {
+                return Some(c);
+            }
             let mut moved = false;
-            for k in 0..n {
-                let (r, g, yi) = self.phase_terms[k];
-                let a_ = sum[k] * g + yi;
-                let b_ = row[k] * g;
-                let qa = b_.norm_sqr();
-                let qb = 2.0 * (a_ * b_.conj()).re;
-                let qc = a_.norm_sqr() - r * r;
+            for k in 0..p {
+                let r2 = self.ph_r2[k];
+                let (ar, ai, br, bi) = (are[k], aim[k], bre[k], bim[k]);
+                let qa = br * br + bi * bi;
+                let qb = 2.0 * (ar * br + ai * bi);
+                let qc = ar * ar + ai * ai - r2;
                 let val = (qa * c + qb) * c + qc;
-                if val >= -1e-9 * r * r {
+                if val >= -1e-9 * r2 {
                     continue;
                 }
                 if qa <= 0.0 {
@@ -753,7 +830,7 @@ impl Search {
         d: usize,
         p: Partial,
         stack: &mut [Vec<f64>],
-        cstack: &mut [Vec<Complex64>],
+        cstack: &mut [Vec<f64>],
         counts: &mut [u32],
         rest_ub: &[Vec<f64>],
     ) {
@@ -789,17 +866,30 @@ impl Search {
         if d + 1 == m {
             let cur = &stack[d];
             // Smallest count the necessary condition allows.
-            let mut need = lo;
             let row = &self.adm_mag[i * self.harmonics..(i + 1) * self.harmonics];
-            for k in 0..self.harmonics {
-                let deficit = self.required[k] - cur[k];
-                if deficit > 0.0 {
-                    if row[k] <= 0.0 {
-                        return;
-                    }
-                    need = need.max(deficit / row[k] - 1e-9);
+            // max_k (r_k − cur_k)/|Y_ik|, without branches: a deficit where
+            // the part has no admittance gives +∞ (no count is enough),
+            // no deficit there gives −∞ or NaN, which the maximum skips.
+            let mut top = [f64::NEG_INFINITY; 4];
+            let (req, cur) = (&self.required[..row.len()], &cur[..row.len()]);
+            let mut k = 0;
+            while k + 4 <= row.len() {
+                for q in 0..4 {
+                    let x = (req[k + q] - cur[k + q]) / row[k + q];
+                    top[q] = if x > top[q] { x } else { top[q] };
                 }
+                k += 4;
             }
+            let mut ratio = top[0].max(top[1]).max(top[2]).max(top[3]);
+            while k < row.len() {
+                let x = (req[k] - cur[k]) / row[k];
+                ratio = if x > ratio { x } else { ratio };
+                k += 1;
+            }
+            if ratio == f64::INFINITY {
+                return;
+            }
+            let mut need = lo.max(ratio - 1e-9);
             for (r, row) in self.lim.at_least.iter().enumerate() {
                 if row.value > p.used_least[r] && row.coef[i] > 0.0 {
                     need = need.max((row.value - p.used_least[r]) / row.coef[i] - 1e-9);
@@ -813,6 +903,19 @@ impl Search {
             let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else {
                 return;
             };
+            // The fixed parts' admittance, for the exact evaluation.
+            {
+                let n = self.harmonics;
+                let Search { ev, yb_base, .. } = self;
+                yb_base.fill(Complex64::default());
+                for (&j, &cj) in set[..d].iter().zip(counts.iter()) {
+                    let cj = cj as f64;
+                    let row = &ev.y_row(j, crate::evaluator::Corner::Worst)[..n];
+                    for (b, y) in yb_base.iter_mut().zip(row) {
+                        *b += y * cj;
+                    }
+                }
+            }
             for c in next_ok as u32..=hi {
                 if (c as f64) < next_ok {
                     continue;
@@ -828,8 +931,15 @@ impl Search {
                     .extend(set.iter().zip(counts.iter()).map(|(&a, &b)| (a, b)));
                 {
                     let cf = c as f64;
-                    let row = &self.adm_worst[i * self.harmonics..(i + 1) * self.harmonics];
-                    for ((yb, s0), y) in self.yb_buf.iter_mut().zip(&cstack[d]).zip(row) {
+                    let n = self.harmonics;
+                    let Search {
+                        ev,
+                        yb_buf,
+                        yb_base,
+                        ..
+                    } = self;
+                    let row = &ev.y_row(i, crate::evaluator::Corner::Worst)[..n];
+                    for ((yb, s0), y) in yb_buf.iter_mut().zip(yb_base.iter()).zip(row) {
                         *yb = s0 + y * cf;
                     }
                 }
@@ -866,25 +976,31 @@ impl Search {
                 return;
             }
             let cf = c as f64;
-            let mut ok = true;
             let (head, tail) = stack.split_at_mut(d + 1);
             let (cur, next) = (&head[d], &mut tail[0]);
+            let mut bad = false;
+            let mag = &self.adm_mag[row_start..row_start + self.harmonics];
+            for ((((nx, &cu), &a), &ru), &thr) in next
+                .iter_mut()
+                .zip(cur.iter())
+                .zip(mag)
+                .zip(&rest_ub[d])
+                .zip(&self.req_thr)
             {
-                let (ch, ct) = cstack.split_at_mut(d + 1);
-                let yrow = &self.adm_worst[row_start..row_start + self.harmonics];
-                for ((nx, cu), y) in ct[0].iter_mut().zip(&ch[d]).zip(yrow) {
-                    *nx = cu + y * cf;
-                }
+                let v = cu + cf * a;
+                *nx = v;
+                bad |= v + ru < thr;
             }
-            for k in 0..self.harmonics {
-                let v = cur[k] + cf * self.adm_mag[row_start + k];
-                next[k] = v;
-                if v + rest_ub[d][k] < self.required[k] * (1.0 - 1e-9) {
-                    ok = false;
-                }
-            }
-            if !ok {
+            if bad {
                 continue 'outer;
+            }
+            {
+                let p2 = 2 * self.ph_k.len();
+                let (ch, ct) = cstack.split_at_mut(d + 1);
+                let brow = &self.ph_b[i * p2..(i + 1) * p2];
+                for ((nx, cu), b) in ct[0].iter_mut().zip(&ch[d]).zip(brow) {
+                    *nx = cu + cf * b;
+                }
             }
             counts[d] = c;
             let mut np = Partial {
