@@ -349,8 +349,11 @@ pub struct Evaluator {
     zs_yi: Vec<Complex64>,
     /// Per harmonic: ω_k = 2π·k·f_ripple, n_full long.
     omega: Vec<f64>,
-    y_worst: Vec<Complex64>,
-    y_typical: Vec<Complex64>,
+    /// Per part and harmonic (n_full each): admittance at the worst and at
+    /// the typical corner. Shared, not copied, by a clone of the evaluator
+    /// (the search's workers).
+    y_worst: Arc<Vec<Complex64>>,
+    y_typical: Arc<Vec<Complex64>>,
     /// Per part: admittance at [`OMEGA_ASYMPTOTE`], worst and typical corner.
     y_big_worst: Vec<Complex64>,
     y_big_typical: Vec<Complex64>,
@@ -653,8 +656,8 @@ impl Evaluator {
             y_int,
             zs_yi,
             omega,
-            y_worst: Vec::new(),
-            y_typical: Vec::new(),
+            y_worst: Arc::new(Vec::new()),
+            y_typical: Arc::new(Vec::new()),
             y_big_worst: Vec::new(),
             y_big_typical: Vec::new(),
             closed_limited,
@@ -706,8 +709,8 @@ impl Evaluator {
     /// Replace the part list (tables are rebuilt).
     pub(crate) fn set_parts(&mut self, parts: Vec<PartModel>) {
         let n = self.n_full;
-        self.y_worst = Vec::with_capacity(parts.len() * n);
-        self.y_typical = Vec::with_capacity(parts.len() * n);
+        let mut y_worst = Vec::with_capacity(parts.len() * n);
+        let mut y_typical = Vec::with_capacity(parts.len() * n);
         let f_big = OMEGA_ASYMPTOTE / (2.0 * PI);
         self.y_big_worst = parts
             .iter()
@@ -719,12 +722,12 @@ impl Evaluator {
             .collect();
         for p in &parts {
             for &f in &self.freqs {
-                self.y_worst
-                    .push(admittance(p.esr_max, p.esl, p.c_worst, f));
-                self.y_typical
-                    .push(admittance(p.esr, p.esl, p.c_typical, f));
+                y_worst.push(admittance(p.esr_max, p.esl, p.c_worst, f));
+                y_typical.push(admittance(p.esr, p.esl, p.c_typical, f));
             }
         }
+        self.y_worst = Arc::new(y_worst);
+        self.y_typical = Arc::new(y_typical);
         self.parts = parts;
     }
 

@@ -134,6 +134,7 @@ pub(crate) const WRAP: f64 = 1e-8;
 
 /// One grid of the shifted contour: `points` samples of `dt` over the
 /// period `T = points·dt`, of which the first half is the window used.
+#[derive(Clone)]
 struct Grid {
     points: usize,
     /// `s_k = σ + j·k·2π/T` of k = 0 … points/2 − 1.
@@ -175,6 +176,23 @@ struct Core {
     last: usize,
     /// High-frequency asymptote of the last fill.
     asym: (f64, f64),
+}
+
+impl Clone for Core {
+    /// A copy with its own scratch and a planner of its own (a planner
+    /// cannot be copied; the grids' transforms are shared).
+    fn clone(&self) -> Core {
+        Core {
+            spec: self.spec,
+            dt: self.dt,
+            grids: self.grids.clone(),
+            planner: FftPlanner::new(),
+            buf: self.buf.clone(),
+            scratch: self.scratch.clone(),
+            last: self.last,
+            asym: self.asym,
+        }
+    }
 }
 
 impl Core {
@@ -409,6 +427,7 @@ impl Core {
 
 /// The load-step model over one part list: every table built once;
 /// evaluating a bank allocates nothing.
+#[derive(Clone)]
 pub struct StepModel {
     /// The scenario's load step.
     pub spec: Spec,

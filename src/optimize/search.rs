@@ -129,7 +129,10 @@ impl Limits {
     }
 }
 
-/// The search over one candidate list.
+/// The search over one candidate list. A clone shares the large tables
+/// (the evaluator's admittances, `adm_mag`, `ph_b`) and copies the rest:
+/// the workers of [`solve_bounded`].
+#[derive(Clone)]
 pub(super) struct Search {
     pub(super) ev: Evaluator,
     /// Catalog index of each local part.
@@ -143,7 +146,7 @@ pub(super) struct Search {
     /// Largest count of each part every limit allows ([`limits::count_max`]).
     pub(super) count_max: Vec<u32>,
     /// |Y_ik| of each part, n harmonics each.
-    pub(super) adm_mag: Vec<f64>,
+    pub(super) adm_mag: std::sync::Arc<Vec<f64>>,
     /// r_k of the necessary condition Σ n_i |Y_ik| ≥ r_k per harmonic
     /// ([`Evaluator::required_admittance`]).
     pub(super) required: Vec<f64>,
@@ -159,7 +162,7 @@ pub(super) struct Search {
     pub(super) ph_k: Vec<usize>,
     /// Per part, Y_ik·G_k at the screen's harmonics: P real parts, then P
     /// imaginary parts (2P values per part, P = `ph_k.len()`).
-    pub(super) ph_b: Vec<f64>,
+    pub(super) ph_b: std::sync::Arc<Vec<f64>>,
     /// The offset Y_int,k at the screen's harmonics, laid out as `ph_b`:
     /// the screen's sum for no added part.
     pub(super) ph_a0: Vec<f64>,
@@ -334,7 +337,7 @@ impl Search {
             ratings,
             phase_terms,
             ph_k,
-            ph_b,
+            ph_b: std::sync::Arc::new(ph_b),
             ph_a0,
             ph_r2,
             ph_r2_pass,
@@ -347,7 +350,7 @@ impl Search {
             line_w,
             count_min,
             count_max,
-            adm_mag,
+            adm_mag: std::sync::Arc::new(adm_mag),
             needed: (0..required.len()).filter(|&k| required[k] > 0.0).collect(),
             required,
             harmonics,
@@ -730,14 +733,21 @@ impl Search {
     pub(super) fn solve_set(&mut self, set: &[usize]) {
         self.sets_solved += 1;
         let m = set.len();
-        // rest_ub[d][k] = Σ_{j>d} ub_j a_jk
+        // rest_ub[d][k] = Σ_{j>d} ub_j a_jk, and rest_ub[d][n + k] =
+        // min_{j>d} w_j / a_jk: the least objective per unit of |Y| at k
+        // among the parts after d.
         let n = self.harmonics;
-        let mut rest_ub = vec![vec![0.0; n]; m];
+        let mut rest_ub = vec![vec![0.0; 2 * n]; m];
+        if let Some(last) = rest_ub.last_mut() {
+            last[n..].fill(f64::INFINITY);
+        }
         for d in (0..m.saturating_sub(1)).rev() {
             let i = set[d + 1];
+            let w = self.weights[0][i];
             for k in 0..n {
-                rest_ub[d][k] =
-                    rest_ub[d + 1][k] + self.count_max[i] as f64 * self.adm_mag[i * n + k];
+                let a = self.adm_mag[i * n + k];
+                rest_ub[d][k] = rest_ub[d + 1][k] + self.count_max[i] as f64 * a;
+                rest_ub[d][n + k] = rest_ub[d + 1][n + k].min(w / a);
             }
         }
         let mut stack = vec![vec![0.0; n]; m + 1];
@@ -979,19 +989,32 @@ impl Search {
             let (head, tail) = stack.split_at_mut(d + 1);
             let (cur, next) = (&head[d], &mut tail[0]);
             let mut bad = false;
+            // The later parts must still bring Σ n_j·|Y_jk| ≥ r_k − v_k at
+            // every harmonic: at least (r_k − v_k)·min_j w_j/|Y_jk| of the
+            // objective (NaN, where no deficit meets an infinite ratio, is
+            // skipped by the maximum).
+            let mut extra: f64 = 0.0;
             let mag = &self.adm_mag[row_start..row_start + self.harmonics];
-            for ((((nx, &cu), &a), &ru), &thr) in next
+            let (ub, ratio) = rest_ub[d].split_at(self.harmonics);
+            for (((((nx, &cu), &a), &ru), &thr), (&q, &rr)) in next
                 .iter_mut()
                 .zip(cur.iter())
                 .zip(mag)
-                .zip(&rest_ub[d])
+                .zip(ub)
                 .zip(&self.req_thr)
+                .zip(self.required.iter().zip(ratio))
             {
                 let v = cu + cf * a;
                 *nx = v;
                 bad |= v + ru < thr;
+                let x = (q - v) * rr;
+                extra = if x > extra { x } else { extra };
             }
             if bad {
+                continue 'outer;
+            }
+            let lb = p.key0 + cf * w0 + rest_key.max(extra);
+            if lb > inc0 + tol(lb, inc0) {
                 continue 'outer;
             }
             {
@@ -1237,9 +1260,24 @@ pub(super) fn run_sized_sets(
     solve_bounded(s, bounded, settings, msg)
 }
 
+/// Lanes of the line-set search: the sets of a round are dealt to this
+/// many copies of the search, each with the incumbent as the round began,
+/// which run on their own threads where the machine has the cores. The
+/// lanes are fixed, not the machine's core count, so that the answer (and
+/// where a budget stops it) is the same on any machine.
+pub(super) const LANES: usize = 2;
+/// Line sets each lane takes per round (fewer sets in all are solved in
+/// one sequence).
+pub(super) const ROUND_SETS: usize = 32;
+
 /// Solve the bounded line sets in order of their bound while a set can
 /// beat the incumbent; returns the smallest bound of the sets left unsolved
-/// when the budget stopped the search (+∞ otherwise).
+/// when the budget stopped the search (+∞ otherwise). Past
+/// `LANES · ROUND_SETS` sets the work goes in rounds over [`LANES`] lanes:
+/// each round deals its sets in bound order to the lanes in turn, each lane
+/// solves its share against the incumbent of the round's start with half
+/// the evaluations left, and the round's best bank (the lanes taken in
+/// order, a tie kept by the earlier lane) is the next round's incumbent.
 pub(super) fn solve_bounded(
     s: &mut Search,
     mut bounded: Vec<(f64, Vec<usize>)>,
@@ -1248,12 +1286,22 @@ pub(super) fn solve_bounded(
 ) -> f64 {
     bounded.sort_by(|x, y| x.0.total_cmp(&y.0).then(x.1.len().cmp(&y.1.len())));
     let pb = bar(settings.progress, bounded.len(), msg);
-    let mut open = f64::INFINITY;
-    for (j, (b, set)) in bounded.iter().enumerate() {
+    let open = if bounded.len() <= LANES * ROUND_SETS {
+        solve_lane(s, bounded.iter())
+    } else {
+        solve_rounds(s, &bounded, &pb)
+    };
+    pb.finish_and_clear();
+    open
+}
+
+/// One lane's sets in order: the bound of the set a stop interrupted, or
+/// +∞.
+fn solve_lane<'a>(s: &mut Search, sets: impl Iterator<Item = &'a (f64, Vec<usize>)>) -> f64 {
+    for (b, set) in sets {
         if s.stopped {
             // Sorted by bound: this one is the smallest left.
-            open = *b;
-            break;
+            return *b;
         }
         let inc0 = s.inc_primary();
         if *b > inc0 + tol(*b, inc0) {
@@ -1262,14 +1310,81 @@ pub(super) fn solve_bounded(
         s.solve_set(set);
         if s.stopped {
             // This set may not have been finished.
-            open = *b;
-            break;
-        }
-        if j % 64 == 0 {
-            pb.set_position(j as u64);
+            return *b;
         }
     }
-    pb.finish_and_clear();
+    f64::INFINITY
+}
+
+/// The rounds of [`solve_bounded`] over [`LANES`] copies of `s`.
+fn solve_rounds(s: &mut Search, bounded: &[(f64, Vec<usize>)], pb: &ProgressBar) -> f64 {
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let mut lanes: Vec<Search> = (0..LANES).map(|_| s.clone()).collect();
+    let mut open = f64::INFINITY;
+    let mut next = 0;
+    while next < bounded.len() {
+        if s.stopped {
+            open = open.min(bounded[next].0);
+            break;
+        }
+        let inc0 = s.inc_primary();
+        if bounded[next].0 > inc0 + tol(bounded[next].0, inc0) {
+            break;
+        }
+        let end = (next + LANES * ROUND_SETS).min(bounded.len());
+        let share = (s.budget.saturating_sub(s.evals) / LANES).max(1);
+        for w in lanes.iter_mut() {
+            w.incumbent.clone_from(&s.incumbent);
+            w.evals = 0;
+            w.nodes = 0;
+            w.sets_solved = 0;
+            w.budget = share;
+            w.stopped = false;
+        }
+        let round = &bounded[next..end];
+        let mut opens = [f64::INFINITY; LANES];
+        if threads >= 2 {
+            std::thread::scope(|scope| {
+                let (first, rest) = lanes.split_first_mut().expect("LANES ≥ 1");
+                let handles: Vec<_> = rest
+                    .iter_mut()
+                    .enumerate()
+                    .map(|(j, w)| {
+                        scope.spawn(move || solve_lane(w, round.iter().skip(j + 1).step_by(LANES)))
+                    })
+                    .collect();
+                opens[0] = solve_lane(first, round.iter().step_by(LANES));
+                for (j, h) in handles.into_iter().enumerate() {
+                    opens[j + 1] = h.join().expect("a lane does not panic");
+                }
+            });
+        } else {
+            for (j, w) in lanes.iter_mut().enumerate() {
+                opens[j] = solve_lane(w, round.iter().skip(j).step_by(LANES));
+            }
+        }
+        for (w, &o) in lanes.iter().zip(&opens) {
+            s.evals += w.evals;
+            s.sets_solved += w.sets_solved;
+            if let Some(inc) = &w.incumbent {
+                if s.incumbent
+                    .as_ref()
+                    .is_none_or(|cur| better(&inc.0, &cur.0))
+                {
+                    s.incumbent = Some(inc.clone());
+                }
+            }
+            if w.stopped {
+                s.stopped = true;
+                open = open.min(o);
+            }
+        }
+        if s.evals >= s.budget {
+            s.stopped = true;
+        }
+        next = end;
+        pb.set_position(end as u64);
+    }
     open
 }
 
