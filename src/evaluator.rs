@@ -349,11 +349,17 @@ pub struct Evaluator {
     zs_yi: Vec<Complex64>,
     /// Per harmonic: ω_k = 2π·k·f_ripple, n_full long.
     omega: Vec<f64>,
-    /// Per part and harmonic (n_full each): admittance at the worst and at
-    /// the typical corner. Shared, not copied, by a clone of the evaluator
-    /// (the search's workers).
+    /// Per part and harmonic (`tab_n` each): admittance at the worst and at
+    /// the typical corner (the typical one empty unless `tab_typical`).
+    /// Shared, not copied, by a clone of the evaluator (the search's
+    /// lanes). A harmonic or corner not tabulated is computed when asked.
     y_worst: Arc<Vec<Complex64>>,
     y_typical: Arc<Vec<Complex64>>,
+    /// Harmonics tabulated per part: `n_full`, or `n_limited` for the
+    /// search's compact tables ([`Evaluator::with_top`]).
+    tab_n: usize,
+    /// Whether the typical corner is tabulated.
+    tab_typical: bool,
     /// Per part: admittance at [`OMEGA_ASYMPTOTE`], worst and typical corner.
     y_big_worst: Vec<Complex64>,
     y_big_typical: Vec<Complex64>,
@@ -561,17 +567,21 @@ impl Evaluator {
     /// admittance at every harmonic (see "The evaluator's hot path" in
     /// DEVELOPERS.md).
     pub fn new(s: &Scenario, ops: &[OperatingPoint], parts: Vec<PartModel>) -> Evaluator {
-        Evaluator::with_top(s, ops, parts, None)
+        Evaluator::with_top(s, ops, parts, None, false)
     }
 
     /// As [`Evaluator::new`], the full-bandwidth sum reaching at least `top`
     /// Hz (see [`full_band_top`]) when the harmonic count is automatic. At
-    /// full bandwidth the target figure then sums as far.
+    /// full bandwidth the target figure then sums as far. `compact`
+    /// tabulates only the worst corner at the target figure's harmonics (the
+    /// search's hot path; the rest is computed when asked, and a large
+    /// catalog's tables take a fraction of the memory).
     pub(crate) fn with_top(
         s: &Scenario,
         ops: &[OperatingPoint],
         parts: Vec<PartModel>,
         top: Option<f64>,
+        compact: bool,
     ) -> Evaluator {
         let f_ripple = ops[0].f_ripple;
         let bw = s.target.bandwidth.map(|b| b.0);
@@ -658,6 +668,8 @@ impl Evaluator {
             omega,
             y_worst: Arc::new(Vec::new()),
             y_typical: Arc::new(Vec::new()),
+            tab_n: if compact { n_limited } else { n_full },
+            tab_typical: !compact,
             y_big_worst: Vec::new(),
             y_big_typical: Vec::new(),
             closed_limited,
@@ -708,9 +720,9 @@ impl Evaluator {
 
     /// Replace the part list (tables are rebuilt).
     pub(crate) fn set_parts(&mut self, parts: Vec<PartModel>) {
-        let n = self.n_full;
+        let n = self.tab_n;
         let mut y_worst = Vec::with_capacity(parts.len() * n);
-        let mut y_typical = Vec::with_capacity(parts.len() * n);
+        let mut y_typical = Vec::with_capacity(if self.tab_typical { parts.len() * n } else { 0 });
         let f_big = OMEGA_ASYMPTOTE / (2.0 * PI);
         self.y_big_worst = parts
             .iter()
@@ -721,9 +733,11 @@ impl Evaluator {
             .map(|p| admittance(p.esr, p.esl, p.c_typical, f_big))
             .collect();
         for p in &parts {
-            for &f in &self.freqs {
+            for &f in &self.freqs[..n] {
                 y_worst.push(admittance(p.esr_max, p.esl, p.c_worst, f));
-                y_typical.push(admittance(p.esr, p.esl, p.c_typical, f));
+                if self.tab_typical {
+                    y_typical.push(admittance(p.esr, p.esl, p.c_typical, f));
+                }
             }
         }
         self.y_worst = Arc::new(y_worst);
@@ -734,22 +748,31 @@ impl Evaluator {
     /// Admittance of one capacitor of local part `i` at harmonic `k` (0-based).
     #[inline]
     pub fn y(&self, i: usize, k: usize, corner: Corner) -> Complex64 {
-        let t = match corner {
-            Corner::Worst => &self.y_worst,
-            Corner::Typical => &self.y_typical,
-        };
-        t[i * self.n_full + k]
+        if k < self.tab_n {
+            match corner {
+                Corner::Worst => return self.y_worst[i * self.tab_n + k],
+                Corner::Typical if self.tab_typical => return self.y_typical[i * self.tab_n + k],
+                Corner::Typical => {}
+            }
+        }
+        self.y_computed(i, k, corner)
     }
 
-    /// Admittances of one capacitor of local part `i` at every harmonic
-    /// (`n_full` values).
+    /// [`Evaluator::y`] from the part's values (a harmonic or corner the
+    /// tables leave out).
+    fn y_computed(&self, i: usize, k: usize, corner: Corner) -> Complex64 {
+        let p = &self.parts[i];
+        match corner {
+            Corner::Worst => admittance(p.esr_max, p.esl, p.c_worst, self.freqs[k]),
+            Corner::Typical => admittance(p.esr, p.esl, p.c_typical, self.freqs[k]),
+        }
+    }
+
+    /// Worst-corner admittances of one capacitor of local part `i` at the
+    /// tabulated harmonics (at least the target figure's `n_limited`).
     #[inline]
-    pub(crate) fn y_row(&self, i: usize, corner: Corner) -> &[Complex64] {
-        let t = match corner {
-            Corner::Worst => &self.y_worst,
-            Corner::Typical => &self.y_typical,
-        };
-        &t[i * self.n_full..(i + 1) * self.n_full]
+    pub(crate) fn y_row(&self, i: usize) -> &[Complex64] {
+        &self.y_worst[i * self.tab_n..(i + 1) * self.tab_n]
     }
 
     /// Number of input-voltage corners.
@@ -907,11 +930,12 @@ impl Evaluator {
     }
 
     fn fill_transfer(&mut self, bank: &Bank, corner: Corner, n: usize) {
-        let nf = self.n_full;
+        let nt = self.tab_n;
         let (table, big) = match corner {
             Corner::Worst => (&self.y_worst, &self.y_big_worst),
             Corner::Typical => (&self.y_typical, &self.y_big_typical),
         };
+        let tabulated = n <= nt && (corner == Corner::Worst || self.tab_typical);
         for k in 0..n {
             self.zt[k] = Complex64::default();
         }
@@ -922,9 +946,16 @@ impl Evaluator {
             }
             let c = cnt as f64;
             yb_big += big[i] * c;
-            let row = &table[i * nf..i * nf + n];
-            for (z, y) in self.zt[..n].iter_mut().zip(row) {
-                *z += y * c;
+            if tabulated {
+                let row = &table[i * nt..i * nt + n];
+                for (z, y) in self.zt[..n].iter_mut().zip(row) {
+                    *z += y * c;
+                }
+            } else {
+                for k in 0..n {
+                    let y = self.y(i, k, corner);
+                    self.zt[k] += y * c;
+                }
             }
         }
         self.transfer_in_place(n, corner);

@@ -550,7 +550,7 @@ impl Problem {
 
     /// An evaluator over the given catalog indices (its local part order).
     pub fn evaluator(&self, parts: &[usize]) -> Evaluator {
-        self.evaluator_reaching(parts, true)
+        self.evaluator_reaching(parts, true, false)
     }
 
     /// As [`Problem::evaluator`] for the optimizer, which needs the target
@@ -559,10 +559,13 @@ impl Problem {
     /// itself is at full bandwidth. The ripple currents do not need it (the
     /// harmonics above 500 MHz carry a negligible share of the RMS current).
     pub(crate) fn search_evaluator(&self, parts: &[usize]) -> Evaluator {
-        self.evaluator_reaching(parts, self.scenario.target.bandwidth.is_none())
+        self.evaluator_reaching(parts, self.scenario.target.bandwidth.is_none(), true)
     }
 
-    fn evaluator_reaching(&self, parts: &[usize], extend: bool) -> Evaluator {
+    /// An evaluator over `parts` (catalog indices), its full-bandwidth sum
+    /// extended past a filter's resonance when `extend`, its tables compact
+    /// ([`Evaluator::with_top`]) when `compact`.
+    fn evaluator_reaching(&self, parts: &[usize], extend: bool, compact: bool) -> Evaluator {
         let tail = self.filter.as_ref().map(|f| self.tail_lines(f));
         let top = if extend {
             tail.as_deref().and_then(crate::evaluator::full_band_top)
@@ -581,7 +584,7 @@ impl Problem {
         let models: Vec<PartModel> = parts.iter().map(|&i| self.part_model(i)).collect();
         let mut all = self.ops.clone();
         all.extend(self.region_ops.iter().cloned());
-        let mut ev = Evaluator::with_top(&self.scenario, &all, models, top);
+        let mut ev = Evaluator::with_top(&self.scenario, &all, models, top, compact);
         ev.ops_named = (0..self.ops.len()).collect();
         ev.ops_region = (self.ops.len()..all.len()).collect();
         if let Some(tail) = tail {

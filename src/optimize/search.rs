@@ -316,7 +316,7 @@ impl Search {
         let np_k = ph_k.len();
         let mut ph_b = Vec::with_capacity(parts.len() * 2 * np_k);
         for j in 0..parts.len() {
-            let row = ev.y_row(j, crate::evaluator::Corner::Worst);
+            let row = ev.y_row(j);
             let b: Vec<Complex64> = ph_k.iter().map(|&k| row[k] * phase_terms[k].1).collect();
             ph_b.extend(b.iter().map(|x| x.re));
             ph_b.extend(b.iter().map(|x| x.im));
@@ -920,7 +920,7 @@ impl Search {
                 yb_base.fill(Complex64::default());
                 for (&j, &cj) in set[..d].iter().zip(counts.iter()) {
                     let cj = cj as f64;
-                    let row = &ev.y_row(j, crate::evaluator::Corner::Worst)[..n];
+                    let row = &ev.y_row(j)[..n];
                     for (b, y) in yb_base.iter_mut().zip(row) {
                         *b += y * cj;
                     }
@@ -948,7 +948,7 @@ impl Search {
                         yb_base,
                         ..
                     } = self;
-                    let row = &ev.y_row(i, crate::evaluator::Corner::Worst)[..n];
+                    let row = &ev.y_row(i)[..n];
                     for ((yb, s0), y) in yb_buf.iter_mut().zip(yb_base.iter()).zip(row) {
                         *yb = s0 + y * cf;
                     }
