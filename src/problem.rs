@@ -562,6 +562,17 @@ impl Problem {
         self.evaluator_reaching(parts, self.scenario.target.bandwidth.is_none(), true)
     }
 
+    /// Harmonics of the target figure a search's tables hold per part.
+    pub(crate) fn search_harmonics(&self) -> usize {
+        let f = self.ops.first().map_or(1.0, |op| op.f_ripple);
+        let t = &self.scenario.target;
+        if t.harmonics > 0 {
+            t.harmonics
+        } else {
+            crate::spectrum::auto_count(f, t.bandwidth.map(|b| b.0))
+        }
+    }
+
     /// An evaluator over `parts` (catalog indices), its full-bandwidth sum
     /// extended past a filter's resonance when `extend`, its tables compact
     /// ([`Evaluator::with_top`]) when `compact`.

@@ -39,6 +39,12 @@ pub const BISECT_TOLERANCE: f64 = 0.005;
 pub(crate) const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
+/// Bytes a search keeps per candidate and harmonic of the target figure
+/// (worst-corner admittance, its magnitude, the phase screen's terms).
+const SEARCH_BYTES: f64 = 40.0;
+/// Two bisection probes run at once only while one search's tables take at
+/// most this (two of them are held at once).
+const PAIR_BYTES: f64 = 150e6;
 
 /// The lowest ripple found, with how it was found.
 #[derive(Debug, Clone, Default, Serialize)]
@@ -270,7 +276,10 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
         // No greedy bank: start from a loose target.
         hi = f64::INFINITY;
     }
-    let pairs = std::thread::available_parallelism().map_or(1, |n| n.get()) >= 2;
+    // Two probes at once hold two searches' tables: only where they are small.
+    let tables = cands.len() as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES;
+    let pairs =
+        std::thread::available_parallelism().map_or(1, |n| n.get()) >= 2 && tables <= PAIR_BYTES;
     let keep = |out: &mut Lowest, f: Option<super::Found>| -> bool {
         match f {
             Some(f) => {
