@@ -586,11 +586,12 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         progress: false,
         exhaustive_limit: 20_000,
         pool: 24,
-        milp_proposals: 1,
+        milp_proposals: 0,
         milp_seconds: 1.0,
         max_evaluations: 150_000,
         ..Settings::default()
     };
+    let mut relaxed: Vec<(&str, Problem)> = Vec::new();
     for (name, relax) in &tries {
         let mut sc = base.clone();
         relax(&mut sc);
@@ -604,7 +605,22 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
         if provably_infeasible(&p, target) {
             continue;
         }
-        if let Some(f) = design_for(&p, target, &quick).found {
+        relaxed.push((name, p));
+    }
+    // One design per relaxed limit, independent of each other: two at once
+    // where the machine has the cores and their tables are small, each
+    // answer kept in the order of the limits.
+    let tables = problem.eligible.len() as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES;
+    let workers = if tables <= PAIR_BYTES {
+        std::thread::available_parallelism()
+            .map_or(1, |n| n.get())
+            .min(2)
+    } else {
+        1
+    };
+    let found = each_design(&relaxed, target, &quick, workers);
+    for ((name, _), f) in relaxed.iter().zip(found) {
+        if let Some(f) = f {
             out.push(name.to_string());
             details.extend(details_of(problem, &f.bank, Some(name)));
         }
@@ -788,4 +804,34 @@ fn details_of(problem: &Problem, bank: &[(usize, u32)], only: Option<&str>) -> V
         }
     }
     out
+}
+
+/// `design_for` of each problem at `target`, on up to `workers` threads;
+/// the answers in the problems' order.
+fn each_design(
+    problems: &[(&str, Problem)],
+    target: f64,
+    settings: &Settings,
+    workers: usize,
+) -> Vec<Option<super::Found>> {
+    if workers <= 1 || problems.len() <= 1 {
+        return problems
+            .iter()
+            .map(|(_, p)| design_for(p, target, settings).found)
+            .collect();
+    }
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let slots: std::sync::Mutex<Vec<Option<super::Found>>> =
+        std::sync::Mutex::new(vec![None; problems.len()]);
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| loop {
+                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some((_, p)) = problems.get(j) else { break };
+                let f = design_for(p, target, settings).found;
+                slots.lock().expect("no design panics")[j] = f;
+            });
+        }
+    });
+    slots.into_inner().expect("no design panics")
 }
