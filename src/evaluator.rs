@@ -1627,6 +1627,56 @@ impl Evaluator {
 mod tests {
     use super::*;
 
+    #[test]
+    fn compact_tables_give_the_full_tables_answers() {
+        // The naive reference is the full tables (every harmonic, both
+        // corners); a search's compact tables compute the rest when asked
+        // and must give the same figures, bit for bit where the same
+        // admittance is taken.
+        let (s, c) = crate::load::scenario_and_catalog(None, None).unwrap();
+        let p = crate::problem::Problem::new(s, c).unwrap();
+        let mut full = p.evaluator(&p.eligible);
+        let mut compact = p.search_evaluator(&p.eligible);
+        assert!(compact.tab_n < full.tab_n && !compact.tab_typical);
+        let np = full.parts.len();
+        for i in 0..np {
+            for k in (0..full.n_full).step_by(7) {
+                for corner in [Corner::Worst, Corner::Typical] {
+                    assert_eq!(
+                        full.y(i, k, corner),
+                        compact.y(i, k, corner),
+                        "part {i} k {k}"
+                    );
+                }
+            }
+        }
+        let mut checked = 0;
+        for a in 0..np {
+            let b = (a * 7 + 3) % np;
+            let bank: Vec<(usize, u32)> = if a == b {
+                vec![(a, 3)]
+            } else {
+                vec![(a, 2), (b, 5)]
+            };
+            for corner in [Corner::Worst, Corner::Typical] {
+                for band in [Band::Limited, Band::Full] {
+                    let x = full.ripple_pp(&bank, corner, band);
+                    let y = compact.ripple_pp(&bank, corner, band);
+                    assert!(
+                        (x - y).abs() <= 1e-12 * x.abs(),
+                        "{bank:?} {corner:?} {band:?}: {x} vs {y}"
+                    );
+                }
+            }
+            let (x, y) = (full.part_currents(&bank), compact.part_currents(&bank));
+            for (u, v) in x.iter().zip(&y) {
+                assert!((u - v).abs() <= 1e-12 * u.abs(), "{bank:?}: {x:?} vs {y:?}");
+            }
+            checked += 1;
+        }
+        assert!(checked >= 10);
+    }
+
     fn line(esl: f64, count: u32, role: TailRole) -> TailLine {
         TailLine {
             model: PartModel {

@@ -15,8 +15,9 @@
 //!    admittance sum any allowed bank can have at each harmonic (every part
 //!    at its count limit, no more than `max_count` parts and `max_lines`
 //!    lines): no bank can go below it;
-//! 3. probes at the geometric middle of the bracket (on a machine of two or
-//!    more cores, two probes at once at its geometric thirds): a bank found
+//! 3. probes at the geometric middle of the bracket (while a search's tables
+//!    are small, two probes at its geometric thirds, on two threads where
+//!    the machine has two cores): a bank found
 //!    lowers the upper end to that bank's verified ripple, no bank raises the
 //!    lower end to the probe; stop when the bracket is within
 //!    [`BISECT_TOLERANCE`] or after [`MAX_PROBES`] probes.
@@ -278,8 +279,11 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
     }
     // Two probes at once hold two searches' tables: only where they are small.
     let tables = cands.len() as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES;
-    let pairs =
-        std::thread::available_parallelism().map_or(1, |n| n.get()) >= 2 && tables <= PAIR_BYTES;
+    // The schedule (pairs or single probes) depends on the input alone, so
+    // that the figure is the same on any machine; a pair runs on two
+    // threads where there are two.
+    let pairs = tables <= PAIR_BYTES;
+    let parallel = settings.thread_count() >= 2;
     let keep = |out: &mut Lowest, f: Option<super::Found>| -> bool {
         match f {
             Some(f) => {
@@ -304,11 +308,18 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
                 lo.powf(1.0 / 3.0) * hi.powf(2.0 / 3.0),
             );
             out.probes += 2;
-            let (f1, f2) = std::thread::scope(|scope| {
-                let other = scope.spawn(|| design_for(problem, t2, &quiet).found);
-                let f1 = design_for(problem, t1, &quiet).found;
-                (f1, other.join().expect("a probe does not panic"))
-            });
+            let (f1, f2) = if parallel {
+                std::thread::scope(|scope| {
+                    let other = scope.spawn(|| design_for(problem, t2, &quiet).found);
+                    let f1 = design_for(problem, t1, &quiet).found;
+                    (f1, other.join().expect("a probe does not panic"))
+                })
+            } else {
+                (
+                    design_for(problem, t1, &quiet).found,
+                    design_for(problem, t2, &quiet).found,
+                )
+            };
             let (ok1, ok2) = (keep(&mut out, f1), keep(&mut out, f2));
             if ok1 {
                 hi = out.ripple_pp;

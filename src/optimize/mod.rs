@@ -154,6 +154,21 @@ pub struct Settings {
     /// filter search's incumbent minus a filter's own share): the search
     /// starts with it as its bound and finds nothing above it.
     pub cutoff: Option<f64>,
+    /// Threads the search may use (0: as many as the machine has cores).
+    /// The answer does not depend on it: the line sets go over a fixed
+    /// number of lanes whatever the threads.
+    pub threads: usize,
+}
+
+impl Settings {
+    /// The threads to use: `threads`, or the machine's cores when 0.
+    pub(crate) fn thread_count(&self) -> usize {
+        if self.threads > 0 {
+            self.threads
+        } else {
+            std::thread::available_parallelism().map_or(1, |n| n.get())
+        }
+    }
 }
 
 impl Default for Settings {
@@ -167,6 +182,7 @@ impl Default for Settings {
             milp_seconds: 2.0,
             max_evaluations: 1_000_000,
             cutoff: None,
+            threads: 0,
         }
     }
 }

@@ -1289,7 +1289,7 @@ pub(super) fn solve_bounded(
     let open = if bounded.len() <= LANES * ROUND_SETS {
         solve_lane(s, bounded.iter())
     } else {
-        solve_rounds(s, &bounded, &pb)
+        solve_rounds(s, &bounded, &pb, settings.thread_count())
     };
     pb.finish_and_clear();
     open
@@ -1317,8 +1317,12 @@ fn solve_lane<'a>(s: &mut Search, sets: impl Iterator<Item = &'a (f64, Vec<usize
 }
 
 /// The rounds of [`solve_bounded`] over [`LANES`] copies of `s`.
-fn solve_rounds(s: &mut Search, bounded: &[(f64, Vec<usize>)], pb: &ProgressBar) -> f64 {
-    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+fn solve_rounds(
+    s: &mut Search,
+    bounded: &[(f64, Vec<usize>)],
+    pb: &ProgressBar,
+    threads: usize,
+) -> f64 {
     let mut lanes: Vec<Search> = (0..LANES).map(|_| s.clone()).collect();
     let mut open = f64::INFINITY;
     let mut next = 0;
