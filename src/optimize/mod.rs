@@ -156,7 +156,8 @@ pub struct Settings {
     pub cutoff: Option<f64>,
     /// Threads the search may use (0: as many as the machine has cores).
     /// The answer does not depend on it: the line sets go over a fixed
-    /// number of lanes whatever the threads.
+    /// number of lanes whatever the threads (the mixed-integer proposals,
+    /// which stop on `milp_seconds`, depend on the machine's speed).
     pub threads: usize,
 }
 

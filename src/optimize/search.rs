@@ -1264,7 +1264,7 @@ pub(super) fn run_sized_sets(
 /// many copies of the search, each with the incumbent as the round began,
 /// which run on their own threads where the machine has the cores. The
 /// lanes are fixed, not the machine's core count, so that the answer (and
-/// where a budget stops it) is the same on any machine.
+/// where a budget stops it) does not depend on the number of cores.
 pub(super) const LANES: usize = 2;
 /// Line sets each lane takes per round (fewer sets in all are solved in
 /// one sequence).
