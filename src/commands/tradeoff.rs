@@ -161,30 +161,14 @@ fn solve_all(p: &Problem, targets: &[f64], show: bool) -> Vec<(f64, optimize::De
             .progress_chars("=> "),
     );
     let settings = point_settings();
-    let workers = std::thread::available_parallelism()
-        .map_or(1, |n| n.get())
-        .min(targets.len());
-    let next = std::sync::atomic::AtomicUsize::new(0);
-    let slots: std::sync::Mutex<Vec<Option<optimize::DesignOutcome>>> =
-        std::sync::Mutex::new(vec![None; targets.len()]);
-    std::thread::scope(|scope| {
-        for _ in 0..workers {
-            scope.spawn(|| loop {
-                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-                let Some(&t) = targets.get(j) else { break };
-                let out = optimize::design_for(p, t, &settings);
-                slots.lock().expect("no worker panics")[j] = Some(out);
-                pb.inc(1);
-            });
-        }
+    let workers = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let outs = optimize::map_on_threads(targets, workers, |&t| {
+        let out = optimize::design_for(p, t, &settings);
+        pb.inc(1);
+        out
     });
     pb.finish_and_clear();
-    let slots = slots.into_inner().expect("no worker panics");
-    targets
-        .iter()
-        .copied()
-        .zip(slots.into_iter().map(|o| o.expect("every target solved")))
-        .collect()
+    targets.iter().copied().zip(outs).collect()
 }
 
 /// Each target's own result, before the front is made monotone (reported

@@ -629,7 +629,9 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
     } else {
         1
     };
-    let found = each_design(&relaxed, target, &quick, workers);
+    let found = super::map_on_threads(&relaxed, workers, |(_, p)| {
+        design_for(p, target, &quick).found
+    });
     for ((name, _), f) in relaxed.iter().zip(found) {
         if let Some(f) = f {
             out.push(name.to_string());
@@ -815,34 +817,4 @@ fn details_of(problem: &Problem, bank: &[(usize, u32)], only: Option<&str>) -> V
         }
     }
     out
-}
-
-/// `design_for` of each problem at `target`, on up to `workers` threads;
-/// the answers in the problems' order.
-fn each_design(
-    problems: &[(&str, Problem)],
-    target: f64,
-    settings: &Settings,
-    workers: usize,
-) -> Vec<Option<super::Found>> {
-    if workers <= 1 || problems.len() <= 1 {
-        return problems
-            .iter()
-            .map(|(_, p)| design_for(p, target, settings).found)
-            .collect();
-    }
-    let next = std::sync::atomic::AtomicUsize::new(0);
-    let slots: std::sync::Mutex<Vec<Option<super::Found>>> =
-        std::sync::Mutex::new(vec![None; problems.len()]);
-    std::thread::scope(|scope| {
-        for _ in 0..workers {
-            scope.spawn(|| loop {
-                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-                let Some((_, p)) = problems.get(j) else { break };
-                let f = design_for(p, target, settings).found;
-                slots.lock().expect("no design panics")[j] = f;
-            });
-        }
-    });
-    slots.into_inner().expect("no design panics")
 }

@@ -161,6 +161,39 @@ pub struct Settings {
     pub threads: usize,
 }
 
+/// `f` of every item on up to `workers` threads, each thread taking the
+/// next item left; the answers in the items' order (independent of the
+/// threads: `f` of one item does not see the others).
+pub(crate) fn map_on_threads<T: Sync, R: Send>(
+    items: &[T],
+    workers: usize,
+    f: impl Fn(&T) -> R + Sync,
+) -> Vec<R> {
+    let workers = workers.min(items.len());
+    if workers <= 1 {
+        return items.iter().map(f).collect();
+    }
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let slots: std::sync::Mutex<Vec<Option<R>>> =
+        std::sync::Mutex::new((0..items.len()).map(|_| None).collect());
+    std::thread::scope(|scope| {
+        for _ in 0..workers {
+            scope.spawn(|| loop {
+                let j = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                let Some(item) = items.get(j) else { break };
+                let r = f(item);
+                slots.lock().expect("no worker panics")[j] = Some(r);
+            });
+        }
+    });
+    slots
+        .into_inner()
+        .expect("no worker panics")
+        .into_iter()
+        .map(|r| r.expect("every item done"))
+        .collect()
+}
+
 impl Settings {
     /// The threads to use: `threads`, or the machine's cores when 0.
     pub(crate) fn thread_count(&self) -> usize {
