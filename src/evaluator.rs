@@ -509,6 +509,17 @@ fn floor_terms(dn2: &[f64], z: &[Complex64]) -> (f64, f64) {
     (p, s)
 }
 
+/// [`Evaluator::ripple_floor_for`] from its terms
+/// ([`Evaluator::floor_terms`]).
+pub(crate) fn ripple_floor_with(terms: &[[f64; 3]], sum_a: &[f64]) -> f64 {
+    let mut best: f64 = 0.0;
+    for (&[d, g, offset], &a) in terms.iter().zip(sum_a) {
+        let y = a * g + offset;
+        best = best.max(if y > 0.0 { d / y } else { f64::INFINITY });
+    }
+    best
+}
+
 /// How far past the bound on the winding-capacitance resonance the
 /// full-bandwidth sum reaches ([`full_band_top`]).
 pub const TOP_PER_RESONANCE: f64 = 2.0;
@@ -1198,18 +1209,20 @@ impl Evaluator {
     /// Lower bound on the target figure's ripple of any bank whose
     /// Σ n_i |Y_ik| is at most `sum_a[k]` (same argument as above).
     pub fn ripple_floor_for(&self, sum_a: &[f64]) -> f64 {
-        let mut best: f64 = 0.0;
-        for k in 0..self.n_limited {
-            let (g, offset, h) = self.offset_terms(k);
-            let d = self.peak_drive(k) * h.norm();
-            let y = sum_a[k] * g.norm() + offset.norm();
-            best = best.max(if y > 0.0 {
-                HARMONIC_FLOOR * d / y
-            } else {
-                f64::INFINITY
-            });
-        }
-        best
+        ripple_floor_with(&self.floor_terms(), sum_a)
+    }
+
+    /// Per harmonic of the target figure, the terms of
+    /// [`Evaluator::ripple_floor_for`]: `(1.53·|D_k|·|h_k|, |G_k|, |offset_k|)`
+    /// (for [`ripple_floor_with`], when many sums are floored).
+    pub(crate) fn floor_terms(&self) -> Vec<[f64; 3]> {
+        (0..self.n_limited)
+            .map(|k| {
+                let (g, offset, h) = self.offset_terms(k);
+                let d = self.peak_drive(k) * h.norm();
+                [HARMONIC_FLOOR * d, g.norm(), offset.norm()]
+            })
+            .collect()
     }
 
     /// Per harmonic of the target figure: r_k = max over corners of

@@ -369,13 +369,14 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
         // harmonic's requirement is zero and cannot rank them.
         let mut order = all.clone();
         let mut sum = vec![0.0; s.harmonics];
+        let terms = s.ev.floor_terms();
         let alone: Vec<f64> = all
             .iter()
             .map(|&i| {
                 for k in 0..s.harmonics {
                     sum[k] = s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
                 }
-                s.ev.ripple_floor_for(&sum)
+                crate::evaluator::ripple_floor_with(&terms, &sum)
             })
             .collect();
         order.sort_by(|&x, &y| alone[x].total_cmp(&alone[y]));
@@ -397,6 +398,7 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
         line_sets(&s.required_parts.clone(), &order, free)
     };
     // Optimistic floor per set, then greedy descent in floor order.
+    let terms = s.ev.floor_terms();
     let mut floored: Vec<(f64, Vec<usize>)> = sets
         .into_iter()
         .filter(|set| set.iter().all(|&i| s.count_max[i] >= s.count_min[i]))
@@ -407,7 +409,7 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
                     sum[k] += s.count_max[i] as f64 * s.adm_mag[i * s.harmonics + k];
                 }
             }
-            (s.ev.ripple_floor_for(&sum), set)
+            (crate::evaluator::ripple_floor_with(&terms, &sum), set)
         })
         .collect();
     floored.sort_by(|x, y| x.0.total_cmp(&y.0));
