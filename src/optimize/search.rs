@@ -163,7 +163,8 @@ pub(super) struct Search {
     /// Per part, Y_ik·G_k at the screen's harmonics: P real parts, then P
     /// imaginary parts (2P values per part, P = `ph_k.len()`).
     pub(super) ph_b: std::sync::Arc<Vec<f64>>,
-    /// The offset Y_int,k at the screen's harmonics, laid out as `ph_b`:
+    /// The offset of [`Evaluator::phase_terms`] (Y_int,k, plus G_k·ty_k
+    /// behind a post-filter) at the screen's harmonics, laid out as `ph_b`:
     /// the screen's sum for no added part.
     pub(super) ph_a0: Vec<f64>,
     /// r_k² at the screen's harmonics.
@@ -223,6 +224,49 @@ pub(super) const NODES_PER_EVAL: usize = 8;
 /// harmonic out only weakens a necessary condition the exact evaluation
 /// follows.
 pub(super) const PHASE_NEGLIGIBLE: f64 = 1e-9;
+
+/// [`Search::phase_need`] on its tables: `a` and `b` laid out as
+/// [`Search::ph_b`], `r2` the r_k² and `pass` the pass thresholds.
+fn phase_need_in(a: &[f64], b: &[f64], r2: &[f64], pass: &[f64], lo: f64, hi: f64) -> Option<f64> {
+    let p = r2.len();
+    let (are, aim) = a.split_at(p);
+    let (bre, bim) = b.split_at(p);
+    let mut c = lo;
+    loop {
+        if phase_clear(a, b, pass, c) {
+            return Some(c);
+        }
+        let mut moved = false;
+        for k in 0..p {
+            let r2 = r2[k];
+            let (ar, ai, br, bi) = (are[k], aim[k], bre[k], bim[k]);
+            let qa = br * br + bi * bi;
+            let qb = 2.0 * (ar * br + ai * bi);
+            let qc = ar * ar + ai * ai - r2;
+            let val = (qa * c + qb) * c + qc;
+            if val >= -1e-9 * r2 {
+                continue;
+            }
+            if qa <= 0.0 {
+                return None;
+            }
+            let disc = qb * qb - 4.0 * qa * qc;
+            if disc <= 0.0 {
+                continue;
+            }
+            let x2 = (-qb + disc.sqrt()) / (2.0 * qa);
+            let next = (x2 - 1e-9 * x2.abs().max(1.0)).ceil().max(c + 1.0);
+            if next > hi {
+                return None;
+            }
+            c = next;
+            moved = true;
+        }
+        if !moved {
+            return Some(c);
+        }
+    }
+}
 
 /// Whether |a_k + c·b_k|² ≥ `pass`_k at every harmonic of the phase screen
 /// (`a` and `b` laid out as [`Search::ph_b`]): one pass without branches,
@@ -779,43 +823,7 @@ impl Search {
     pub(super) fn phase_need(&self, i: usize, a: &[f64], lo: f64, hi: f64) -> Option<f64> {
         let p = self.ph_k.len();
         let b = &self.ph_b[2 * i * p..2 * (i + 1) * p];
-        let (are, aim) = a.split_at(p);
-        let (bre, bim) = b.split_at(p);
-        let mut c = lo;
-        loop {
-            if phase_clear(a, b, &self.ph_r2_pass, c) {
-                return Some(c);
-            }
-            let mut moved = false;
-            for k in 0..p {
-                let r2 = self.ph_r2[k];
-                let (ar, ai, br, bi) = (are[k], aim[k], bre[k], bim[k]);
-                let qa = br * br + bi * bi;
-                let qb = 2.0 * (ar * br + ai * bi);
-                let qc = ar * ar + ai * ai - r2;
-                let val = (qa * c + qb) * c + qc;
-                if val >= -1e-9 * r2 {
-                    continue;
-                }
-                if qa <= 0.0 {
-                    return None;
-                }
-                let disc = qb * qb - 4.0 * qa * qc;
-                if disc <= 0.0 {
-                    continue;
-                }
-                let x2 = (-qb + disc.sqrt()) / (2.0 * qa);
-                let next = (x2 - 1e-9 * x2.abs().max(1.0)).ceil().max(c + 1.0);
-                if next > hi {
-                    return None;
-                }
-                c = next;
-                moved = true;
-            }
-            if !moved {
-                return Some(c);
-            }
-        }
+        phase_need_in(a, b, &self.ph_r2, &self.ph_r2_pass, lo, hi)
     }
 
     /// Charge one enumeration node; true when the budget is spent (and the
@@ -1481,5 +1489,65 @@ pub(super) fn neighbourhood(s: &mut Search, settings: &Settings) {
             Some((k2, _, _)) if better(k2, &key) => continue,
             _ => return,
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::rngs::StdRng;
+    use rand::{Rng, SeedableRng};
+
+    /// The phase screen's jumps and its branch-free pass against brute
+    /// force: the first count from `lo` at which every harmonic meets
+    /// |a_k + c·b_k|² ≥ r_k² (to the screen's 1e−9), tried one by one.
+    #[test]
+    fn phase_need_finds_the_first_count_brute_force_finds() {
+        let mut rng = StdRng::seed_from_u64(0x5eed_0001);
+        let (mut some, mut none) = (0, 0);
+        for case in 0..3000 {
+            let p = rng.gen_range(1..40);
+            let mut a = vec![0.0; 2 * p];
+            let mut b = vec![0.0; 2 * p];
+            let mut r2 = vec![0.0; p];
+            for k in 0..p {
+                let (ma, pa) = (rng.gen_range(0.0..1.0), rng.gen_range(0.0..6.3_f64));
+                let (mb, pb) = (rng.gen_range(0.005..0.3), rng.gen_range(0.0..6.3_f64));
+                a[k] = ma * pa.cos();
+                a[p + k] = ma * pa.sin();
+                b[k] = mb * pb.cos();
+                b[p + k] = mb * pb.sin();
+                r2[k] = rng.gen_range(0.1..2.0_f64).powi(2);
+            }
+            let pass: Vec<f64> = r2.iter().map(|r| r * (1.0 - 1e-9)).collect();
+            let lo = rng.gen_range(0..5) as f64;
+            let hi = rng.gen_range(5..150) as f64;
+            let meets = |c: f64| {
+                (0..p).all(|k| {
+                    let (x, y) = (a[k] + c * b[k], a[p + k] + c * b[p + k]);
+                    x * x + y * y >= pass[k]
+                })
+            };
+            let mut brute = None;
+            let mut c = lo;
+            while c <= hi {
+                if meets(c) {
+                    brute = Some(c);
+                    break;
+                }
+                c += 1.0;
+            }
+            let fast = phase_need_in(&a, &b, &r2, &pass, lo, hi);
+            assert_eq!(fast, brute, "case {case}: p {p}, lo {lo}, hi {hi}");
+            if brute.is_some() {
+                some += 1;
+            } else {
+                none += 1;
+            }
+        }
+        assert!(
+            some > 300 && none > 300,
+            "both outcomes must occur: {some} / {none}"
+        );
     }
 }
