@@ -161,7 +161,12 @@ fn solve_all(p: &Problem, targets: &[f64], show: bool) -> Vec<(f64, optimize::De
             .progress_chars("=> "),
     );
     let settings = point_settings();
-    let workers = std::thread::available_parallelism().map_or(1, |n| n.get());
+    // Two targets at once hold two searches' tables: only where they are small.
+    let workers = if optimize::two_searches_fit(p, p.eligible.len()) {
+        std::thread::available_parallelism().map_or(1, |n| n.get())
+    } else {
+        1
+    };
     let outs = optimize::map_on_threads(targets, workers, |&t| {
         let out = optimize::design_for(p, t, &settings);
         pb.inc(1);

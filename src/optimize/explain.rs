@@ -40,12 +40,6 @@ pub const BISECT_TOLERANCE: f64 = 0.005;
 pub(crate) const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
-/// Bytes a search keeps per candidate and harmonic of the target figure
-/// (worst-corner admittance, its magnitude, the phase screen's terms).
-const SEARCH_BYTES: f64 = 40.0;
-/// Two bisection probes run at once only while one search's tables take at
-/// most this (two of them are held at once).
-const PAIR_BYTES: f64 = 150e6;
 
 /// The lowest ripple found, with how it was found.
 #[derive(Debug, Clone, Default, Serialize)]
@@ -277,12 +271,11 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
         // No greedy bank: start from a loose target.
         hi = f64::INFINITY;
     }
-    // Two probes at once hold two searches' tables: only where they are small.
-    let tables = cands.len() as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES;
-    // The schedule (pairs or single probes) depends on the input alone, so
+    // Two probes at once hold two searches' tables: only where they are
+    // small ([`super::two_searches_fit`]). The schedule (pairs or single probes) depends on the input alone, so
     // that the figure is the same on any machine; a pair runs on two
     // threads where there are two.
-    let pairs = tables <= PAIR_BYTES;
+    let pairs = super::two_searches_fit(problem, cands.len());
     let parallel = settings.thread_count() >= 2;
     let keep = |out: &mut Lowest, f: Option<super::Found>| -> bool {
         match f {
@@ -623,8 +616,7 @@ pub fn binding(problem: &Problem, target: f64) -> Binding {
     // One design per relaxed limit, independent of each other: two at once
     // where the machine has the cores and their tables are small, each
     // answer kept in the order of the limits.
-    let tables = problem.eligible.len() as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES;
-    let workers = if tables <= PAIR_BYTES {
+    let workers = if super::two_searches_fit(problem, problem.eligible.len()) {
         std::thread::available_parallelism()
             .map_or(1, |n| n.get())
             .min(2)

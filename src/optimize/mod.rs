@@ -161,6 +161,19 @@ pub struct Settings {
     pub threads: usize,
 }
 
+/// Bytes a search keeps per candidate and harmonic of the target figure
+/// (worst-corner admittance, its magnitude, the phase screen's terms).
+const SEARCH_BYTES: f64 = 40.0;
+/// Two searches run at once (bisection probes, relaxed designs, trade-off
+/// targets) only while one search's tables take at most this.
+const PAIR_BYTES: f64 = 150e6;
+
+/// Whether two searches over `parts` candidates of `problem` may run at
+/// once: their tables together stay small.
+pub(crate) fn two_searches_fit(problem: &Problem, parts: usize) -> bool {
+    parts as f64 * problem.search_harmonics() as f64 * SEARCH_BYTES <= PAIR_BYTES
+}
+
 /// `f` of every item on up to `workers` threads, each thread taking the
 /// next item left; the answers in the items' order (independent of the
 /// threads: `f` of one item does not see the others).

@@ -921,19 +921,9 @@ impl Search {
             let Some(mut next_ok) = self.phase_need(i, &cstack[d], need, hi as f64) else {
                 return;
             };
-            // The fixed parts' admittance, for the exact evaluation.
-            {
-                let n = self.harmonics;
-                let Search { ev, yb_base, .. } = self;
-                yb_base.fill(Complex64::default());
-                for (&j, &cj) in set[..d].iter().zip(counts.iter()) {
-                    let cj = cj as f64;
-                    let row = &ev.y_row(j)[..n];
-                    for (b, y) in yb_base.iter_mut().zip(row) {
-                        *b += y * cj;
-                    }
-                }
-            }
+            // The fixed parts' admittance, summed before the first exact
+            // evaluation (most leaves end on the objective before one).
+            let mut base_ready = false;
             for c in next_ok as u32..=hi {
                 if (c as f64) < next_ok {
                     continue;
@@ -956,6 +946,17 @@ impl Search {
                         yb_base,
                         ..
                     } = self;
+                    if !base_ready {
+                        yb_base.fill(Complex64::default());
+                        for (&j, &cj) in set[..d].iter().zip(counts.iter()) {
+                            let cj = cj as f64;
+                            let row = &ev.y_row(j)[..n];
+                            for (b, y) in yb_base.iter_mut().zip(row) {
+                                *b += y * cj;
+                            }
+                        }
+                        base_ready = true;
+                    }
                     let row = &ev.y_row(i)[..n];
                     for ((yb, s0), y) in yb_buf.iter_mut().zip(yb_base.iter()).zip(row) {
                         *yb = s0 + y * cf;
