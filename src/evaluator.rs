@@ -366,7 +366,7 @@ pub struct Evaluator {
     /// Per vin corner: the closed-form part of the target figure's waveform
     /// (on `plan_limited`'s grid) and of the full-bandwidth one (`plan_full`).
     closed_limited: Vec<Grid>,
-    closed_full: Vec<Grid>,
+    closed_full: Vec<Option<Grid>>,
     /// Operating points of the named corners (nominal inductance).
     pub ops_named: Vec<usize>,
     /// Operating points the region search starts from (and the optimizer's
@@ -659,10 +659,9 @@ impl Evaluator {
                 ))
             })
             .collect();
-        let closed_full: Vec<Grid> = ops
-            .iter()
-            .map(|op| Grid::new(timedomain::closed(&op.waveform, 0, 1.0, plan_full.m)))
-            .collect();
+        // Full-bandwidth grids are made when a full-bandwidth figure first
+        // asks for one ([`Evaluator::full_grid`]).
+        let closed_full: Vec<Option<Grid>> = ops.iter().map(|_| None).collect();
         let mut ev = Evaluator {
             parts: Vec::new(),
             f_ripple,
@@ -1018,6 +1017,9 @@ impl Evaluator {
     /// sides of every breakpoint.
     fn pp_from_buf(&mut self, n: usize, band: Band, c: usize) -> f64 {
         let full = band == Band::Full;
+        if full {
+            self.full_grid(c);
+        }
         let plan = if full {
             &self.plan_full
         } else {
@@ -1027,7 +1029,7 @@ impl Evaluator {
         debug_assert!(n < m / 2);
         let (a0, a1) = self.asym;
         let closed = if full {
-            &self.closed_full[c]
+            self.closed_full[c].as_ref().expect("made above")
         } else {
             &self.closed_limited[c]
         };
@@ -1289,8 +1291,14 @@ impl Evaluator {
         if !self.pp_from_buf(n, band, op).is_finite() {
             return Vec::new();
         }
+        if band == Band::Full {
+            self.full_grid(op);
+        }
         let (m, closed) = if band == Band::Full {
-            (self.plan_full.m, &self.closed_full[op].closed)
+            (
+                self.plan_full.m,
+                &self.closed_full[op].as_ref().expect("made above").closed,
+            )
         } else {
             (self.plan_limited.m, &self.closed_limited[op].closed)
         };
@@ -1386,18 +1394,40 @@ impl Evaluator {
             self.tau,
             self.plan_limited.m,
         )));
-        self.closed_full.push(Grid::new(timedomain::closed(
-            &op.waveform,
-            0,
-            1.0,
-            self.plan_full.m,
-        )));
+        self.closed_full.push(None);
         self.currents.push(cur);
         self.drive_n2
             .push(drive.iter().map(|x| x.norm_sqr()).collect());
         self.drive_limited.push(drive);
         self.ops.push(op.clone());
         self.ops.len() - 1
+    }
+
+    /// Make the full-bandwidth closed-form grid of operating point `op`
+    /// when it is not made yet.
+    fn full_grid(&mut self, op: usize) {
+        if self.closed_full[op].is_none() {
+            self.closed_full[op] = Some(Grid::new(timedomain::closed(
+                &self.ops[op].waveform,
+                0,
+                1.0,
+                self.plan_full.m,
+            )));
+        }
+    }
+
+    /// Forget the operating points added after the first `n` (those a
+    /// whole-region check made along the way), so that a long search that
+    /// checks many banks does not grow with them.
+    pub fn truncate_ops(&mut self, n: usize) {
+        let kept = self.ops_region.iter().chain(&self.ops_named);
+        let n = n.max(kept.map(|&c| c + 1).max().unwrap_or(0));
+        self.closed_limited.truncate(n);
+        self.closed_full.truncate(n);
+        self.currents.truncate(n);
+        self.drive_n2.truncate(n);
+        self.drive_limited.truncate(n);
+        self.ops.truncate(n);
     }
 
     /// Fill the transfer impedance (first `n` harmonics) and its asymptote

@@ -133,7 +133,9 @@ impl Limits {
 /// (the evaluator's admittances, `adm_mag`, `ph_b`) and copies the rest:
 /// the workers of [`solve_bounded`].
 #[derive(Clone)]
-pub(super) struct Search {
+pub(super) struct Search<'p> {
+    /// The problem searched (for the whole-region check of a new incumbent).
+    pub(super) problem: &'p Problem,
     pub(super) ev: Evaluator,
     /// Catalog index of each local part.
     pub(super) catalog_index: Vec<usize>,
@@ -207,6 +209,12 @@ pub(super) struct Search {
     pub(super) stopped: bool,
     /// Count-enumeration nodes not yet charged to `evals` (see [`NODES_PER_EVAL`]).
     pub(super) nodes: usize,
+    /// Check a bank over the whole corner region before it becomes the
+    /// incumbent ([`Search::region_accepts`]).
+    pub(super) verify_region: bool,
+    /// The cuts this search added to itself, in order (region points that
+    /// broke a would-be incumbent).
+    pub(super) cuts: Vec<super::Cut>,
 }
 
 /// Count-enumeration nodes (a partial sum over the harmonics, or the leaf's
@@ -305,8 +313,8 @@ pub(super) fn weights(obj: Objective, p: &PartModel) -> Key {
     }
 }
 
-impl Search {
-    pub(super) fn new(problem: &Problem, candidates: &[usize], target: f64) -> Search {
+impl<'p> Search<'p> {
+    pub(super) fn new(problem: &'p Problem, candidates: &[usize], target: f64) -> Search<'p> {
         let s = &problem.scenario;
         let ev = problem.search_evaluator(candidates);
         let parts = ev.parts.clone();
@@ -374,6 +382,9 @@ impl Search {
         let step =
             crate::transient::StepModel::new(s, &parts).map(|m| m.with_tail(ev.tail().to_vec()));
         Search {
+            problem,
+            verify_region: target.is_finite(),
+            cuts: Vec::new(),
             step,
             step_cuts: Vec::new(),
             step_buf: Vec::new(),
@@ -656,6 +667,45 @@ impl Search {
                 .is_none_or(|inc| better(&key, &inc.0))
             {
                 self.incumbent = Some((key, local, r));
+            }
+        }
+    }
+
+    /// Check every later candidate at `cut` too.
+    pub(super) fn add_cut(&mut self, cut: &super::Cut) {
+        match cut {
+            super::Cut::Ripple(op, st) => {
+                let idx = self.ev.add_op(op);
+                self.active.push(crate::region::Active {
+                    op: idx,
+                    states: st.clone(),
+                });
+            }
+            super::Cut::Step(st) => self.step_cuts.push(st.clone()),
+        }
+    }
+
+    /// Whether the bank in `bank_buf`, which passed the exact checks, may
+    /// become the incumbent: it holds over the whole corner region (with
+    /// `verify_region`). A bank that breaks the region adds the point where
+    /// it does as a cut (to `active` and to `cuts`), so the search goes on
+    /// against it instead of restarting: the incumbent is never a bank the
+    /// region refuses, so no line set is ever cut off by one.
+    pub(super) fn region_accepts(&mut self) -> bool {
+        if !self.verify_region {
+            return true;
+        }
+        let bank = std::mem::take(&mut self.bank_buf);
+        let ops = self.ev.ops.len();
+        let verdict = super::region_cut(self.problem, self, &bank, self.target);
+        self.ev.truncate_ops(ops);
+        self.bank_buf = bank;
+        match verdict {
+            Ok(_) => true,
+            Err(cut) => {
+                self.add_cut(&cut);
+                self.cuts.push(cut);
+                false
             }
         }
     }
@@ -969,9 +1019,14 @@ impl Search {
                         .as_ref()
                         .is_none_or(|inc| better(&key, &inc.0))
                     {
-                        self.incumbent = Some((key, self.bank_buf.clone(), r));
+                        if self.region_accepts() {
+                            self.incumbent = Some((key, self.bank_buf.clone(), r));
+                            break;
+                        }
+                        // Refused by the region: the next count may hold.
+                    } else {
+                        break;
                     }
-                    break;
                 }
                 if self.evals >= self.budget {
                     self.stopped = true;
@@ -1326,13 +1381,19 @@ fn solve_lane<'a>(s: &mut Search, sets: impl Iterator<Item = &'a (f64, Vec<usize
 }
 
 /// The rounds of [`solve_bounded`] over [`LANES`] copies of `s`.
-fn solve_rounds(
-    s: &mut Search,
+fn solve_rounds<'p>(
+    s: &mut Search<'p>,
     bounded: &[(f64, Vec<usize>)],
     pb: &ProgressBar,
     threads: usize,
 ) -> f64 {
-    let mut lanes: Vec<Search> = (0..LANES).map(|_| s.clone()).collect();
+    // A lane's `cuts` holds only the cuts it adds itself.
+    let lane = |s: &Search<'p>| {
+        let mut w = s.clone();
+        w.cuts.clear();
+        w
+    };
+    let mut lanes: Vec<Search> = (0..LANES).map(|_| lane(s)).collect();
     let mut open = f64::INFINITY;
     let mut next = 0;
     while next < bounded.len() {
@@ -1376,6 +1437,16 @@ fn solve_rounds(
                 opens[j] = solve_lane(w, round.iter().skip(j).step_by(LANES));
             }
         }
+        // The cuts the lanes added to themselves, in lane order, go to the
+        // search; the lanes start the next round from it with all of them.
+        let mut resync = false;
+        for w in lanes.iter_mut() {
+            for cut in w.cuts.drain(..) {
+                s.add_cut(&cut);
+                s.cuts.push(cut);
+                resync = true;
+            }
+        }
         for (w, &o) in lanes.iter().zip(&opens) {
             s.evals += w.evals;
             s.sets_solved += w.sets_solved;
@@ -1397,6 +1468,11 @@ fn solve_rounds(
         }
         next = end;
         pb.set_position(end as u64);
+        if resync {
+            for w in lanes.iter_mut() {
+                *w = lane(s);
+            }
+        }
     }
     open
 }
