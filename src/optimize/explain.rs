@@ -35,11 +35,15 @@ use serde::Serialize;
 use serde_json::{json, Value};
 
 /// The bisection stops when the upper end is within this fraction of the lower.
-pub const BISECT_TOLERANCE: f64 = 0.005;
+pub const BISECT_TOLERANCE: f64 = 0.0025;
 /// Exact evaluations per line-count stage of one bisection probe.
 pub(crate) const PROBE_EVALUATIONS: usize = 60_000;
 /// Most `design_for` probes of the bisection.
 pub const MAX_PROBES: usize = 14;
+/// How far below the upper end the first probes reach (the ratio of the
+/// upper end to the lower probe; the upper probe of a pair sits at its
+/// fourth root, a single probe at its square root).
+pub(crate) const FIRST_REACH: f64 = 1.04;
 
 /// The lowest ripple found, with how it was found.
 #[derive(Debug, Clone, Default, Serialize)]
@@ -245,7 +249,7 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
     let (greedy, floor) = if cands.is_empty() {
         (Some(Vec::new()), 0.0)
     } else {
-        greedy_and_floor(problem, &cands)
+        greedy_and_floor(problem, &cands, settings.thread_count() >= 2)
     };
     out.floor_pp = floor;
     if let Some(b) = greedy {
@@ -289,17 +293,30 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
             None => false,
         }
     };
+    // The greedy bank is usually within a few per cent of the lowest
+    // ripple and the harmonic floor far below it: the probes start just
+    // under the upper end and reach further down (×4 in the logarithm)
+    // while they keep finding banks; after the first probe that finds none
+    // they split the bracket.
+    let mut reach = FIRST_REACH;
+    let mut galloping = true;
     while out.probes < MAX_PROBES {
         if hi.is_finite() && hi <= lo * (1.0 + BISECT_TOLERANCE) {
             break;
         }
+        let gallop = galloping && hi.is_finite() && hi > lo * reach;
         if pairs && lo > 0.0 && hi.is_finite() && out.probes + 2 <= MAX_PROBES {
-            // Two probes at once, at the thirds of the bracket (geometric):
-            // the bracket shrinks to a third per round instead of a half.
-            let (t1, t2) = (
-                lo.powf(2.0 / 3.0) * hi.powf(1.0 / 3.0),
-                lo.powf(1.0 / 3.0) * hi.powf(2.0 / 3.0),
-            );
+            // Two probes at once: from the top, at hi/reach and
+            // hi/reach^¼, or at the thirds of the bracket (geometric), so
+            // that it shrinks to a third per round instead of a half.
+            let (t1, t2) = if gallop {
+                (hi / reach, hi / reach.powf(0.25))
+            } else {
+                (
+                    lo.powf(2.0 / 3.0) * hi.powf(1.0 / 3.0),
+                    lo.powf(1.0 / 3.0) * hi.powf(2.0 / 3.0),
+                )
+            };
             out.probes += 2;
             let (f1, f2) = if parallel {
                 std::thread::scope(|scope| {
@@ -316,15 +333,24 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
             let (ok1, ok2) = (keep(&mut out, f1), keep(&mut out, f2));
             if ok1 {
                 hi = out.ripple_pp;
+                if ok2 && gallop {
+                    reach = reach.powi(4);
+                } else {
+                    galloping = false;
+                }
             } else if ok2 {
                 lo = t1;
                 hi = out.ripple_pp;
+                galloping = false;
             } else {
                 lo = t2;
+                galloping = false;
             }
             continue;
         }
-        let t = if !hi.is_finite() {
+        let t = if gallop {
+            hi / reach.sqrt()
+        } else if !hi.is_finite() {
             if lo > 0.0 {
                 lo * 4.0
             } else {
@@ -338,8 +364,12 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
         out.probes += 1;
         if keep(&mut out, design_for(problem, t, &quiet).found) {
             hi = out.ripple_pp;
+            if gallop {
+                reach = reach.powi(4);
+            }
         } else {
             lo = t;
+            galloping = false;
         }
     }
     out.bracket_low = lo;
@@ -349,7 +379,11 @@ pub fn lowest_ripple(problem: &Problem, settings: &Settings) -> Lowest {
 
 /// The greedy descent's best bank (catalog indices) and the harmonic floor
 /// of any allowed bank.
-fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u32)>>, f64) {
+fn greedy_and_floor(
+    problem: &Problem,
+    cands: &[usize],
+    parallel: bool,
+) -> (Option<Vec<(usize, u32)>>, f64) {
     let mut s = Search::new(problem, cands, f64::INFINITY);
     let floor = floor_of(&s);
     let free = s.lim.max_lines.saturating_sub(s.required_parts.len());
@@ -406,19 +440,43 @@ fn greedy_and_floor(problem: &Problem, cands: &[usize]) -> (Option<Vec<(usize, u
         })
         .collect();
     floored.sort_by(|x, y| x.0.total_cmp(&y.0));
-    let mut best = f64::INFINITY;
-    let mut best_bank = None;
-    for (f, set) in floored.iter().take(MIN_RIPPLE_SETS) {
-        if *f >= best {
-            break;
-        }
-        if let Some((r, bank)) = descend(&mut s, set) {
-            if r < best {
-                best = r;
-                best_bank = Some(bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect());
+    // The descents in floor order, over `lanes` lanes (lane j takes sets
+    // j, j + lanes, …); a lane stops at the first set whose floor is not
+    // below its best. The lowest ripple over the lanes, the earliest set on
+    // a tie, is the one a single pass finds: a set left out has a floor,
+    // hence a ripple, no lower than a figure already found before it.
+    let top = &floored[..floored.len().min(MIN_RIPPLE_SETS)];
+    let lanes = if parallel && top.len() > 1 { 2 } else { 1 };
+    let lane = |s: &mut Search, j: usize| -> Option<(f64, usize, Vec<(usize, u32)>)> {
+        let mut best: Option<(f64, usize, Vec<(usize, u32)>)> = None;
+        for (idx, (f, set)) in top.iter().enumerate().skip(j).step_by(lanes) {
+            if best.as_ref().is_some_and(|b| *f >= b.0) {
+                break;
+            }
+            if let Some((r, bank)) = descend(s, set) {
+                if best.as_ref().is_none_or(|b| r < b.0) {
+                    best = Some((r, idx, bank));
+                }
             }
         }
-    }
+        best
+    };
+    let found: Vec<Option<(f64, usize, Vec<(usize, u32)>)>> = if lanes == 2 {
+        let mut other = s.clone();
+        std::thread::scope(|scope| {
+            let h = scope.spawn(|| lane(&mut other, 1));
+            let first = lane(&mut s, 0);
+            vec![first, h.join().expect("a descent does not panic")]
+        })
+    } else {
+        vec![lane(&mut s, 0)]
+    };
+    let best = found
+        .into_iter()
+        .flatten()
+        .min_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let best_bank =
+        best.map(|(_, _, bank)| bank.iter().map(|&(i, n)| (s.catalog_index[i], n)).collect());
     (best_bank, floor)
 }
 
