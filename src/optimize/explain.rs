@@ -15,16 +15,19 @@
 //!    admittance sum any allowed bank can have at each harmonic (every part
 //!    at its count limit, no more than `max_count` parts and `max_lines`
 //!    lines): no bank can go below it;
-//! 3. probes at the geometric middle of the bracket (while a search's tables
-//!    are small, two probes at its geometric thirds, on two threads where
-//!    the machine has two cores): a bank found
-//!    lowers the upper end to that bank's verified ripple, no bank raises the
-//!    lower end to the probe; stop when the bracket is within
-//!    [`BISECT_TOLERANCE`] or after [`MAX_PROBES`] probes.
+//! 3. probes, first just under the upper end (at 1/[`FIRST_REACH`] of it and
+//!    closer, reaching further down while they find banks), then, after the
+//!    first probe that finds none, at the geometric middle of the bracket
+//!    (while a search's tables are small, two probes at once, at its
+//!    geometric thirds, on two threads where the machine has two cores): a
+//!    bank found lowers the upper end to that bank's verified ripple, no
+//!    bank raises the lower end to the probe; stop when the bracket is
+//!    within [`BISECT_TOLERANCE`] or after [`MAX_PROBES`] probes.
 //!
-//! The figure reported is the verified ripple of the best bank found, so it
-//! is never above a target `design` meets with the same settings, and
-//! (bracket tolerance) at most 0.5 % below the lowest one it meets.
+//! The figure reported is the verified ripple of the best bank found, so
+//! `design` meets it as a target, and a probe [`BISECT_TOLERANCE`] or less
+//! below it found no bank. A probe that its budget stopped may have missed
+//! one, so the figure is not a proven minimum (the harmonic floor is).
 
 use super::search::{binomial_sum, line_sets, prune_dominated, Search};
 use super::{design_for, Settings};
