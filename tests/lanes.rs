@@ -91,6 +91,8 @@ fn one_thread_and_two_give_the_same_lowest_ripple() {
     let one = optimize::lowest_ripple(&p, &settings(1, 20_000));
     let two = optimize::lowest_ripple(&p, &settings(2, 20_000));
     assert!(one.ripple_pp.is_finite());
+    // The greedy descent runs in two lanes on two threads, in one on one.
+    assert_eq!(one.greedy_pp, two.greedy_pp);
     assert_eq!(one.ripple_pp, two.ripple_pp);
     assert_eq!(one.probes, two.probes);
     assert_eq!(one.bank, two.bank);

@@ -252,3 +252,49 @@ fn a_target_no_bank_meets_stops_on_the_budget() {
     );
     assert_eq!(b.limits, vec!["catalog".to_string()]);
 }
+
+#[test]
+fn a_best_bank_the_region_refuses_adds_its_cut_without_a_new_round() {
+    // The two-phase core scenario at 6.02 mV: the cheapest bank that passes
+    // the `low` corner and its box's vertices (a small ceramic beside
+    // thirteen bulk parts) breaks the target elsewhere in the corner region.
+    // Checking each would-be best bank over the whole region at once must
+    // give the answer of the search that ends its round and starts again
+    // with the new point, in one round and with less work. A fast path
+    // against its reference (a rule of this project, no outside source; the
+    // brute-force oracle in tests/oracle.rs checks the answers themselves).
+    let text = std::fs::read_to_string("scenarios/core-2phase.toml").unwrap();
+    let mut sc = Scenario::from_str(&text, "scenarios/core-2phase.toml").unwrap();
+    sc.target.ripple_pp.0 = 6.02047022558e-3;
+    let cat = Catalog::from_bytes(
+        &std::fs::read("catalogs/demo-parts.csv").unwrap(),
+        "catalogs/demo-parts.csv",
+    )
+    .unwrap();
+    let p = Problem::new(sc, cat).unwrap();
+    let fast = optimize::design(&p, &Settings::default());
+    let rounds = optimize::design(
+        &p,
+        &Settings {
+            region_each_best: false,
+            ..Default::default()
+        },
+    );
+    assert!(
+        rounds.stats.region_rounds >= 2,
+        "the case must make the region refuse a best bank: {:?}",
+        rounds.stats
+    );
+    assert_eq!(fast.status, Status::Optimal, "{:?}", fast.stats);
+    assert_eq!(rounds.status, Status::Optimal, "{:?}", rounds.stats);
+    let (f, r) = (fast.found.unwrap(), rounds.found.unwrap());
+    assert_eq!(f.bank, r.bank);
+    assert_eq!(f.key, r.key);
+    assert_eq!(fast.stats.region_rounds, 1, "{:?}", fast.stats);
+    assert!(
+        fast.stats.evaluations < rounds.stats.evaluations,
+        "{} evaluations against {}",
+        fast.stats.evaluations,
+        rounds.stats.evaluations
+    );
+}

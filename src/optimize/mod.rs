@@ -160,6 +160,12 @@ pub struct Settings {
     /// number of lanes whatever the threads (the mixed-integer proposals,
     /// which stop on `milp_seconds`, depend on the machine's speed).
     pub threads: usize,
+    /// Check a bank over the whole corner region before it becomes the
+    /// search's best so far (a refused bank adds its cut and the search
+    /// goes on). Off: only the bank a round ends with is checked, and a
+    /// refusal starts another round (the same answer, more work; kept to
+    /// test the one against the other).
+    pub region_each_best: bool,
 }
 
 /// Bytes a search keeps per candidate and harmonic of the target figure
@@ -231,6 +237,7 @@ impl Default for Settings {
             max_evaluations: 1_000_000,
             cutoff: None,
             threads: 0,
+            region_each_best: true,
         }
     }
 }
@@ -468,6 +475,7 @@ pub(crate) fn design_from(
         round += 1;
         let mut s = search_with(problem, &cands, target, &actives);
         s.budget = settings.max_evaluations;
+        s.verify_region &= settings.region_each_best;
         if let Some(c) = settings.cutoff {
             // A bound, not a bank: an empty bank of infinite ripple.
             s.incumbent = Some(([c, f64::INFINITY, f64::INFINITY], Vec::new(), f64::INFINITY));
