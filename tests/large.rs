@@ -211,15 +211,7 @@ fn a_target_no_bank_meets_stops_on_the_budget() {
     // stop on its budget, with the work charged (exact evaluations plus the
     // enumeration's nodes) within the stages' budgets. Source: the budget
     // rule of the search (a rule of this project, no outside source).
-    let text = std::fs::read_to_string("scenarios/core-2phase.toml").unwrap();
-    let mut sc = Scenario::from_str(&text, "scenarios/core-2phase.toml").unwrap();
-    sc.target.ripple_pp.0 = 1.0e-3;
-    let cat = Catalog::from_bytes(
-        &std::fs::read("catalogs/demo-parts.csv").unwrap(),
-        "catalogs/demo-parts.csv",
-    )
-    .unwrap();
-    let p = Problem::new(sc, cat).unwrap();
+    let p = core_2phase(1.0e-3);
     let budget = 20_000;
     let settings = Settings {
         max_evaluations: budget,
@@ -263,15 +255,7 @@ fn a_best_bank_the_region_refuses_adds_its_cut_without_a_new_round() {
     // with the new point, in one round and with less work. A fast path
     // against its reference (a rule of this project, no outside source; the
     // brute-force oracle in tests/oracle.rs checks the answers themselves).
-    let text = std::fs::read_to_string("scenarios/core-2phase.toml").unwrap();
-    let mut sc = Scenario::from_str(&text, "scenarios/core-2phase.toml").unwrap();
-    sc.target.ripple_pp.0 = 6.02047022558e-3;
-    let cat = Catalog::from_bytes(
-        &std::fs::read("catalogs/demo-parts.csv").unwrap(),
-        "catalogs/demo-parts.csv",
-    )
-    .unwrap();
-    let p = Problem::new(sc, cat).unwrap();
+    let p = core_2phase(6.02047022558e-3);
     let fast = optimize::design(&p, &Settings::default());
     let rounds = optimize::design(
         &p,
@@ -297,4 +281,17 @@ fn a_best_bank_the_region_refuses_adds_its_cut_without_a_new_round() {
         fast.stats.evaluations,
         rounds.stats.evaluations
     );
+}
+
+/// The bundled two-phase core scenario and demo catalog at `target` (V).
+fn core_2phase(target: f64) -> Problem {
+    let text = std::fs::read_to_string("scenarios/core-2phase.toml").unwrap();
+    let mut sc = Scenario::from_str(&text, "scenarios/core-2phase.toml").unwrap();
+    sc.target.ripple_pp.0 = target;
+    let cat = Catalog::from_bytes(
+        &std::fs::read("catalogs/demo-parts.csv").unwrap(),
+        "catalogs/demo-parts.csv",
+    )
+    .unwrap();
+    Problem::new(sc, cat).unwrap()
 }
