@@ -450,8 +450,10 @@ fn greedy_and_floor(
     // hence a ripple, no lower than a figure already found before it.
     let top = &floored[..floored.len().min(MIN_RIPPLE_SETS)];
     let lanes = if parallel && top.len() > 1 { 2 } else { 1 };
-    let lane = |s: &mut Search, j: usize| -> Option<(f64, usize, Vec<(usize, u32)>)> {
-        let mut best: Option<(f64, usize, Vec<(usize, u32)>)> = None;
+    // A lane's best: its ripple, the set's place in floor order, the bank.
+    type Descent = (f64, usize, Vec<(usize, u32)>);
+    let lane = |s: &mut Search, j: usize| -> Option<Descent> {
+        let mut best: Option<Descent> = None;
         for (idx, (f, set)) in top.iter().enumerate().skip(j).step_by(lanes) {
             if best.as_ref().is_some_and(|b| *f >= b.0) {
                 break;
@@ -464,7 +466,7 @@ fn greedy_and_floor(
         }
         best
     };
-    let found: Vec<Option<(f64, usize, Vec<(usize, u32)>)>> = if lanes == 2 {
+    let found: Vec<Option<Descent>> = if lanes == 2 {
         let mut other = s.clone();
         std::thread::scope(|scope| {
             let h = scope.spawn(|| lane(&mut other, 1));

@@ -703,11 +703,16 @@ impl<'p> Search<'p> {
         match verdict {
             Ok(_) => true,
             Err(cut) => {
-                self.add_cut(&cut);
-                self.cuts.push(cut);
+                self.keep_cut(cut);
                 false
             }
         }
+    }
+
+    /// [`Search::add_cut`], recorded in `cuts` as one this search found.
+    pub(super) fn keep_cut(&mut self, cut: super::Cut) {
+        self.add_cut(&cut);
+        self.cuts.push(cut);
     }
 
     pub(super) fn inc_primary(&self) -> f64 {
@@ -1442,8 +1447,7 @@ fn solve_rounds<'p>(
         let mut resync = false;
         for w in lanes.iter_mut() {
             for cut in w.cuts.drain(..) {
-                s.add_cut(&cut);
-                s.cuts.push(cut);
+                s.keep_cut(cut);
                 resync = true;
             }
         }
